@@ -1,0 +1,40 @@
+# Two commands do all the set-up: `make run` and `make test`.
+PYTHON ?= python3
+VENV := .venv
+BIN := $(VENV)/bin
+PIP_FLAGS := --quiet --disable-pip-version-check
+
+.PHONY: run test test-fast lint migrate demo clean
+
+$(BIN)/python:
+	$(PYTHON) -m venv $(VENV)
+
+$(VENV)/.installed-run: pyproject.toml | $(BIN)/python
+	$(BIN)/pip install $(PIP_FLAGS) -e .
+	touch $@
+
+$(VENV)/.installed-test: pyproject.toml | $(BIN)/python
+	$(BIN)/pip install $(PIP_FLAGS) -e '.[test]'
+	touch $@ $(VENV)/.installed-run
+
+## run: install, migrate, load the invented demo study into an empty database, serve on 127.0.0.1:8000
+run: $(VENV)/.installed-run
+	$(BIN)/tallyroom migrate
+	$(BIN)/tallyroom load-demo
+	$(BIN)/tallyroom serve
+
+## test: install with the test extra and run every test layer
+test: $(VENV)/.installed-test
+	$(BIN)/ruff check app tests migrations
+	$(BIN)/mypy
+	$(BIN)/pytest
+
+## test-fast: the pure likelihood layer only, without the heavy plugins
+test-fast: $(VENV)/.installed-test
+	PYTEST_DISABLE_PLUGIN_AUTOLOAD=1 $(BIN)/pytest -p hypothesis tests/likelihood
+
+lint: $(VENV)/.installed-test
+	$(BIN)/ruff check app tests migrations
+
+clean:
+	rm -rf $(VENV) data test-artifacts

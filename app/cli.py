@@ -1,0 +1,80 @@
+"""The `tallyroom` command: set up the database, load the demo, serve, export, import."""
+
+import argparse
+import sys
+from collections.abc import Callable, Sequence
+
+from alembic import command
+from alembic.config import Config
+from sqlmodel import Session
+
+from app.db.session import get_db_engine
+from app.settings import PROJECT_ROOT, get_settings
+
+COMMANDS: dict[str, Callable[[argparse.Namespace], int]] = {}
+
+
+def alembic_config() -> Config:
+    """Alembic configured from pyproject.toml's [tool.alembic]."""
+    return Config(toml_file=str(PROJECT_ROOT / "pyproject.toml"))
+
+
+def upgrade_database() -> None:
+    """Bring the configured database to the newest migration."""
+    command.upgrade(alembic_config(), "head")
+
+
+def cmd_migrate(_args: argparse.Namespace) -> int:
+    """Run `alembic upgrade head` on the configured database."""
+    upgrade_database()
+    print("database is at the newest migration")
+    return 0
+
+
+def cmd_load_demo(_args: argparse.Namespace) -> int:
+    """Load the invented demo study when the database has no studies."""
+    from app.demo import load_demo_if_empty
+
+    with Session(get_db_engine()) as session:
+        study = load_demo_if_empty(session)
+    message = f"loaded demo study '{study.title}'" if study else "database has studies; demo kept"
+    print(message)
+    return 0
+
+
+def cmd_serve(args: argparse.Namespace) -> int:
+    """Serve the app with uvicorn."""
+    import uvicorn
+
+    settings = get_settings()
+    print(f"Tallyroom is serving on http://{settings.host}:{settings.port}", flush=True)
+    uvicorn.run("app.main:create_app", factory=True, host=settings.host, port=settings.port,
+                log_level="warning")
+    return 0
+
+
+def build_parser() -> argparse.ArgumentParser:
+    """The argument parser for every sub-command."""
+    parser = argparse.ArgumentParser(prog="tallyroom", description=__doc__)
+    sub = parser.add_subparsers(dest="command", required=True)
+    sub.add_parser("migrate", help="upgrade the database to the newest migration")
+    sub.add_parser("load-demo", help="load the invented demo study into an empty database")
+    sub.add_parser("serve", help="serve on the configured host and port")
+    for extend in PARSER_EXTENSIONS:
+        extend(sub)
+    return parser
+
+
+# Other modules add sub-commands here (for example export and import).
+PARSER_EXTENSIONS: list[Callable[[argparse._SubParsersAction], None]] = []  # type: ignore[type-arg]
+COMMANDS.update({"migrate": cmd_migrate, "load-demo": cmd_load_demo, "serve": cmd_serve})
+
+
+def main(argv: Sequence[str] | None = None) -> int:
+    """Entry point of the `tallyroom` command."""
+    args = build_parser().parse_args(argv)
+    return COMMANDS[args.command](args)
+
+
+if __name__ == "__main__":
+    sys.exit(main())

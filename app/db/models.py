@@ -1,0 +1,284 @@
+"""All table models: one family per table, every editable row versioned and timestamped."""
+
+from datetime import UTC, date, datetime
+from enum import StrEnum
+
+from sqlalchemy import Column, Index, MetaData, Text, text
+from sqlmodel import AutoString, Field, SQLModel
+
+# Constraint names are fixed so Alembic migrations are stable on SQLite and PostgreSQL alike.
+SQLModel.metadata = MetaData(
+    naming_convention={
+        "ix": "ix_%(column_0_label)s",
+        "uq": "uq_%(table_name)s_%(column_0_name)s",
+        "ck": "ck_%(table_name)s_%(constraint_name)s",
+        "fk": "fk_%(table_name)s_%(column_0_name)s_%(referred_table_name)s",
+        "pk": "pk_%(table_name)s",
+    }
+)
+
+
+def utc_now() -> datetime:
+    """Timezone-aware UTC timestamp (the type SQLModel stores on every database)."""
+    return datetime.now(UTC)
+
+
+class StepKindValue(StrEnum):
+    """Stored step kinds; the same strings as app.likelihood.StepKind."""
+
+    INITIATING_EVENT = "initiating_event"
+    ENABLING_CONDITION = "enabling_condition"
+    CONDITIONAL_MODIFIER = "conditional_modifier"
+    IPL = "ipl"
+
+
+class Receptor(StrEnum):
+    """Who or what a severity category is about."""
+
+    PEOPLE = "people"
+    ENVIRONMENT = "environment"
+    ASSET = "asset"
+
+
+class ActionStatus(StrEnum):
+    """Where a recommendation stands."""
+
+    OPEN = "open"
+    IN_PROGRESS = "in_progress"
+    DONE = "done"
+    REJECTED = "rejected"
+
+
+class TrackedRow(SQLModel):
+    """Columns every editable row carries: a version for conflict detection and timestamps."""
+
+    version: int = Field(default=1, nullable=False)
+    created_at: datetime = Field(default_factory=utc_now, nullable=False)
+    updated_at: datetime = Field(default_factory=utc_now, nullable=False)
+
+
+def _study_fk() -> int:
+    return Field(foreign_key="study.id", ondelete="CASCADE", index=True)
+
+
+class StudyBase(SQLModel):
+    title: str = Field(min_length=1, max_length=200)
+    facility: str = Field(default="", max_length=200)
+    scope: str = Field(default="", sa_column_kwargs={"default": ""}, max_length=5000)
+    revision_label: str = Field(default="Draft", max_length=60)
+    frequency_unit: str = Field(default="per year", max_length=20)
+    criteria_basis: str = Field(
+        default="Example criteria, invented: replace with your company's own risk criteria.",
+        max_length=500,
+    )
+
+
+class Study(StudyBase, TrackedRow, table=True):
+    id: int | None = Field(default=None, primary_key=True)
+    # Which scenario the scribe is on; shown by the room view. Not part of the record.
+    focus_scenario_id: int | None = Field(default=None)
+    focus_changed_at: datetime | None = Field(default=None)
+
+
+class SeverityCategoryBase(SQLModel):
+    name: str = Field(min_length=1, max_length=80)
+    description: str = Field(default="", max_length=1000)
+    tolerable_frequency: float = Field(gt=0)
+    receptor: Receptor = Field(default=Receptor.PEOPLE, sa_type=AutoString(length=20))
+    position: int = 0
+
+
+class SeverityCategory(SeverityCategoryBase, TrackedRow, table=True):
+    __tablename__ = "severity_category"
+    id: int | None = Field(default=None, primary_key=True)
+    study_id: int = _study_fk()
+
+
+class NodeBase(SQLModel):
+    number: str = Field(max_length=20)
+    name: str = Field(min_length=1, max_length=200)
+    design_intent: str = Field(default="", max_length=2000)
+    drawing_reference: str = Field(default="", max_length=200)
+    position: int = 0
+
+
+class Node(NodeBase, TrackedRow, table=True):
+    id: int | None = Field(default=None, primary_key=True)
+    study_id: int = _study_fk()
+
+
+class DeviationBase(SQLModel):
+    guideword: str = Field(max_length=40)
+    parameter: str = Field(max_length=60)
+    description: str = Field(default="", max_length=2000)
+    position: int = 0
+
+
+class Deviation(DeviationBase, TrackedRow, table=True):
+    id: int | None = Field(default=None, primary_key=True)
+    study_id: int = _study_fk()
+    node_id: int = Field(foreign_key="node.id", ondelete="CASCADE", index=True)
+
+
+class ScenarioBase(SQLModel):
+    cause: str = Field(default="", max_length=2000)
+    consequence: str = Field(default="", max_length=2000)
+    notes: str = Field(default="", max_length=5000)
+    position: int = 0
+
+
+class Scenario(ScenarioBase, TrackedRow, table=True):
+    id: int | None = Field(default=None, primary_key=True)
+    study_id: int = _study_fk()
+    deviation_id: int = Field(foreign_key="deviation.id", ondelete="CASCADE", index=True)
+    severity_category_id: int = Field(foreign_key="severity_category.id", ondelete="RESTRICT")
+    environment_category_id: int | None = Field(
+        default=None, foreign_key="severity_category.id", ondelete="SET NULL"
+    )
+    asset_category_id: int | None = Field(
+        default=None, foreign_key="severity_category.id", ondelete="SET NULL"
+    )
+
+
+class StepBase(SQLModel):
+    kind: StepKindValue = Field(sa_type=AutoString(length=30))  # plain text, not a DB enum
+    description: str = Field(default="", max_length=1000)
+    value: float = Field(gt=0)
+    # The scribe's own words for the last valid value, e.g. "1 in 100" or "3 in 30 years".
+    value_text: str = Field(default="", max_length=100)
+    basis: str = Field(default="", max_length=2000)
+    credited: bool = True
+    ipl_type: str | None = Field(default=None, max_length=30)
+    # The device or system this step is about: the cause's system for an initiating event,
+    # the layer's system for an IPL. Used by the independence checks.
+    system_tag: str = Field(default="", max_length=80)
+    response_time_minutes: float | None = Field(default=None, ge=0)
+    sil_claimed: int | None = Field(default=None, ge=1, le=4)
+    typical_key: str | None = Field(default=None, max_length=60)
+    # Proof-test calculator inputs (JSON) when the PFD was taken from the calculator.
+    proof_test: str | None = Field(default=None, sa_column=Column(Text, nullable=True))
+    position: int = 0
+
+
+class Step(StepBase, TrackedRow, table=True):
+    __table_args__ = (
+        Index(
+            "uq_step_one_initiating_event",
+            "scenario_id",
+            unique=True,
+            sqlite_where=text("kind = 'initiating_event'"),
+            postgresql_where=text("kind = 'initiating_event'"),
+        ),
+    )
+    id: int | None = Field(default=None, primary_key=True)
+    study_id: int = _study_fk()
+    scenario_id: int = Field(foreign_key="scenario.id", ondelete="CASCADE", index=True)
+
+
+class SafeguardBase(SQLModel):
+    description: str = Field(min_length=1, max_length=1000)
+    note: str = Field(default="", max_length=1000)
+    position: int = 0
+
+
+class Safeguard(SafeguardBase, TrackedRow, table=True):
+    id: int | None = Field(default=None, primary_key=True)
+    study_id: int = _study_fk()
+    scenario_id: int = Field(foreign_key="scenario.id", ondelete="CASCADE", index=True)
+
+
+class RecommendationBase(SQLModel):
+    text: str = Field(min_length=1, max_length=2000)
+    owner: str = Field(default="", max_length=120)
+    due_date: date | None = None
+    status: ActionStatus = Field(default=ActionStatus.OPEN, sa_type=AutoString(length=20))
+    status_reason: str = Field(default="", max_length=1000)
+    expected_rrf: float | None = Field(default=None, gt=0)
+    position: int = 0
+
+
+class Recommendation(RecommendationBase, TrackedRow, table=True):
+    id: int | None = Field(default=None, primary_key=True)
+    study_id: int = _study_fk()
+
+
+class RecommendationScenario(SQLModel, table=True):
+    __tablename__ = "recommendation_scenario"
+    recommendation_id: int = Field(
+        foreign_key="recommendation.id", ondelete="CASCADE", primary_key=True
+    )
+    scenario_id: int = Field(foreign_key="scenario.id", ondelete="CASCADE", primary_key=True)
+
+
+class ParticipantBase(SQLModel):
+    name: str = Field(min_length=1, max_length=120)
+    role: str = Field(default="", max_length=80)
+    discipline: str = Field(default="", max_length=80)
+    company: str = Field(default="", max_length=120)
+
+
+class Participant(ParticipantBase, TrackedRow, table=True):
+    id: int | None = Field(default=None, primary_key=True)
+    study_id: int = _study_fk()
+
+
+class SessionDayBase(SQLModel):
+    day: date
+    note: str = Field(default="", max_length=500)
+
+
+class SessionDay(SessionDayBase, TrackedRow, table=True):
+    __tablename__ = "session_day"
+    id: int | None = Field(default=None, primary_key=True)
+    study_id: int = _study_fk()
+
+
+class Attendance(SQLModel, table=True):
+    session_day_id: int = Field(foreign_key="session_day.id", ondelete="CASCADE", primary_key=True)
+    participant_id: int = Field(foreign_key="participant.id", ondelete="CASCADE", primary_key=True)
+
+
+class ChangeLogEntry(SQLModel, table=True):
+    """One recorded create, edit or delete of study content."""
+
+    __tablename__ = "change_log_entry"
+    id: int | None = Field(default=None, primary_key=True)
+    study_id: int = _study_fk()
+    at: datetime = Field(default_factory=utc_now, index=True)
+    author: str = Field(default="", max_length=120)
+    action: str = Field(max_length=10)
+    entity: str = Field(max_length=40)
+    entity_id: int | None = None
+    # No foreign key: the entry outlives a deleted scenario.
+    scenario_id: int | None = Field(default=None, index=True)
+    field: str = Field(default="", max_length=60)
+    old_value: str | None = Field(default=None, sa_column=Column(Text, nullable=True))
+    new_value: str | None = Field(default=None, sa_column=Column(Text, nullable=True))
+    summary: str = Field(default="", max_length=500)
+
+
+class Revision(SQLModel, table=True):
+    """A frozen, read-only snapshot of a study."""
+
+    id: int | None = Field(default=None, primary_key=True)
+    study_id: int = _study_fk()
+    label: str = Field(min_length=1, max_length=60)
+    note: str = Field(default="", max_length=2000)
+    frozen_at: datetime = Field(default_factory=utc_now)
+    frozen_by: str = Field(default="", max_length=120)
+    signed_off_by: str = Field(default="", max_length=120)
+    signed_off_at: datetime | None = None
+    snapshot: str = Field(sa_column=Column(Text, nullable=False))
+
+
+class DeletedItem(SQLModel, table=True):
+    """What a delete removed, kept so the last delete can be undone."""
+
+    __tablename__ = "deleted_item"
+    id: int | None = Field(default=None, primary_key=True)
+    study_id: int = _study_fk()
+    deleted_at: datetime = Field(default_factory=utc_now)
+    author: str = Field(default="", max_length=120)
+    entity: str = Field(max_length=40)
+    label: str = Field(default="", max_length=300)
+    payload: str = Field(sa_column=Column(Text, nullable=False))

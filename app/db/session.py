@@ -1,0 +1,49 @@
+"""The one place that creates the database engine and configures its connections."""
+
+from collections.abc import Iterator
+from functools import lru_cache
+from pathlib import Path
+from typing import Any
+
+from sqlalchemy import Engine, event
+from sqlalchemy.engine import make_url
+from sqlalchemy.pool import StaticPool
+from sqlmodel import Session, create_engine
+
+from app.settings import get_settings
+
+
+def _set_sqlite_pragmas(dbapi_connection: Any, _record: Any) -> None:
+    # SQLite leaves foreign keys off by default; cascades and integrity rely on them.
+    cursor = dbapi_connection.cursor()
+    cursor.execute("PRAGMA foreign_keys=ON")
+    cursor.execute("PRAGMA journal_mode=WAL")
+    cursor.execute("PRAGMA busy_timeout=5000")
+    cursor.close()
+
+
+def build_db_engine(url: str) -> Engine:
+    """Create an engine for `url`; dialect-specific settings live only here."""
+    parsed = make_url(url)
+    if parsed.get_backend_name() != "sqlite":
+        return create_engine(url, pool_pre_ping=True)
+    kwargs: dict[str, Any] = {"connect_args": {"check_same_thread": False}}
+    if parsed.database in (None, "", ":memory:"):
+        kwargs["poolclass"] = StaticPool
+    elif parsed.database:
+        Path(parsed.database).parent.mkdir(parents=True, exist_ok=True)
+    db_engine = create_engine(url, **kwargs)
+    event.listen(db_engine, "connect", _set_sqlite_pragmas)
+    return db_engine
+
+
+@lru_cache
+def get_db_engine() -> Engine:
+    """The process-wide engine for the configured database URL."""
+    return build_db_engine(get_settings().database_url)
+
+
+def get_session() -> Iterator[Session]:
+    """One session per request."""
+    with Session(get_db_engine()) as session:
+        yield session

@@ -1,0 +1,174 @@
+"""Version counters and the change log, kept by session events so no write path can skip them."""
+
+from datetime import timedelta
+from typing import Any
+
+from sqlalchemy import event, insert, inspect, select, update
+from sqlalchemy.orm import Session as OrmSession
+from sqlalchemy.orm import UOWTransaction
+
+from app.db.models import (
+    ChangeLogEntry,
+    Deviation,
+    Node,
+    Participant,
+    Recommendation,
+    Safeguard,
+    Scenario,
+    SessionDay,
+    SeverityCategory,
+    Step,
+    Study,
+    TrackedRow,
+    utc_now,
+)
+
+LOGGED_TYPES: dict[type, str] = {
+    Study: "study",
+    SeverityCategory: "severity category",
+    Node: "node",
+    Deviation: "deviation",
+    Scenario: "scenario",
+    Step: "step",
+    Safeguard: "safeguard",
+    Recommendation: "recommendation",
+    Participant: "participant",
+    SessionDay: "session date",
+}
+UNLOGGED_FIELDS = {"version", "created_at", "updated_at", "focus_scenario_id", "focus_changed_at"}
+# Keystrokes of one person on one field within this window read as one edit in the log.
+COALESCE_WINDOW = timedelta(seconds=60)
+
+AUTHOR_KEY = "author"
+SUPPRESS_LOG_KEY = "suppress_change_log"
+
+
+def describe(row: Any) -> str:
+    """A short human label for a logged row."""
+    for attribute in ("title", "name", "description", "cause", "text"):
+        value = getattr(row, attribute, None)
+        if value:
+            return f"{LOGGED_TYPES.get(type(row), 'row')} '{str(value)[:80]}'"
+    return f"{LOGGED_TYPES.get(type(row), 'row')} #{getattr(row, 'id', '?')}"
+
+
+def _text(value: Any) -> str | None:
+    if value is None:
+        return None
+    return value.value if hasattr(value, "value") and not isinstance(value, str) else str(value)
+
+
+def _scenario_of(row: Any) -> int | None:
+    if isinstance(row, Scenario):
+        return row.id
+    return getattr(row, "scenario_id", None)
+
+
+def _study_of(row: Any) -> int | None:
+    return row.id if isinstance(row, Study) else getattr(row, "study_id", None)
+
+
+def _bump_versions(session: OrmSession, _flush: UOWTransaction, _instances: Any) -> None:
+    now = utc_now()
+    for row in session.dirty:
+        if isinstance(row, TrackedRow) and _has_tracked_change(row):
+            row.version = (row.version or 0) + 1
+            row.updated_at = now
+
+
+def _has_tracked_change(row: Any) -> bool:
+    state = inspect(row)
+    return any(
+        attr.history.has_changes() for attr in state.attrs if attr.key not in UNLOGGED_FIELDS
+    )
+
+
+def _entry(session: OrmSession, row: Any, action: str, **values: Any) -> dict[str, Any]:
+    return {
+        "study_id": _study_of(row),
+        "at": utc_now(),
+        "author": session.info.get(AUTHOR_KEY, ""),
+        "action": action,
+        "entity": LOGGED_TYPES[type(row)],
+        "entity_id": row.id,
+        "scenario_id": _scenario_of(row),
+        "summary": describe(row),
+        **values,
+    }
+
+
+def _edit_entries(session: OrmSession, row: Any) -> list[dict[str, Any]]:
+    entries = []
+    for attr in inspect(row).attrs:
+        if attr.key in UNLOGGED_FIELDS or not attr.history.has_changes():
+            continue
+        old = attr.history.deleted[0] if attr.history.deleted else None
+        new = attr.history.added[0] if attr.history.added else None
+        if _text(old) != _text(new):
+            entries.append(
+                _entry(session, row, "edit", field=attr.key, old_value=_text(old),
+                       new_value=_text(new))
+            )
+    return entries
+
+
+def _coalesce(session: OrmSession, entry: dict[str, Any]) -> bool:
+    """Fold a keystroke-level edit into the same person's edit of that field a moment ago."""
+    table = ChangeLogEntry.__table__  # type: ignore[attr-defined]
+    latest = session.connection().execute(
+        select(table.c.id, table.c.author, table.c.at, table.c.field, table.c.action)
+        .where(table.c.entity == entry["entity"], table.c.entity_id == entry["entity_id"])
+        .order_by(table.c.id.desc())
+        .limit(1)
+    ).first()
+    if latest is None or latest.action != "edit" or latest.field != entry["field"]:
+        return False
+    if latest.author != entry["author"] or entry["at"] - latest.at > COALESCE_WINDOW:
+        return False
+    session.connection().execute(
+        update(table)
+        .where(table.c.id == latest.id)
+        .values(new_value=entry["new_value"], at=entry["at"])
+    )
+    return True
+
+
+def _record_changes(session: OrmSession, _flush: UOWTransaction) -> None:
+    if session.info.get(SUPPRESS_LOG_KEY):
+        return
+    entries: list[dict[str, Any]] = []
+    for row in session.new:
+        if type(row) in LOGGED_TYPES:
+            entries.append(_entry(session, row, "create"))
+    for row in session.dirty:
+        if type(row) in LOGGED_TYPES and session.is_modified(row):
+            entries.extend(e for e in _edit_entries(session, row) if not _coalesce(session, e))
+    for row in session.deleted:
+        if type(row) in LOGGED_TYPES and not isinstance(row, Study):
+            entries.append(_entry(session, row, "delete"))
+    entries = [e for e in entries if e["study_id"] is not None]
+    if entries:
+        session.connection().execute(insert(ChangeLogEntry.__table__), entries)  # type: ignore[attr-defined]
+
+
+def _keep_old_value(_target: Any, value: Any, _old: Any, _initiator: Any) -> Any:
+    return value
+
+
+def _load_old_values_on_set() -> None:
+    # An expired attribute set without being read would lose its old value; an active-history
+    # listener makes SQLAlchemy load it first, so the log always has "old -> new".
+    for model in LOGGED_TYPES:
+        for column in model.__table__.columns:  # type: ignore[attr-defined]
+            if column.key not in UNLOGGED_FIELDS:
+                attribute = getattr(model, column.key)
+                event.listen(attribute, "set", _keep_old_value, active_history=True,
+                             retval=True)
+
+
+def install_tracking() -> None:
+    """Attach the version and change-log listeners to every ORM session (idempotent)."""
+    if not event.contains(OrmSession, "before_flush", _bump_versions):
+        event.listen(OrmSession, "before_flush", _bump_versions)
+        event.listen(OrmSession, "after_flush", _record_changes)
+        _load_old_values_on_set()

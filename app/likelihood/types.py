@@ -1,0 +1,129 @@
+"""Value types shared by the likelihood modules, and the one input error they raise."""
+
+from __future__ import annotations
+
+from dataclasses import dataclass
+from enum import StrEnum
+
+
+class StepKind(StrEnum):
+    """The four kinds of factor in a LOPA scenario."""
+
+    INITIATING_EVENT = "initiating_event"
+    ENABLING_CONDITION = "enabling_condition"
+    CONDITIONAL_MODIFIER = "conditional_modifier"
+    IPL = "ipl"
+
+
+STEP_KIND_LABELS: dict[StepKind, str] = {
+    StepKind.INITIATING_EVENT: "Initiating event",
+    StepKind.ENABLING_CONDITION: "Enabling condition",
+    StepKind.CONDITIONAL_MODIFIER: "Conditional modifier",
+    StepKind.IPL: "Independent protection layer",
+}
+
+
+class IplType(StrEnum):
+    """What kind of protection layer an IPL is; the checks treat some kinds specially."""
+
+    BPCS = "bpcs"
+    SIF = "sif"
+    OPERATOR_RESPONSE = "operator_response"
+    RELIEF_DEVICE = "relief_device"
+    PASSIVE = "passive"
+    OTHER = "other"
+
+
+class LikelihoodInputError(ValueError):
+    """Bad input: `rule` names the broken rule, `step` the step or field, `message` says it."""
+
+    def __init__(self, rule: str, step: str, message: str) -> None:
+        super().__init__(message)
+        self.rule = rule
+        self.step = step
+        self.message = message
+
+
+def describe_step(kind: StepKind | None, label: str) -> str:
+    """Name a step for a message: "Enabling condition 'Tank filling'", or what is known of it."""
+    if kind is not None and label:
+        return f"{STEP_KIND_LABELS[kind]} '{label}'"
+    if kind is not None:
+        return STEP_KIND_LABELS[kind]
+    return label
+
+
+def input_error(
+    rule: str, sentence: str, *, label: str = "", kind: StepKind | None = None
+) -> LikelihoodInputError:
+    """Build a LikelihoodInputError whose message starts with the step it is about."""
+    subject = describe_step(kind, label)
+    message = f"{subject}: {sentence}" if subject else sentence[:1].upper() + sentence[1:]
+    return LikelihoodInputError(rule, label, message)
+
+
+@dataclass(frozen=True)
+class StepInput:
+    """One factor of a scenario: frequency per year for the initiating event, else a probability."""
+
+    kind: StepKind
+    value: float
+    label: str = ""
+    credited: bool = True
+
+
+@dataclass(frozen=True)
+class LadderPoint:
+    """One rung of the frequency ladder: the factor applied and the running frequency after it."""
+
+    label: str
+    kind: StepKind
+    factor: float
+    frequency_after: float
+
+
+class SilStatus(StrEnum):
+    """What the gap between mitigated and tolerable frequency asks of an added function."""
+
+    NONE_NEEDED = "none_needed"
+    BELOW_SIL1 = "below_sil1"
+    SIL = "sil"
+    BEYOND_ONE_FUNCTION = "beyond_one_function"
+
+
+class DemandMode(StrEnum):
+    """Low demand (at most one demand a year) or high demand / continuous."""
+
+    LOW = "low"
+    HIGH = "high"
+
+
+@dataclass(frozen=True)
+class SilTarget:
+    """The SIL band an added function would need, with the numbers behind it."""
+
+    status: SilStatus
+    sil: int | None
+    demand_mode: DemandMode
+    required_rrf: float
+    required_pfd: float | None
+    required_pfh: float | None
+    label: str
+
+
+@dataclass(frozen=True)
+class ScenarioResult:
+    """Everything computed for one scenario: products, gap, SIL target and the ladder."""
+
+    initiating_frequency: float
+    enabling_product: float
+    modifier_product: float
+    ipl_product: float
+    mitigated_frequency: float
+    tolerable_frequency: float
+    ratio: float
+    gap_orders: float
+    required_rrf: float
+    meets_target: bool
+    sil_target: SilTarget
+    ladder: tuple[LadderPoint, ...]

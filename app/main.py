@@ -1,0 +1,47 @@
+"""The FastAPI application: routers, static files, error pages."""
+
+import importlib
+import pkgutil
+
+from fastapi import APIRouter, FastAPI, Request
+from fastapi.staticfiles import StaticFiles
+from starlette.exceptions import HTTPException as StarletteHTTPException
+from starlette.responses import Response
+
+import app.routes
+from app.db.tracking import install_tracking
+from app.routes.rendering import render
+from app.services.study_tree import NotFoundError
+from app.settings import PROJECT_ROOT
+
+
+def discover_routers() -> list[APIRouter]:
+    """Every `router` defined by a module of app.routes, so an area adds itself by existing."""
+    routers = []
+    for module_info in sorted(pkgutil.iter_modules(app.routes.__path__), key=lambda m: m.name):
+        module = importlib.import_module(f"app.routes.{module_info.name}")
+        if isinstance(getattr(module, "router", None), APIRouter):
+            routers.append(module.router)
+    return routers
+
+
+def create_app() -> FastAPI:
+    """Build the app; the database must already be migrated (`make run` does it)."""
+    install_tracking()
+    application = FastAPI(title="Tallyroom", docs_url="/api/docs", redoc_url=None)
+    application.mount("/static", StaticFiles(directory=PROJECT_ROOT / "static"), name="static")
+    for router in discover_routers():
+        application.include_router(router)
+    application.add_exception_handler(NotFoundError, _not_found)
+    application.add_exception_handler(StarletteHTTPException, _http_error)
+    return application
+
+
+def _not_found(request: Request, exc: Exception) -> Response:
+    return render(request, "error.html", {"status": 404, "message": str(exc)}, status_code=404)
+
+
+def _http_error(request: Request, exc: Exception) -> Response:
+    assert isinstance(exc, StarletteHTTPException)
+    return render(request, "error.html", {"status": exc.status_code, "message": exc.detail},
+                  status_code=exc.status_code)

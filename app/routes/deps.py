@@ -1,0 +1,28 @@
+"""Request dependencies, aliased once for every router."""
+
+from collections.abc import Iterator
+from typing import Annotated
+
+from fastapi import Depends, Request
+from sqlmodel import Session
+
+from app.db.session import get_db_engine
+from app.db.tracking import AUTHOR_KEY
+
+AUTHOR_COOKIE = "tallyroom_author"
+
+
+def author_name(request: Request) -> str:
+    """The name this browser gave for the change log ('' until it is given)."""
+    return request.cookies.get(AUTHOR_COOKIE, "").strip()[:120]
+
+
+def get_session(request: Request) -> Iterator[Session]:
+    """One database session per request, stamped with the author for the change log."""
+    with Session(get_db_engine()) as session:
+        session.info[AUTHOR_KEY] = author_name(request)
+        yield session
+
+
+SessionDep = Annotated[Session, Depends(get_session)]
+AuthorDep = Annotated[str, Depends(author_name)]

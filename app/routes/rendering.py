@@ -1,0 +1,87 @@
+"""Jinja2 with named fragment blocks, and the number filters every template uses."""
+
+import math
+from typing import Any
+
+from fastapi import Request
+from jinja2_fragments.fastapi import Jinja2Blocks
+from starlette.responses import Response
+
+from app.likelihood.numbers import format_number, format_one_in
+from app.settings import PROJECT_ROOT
+
+CAUTIONS = (
+    "Tallyroom is decision support for a competent review team. Its results are only as good "
+    "as the inputs the team agrees. Follow your company's standards, local regulations, the "
+    "IEC 61511 safety lifecycle and licensed professional judgement."
+)
+
+templates = Jinja2Blocks(directory=str(PROJECT_ROOT / "templates"))
+
+
+def sci(value: float | None) -> str:
+    """Scientific notation with two significant figures ('—' when missing)."""
+    return "—" if value is None or not math.isfinite(value) else format_number(value)
+
+
+def orders(value: float | None) -> str:
+    """A gap in orders of magnitude with its sign ('+1.4')."""
+    return "—" if value is None or not math.isfinite(value) else f"{value:+.1f}"
+
+
+templates.env.filters.update(sci=sci, one_in=format_one_in, orders=orders)
+templates.env.globals.update(cautions=CAUTIONS)
+
+
+def is_htmx(request: Request) -> bool:
+    """True when htmx sent the request (it wants a fragment, not a page)."""
+    return request.headers.get("HX-Request") == "true"
+
+
+def render(
+    request: Request,
+    name: str,
+    context: dict[str, Any],
+    *,
+    block: str | None = None,
+    blocks: list[str] | None = None,
+    status_code: int = 200,
+) -> Response:
+    """Render a page, or only its named blocks; one URL may serve both, so vary on HX-Request."""
+    kwargs: dict[str, Any] = {"status_code": status_code}
+    if blocks:
+        kwargs["block_names"] = blocks
+    elif block:
+        kwargs["block_name"] = block
+    response = templates.TemplateResponse(request, name, context, **kwargs)
+    response.headers["Vary"] = "HX-Request"
+    return response
+
+
+# The study pages' shared navigation: (label, route name). A link shows once its route exists,
+# so each area adds itself by registering a route with this name.
+STUDY_NAV = [
+    ("Overview", "read_study"),
+    ("Room view", "read_room"),
+    ("Risk criteria", "read_criteria"),
+    ("Risk picture", "read_risk_picture"),
+    ("SIF proof test", "read_proof_test"),
+    ("Actions", "read_actions"),
+    ("Attendance", "read_attendance"),
+    ("Change log", "read_change_log"),
+    ("Revisions", "read_revisions"),
+    ("Export", "read_exports"),
+]
+
+
+def study_nav(request: Request, study_id: int) -> list[tuple[str, str]]:
+    """(label, url) of every study page that exists in this app."""
+    names = {getattr(route, "name", None) for route in request.app.router.routes}
+    return [
+        (label, str(request.url_for(name, study_id=study_id)))
+        for label, name in STUDY_NAV
+        if name in names
+    ]
+
+
+templates.env.globals.update(study_nav=study_nav)

@@ -1,0 +1,64 @@
+"""Study listing and the study overview page's data."""
+
+from dataclasses import dataclass
+
+from sqlmodel import Session
+
+from app.db.models import Study
+from app.db.queries import fetch_studies_with_counts
+from app.services.study_tree import NodeNode, ScenarioNode, StudyTree, load_study_tree
+
+
+@dataclass(frozen=True)
+class StudyListing:
+    """One line of the study list."""
+
+    study: Study
+    node_count: int
+    scenario_count: int
+
+
+@dataclass(frozen=True)
+class NodeTotals:
+    """What a node adds up to."""
+
+    scenario_count: int
+    short_count: int
+    unresolved_count: int
+    summed_frequency: float
+
+
+@dataclass(frozen=True)
+class StudyOverview:
+    """Display-ready data for the study page."""
+
+    tree: StudyTree
+    node_totals: dict[int, NodeTotals]
+    study_totals: NodeTotals
+
+
+def list_studies(*, session: Session) -> list[StudyListing]:
+    """Every study with its size."""
+    return [StudyListing(*row) for row in fetch_studies_with_counts(session)]
+
+
+def totals_of(scenarios: list[ScenarioNode]) -> NodeTotals:
+    """Count and sum a set of scenarios' outcomes."""
+    results = [s.outcome.result for s in scenarios if s.outcome.result is not None]
+    return NodeTotals(
+        scenario_count=len(scenarios),
+        short_count=sum(not r.meets_target for r in results),
+        unresolved_count=len(scenarios) - len(results),
+        summed_frequency=sum(r.mitigated_frequency for r in results),
+    )
+
+
+def node_totals(nodes: list[NodeNode]) -> dict[int, NodeTotals]:
+    """Totals for each node, keyed by node id."""
+    return {n.node.id: totals_of(n.scenario_nodes()) for n in nodes if n.node.id is not None}
+
+
+def read_study_overview(*, session: Session, study_id: int) -> StudyOverview:
+    """The study with every scenario computed and totals per node and for the study."""
+    tree = load_study_tree(session, study_id)
+    return StudyOverview(tree, node_totals(tree.nodes), totals_of(tree.scenario_nodes()))

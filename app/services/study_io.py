@@ -1,0 +1,229 @@
+"""Whole-study export to and import from the versioned JSON file format."""
+
+import json
+from collections import defaultdict
+from typing import Any
+
+from pydantic import ValidationError
+from sqlmodel import Session, col, select
+
+from app.db.models import (
+    Attendance,
+    ChangeLogEntry,
+    Deviation,
+    Node,
+    Participant,
+    Recommendation,
+    RecommendationScenario,
+    Revision,
+    Safeguard,
+    Scenario,
+    SessionDay,
+    SeverityCategory,
+    Step,
+    Study,
+)
+from app.services.study_schema import StudyFile
+
+
+class StudyFileError(ValueError):
+    """A study file that cannot be imported; the message says where and why."""
+
+
+def parse_study_file(raw: str | bytes) -> StudyFile:
+    """Validate a JSON study file, turning every problem into one readable message."""
+    try:
+        data = json.loads(raw)
+    except (json.JSONDecodeError, UnicodeDecodeError) as err:
+        raise StudyFileError(f"not a JSON file: {err}") from err
+    try:
+        return StudyFile.model_validate(data)
+    except ValidationError as err:
+        raise StudyFileError(_describe_validation(err)) from err
+
+
+def _describe_validation(err: ValidationError) -> str:
+    lines = []
+    for problem in err.errors()[:10]:
+        where = ".".join(str(part) for part in problem["loc"]) or "file"
+        lines.append(f"{where}: {problem['msg']}")
+    more = err.error_count() - len(lines)
+    return "; ".join(lines) + (f"; and {more} more problems" if more > 0 else "")
+
+
+def _by_parent(rows: list[Any], parent: str) -> dict[int, list[Any]]:
+    grouped: dict[int, list[Any]] = defaultdict(list)
+    for row in rows:
+        grouped[getattr(row, parent)].append(row)
+    return grouped
+
+
+def _ordered(session: Session, model: Any, study_id: int) -> list[Any]:
+    statement = select(model).where(model.study_id == study_id)
+    if hasattr(model, "position"):
+        statement = statement.order_by(model.position, model.id)
+    else:
+        statement = statement.order_by(model.id)
+    return list(session.exec(statement).all())
+
+
+def export_study(session: Session, study_id: int, *, with_history: bool = True) -> dict[str, Any]:
+    """The whole study as a plain dict in the file format (see study_schema)."""
+    study = session.get(Study, study_id)
+    if study is None:
+        raise LookupError(f"no study with id {study_id}")
+    categories = _ordered(session, SeverityCategory, study_id)
+    category_refs = {c.id: f"C{i}" for i, c in enumerate(categories, 1)}
+    nodes_out, scenario_refs = _export_nodes(session, study_id, category_refs)
+    participants = _ordered(session, Participant, study_id)
+    people_refs = {p.id: f"P{i}" for i, p in enumerate(participants, 1)}
+    data: dict[str, Any] = {
+        "format": "tallyroom-study",
+        "schema_version": 1,
+        "invented": False,
+        "study": study.model_dump(
+            include={"title", "facility", "scope", "revision_label", "frequency_unit",
+                     "criteria_basis"}
+        ),
+        "severity_categories": [
+            {"ref": category_refs[c.id], "name": c.name, "description": c.description,
+             "tolerable_frequency": c.tolerable_frequency, "receptor": str(c.receptor)}
+            for c in categories
+        ],
+        "nodes": nodes_out,
+        "recommendations": _export_actions(session, study_id, scenario_refs),
+        "participants": [
+            {"ref": people_refs[p.id], "name": p.name, "role": p.role,
+             "discipline": p.discipline, "company": p.company}
+            for p in participants
+        ],
+        "session_days": _export_days(session, study_id, people_refs),
+    }
+    if with_history:
+        data["change_log"] = _export_log(session, study_id, scenario_refs)
+        data["revisions"] = _export_revisions(session, study_id)
+    return data
+
+
+def _export_nodes(
+    session: Session, study_id: int, category_refs: dict[int | None, str]
+) -> tuple[list[dict[str, Any]], dict[int, str]]:
+    deviations = _by_parent(_ordered(session, Deviation, study_id), "node_id")
+    scenarios = _by_parent(_ordered(session, Scenario, study_id), "deviation_id")
+    steps = _by_parent(_ordered(session, Step, study_id), "scenario_id")
+    safeguards = _by_parent(_ordered(session, Safeguard, study_id), "scenario_id")
+    scenario_refs: dict[int, str] = {}
+    nodes_out = []
+    for node in _ordered(session, Node, study_id):
+        deviations_out = []
+        for deviation in deviations[node.id]:
+            scenarios_out = []
+            for scenario in scenarios[deviation.id]:
+                scenario_refs[scenario.id] = f"S{len(scenario_refs) + 1}"
+                scenarios_out.append(
+                    _export_scenario(scenario, scenario_refs[scenario.id], category_refs,
+                                     steps[scenario.id], safeguards[scenario.id])
+                )
+            deviations_out.append(
+                {"guideword": deviation.guideword, "parameter": deviation.parameter,
+                 "description": deviation.description, "scenarios": scenarios_out}
+            )
+        nodes_out.append(
+            {"number": node.number, "name": node.name, "design_intent": node.design_intent,
+             "drawing_reference": node.drawing_reference, "deviations": deviations_out}
+        )
+    return nodes_out, scenario_refs
+
+
+def _export_scenario(
+    scenario: Scenario, ref: str, category_refs: dict[int | None, str],
+    steps: list[Step], safeguards: list[Safeguard],
+) -> dict[str, Any]:
+    return {
+        "ref": ref,
+        "cause": scenario.cause,
+        "consequence": scenario.consequence,
+        "notes": scenario.notes,
+        "severity": category_refs[scenario.severity_category_id],
+        "environment_severity": category_refs.get(scenario.environment_category_id),
+        "asset_severity": category_refs.get(scenario.asset_category_id),
+        "steps": [_export_step(step) for step in steps],
+        "safeguards": [{"description": s.description, "note": s.note} for s in safeguards],
+    }
+
+
+def _export_step(step: Step) -> dict[str, Any]:
+    row = step.model_dump(
+        include={"description", "value", "value_text", "basis", "credited", "ipl_type",
+                 "system_tag", "response_time_minutes", "sil_claimed", "typical_key"}
+    )
+    row["kind"] = str(step.kind)
+    row["proof_test"] = json.loads(step.proof_test) if step.proof_test else None
+    return row
+
+
+def _export_actions(
+    session: Session, study_id: int, scenario_refs: dict[int, str]
+) -> list[dict[str, Any]]:
+    actions = _ordered(session, Recommendation, study_id)
+    links = session.exec(
+        select(RecommendationScenario).where(
+            col(RecommendationScenario.recommendation_id).in_([a.id for a in actions])
+        )
+    ).all()
+    addressed = _by_parent(sorted(links, key=lambda link: link.scenario_id), "recommendation_id")
+    return [
+        {"text": a.text, "owner": a.owner,
+         "due_date": a.due_date.isoformat() if a.due_date else None,
+         "status": str(a.status), "status_reason": a.status_reason,
+         "expected_rrf": a.expected_rrf,
+         "scenarios": [scenario_refs[link.scenario_id] for link in addressed[a.id]]}
+        for a in actions
+    ]
+
+
+def _export_days(
+    session: Session, study_id: int, people_refs: dict[int | None, str]
+) -> list[dict[str, Any]]:
+    days = session.exec(
+        select(SessionDay).where(SessionDay.study_id == study_id).order_by(
+            SessionDay.day, SessionDay.id)
+    ).all()
+    present = session.exec(
+        select(Attendance).where(col(Attendance.session_day_id).in_([d.id for d in days]))
+    ).all()
+    by_day = _by_parent(sorted(present, key=lambda a: a.participant_id), "session_day_id")
+    return [
+        {"day": d.day.isoformat(), "note": d.note,
+         "attendees": [people_refs[a.participant_id] for a in by_day[d.id]]}
+        for d in days
+    ]
+
+
+def _export_log(
+    session: Session, study_id: int, scenario_refs: dict[int, str]
+) -> list[dict[str, Any]]:
+    entries = session.exec(
+        select(ChangeLogEntry).where(ChangeLogEntry.study_id == study_id).order_by(
+            ChangeLogEntry.id)
+    ).all()
+    return [
+        {"at": e.at.isoformat(), "author": e.author, "action": e.action, "entity": e.entity,
+         "field": e.field, "old_value": e.old_value, "new_value": e.new_value,
+         "summary": e.summary,
+         "scenario": scenario_refs.get(e.scenario_id) if e.scenario_id else None}
+        for e in entries
+    ]
+
+
+def _export_revisions(session: Session, study_id: int) -> list[dict[str, Any]]:
+    revisions = session.exec(
+        select(Revision).where(Revision.study_id == study_id).order_by(Revision.id)
+    ).all()
+    return [
+        {"label": r.label, "note": r.note, "frozen_at": r.frozen_at.isoformat(),
+         "frozen_by": r.frozen_by, "signed_off_by": r.signed_off_by,
+         "signed_off_at": r.signed_off_at.isoformat() if r.signed_off_at else None,
+         "snapshot": json.loads(r.snapshot)}
+        for r in revisions
+    ]

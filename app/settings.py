@@ -1,0 +1,35 @@
+"""Application settings, read once from the environment (prefix TALLYROOM_)."""
+
+from functools import lru_cache
+from pathlib import Path
+
+from pydantic import field_validator
+from pydantic_settings import BaseSettings, SettingsConfigDict
+
+PROJECT_ROOT = Path(__file__).resolve().parent.parent
+DEFAULT_DATABASE_URL = f"sqlite:///{PROJECT_ROOT / 'data' / 'tallyroom.db'}"
+
+
+class Settings(BaseSettings):
+    """Where the data lives and how the server presents itself."""
+
+    model_config = SettingsConfigDict(env_prefix="TALLYROOM_")
+
+    database_url: str = DEFAULT_DATABASE_URL
+    host: str = "127.0.0.1"
+    port: int = 8000
+    room_poll_seconds: float = 0.5
+
+    @field_validator("database_url")
+    @classmethod
+    def supported_database(cls, url: str) -> str:
+        """Refuse database URLs the app has not been built for."""
+        if not url.startswith(("sqlite", "postgresql")):
+            raise ValueError("TALLYROOM_DATABASE_URL must be an sqlite:// or postgresql:// URL")
+        return url
+
+
+@lru_cache
+def get_settings() -> Settings:
+    """The one settings object; tests clear the cache to change it."""
+    return Settings()

@@ -1,0 +1,77 @@
+"""The study list and the study overview, read as a user sees them."""
+
+from html.parser import HTMLParser
+
+from fastapi.testclient import TestClient
+from sqlmodel import Session
+
+from app.db.models import Study
+from tests.factories import make_scenario_tree, make_step
+
+
+class TableRows(HTMLParser):
+    """Collect the text of each <tr> of the table with the given id."""
+
+    def __init__(self, table_id: str) -> None:
+        super().__init__()
+        self.table_id, self.depth, self.rows = table_id, 0, []
+        self.cell: list[str] | None = None
+
+    def handle_starttag(self, tag: str, attrs: list) -> None:  # type: ignore[type-arg]
+        if tag == "table" and ("id", self.table_id) in attrs:
+            self.depth = 1
+        elif self.depth and tag == "tr":
+            self.rows.append([])
+        elif self.depth and tag in ("td", "th"):
+            self.cell = []
+
+    def handle_endtag(self, tag: str) -> None:
+        if self.depth and tag in ("td", "th") and self.cell is not None:
+            self.rows[-1].append(" ".join("".join(self.cell).split()))
+            self.cell = None
+        elif tag == "table":
+            self.depth = 0
+
+    def handle_data(self, data: str) -> None:
+        if self.cell is not None:
+            self.cell.append(data)
+
+
+def table_rows(html: str, table_id: str) -> list[list[str]]:
+    """The table's rows as lists of cell texts."""
+    parser = TableRows(table_id)
+    parser.feed(html)
+    return parser.rows
+
+
+def test_the_study_list_shows_each_study_with_its_size(
+    client: TestClient, demo_study: Study
+) -> None:
+    rows = table_rows(client.get("/").text, "study-list")
+    assert rows[0] == ["Study", "Facility", "Revision", "Nodes", "Scenarios"]
+    assert rows[1][0] == demo_study.title
+    assert int(rows[1][3]) >= 3 and int(rows[1][4]) >= 15
+
+
+def test_the_study_page_shows_each_scenarios_frequency_target_and_gap(
+    client: TestClient, session: Session
+) -> None:
+    scenario = make_scenario_tree(session)  # IE 0.1/yr against 1e-5/yr
+    make_step(session, scenario, value=0.01, description="Relief valve")
+    page = client.get(f"/studies/{scenario.study_id}").text
+    assert 'data-field="mitigated">1.0e-3<' in page
+    assert 'data-field="target">1.0e-5<' in page
+    assert 'data-field="gap">+2.0<' in page
+    assert "SIL 1" in page
+
+
+def test_an_unknown_study_is_a_404_page(client: TestClient, session: Session) -> None:
+    response = client.get("/studies/999")
+    assert response.status_code == 404
+    assert "There is no study 999." in response.text
+
+
+def test_every_page_carries_the_cautions(client: TestClient, session: Session) -> None:
+    page = client.get("/").text
+    assert "decision support for a competent review team" in page
+    assert "only as good as the inputs the team agrees" in page
