@@ -1,0 +1,45 @@
+"""The invented demo study: big enough to show the app, every step kind, both outcomes."""
+
+import json
+
+from sqlmodel import Session, func, select
+
+from app.db.models import Study
+from app.demo import DEMO_STUDY_PATH, load_demo_if_empty
+from app.likelihood.types import StepKind
+from app.services.study_tree import load_study_tree
+
+
+def test_the_demo_file_says_it_is_invented() -> None:
+    data = json.loads(DEMO_STUDY_PATH.read_text(encoding="utf-8"))
+    assert data["invented"] is True
+    assert "invented" in data["study"]["title"].lower() + data["study"]["facility"].lower()
+
+
+def test_the_demo_study_has_the_promised_size(session: Session, demo_study: Study) -> None:
+    tree = load_study_tree(session, demo_study.id)
+    deviations = [d for n in tree.nodes for d in n.deviations]
+    assert len(tree.nodes) >= 3
+    assert len(deviations) >= 8
+    assert len(tree.scenario_nodes()) >= 15
+
+
+def test_the_demo_uses_every_step_kind(session: Session, demo_study: Study) -> None:
+    tree = load_study_tree(session, demo_study.id)
+    kinds = {str(step.kind) for s in tree.scenario_nodes() for step in s.steps}
+    assert kinds == {str(kind) for kind in StepKind}
+
+
+def test_some_demo_scenarios_meet_their_target_and_some_fall_short(
+    session: Session, demo_study: Study
+) -> None:
+    results = [s.outcome.result for s in load_study_tree(session, demo_study.id).scenario_nodes()]
+    assert all(result is not None for result in results)
+    verdicts = {result.meets_target for result in results if result is not None}
+    assert verdicts == {True, False}
+
+
+def test_the_demo_loads_only_into_an_empty_database(session: Session) -> None:
+    assert load_demo_if_empty(session) is not None
+    assert load_demo_if_empty(session) is None
+    assert session.exec(select(func.count()).select_from(Study)).one() == 1
