@@ -50,11 +50,11 @@ def _the_initiating_event(steps: Sequence[StepInput]) -> StepInput:
         return found[0]
     named = ", ".join(f"'{step.label}'" for step in found if step.label)
     counted = "none" if not found else f"{len(found)}" + (f": {named}" if named else "")
-    raise input_error(
-        "one_initiating_event",
-        f"a scenario needs exactly one initiating event (found {counted}).",
-        label=found[1].label if len(found) > 1 else "",
-    )
+    sentence = f"a scenario needs exactly one initiating event (found {counted})."
+    if not found:
+        raise input_error("one_initiating_event", sentence)
+    extra = found[1]  # the first one too many
+    raise input_error("one_initiating_event", sentence, label=extra.label, kind=extra.kind)
 
 
 def _ladder(ordered: Sequence[StepInput]) -> tuple[LadderPoint, ...]:
