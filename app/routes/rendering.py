@@ -6,6 +6,7 @@ from typing import Any
 from fastapi import Request
 from jinja2_fragments.fastapi import Jinja2Blocks
 from starlette.responses import Response
+from starlette.routing import NoMatchFound
 
 from app.likelihood.numbers import format_number, format_one_in
 from app.settings import PROJECT_ROOT
@@ -76,12 +77,15 @@ STUDY_NAV = [
 
 def study_nav(request: Request, study_id: int) -> list[tuple[str, str]]:
     """(label, url) of every study page that exists in this app."""
-    names = {getattr(route, "name", None) for route in request.app.router.routes}
-    return [
-        (label, str(request.url_for(name, study_id=study_id)))
-        for label, name in STUDY_NAV
-        if name in names
-    ]
+    # Ask the router itself: FastAPI 0.16x wraps included routers, hiding route names.
+    # Paths, not full URLs, so the template can mark the current page.
+    links = []
+    for label, name in STUDY_NAV:
+        try:
+            links.append((label, request.url_for(name, study_id=study_id).path))
+        except NoMatchFound:
+            continue
+    return links
 
 
 templates.env.globals.update(study_nav=study_nav)
