@@ -3,6 +3,7 @@
 import argparse
 import sys
 from collections.abc import Callable, Sequence
+from pathlib import Path
 
 from alembic import command
 from alembic.config import Config
@@ -53,6 +54,59 @@ def cmd_serve(args: argparse.Namespace) -> int:
     return 0
 
 
+def cmd_export(args: argparse.Namespace) -> int:
+    """Write one study to a file in the chosen format."""
+    from app.routes.rendering import templates
+    from app.services.exports import ExportFormat, build_export, find_study
+    from app.services.study_tree import NotFoundError
+
+    with Session(get_db_engine()) as session:
+        try:
+            study = find_study(session=session, key=args.study)
+        except NotFoundError as err:
+            print(f"tallyroom export: {err}", file=sys.stderr)
+            return 2
+        assert study.id is not None
+        export = build_export(session=session, study_id=study.id,
+                              export_format=ExportFormat(args.format), env=templates.env)
+    out = Path(args.out or export.filename)
+    out.write_bytes(export.content)
+    print(f"wrote {out} ({len(export.content):,} bytes): study {study.id} '{study.title}'")
+    return 0
+
+
+def cmd_import(args: argparse.Namespace) -> int:
+    """Create a new study from a study file; print its id."""
+    from app.db.tracking import install_tracking
+    from app.services.study_import import import_study_upload
+    from app.services.study_io import StudyFileError
+
+    path = Path(args.file)
+    try:
+        raw = path.read_bytes()
+    except OSError as err:
+        print(f"tallyroom import: cannot read {path}: {err.strerror}", file=sys.stderr)
+        return 2
+    install_tracking()
+    with Session(get_db_engine()) as session:
+        try:
+            study = import_study_upload(session=session, raw=raw)
+        except StudyFileError as err:
+            print(f"tallyroom import: {path} not imported: {err}", file=sys.stderr)
+            return 2
+    print(study.id)
+    return 0
+
+
+def _add_file_commands(sub: argparse._SubParsersAction) -> None:  # type: ignore[type-arg]
+    export = sub.add_parser("export", help="write a study to an .xlsx, .csv, .json or .pdf file")
+    export.add_argument("study", help="the study's id or its exact title")
+    export.add_argument("--format", required=True, choices=["xlsx", "csv", "json", "pdf"])
+    export.add_argument("--out", help="file to write (default: the download's file name, here)")
+    importer = sub.add_parser("import", help="create a new study from a study file (.json)")
+    importer.add_argument("file", help="a Tallyroom study file, schema version 1")
+
+
 def build_parser() -> argparse.ArgumentParser:
     """The argument parser for every sub-command."""
     parser = argparse.ArgumentParser(prog="tallyroom", description=__doc__)
@@ -66,8 +120,11 @@ def build_parser() -> argparse.ArgumentParser:
 
 
 # Other modules add sub-commands here (for example export and import).
-PARSER_EXTENSIONS: list[Callable[[argparse._SubParsersAction], None]] = []  # type: ignore[type-arg]
-COMMANDS.update({"migrate": cmd_migrate, "load-demo": cmd_load_demo, "serve": cmd_serve})
+PARSER_EXTENSIONS: list[Callable[[argparse._SubParsersAction], None]] = [  # type: ignore[type-arg]
+    _add_file_commands,
+]
+COMMANDS.update({"migrate": cmd_migrate, "load-demo": cmd_load_demo, "serve": cmd_serve,
+                 "export": cmd_export, "import": cmd_import})
 
 
 def main(argv: Sequence[str] | None = None) -> int:

@@ -43,3 +43,12 @@ def test_the_demo_loads_only_into_an_empty_database(session: Session) -> None:
     assert load_demo_if_empty(session) is not None
     assert load_demo_if_empty(session) is None
     assert session.exec(select(func.count()).select_from(Study)).one() == 1
+
+
+def test_the_demo_study_is_flagged_invented_and_stays_so_on_export(
+    session: Session, demo_study: Study
+) -> None:
+    from app.services.study_io import export_study
+
+    assert demo_study.invented is True
+    assert export_study(session, demo_study.id)["invented"] is True

@@ -3,7 +3,7 @@
 from datetime import UTC, date, datetime
 from enum import StrEnum
 
-from sqlalchemy import Column, Index, MetaData, Text, text
+from sqlalchemy import Column, Index, MetaData, Text, false, text
 from sqlmodel import AutoString, Field, SQLModel
 
 # Constraint names are fixed so Alembic migrations are stable on SQLite and PostgreSQL alike.
@@ -71,6 +71,8 @@ class StudyBase(SQLModel):
         default="Example criteria, invented: replace with your company's own risk criteria.",
         max_length=500,
     )
+    # Made-up demonstration data: shown as such on every page and carried through exports.
+    invented: bool = Field(default=False, sa_column_kwargs={"server_default": false()})
 
 
 class Study(StudyBase, TrackedRow, table=True):

@@ -2,6 +2,7 @@
 
 import json
 
+from sqlalchemy.exc import SQLAlchemyError
 from sqlmodel import Session
 
 from app.db.models import (
@@ -21,8 +22,26 @@ from app.db.models import (
     Study,
 )
 from app.db.tracking import SUPPRESS_LOG_KEY
-from app.services.study_io import parse_study_file
+from app.services.study_io import StudyFileError, parse_study_file
 from app.services.study_schema import ScenarioRow, StudyFile
+
+# Far above any real study (the invented demo is under 100 kB); refuses runaway uploads early.
+MAX_FILE_BYTES = 20 * 1024 * 1024
+
+
+def import_study_upload(*, session: Session, raw: bytes) -> Study:
+    """Import an uploaded study file, refusing an empty or oversized one with a clear message."""
+    if not raw.strip():
+        raise StudyFileError("the file is empty: choose a Tallyroom study file (.json)")
+    if len(raw) > MAX_FILE_BYTES:
+        raise StudyFileError(
+            f"the file is larger than {_size(MAX_FILE_BYTES)}, the most a study file may be"
+        )
+    return import_study_text(session, raw)
+
+
+def _size(count: int) -> str:
+    return f"{count / 2**20:g} MB" if count >= 2**20 else f"{count:,} bytes"
 
 
 def import_study_text(session: Session, raw: str | bytes) -> Study:
@@ -31,10 +50,10 @@ def import_study_text(session: Session, raw: str | bytes) -> Study:
 
 
 def import_study(session: Session, data: StudyFile) -> Study:
-    """Write a whole study from a validated file and commit once."""
+    """Write a whole study from a validated file and commit once; on any failure write nothing."""
     session.info[SUPPRESS_LOG_KEY] = True
     try:
-        study = Study(**data.study.model_dump())
+        study = Study(**data.study.model_dump(), invented=data.invented)
         session.add(study)
         session.flush()
         assert study.id is not None
@@ -44,6 +63,11 @@ def import_study(session: Session, data: StudyFile) -> Study:
         _import_attendance(session, study.id, data)
         _import_history(session, study.id, data, scenarios)
         session.commit()
+    except SQLAlchemyError as err:
+        session.rollback()
+        raise StudyFileError(
+            f"the database refused the file, so nothing was imported: {_first_line(err)}"
+        ) from err
     except Exception:
         session.rollback()
         raise
@@ -51,6 +75,10 @@ def import_study(session: Session, data: StudyFile) -> Study:
         session.info.pop(SUPPRESS_LOG_KEY, None)
     session.refresh(study)
     return study
+
+
+def _first_line(err: SQLAlchemyError) -> str:
+    return str(getattr(err, "orig", None) or err).splitlines()[0]
 
 
 def _import_categories(session: Session, study_id: int, data: StudyFile) -> dict[str, int]:
@@ -100,7 +128,8 @@ def _import_scenario(
     assert scenario.id is not None
     for step_position, step in enumerate(row.steps):
         values = step.model_dump(exclude={"proof_test"})
-        proof_test = json.dumps(step.proof_test, sort_keys=True) if step.proof_test else None
+        # Key order kept as given, so exporting again gives the same file.
+        proof_test = json.dumps(step.proof_test) if step.proof_test else None
         session.add(Step(study_id=study_id, scenario_id=scenario.id, position=step_position,
                          proof_test=proof_test, **values))
     for safeguard_position, safeguard in enumerate(row.safeguards):

@@ -21,9 +21,9 @@ from app.db.models import (
     SessionDay,
     SeverityCategory,
     Step,
-    Study,
 )
-from app.services.study_schema import StudyFile
+from app.services.study_schema import FILE_FORMAT, SCHEMA_VERSION, StudyFile
+from app.services.study_tree import get_study
 
 
 class StudyFileError(ValueError):
@@ -36,10 +36,26 @@ def parse_study_file(raw: str | bytes) -> StudyFile:
         data = json.loads(raw)
     except (json.JSONDecodeError, UnicodeDecodeError) as err:
         raise StudyFileError(f"not a JSON file: {err}") from err
+    _check_format_and_version(data)
     try:
         return StudyFile.model_validate(data)
     except ValidationError as err:
         raise StudyFileError(_describe_validation(err)) from err
+
+
+def _check_format_and_version(data: Any) -> None:
+    # Said plainly before field-level validation, which would bury it in a list of problems.
+    if not isinstance(data, dict) or data.get("format") != FILE_FORMAT:
+        raise StudyFileError(
+            f"not a Tallyroom study file: the top level must be a JSON object with "
+            f"\"format\": \"{FILE_FORMAT}\""
+        )
+    version = data.get("schema_version")
+    if version != SCHEMA_VERSION:
+        raise StudyFileError(
+            f"schema_version {version!r} is not supported: this Tallyroom reads study files "
+            f"of schema version {SCHEMA_VERSION}"
+        )
 
 
 def _describe_validation(err: ValidationError) -> str:
@@ -49,6 +65,22 @@ def _describe_validation(err: ValidationError) -> str:
         lines.append(f"{where}: {problem['msg']}")
     more = err.error_count() - len(lines)
     return "; ".join(lines) + (f"; and {more} more problems" if more > 0 else "")
+
+
+# Fixed key orders: a loaded row's attribute order varies, and the file must not.
+HEADER_FIELDS = ("title", "facility", "scope", "revision_label", "frequency_unit",
+                 "criteria_basis")
+STEP_FIELDS = ("description", "value", "value_text", "basis", "credited", "ipl_type",
+               "system_tag", "response_time_minutes", "sil_claimed", "typical_key")
+
+
+def _fields(row: Any, names: tuple[str, ...]) -> dict[str, Any]:
+    return {name: getattr(row, name) for name in names}
+
+
+def scenario_ref(index: int) -> str:
+    """The file ref of the study's index-th scenario (0-based) in worksheet order: S1, S2, ..."""
+    return f"S{index + 1}"
 
 
 def _by_parent(rows: list[Any], parent: str) -> dict[int, list[Any]]:
@@ -69,9 +101,7 @@ def _ordered(session: Session, model: Any, study_id: int) -> list[Any]:
 
 def export_study(session: Session, study_id: int, *, with_history: bool = True) -> dict[str, Any]:
     """The whole study as a plain dict in the file format (see study_schema)."""
-    study = session.get(Study, study_id)
-    if study is None:
-        raise LookupError(f"no study with id {study_id}")
+    study = get_study(session, study_id)
     categories = _ordered(session, SeverityCategory, study_id)
     category_refs = {c.id: f"C{i}" for i, c in enumerate(categories, 1)}
     nodes_out, scenario_refs = _export_nodes(session, study_id, category_refs)
@@ -80,11 +110,8 @@ def export_study(session: Session, study_id: int, *, with_history: bool = True) 
     data: dict[str, Any] = {
         "format": "tallyroom-study",
         "schema_version": 1,
-        "invented": False,
-        "study": study.model_dump(
-            include={"title", "facility", "scope", "revision_label", "frequency_unit",
-                     "criteria_basis"}
-        ),
+        "invented": study.invented,
+        "study": _fields(study, HEADER_FIELDS),
         "severity_categories": [
             {"ref": category_refs[c.id], "name": c.name, "description": c.description,
              "tolerable_frequency": c.tolerable_frequency, "receptor": str(c.receptor)}
@@ -119,7 +146,7 @@ def _export_nodes(
         for deviation in deviations[node.id]:
             scenarios_out = []
             for scenario in scenarios[deviation.id]:
-                scenario_refs[scenario.id] = f"S{len(scenario_refs) + 1}"
+                scenario_refs[scenario.id] = scenario_ref(len(scenario_refs))
                 scenarios_out.append(
                     _export_scenario(scenario, scenario_refs[scenario.id], category_refs,
                                      steps[scenario.id], safeguards[scenario.id])
@@ -153,11 +180,7 @@ def _export_scenario(
 
 
 def _export_step(step: Step) -> dict[str, Any]:
-    row = step.model_dump(
-        include={"description", "value", "value_text", "basis", "credited", "ipl_type",
-                 "system_tag", "response_time_minutes", "sil_claimed", "typical_key"}
-    )
-    row["kind"] = str(step.kind)
+    row = {"kind": str(step.kind), **_fields(step, STEP_FIELDS)}
     row["proof_test"] = json.loads(step.proof_test) if step.proof_test else None
     return row
 
@@ -171,7 +194,10 @@ def _export_actions(
             col(RecommendationScenario.recommendation_id).in_([a.id for a in actions])
         )
     ).all()
-    addressed = _by_parent(sorted(links, key=lambda link: link.scenario_id), "recommendation_id")
+    # Worksheet order, not id order, so a re-imported study (new ids) lists them the same way.
+    order = {scenario_id: index for index, scenario_id in enumerate(scenario_refs)}
+    addressed = _by_parent(sorted(links, key=lambda link: order[link.scenario_id]),
+                           "recommendation_id")
     return [
         {"text": a.text, "owner": a.owner,
          "due_date": a.due_date.isoformat() if a.due_date else None,

@@ -7,12 +7,13 @@ so a file imports into any database.
 from datetime import date, datetime
 from typing import Any, Literal
 
-from pydantic import BaseModel, ConfigDict, Field, model_validator
+from pydantic import BaseModel, ConfigDict, Field, field_validator, model_validator
 
 from app.db.models import ActionStatus, Receptor, StepKindValue
 
 FILE_FORMAT = "tallyroom-study"
 SCHEMA_VERSION = 1
+SCHEMA_PATH = "/schema/study-v1.json"
 
 
 class FileRow(BaseModel):
@@ -22,34 +23,40 @@ class FileRow(BaseModel):
 
 
 class StudyHeader(FileRow):
+    """The study itself: what was reviewed and against which criteria."""
+
     title: str = Field(min_length=1, max_length=200)
-    facility: str = ""
-    scope: str = ""
-    revision_label: str = "Draft"
+    facility: str = Field(default="", max_length=200)
+    scope: str = Field(default="", max_length=5000)
+    revision_label: str = Field(default="Draft", max_length=60)
     frequency_unit: Literal["per year"] = "per year"
-    criteria_basis: str = ""
+    criteria_basis: str = Field(default="", max_length=500)
 
 
 class CategoryRow(FileRow):
-    ref: str
+    """A severity category and the tolerable frequency (per year) of its consequences."""
+
+    ref: str = Field(min_length=1, max_length=40)
     name: str = Field(min_length=1, max_length=80)
-    description: str = ""
+    description: str = Field(default="", max_length=1000)
     tolerable_frequency: float = Field(gt=0, allow_inf_nan=False)
     receptor: Receptor = Receptor.PEOPLE
 
 
 class StepRow(FileRow):
+    """One factor of a scenario: the initiating event (per year) or a probability / PFD."""
+
     kind: StepKindValue
-    description: str = ""
+    description: str = Field(default="", max_length=1000)
     value: float = Field(gt=0, allow_inf_nan=False)
-    value_text: str = ""
-    basis: str = ""
+    value_text: str = Field(default="", max_length=100)
+    basis: str = Field(default="", max_length=2000)
     credited: bool = True
-    ipl_type: str | None = None
-    system_tag: str = ""
-    response_time_minutes: float | None = Field(default=None, ge=0)
+    ipl_type: str | None = Field(default=None, max_length=30)
+    system_tag: str = Field(default="", max_length=80)
+    response_time_minutes: float | None = Field(default=None, ge=0, allow_inf_nan=False)
     sil_claimed: int | None = Field(default=None, ge=1, le=4)
-    typical_key: str | None = None
+    typical_key: str | None = Field(default=None, max_length=60)
     proof_test: dict[str, Any] | None = None
 
     @model_validator(mode="after")
@@ -61,15 +68,19 @@ class StepRow(FileRow):
 
 
 class SafeguardRow(FileRow):
-    description: str = Field(min_length=1)
-    note: str = ""
+    """A safeguard noted for a scenario but not credited as an IPL."""
+
+    description: str = Field(min_length=1, max_length=1000)
+    note: str = Field(default="", max_length=1000)
 
 
 class ScenarioRow(FileRow):
-    ref: str
-    cause: str = ""
-    consequence: str = ""
-    notes: str = ""
+    """A cause-consequence pair with its steps, in worksheet order."""
+
+    ref: str = Field(min_length=1, max_length=40)
+    cause: str = Field(default="", max_length=2000)
+    consequence: str = Field(default="", max_length=2000)
+    notes: str = Field(default="", max_length=5000)
     severity: str = Field(description="ref of a people/general severity category")
     environment_severity: str | None = None
     asset_severity: str | None = None
@@ -86,68 +97,96 @@ class ScenarioRow(FileRow):
 
 
 class DeviationRow(FileRow):
-    guideword: str
-    parameter: str
-    description: str = ""
+    """A guideword applied to a parameter of the node."""
+
+    guideword: str = Field(max_length=40)
+    parameter: str = Field(max_length=60)
+    description: str = Field(default="", max_length=2000)
     scenarios: list[ScenarioRow] = []
 
 
 class NodeRow(FileRow):
-    number: str
-    name: str = Field(min_length=1)
-    design_intent: str = ""
-    drawing_reference: str = ""
+    """A section of the process reviewed as one."""
+
+    number: str = Field(max_length=20)
+    name: str = Field(min_length=1, max_length=200)
+    design_intent: str = Field(default="", max_length=2000)
+    drawing_reference: str = Field(default="", max_length=200)
     deviations: list[DeviationRow] = []
 
 
 class RecommendationRow(FileRow):
-    text: str = Field(min_length=1)
-    owner: str = ""
+    """An action the team asked for, with the scenarios it addresses."""
+
+    text: str = Field(min_length=1, max_length=2000)
+    owner: str = Field(default="", max_length=120)
     due_date: date | None = None
     status: ActionStatus = ActionStatus.OPEN
-    status_reason: str = ""
+    status_reason: str = Field(default="", max_length=1000)
     expected_rrf: float | None = Field(default=None, gt=0, allow_inf_nan=False)
     scenarios: list[str] = Field(default=[], description="refs of the scenarios addressed")
 
+    @field_validator("scenarios")
+    @classmethod
+    def each_scenario_once(cls, refs: list[str]) -> list[str]:
+        """An action links to a scenario at most once."""
+        return _listed_once("scenario", refs)
+
 
 class ParticipantRow(FileRow):
-    ref: str
-    name: str = Field(min_length=1)
-    role: str = ""
-    discipline: str = ""
-    company: str = ""
+    """A member of the review team."""
+
+    ref: str = Field(min_length=1, max_length=40)
+    name: str = Field(min_length=1, max_length=120)
+    role: str = Field(default="", max_length=80)
+    discipline: str = Field(default="", max_length=80)
+    company: str = Field(default="", max_length=120)
 
 
 class SessionDayRow(FileRow):
+    """A day the team met, with who was present."""
+
     day: date
-    note: str = ""
+    note: str = Field(default="", max_length=500)
     attendees: list[str] = Field(default=[], description="refs of participants present")
+
+    @field_validator("attendees")
+    @classmethod
+    def each_attendee_once(cls, refs: list[str]) -> list[str]:
+        """A participant is present on a day at most once."""
+        return _listed_once("participant", refs)
 
 
 class ChangeLogRow(FileRow):
+    """One recorded create, edit or delete, oldest first."""
+
     at: datetime
-    author: str = ""
-    action: str
-    entity: str
-    field: str = ""
+    author: str = Field(default="", max_length=120)
+    action: str = Field(max_length=10)
+    entity: str = Field(max_length=40)
+    field: str = Field(default="", max_length=60)
     old_value: str | None = None
     new_value: str | None = None
-    summary: str = ""
+    summary: str = Field(default="", max_length=500)
     scenario: str | None = Field(default=None, description="ref of the scenario, if any")
 
 
 class RevisionRow(FileRow):
-    label: str
-    note: str = ""
+    """A frozen revision with its snapshot (a study file without history)."""
+
+    label: str = Field(min_length=1, max_length=60)
+    note: str = Field(default="", max_length=2000)
     frozen_at: datetime
-    frozen_by: str = ""
-    signed_off_by: str = ""
+    frozen_by: str = Field(default="", max_length=120)
+    signed_off_by: str = Field(default="", max_length=120)
     signed_off_at: datetime | None = None
     snapshot: dict[str, Any]
 
 
 class StudyFile(FileRow):
-    """One whole study."""
+    """One whole Tallyroom study: content, attendance, change log and revisions."""
+
+    model_config = ConfigDict(extra="forbid", title="Tallyroom study file, schema version 1")
 
     format: Literal["tallyroom-study"] = FILE_FORMAT
     schema_version: Literal[1] = SCHEMA_VERSION
@@ -185,6 +224,22 @@ class StudyFile(FileRow):
         for entry in self.change_log:
             _must_exist("scenario", entry.scenario, scenarios, allow_missing=True)
         return self
+
+
+def study_json_schema() -> dict[str, Any]:
+    """The JSON Schema (draft 2020-12) document of the study file, as served and documented."""
+    return {
+        "$schema": "https://json-schema.org/draft/2020-12/schema",
+        "$id": SCHEMA_PATH,
+        **StudyFile.model_json_schema(),
+    }
+
+
+def _listed_once(what: str, refs: list[str]) -> list[str]:
+    repeated = sorted({ref for ref in refs if refs.count(ref) > 1})
+    if repeated:
+        raise ValueError(f"{what} ref '{repeated[0]}' is listed twice; list each one once")
+    return refs
 
 
 def _unique_refs(what: str, refs: list[str]) -> set[str]:
