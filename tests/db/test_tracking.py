@@ -46,6 +46,16 @@ def test_quick_successive_edits_of_one_field_fold_into_one_entry(session: Sessio
     assert COALESCE_WINDOW.total_seconds() == 60
 
 
+def test_folding_follows_each_field_when_one_save_changes_two(session: Session) -> None:
+    scenario = make_scenario_tree(session)
+    step = make_step(session, scenario, value=0.1, value_text="0.1")
+    for value, words in ((0.05, "1 in 20"), (0.01, "1 in 100")):
+        step.value, step.value_text = value, words
+        session.commit()
+    edits = [(e.field, e.old_value, e.new_value) for e in _log(session) if e.action == "edit"]
+    assert sorted(edits) == [("value", "0.1", "0.01"), ("value_text", "0.1", "1 in 100")]
+
+
 def test_creates_and_deletes_are_logged(session: Session) -> None:
     scenario = make_scenario_tree(session)
     step = make_step(session, scenario)

@@ -1,0 +1,166 @@
+// Tallyroom worksheet: what htmx attributes cannot say on their own.
+// - a sequence number per value field, so a reply older than the newest text is never shown;
+// - keyboard: Enter to the next field (or a new row), Escape to cancel, Alt+arrows to move,
+//   Alt+Delete to delete (asks first), Alt+Z to undo, Alt+N to add an IPL, ? for help;
+// - tell the server which scenario the scribe is on, for the room view.
+(function () {
+  "use strict";
+
+  const client = Math.random().toString(36).slice(2) + Date.now().toString(36);
+
+  function nextSeq(field) {
+    const seq = Number(field.dataset.seq || "0") + 1;
+    field.dataset.seq = String(seq);
+    return seq;
+  }
+
+  window.Tallyroom = { client: client, nextSeq: nextSeq };
+
+  // A reply carries the sequence number it answers; drop it if the field has moved on.
+  document.addEventListener("htmx:beforeSwap", function (event) {
+    const field = event.detail.requestConfig && event.detail.requestConfig.elt;
+    const answered = event.detail.xhr.getResponseHeader("X-Tallyroom-Seq");
+    if (!field || !answered || !field.dataset.seq) return;
+    if (Number(answered) < Number(field.dataset.seq)) {
+      event.detail.shouldSwap = false;
+      event.detail.ignoreTitle = true;
+    }
+  });
+
+  document.addEventListener("htmx:afterRequest", function (event) {
+    const field = event.detail.elt;
+    if (!field || !field.matches || !field.matches("[data-value-field]")) return;
+    const answered = event.detail.xhr.getResponseHeader("X-Tallyroom-Seq");
+    if (answered && Number(answered) < Number(field.dataset.seq || "0")) return;
+    if (event.detail.xhr.status === 422) field.setAttribute("aria-invalid", "true");
+    else if (event.detail.xhr.status === 200) field.removeAttribute("aria-invalid");
+  });
+
+  // --- focus: remember the text on entry (for Escape) and follow the scenario (for the room)
+  let focusTimer = null;
+  let lastScenario = null;
+
+  function reportFocus(scenarioId) {
+    const sheet = document.getElementById("worksheet");
+    if (!sheet || scenarioId === lastScenario) return;
+    lastScenario = scenarioId;
+    clearTimeout(focusTimer);
+    focusTimer = setTimeout(function () {
+      const body = new URLSearchParams({ scenario_id: scenarioId });
+      fetch("/studies/" + sheet.dataset.study + "/focus", { method: "POST", body: body });
+    }, 100);
+  }
+
+  document.addEventListener("focusin", function (event) {
+    const field = event.target;
+    if (field.matches && field.matches("[data-field]")) field.dataset.before = field.value;
+    const scenario = field.closest && field.closest("[data-scenario]");
+    if (scenario) reportFocus(scenario.dataset.scenario);
+  });
+
+  // --- keyboard
+  function rowOf(element) {
+    return element.closest("[data-row]");
+  }
+
+  function ownFields(row) {
+    return Array.from(row.querySelectorAll("[data-field]")).filter(function (f) {
+      return rowOf(f) === row;
+    });
+  }
+
+  function ownControls(row) {
+    return row.querySelector('[data-controls="' + row.dataset.row + "-" + row.dataset.rowId + '"]');
+  }
+
+  function focusNextField(field) {
+    const all = Array.from(document.querySelectorAll("#worksheet [data-field]"));
+    const next = all[all.indexOf(field) + 1];
+    if (next) next.focus();
+  }
+
+  function onEnter(event, field) {
+    if (field.tagName === "SELECT") return;
+    event.preventDefault();
+    const row = rowOf(field);
+    const fields = row ? ownFields(row) : [];
+    const isLast = fields.indexOf(field) === fields.length - 1;
+    const addNext = row && Array.from(row.querySelectorAll("[data-add-next]"))
+      .find(function (form) { return rowOf(form) === row; });
+    if (!(isLast && addNext)) {
+      focusNextField(field);  // leaving the field saves it (its change event)
+      return;
+    }
+    const unsaved = field.type !== "checkbox" && !field.matches("[data-value-field]") &&
+      field.value !== field.dataset.before;
+    if (!unsaved) {
+      addNext.requestSubmit();
+      return;
+    }
+    // Save the text first, then add the row, so the new worksheet shows what was typed.
+    field.addEventListener("htmx:afterRequest", function () { addNext.requestSubmit(); },
+      { once: true });
+    field.dataset.before = field.value;
+    field.dispatchEvent(new Event("change", { bubbles: true }));
+  }
+
+  function onEscape(event, field) {
+    if (field.dataset.before === undefined || field.value === field.dataset.before) return;
+    event.preventDefault();
+    field.value = field.dataset.before;
+    if (field.matches("[data-value-field]")) {
+      field.dispatchEvent(new Event("input", { bubbles: true }));
+    }
+  }
+
+  function onMove(event, field, offset) {
+    const row = rowOf(field);
+    const controls = row && ownControls(row);
+    const form = controls && controls.querySelector('[data-move="' + offset + '"]');
+    if (!form) return;
+    event.preventDefault();
+    form.querySelector('[name="focus"]').value = field.id;
+    form.requestSubmit();
+  }
+
+  function onDelete(event, field) {
+    const row = rowOf(field);
+    const controls = row && ownControls(row);
+    const link = controls && controls.querySelector("[data-delete]");
+    if (!link) return;
+    event.preventDefault();
+    link.click();
+  }
+
+  function onAddIpl(event, field) {
+    const scenario = field.closest("[data-scenario]");
+    const form = scenario && scenario.querySelector('[data-add="ipl"]');
+    if (!form) return;
+    event.preventDefault();
+    form.requestSubmit();
+  }
+
+  document.addEventListener("keydown", function (event) {
+    const target = event.target;
+    const inField = target.matches && target.matches("[data-field]");
+    if (event.altKey && event.key.toLowerCase() === "z") {
+      const undo = document.getElementById("undo-button");
+      if (undo) { event.preventDefault(); undo.click(); }
+      return;
+    }
+    if (!inField) {
+      const typing = target.matches && target.matches("input, textarea, select");
+      if (event.key === "?" && !typing) {
+        const help = document.getElementById("keys-help");
+        if (help) window.location.href = help.href;
+      }
+      return;
+    }
+    if (event.altKey && event.key === "ArrowUp") onMove(event, target, -1);
+    else if (event.altKey && event.key === "ArrowDown") onMove(event, target, 1);
+    else if (event.altKey && (event.key === "Delete" || event.key === "Backspace")) onDelete(event, target);
+    else if (event.altKey && event.key.toLowerCase() === "n") onAddIpl(event, target);
+    else if (event.key === "Enter" && !event.altKey && !event.shiftKey) onEnter(event, target);
+    else if (event.key === "Escape") onEscape(event, target);
+  });
+})();
