@@ -23,6 +23,14 @@ def utc_now() -> datetime:
     return datetime.now(UTC)
 
 
+def text_limit(model: type[SQLModel], field: str) -> int:
+    """The longest text a column holds: the one limit every form and file check uses."""
+    length = model.__table__.columns[field].type.length  # type: ignore[attr-defined]
+    if length is None:
+        raise ValueError(f"{model.__name__}.{field} has no length limit")
+    return int(length)
+
+
 class StepKindValue(StrEnum):
     """Stored step kinds; the same strings as app.likelihood.StepKind."""
 

@@ -13,7 +13,13 @@ from typing import Any
 
 from sqlmodel import Session, col, select
 
-from app.db.models import ActionStatus, Recommendation, RecommendationScenario, Scenario
+from app.db.models import (
+    ActionStatus,
+    Recommendation,
+    RecommendationScenario,
+    Scenario,
+    text_limit,
+)
 from app.services.change_log import record_link_change
 from app.services.study_tree import NotFoundError, get_study
 
@@ -25,7 +31,9 @@ STATUS_LABELS = {
     ActionStatus.DONE: "Done",
     ActionStatus.REJECTED: "Rejected",
 }
-TEXT_LIMITS = {"text": 2000, "owner": 120, "status_reason": 1000}
+TEXT_LIMITS = {
+    field: text_limit(Recommendation, field) for field in ("text", "owner", "status_reason")
+}
 
 
 class ActionInputError(ValueError):

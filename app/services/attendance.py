@@ -9,12 +9,14 @@ from typing import Any
 
 from sqlmodel import Session, col, select
 
-from app.db.models import Attendance, Participant, SessionDay, Study
+from app.db.models import Attendance, Participant, SessionDay, Study, text_limit
 from app.db.queries import fetch_rows_of_study
 from app.services.study_tree import NotFoundError, get_study
 
-PARTICIPANT_LIMITS = {"name": 120, "role": 80, "discipline": 80, "company": 120}
-NOTE_LIMIT = 500
+PARTICIPANT_LIMITS = {
+    field: text_limit(Participant, field) for field in ("name", "role", "discipline", "company")
+}
+NOTE_LIMIT = text_limit(SessionDay, "note")
 
 
 class AttendanceInputError(ValueError):

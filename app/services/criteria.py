@@ -10,13 +10,15 @@ from typing import Any
 from sqlmodel import Session, col, func, or_, select
 from sqlmodel.sql.expression import SelectOfScalar
 
-from app.db.models import Receptor, Scenario, SeverityCategory, Study
+from app.db.models import Receptor, Scenario, SeverityCategory, Study, text_limit
 from app.likelihood.numbers import parse_frequency
 from app.likelihood.types import LikelihoodInputError
 from app.services.results import governing_category
 from app.services.study_tree import NotFoundError, StudyTree, get_study, load_study_tree
 
-NAME_LIMIT, DESCRIPTION_LIMIT, BASIS_LIMIT = 80, 1000, 500
+NAME_LIMIT = text_limit(SeverityCategory, "name")
+DESCRIPTION_LIMIT = text_limit(SeverityCategory, "description")
+BASIS_LIMIT = text_limit(Study, "criteria_basis")
 RECEPTOR_LABELS = {Receptor.PEOPLE: "people", Receptor.ENVIRONMENT: "environment",
                    Receptor.ASSET: "asset"}
 

@@ -6,7 +6,7 @@ from typing import Any
 
 from sqlmodel import Session, col, select
 
-from app.db.models import ChangeLogEntry, Revision, Study, utc_now
+from app.db.models import ChangeLogEntry, Revision, Study, text_limit, utc_now
 from app.db.tracking import SUPPRESS_LOG_KEY
 from app.services.revision_diff import (
     MATCHING_RULE,
@@ -20,7 +20,7 @@ from app.services.study_io import export_study
 from app.services.study_tree import NotFoundError, get_study
 
 LIVE = "live"
-LIMITS = {"label": 60, "note": 2000, "signed_off_by": 120}
+LIMITS = {field: text_limit(Revision, field) for field in ("label", "note", "signed_off_by")}
 
 
 class RevisionInputError(ValueError):

@@ -8,7 +8,7 @@ from typing import Any
 from sqlmodel import Session, col, select
 from sqlmodel.sql.expression import SelectOfScalar
 
-from app.db.models import Deviation, Scenario, SeverityCategory, Step, Study
+from app.db.models import Deviation, Scenario, SeverityCategory, Step, Study, text_limit
 from app.db.queries import fetch_rows_of_study
 from app.likelihood.checks import CheckWarning, check_scenario
 from app.likelihood.types import STEP_KIND_LABELS, DemandMode, IplType, StepKind
@@ -25,7 +25,7 @@ IPL_TYPE_LABELS: dict[IplType, str] = {
     IplType.PASSIVE: "Passive layer (dike, vent, wall, arrester)",
     IplType.OTHER: "Other layer",
 }
-SYSTEM_TAG_LIMIT, BASIS_LIMIT = 80, 2000
+SYSTEM_TAG_LIMIT, BASIS_LIMIT = text_limit(Step, "system_tag"), text_limit(Step, "basis")
 
 
 @dataclass(frozen=True)

@@ -18,6 +18,7 @@ from app.db.models import (
     SeverityCategory,
     Step,
     StepKindValue,
+    text_limit,
 )
 from app.likelihood.numbers import ParsedNumber, parse_frequency, parse_probability
 from app.likelihood.types import STEP_KIND_LABELS, LikelihoodInputError, StepKind
@@ -48,16 +49,21 @@ class RowKind:
     required: tuple[str, ...] = ()
 
 
+def _limits(model: type[Any], *fields: str) -> dict[str, int]:
+    return {field: text_limit(model, field) for field in fields}
+
+
 KINDS: dict[str, RowKind] = {
-    "node": RowKind("node", Node, None, {"number": 20, "name": 200, "design_intent": 2000,
-                                        "drawing_reference": 200}, ("name",)),
+    "node": RowKind("node", Node, None,
+                    _limits(Node, "number", "name", "design_intent", "drawing_reference"),
+                    ("name",)),
     "deviation": RowKind("deviation", Deviation, "node_id",
-                         {"guideword": 40, "parameter": 60, "description": 2000}),
+                         _limits(Deviation, "guideword", "parameter", "description")),
     "scenario": RowKind("scenario", Scenario, "deviation_id",
-                        {"cause": 2000, "consequence": 2000, "notes": 5000}),
-    "step": RowKind("step", Step, "scenario_id", {"description": 1000, "basis": 2000}),
+                        _limits(Scenario, "cause", "consequence", "notes")),
+    "step": RowKind("step", Step, "scenario_id", _limits(Step, "description", "basis")),
     "safeguard": RowKind("safeguard", Safeguard, "scenario_id",
-                         {"description": 1000, "note": 1000}, ("description",)),
+                         _limits(Safeguard, "description", "note"), ("description",)),
 }
 PARENT_KIND = {"deviation": "node", "scenario": "deviation", "step": "scenario",
                "safeguard": "scenario"}

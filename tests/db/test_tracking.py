@@ -4,7 +4,17 @@ import pytest
 from sqlalchemy.exc import IntegrityError
 from sqlmodel import Session, select
 
-from app.db.models import ChangeLogEntry, Deviation, Node, Scenario, Step, StepKindValue
+from app.db.models import (
+    ChangeLogEntry,
+    Deviation,
+    Node,
+    Revision,
+    Scenario,
+    Step,
+    StepKindValue,
+    Study,
+    text_limit,
+)
 from app.db.tracking import COALESCE_WINDOW
 from tests.conftest import TEST_AUTHOR
 from tests.factories import make_scenario_tree, make_step
@@ -80,3 +90,10 @@ def test_the_database_refuses_a_second_initiating_event(session: Session) -> Non
     scenario = make_scenario_tree(session)
     with pytest.raises(IntegrityError):
         make_step(session, scenario, kind=StepKindValue.INITIATING_EVENT, value=1.0)
+
+
+def test_text_limits_come_from_the_columns_the_database_enforces() -> None:
+    assert text_limit(Scenario, "cause") == 2000
+    assert text_limit(Study, "title") == 200
+    with pytest.raises(ValueError, match="has no length limit"):
+        text_limit(Revision, "snapshot")

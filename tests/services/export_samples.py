@@ -4,7 +4,7 @@ import json
 
 from sqlmodel import Session, func, select
 
-from app.db.models import Participant, Revision, Scenario, Step, StepKindValue, Study
+from app.db.models import Participant, Revision, Scenario, Step, StepKindValue, Study, text_limit
 from app.db.queries import fetch_rows_of_study
 from app.services.study_io import export_study
 from tests.factories import (
@@ -25,7 +25,8 @@ SCRIPTS = {
     "devanagari": "सुरक्षा वाल्व बंद",
     "emoji": "🔥⚠️🛢️",
 }
-LONG_TEXT = ("long-" * 2000)[:10_000]
+# As long as a cause may be: the database refuses longer text (PostgreSQL enforces VARCHAR).
+LONG_TEXT = ("long-" * 1000)[: text_limit(Scenario, "cause")]
 
 
 def study_count(session: Session) -> int:
