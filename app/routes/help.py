@@ -10,5 +10,5 @@ router = APIRouter()
 
 @router.get("/help/keys", name="read_keyboard_help")
 def read_keyboard_help(request: Request) -> Response:
-    """The worksheet's keyboard shortcuts."""
+    """The keyboard shortcuts of the worksheet and the actions page."""
     return render(request, "help/keys.html", {})

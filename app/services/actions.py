@@ -1,11 +1,9 @@
-"""Recommendations (actions): create, edit, delete, link to scenarios, and the sorted list.
+"""Recommendations (actions): create, edit, delete, move, link to scenarios, and the list.
 
-Every write validates first and raises ActionInputError naming the field and the rule, so
-nothing invalid reaches the database. Values may arrive typed (date, float) or as the text a
-form sent ('2027-03-31', '300'); both are read the same way.
+Every write validates first (app/services/action_inputs.py) and raises ActionInputError naming
+the field and the rule, so nothing invalid reaches the database.
 """
 
-import math
 from collections.abc import Iterable, Mapping
 from dataclasses import dataclass
 from datetime import date
@@ -18,12 +16,17 @@ from app.db.models import (
     Recommendation,
     RecommendationScenario,
     Scenario,
-    text_limit,
+)
+from app.services.action_inputs import (
+    ActionInputError,
+    ActionOrder,
+    check_reason,
+    read_changes,
+    read_direction,
 )
 from app.services.change_log import record_link_change
 from app.services.study_tree import NotFoundError, get_study
 
-EDITABLE_FIELDS = ("text", "owner", "due_date", "status", "status_reason", "expected_rrf")
 STILL_OPEN = (ActionStatus.OPEN, ActionStatus.IN_PROGRESS)
 STATUS_LABELS = {
     ActionStatus.OPEN: "Open",
@@ -31,106 +34,6 @@ STATUS_LABELS = {
     ActionStatus.DONE: "Done",
     ActionStatus.REJECTED: "Rejected",
 }
-TEXT_LIMITS = {
-    field: text_limit(Recommendation, field) for field in ("text", "owner", "status_reason")
-}
-
-
-class ActionInputError(ValueError):
-    """Bad input for a recommendation: `field` is the form field, `message` names the rule."""
-
-    def __init__(self, field: str, message: str) -> None:
-        super().__init__(message)
-        self.field = field
-        self.message = message
-
-
-def read_due_date(value: Any) -> date | None:
-    """A due date from a date, an ISO 'YYYY-MM-DD' text, or nothing."""
-    if value is None or isinstance(value, date):
-        return value
-    typed = str(value).strip()
-    if not typed:
-        return None
-    try:
-        return date.fromisoformat(typed)
-    except ValueError:
-        raise ActionInputError(
-            "due_date", f"the due date must be a date written YYYY-MM-DD (got '{typed}')."
-        ) from None
-
-
-def read_expected_rrf(value: Any) -> float | None:
-    """An expected risk reduction factor: a finite number above 0, or nothing."""
-    if value is None or (isinstance(value, str) and not value.strip()):
-        return None
-    try:
-        rrf = float(str(value).strip().replace(",", "")) if isinstance(value, str) else float(value)
-    except ValueError:
-        raise ActionInputError(
-            "expected_rrf", f"the expected risk reduction must be a number such as 100 "
-            f"(got '{str(value).strip()}')."
-        ) from None
-    if not math.isfinite(rrf) or rrf <= 0:
-        raise ActionInputError(
-            "expected_rrf", f"the expected risk reduction must be a number above 0 (got {value})."
-        )
-    return rrf
-
-
-def read_status(value: Any) -> ActionStatus:
-    """One of the action statuses (open, in_progress, done, rejected)."""
-    try:
-        return ActionStatus(str(value).strip())
-    except ValueError:
-        known = ", ".join(status.value for status in ActionStatus)
-        raise ActionInputError(
-            "status", f"the status must be one of {known} (got '{value}')."
-        ) from None
-
-
-def read_scenario_id(value: Any) -> int:
-    """A scenario id chosen in a select."""
-    try:
-        return int(str(value).strip())
-    except ValueError:
-        raise ActionInputError("scenario_id", "choose a scenario to link.") from None
-
-
-def _read_text(field: str, value: Any) -> str:
-    text = "" if value is None else str(value).strip()
-    if field == "text" and not text:
-        raise ActionInputError("text", "the recommendation text is required.")
-    if len(text) > TEXT_LIMITS[field]:
-        raise ActionInputError(
-            field, f"at most {TEXT_LIMITS[field]} characters (got {len(text)})."
-        )
-    return text
-
-
-_READERS = {
-    "text": lambda v: _read_text("text", v),
-    "owner": lambda v: _read_text("owner", v),
-    "status_reason": lambda v: _read_text("status_reason", v),
-    "due_date": read_due_date,
-    "status": read_status,
-    "expected_rrf": read_expected_rrf,
-}
-
-
-def read_changes(changes: Mapping[str, Any]) -> dict[str, Any]:
-    """Validate and convert the sent fields; an unknown field is refused."""
-    unknown = sorted(set(changes) - set(EDITABLE_FIELDS))
-    if unknown:
-        raise ActionInputError(unknown[0], f"'{unknown[0]}' is not an editable action field.")
-    return {name: _READERS[name](value) for name, value in changes.items()}
-
-
-def _check_reason(status: ActionStatus, reason: str) -> None:
-    if status == ActionStatus.REJECTED and not reason.strip():
-        raise ActionInputError(
-            "status_reason", "a rejected action needs a reason: say why it was rejected."
-        )
 
 
 def get_action(
@@ -185,7 +88,7 @@ def update_action(
     """Change only the sent fields; a rejected action must carry a reason."""
     action = get_action(session=session, action_id=action_id, study_id=study_id)
     values = read_changes(changes)
-    _check_reason(values.get("status", action.status),
+    check_reason(values.get("status", action.status),
                   values.get("status_reason", action.status_reason))
     action.sqlmodel_update(values)
     session.add(action)
@@ -202,6 +105,36 @@ def delete_action(*, session: Session, action_id: int, study_id: int | None = No
     session.flush()  # links first: the unit of work does not order these two tables
     session.delete(action)
     session.commit()
+
+
+def move_action(
+    *, session: Session, action_id: int, study_id: int, direction: str
+) -> Recommendation:
+    """Swap the action with its neighbour in the team order ('up' or 'down'); ends stay put."""
+    action = get_action(session=session, action_id=action_id, study_id=study_id)
+    step = read_direction(direction)
+    ordered = _in_team_order(session, study_id)
+    index = ordered.index(action)
+    if 0 <= index + step < len(ordered):
+        neighbour = ordered[index + step]
+        if neighbour.position == action.position:
+            _renumber(ordered)  # tied positions (hand-made data) would swap to no effect
+        action.position, neighbour.position = neighbour.position, action.position
+        session.commit()
+        session.refresh(action)
+    return action
+
+
+def _in_team_order(session: Session, study_id: int) -> list[Recommendation]:
+    return list(session.exec(
+        select(Recommendation).where(Recommendation.study_id == study_id)
+        .order_by(col(Recommendation.position), col(Recommendation.id))
+    ).all())
+
+
+def _renumber(ordered: list[Recommendation]) -> None:
+    for position, action in enumerate(ordered):
+        action.position = position
 
 
 def _links(session: Session, action_ids: list[int]) -> list[RecommendationScenario]:
@@ -270,7 +203,7 @@ class ActionEntry:
 
 @dataclass(frozen=True)
 class ActionList:
-    """A study's recommendations sorted by due date (undated last), overdue ones marked."""
+    """A study's recommendations in the chosen order, overdue ones marked."""
 
     today: date
     entries: tuple[ActionEntry, ...]
@@ -291,12 +224,18 @@ def _due_order(action: Recommendation) -> tuple[bool, date, int, int]:
             action.id or 0)
 
 
-def list_actions(*, session: Session, study_id: int, today: date) -> ActionList:
-    """Every recommendation of the study, by due date with undated ones last."""
+def _team_order(action: Recommendation) -> tuple[int, int]:
+    return (action.position, action.id or 0)
+
+
+def list_actions(
+    *, session: Session, study_id: int, today: date, order: ActionOrder = ActionOrder.DUE
+) -> ActionList:
+    """Every recommendation of the study, by due date (undated last) or in the team's order."""
     get_study(session, study_id)
     actions = sorted(
         session.exec(select(Recommendation).where(Recommendation.study_id == study_id)).all(),
-        key=_due_order,
+        key=_team_order if order == ActionOrder.TEAM else _due_order,
     )
     linked = scenario_ids_by_action(session=session, action_ids=[a.id for a in actions if a.id])
     return ActionList(today, tuple(

@@ -12,6 +12,7 @@ from datetime import date
 from sqlmodel import Session
 
 from app.db.models import Study
+from app.services.action_inputs import ActionOrder
 from app.services.actions import STATUS_LABELS, ActionEntry, list_actions
 from app.services.study_tree import ScenarioNode, load_study_tree
 
@@ -61,6 +62,22 @@ class ActionsPage:
     rows: tuple[ActionRow, ...]
     overdue_count: int
     scenario_choices: tuple[ScenarioChoice, ...]
+    order: ActionOrder = ActionOrder.DUE
+
+    @property
+    def in_team_order(self) -> bool:
+        """True when rows follow the team's order (and so can be moved)."""
+        return self.order == ActionOrder.TEAM
+
+    @property
+    def order_query(self) -> str:
+        """What every link and form of the page carries to stay in this order."""
+        return order_query(self.order)
+
+
+def order_query(order: ActionOrder) -> str:
+    """'?order=team' for the team order; nothing for the default order by due date."""
+    return f"?order={order.value}" if order == ActionOrder.TEAM else ""
 
 
 def scenario_label(node_number: str, item: ScenarioNode) -> str:
@@ -95,10 +112,12 @@ def judge_closure(item: ScenarioNode, label: str, expected_rrf: float | None) ->
                              result.tolerable_frequency, after, closes, verdict)
 
 
-def read_actions_page(*, session: Session, study_id: int, today: date) -> ActionsPage:
-    """The study's actions by due date, each with its addressed scenarios' gaps."""
+def read_actions_page(
+    *, session: Session, study_id: int, today: date, order: ActionOrder = ActionOrder.DUE
+) -> ActionsPage:
+    """The study's actions in the chosen order, each with its addressed scenarios' gaps."""
     tree = load_study_tree(session, study_id)
-    listing = list_actions(session=session, study_id=study_id, today=today)
+    listing = list_actions(session=session, study_id=study_id, today=today, order=order)
     scenarios = {
         item.scenario.id: (scenario_label(node.node.number, item), item)
         for node in tree.nodes for item in node.scenario_nodes()
@@ -112,7 +131,7 @@ def read_actions_page(*, session: Session, study_id: int, today: date) -> Action
         free = tuple(c for c in choices if c.scenario_id not in entry.scenario_ids)
         rows.append(ActionRow(entry, STATUS_LABELS[entry.action.status], rrf_orders(rrf),
                               addressed, free))
-    return ActionsPage(tree.study, today, tuple(rows), listing.overdue_count, choices)
+    return ActionsPage(tree.study, today, tuple(rows), listing.overdue_count, choices, order)
 
 
 @dataclass(frozen=True)
