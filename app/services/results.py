@@ -2,6 +2,7 @@
 
 from collections.abc import Iterable, Mapping
 from dataclasses import dataclass
+from functools import lru_cache
 
 from app.db.models import Scenario, SeverityCategory, Step
 from app.likelihood.frequency import compute_scenario
@@ -40,6 +41,14 @@ def step_inputs(steps: Iterable[Step]) -> list[StepInput]:
     ]
 
 
+# The arithmetic is pure, so results are cached on their inputs: a page that shows a whole
+# study recomputes only the scenarios whose numbers changed since the last view.
+@lru_cache(maxsize=65_536)
+def compute_cached(steps: tuple[StepInput, ...], tolerable_frequency: float) -> ScenarioResult:
+    """compute_scenario, remembered for identical inputs."""
+    return compute_scenario(steps, tolerable_frequency)
+
+
 def compute_outcome(
     scenario: Scenario, steps: Iterable[Step], categories: Mapping[int, SeverityCategory]
 ) -> ScenarioOutcome:
@@ -48,7 +57,7 @@ def compute_outcome(
     if category is None:
         return ScenarioOutcome(None, None, "no severity category: no target to compare with")
     try:
-        result = compute_scenario(step_inputs(steps), category.tolerable_frequency)
+        result = compute_cached(tuple(step_inputs(steps)), category.tolerable_frequency)
     except LikelihoodInputError as err:
         return ScenarioOutcome(None, category, err.message)
     return ScenarioOutcome(result, category)
