@@ -2,26 +2,152 @@
 
 from typing import Any, TypeVar
 
-from sqlmodel import Session, func, select
+from sqlalchemy import Row as ResultRow
+from sqlmodel import Session, col, func, select
 from sqlmodel.sql.expression import SelectOfScalar
 
-from app.db.models import Node, Scenario, Study
+from app.db.models import (
+    Deviation,
+    Node,
+    Recommendation,
+    RecommendationScenario,
+    Scenario,
+    SeverityCategory,
+    Step,
+    Study,
+)
 
 Row = TypeVar("Row")
 
 
-def rows_of_study(model: type[Row], study_id: int) -> SelectOfScalar[Row]:
-    """Every row of `model` in one study, in display order."""
+def _in_display_order(statement: Any, model: type[Any]) -> Any:
+    """Order rows as the worksheet shows them: by position where the model has one, then id."""
     table: Any = model
-    statement = select(model).where(table.study_id == study_id)
     if hasattr(model, "position"):
         return statement.order_by(table.position, table.id)
     return statement.order_by(table.id)
 
 
+def rows_of_study(model: type[Row], study_id: int) -> SelectOfScalar[Row]:
+    """Every row of `model` in one study, in display order."""
+    table: Any = model
+    return _in_display_order(select(model).where(table.study_id == study_id), model)
+
+
 def fetch_rows_of_study(session: Session, model: type[Row], study_id: int) -> list[Row]:
     """Run rows_of_study."""
     return list(session.exec(rows_of_study(model, study_id)).all())
+
+
+def rows_of_node(model: type[Row], node_id: int) -> SelectOfScalar[Row]:
+    """Every deviation, scenario, step or safeguard under one node, in display order."""
+    table: Any = model
+    statement: Any = select(model)
+    if model is not Deviation:
+        if model is not Scenario:
+            statement = statement.join(Scenario, col(Scenario.id) == table.scenario_id)
+        statement = statement.join(Deviation, col(Deviation.id) == col(Scenario.deviation_id))
+    return _in_display_order(statement.where(Deviation.node_id == node_id), model)
+
+
+def fetch_rows_of_node(session: Session, model: type[Row], node_id: int) -> list[Row]:
+    """Run rows_of_node."""
+    return list(session.exec(rows_of_node(model, node_id)).all())
+
+
+def step_figures_of_study(study_id: int) -> Any:
+    """The columns of a study's steps that the arithmetic reads, as plain rows."""
+    return select(Step.scenario_id, Step.id, Step.position, Step.kind, Step.value,
+                  Step.credited, Step.description).where(Step.study_id == study_id)
+
+
+def scenario_ratings_of_study(study_id: int) -> Any:
+    """Each scenario of a study with its node and its three severity ratings, as plain rows."""
+    return (select(Scenario.id, Scenario.deviation_id, Deviation.node_id,
+                   Scenario.severity_category_id, Scenario.environment_category_id,
+                   Scenario.asset_category_id)
+            .join(Deviation, col(Deviation.id) == col(Scenario.deviation_id))
+            .where(Scenario.study_id == study_id))
+
+
+def category_targets_of_study(study_id: int) -> Any:
+    """Each severity category's id, name and tolerable frequency, as plain rows."""
+    return select(SeverityCategory.id, SeverityCategory.name,
+                  SeverityCategory.tolerable_frequency).where(
+        SeverityCategory.study_id == study_id)
+
+
+def placed_rows_of_study(model: type[Any], parent_field: str, study_id: int) -> Any:
+    """(id, parent id, position) of every row of `model` in one study, as plain rows."""
+    table: Any = model
+    return select(table.id, getattr(table, parent_field), table.position).where(
+        table.study_id == study_id)
+
+
+def fetch_plain_rows(session: Session, statement: Any) -> list[ResultRow[Any]]:
+    """Run a column select on the session's connection: plain rows, no ORM objects built."""
+    session.flush()  # the connection does not autoflush as session.execute would
+    return list(session.connection().execute(statement).all())
+
+
+def node_links_of_study(study_id: int) -> Any:
+    """Each node's id, number and name in display order (for the node switcher)."""
+    statement = select(Node.id, Node.number, Node.name).where(Node.study_id == study_id)
+    return _in_display_order(statement, Node)
+
+
+def fetch_node_links(session: Session, study_id: int) -> list[ResultRow[Any]]:
+    """Run node_links_of_study."""
+    return list(session.execute(node_links_of_study(study_id)).all())
+
+
+def fetch_first_node_id(session: Session, study_id: int) -> int | None:
+    """Run node_links_of_study for the first node only."""
+    return session.execute(node_links_of_study(study_id).limit(1)).scalar()
+
+
+def first_scenario_of_study(study_id: int) -> Any:
+    """The id of the study's first scenario in worksheet order."""
+    return (select(Scenario.id)
+            .join(Deviation, col(Deviation.id) == col(Scenario.deviation_id))
+            .join(Node, col(Node.id) == col(Deviation.node_id))
+            .where(Scenario.study_id == study_id)
+            .order_by(col(Node.position), col(Node.id), col(Deviation.position),
+                      col(Deviation.id), col(Scenario.position), col(Scenario.id))
+            .limit(1))
+
+
+def fetch_first_scenario_id(session: Session, study_id: int) -> int | None:
+    """Run first_scenario_of_study."""
+    return session.execute(first_scenario_of_study(study_id)).scalar()
+
+
+def scenario_count_of_study(study_id: int) -> Any:
+    """How many scenarios a study has."""
+    return select(func.count()).select_from(Scenario).where(Scenario.study_id == study_id)
+
+
+def fetch_scenario_count(session: Session, study_id: int) -> int:
+    """Run scenario_count_of_study."""
+    return int(session.execute(scenario_count_of_study(study_id)).scalar_one())
+
+
+def recommendations_of_node(node_id: int) -> Any:
+    """(scenario id, recommendation) for every action linked to a scenario under one node."""
+    return (select(RecommendationScenario.scenario_id, Recommendation)
+            .join(Recommendation,
+                  col(Recommendation.id) == col(RecommendationScenario.recommendation_id))
+            .join(Scenario, col(Scenario.id) == col(RecommendationScenario.scenario_id))
+            .join(Deviation, col(Deviation.id) == col(Scenario.deviation_id))
+            .where(Deviation.node_id == node_id)
+            .order_by(col(RecommendationScenario.scenario_id), col(Recommendation.position),
+                      col(Recommendation.id)))
+
+
+def fetch_recommendations_of_node(session: Session,
+                                  node_id: int) -> list[tuple[int, Recommendation]]:
+    """Run recommendations_of_node."""
+    return [(row[0], row[1]) for row in session.execute(recommendations_of_node(node_id))]
 
 
 def studies_with_counts() -> Any:

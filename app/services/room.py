@@ -19,8 +19,10 @@ from app.db.models import (
     Study,
     utc_now,
 )
-from app.services.study_tree import NotFoundError, get_study, load_study_tree
-from app.services.worksheet_edits import ScenarioReply, scenario_reply
+from app.db.queries import fetch_first_scenario_id, fetch_scenario_count
+from app.services.study_tree import NotFoundError, get_study
+from app.services.worksheet import ScenarioView
+from app.services.worksheet_edits import located_scenario
 
 WATCHED = (Node, Deviation, Scenario, Step, Safeguard, SeverityCategory, Recommendation)
 
@@ -31,7 +33,7 @@ class RoomView:
 
     study: Study
     stamp: str
-    reply: ScenarioReply | None
+    scenario: ScenarioView | None
     node: Node | None
     deviation: Deviation | None
     scenario_count: int
@@ -75,17 +77,23 @@ def set_focus(*, session: Session, study_id: int, scenario_id: int) -> None:
 
 
 def read_room(*, session: Session, study_id: int) -> RoomView:
-    """The scenario in focus, or the study's first scenario until the scribe picks one."""
+    """The scenario in focus, or the study's first scenario until the scribe picks one.
+
+    Only the shown scenario's node is loaded; the rest of the study is counted, not read.
+    """
     stamp = change_stamp(session=session, study_id=study_id)
-    tree = load_study_tree(session, study_id)
-    scenarios = tree.scenario_nodes()
-    ids = [s.scenario.id for s in scenarios]
-    focus = tree.study.focus_scenario_id
-    chosen = focus if focus in ids else (ids[0] if ids else None)
+    study = get_study(session, study_id)
+    chosen = shown_scenario_id(session, study)
     if chosen is None:
-        return RoomView(tree.study, stamp, None, None, None, 0)
-    reply = scenario_reply(session=session, study_id=study_id, scenario_id=chosen, tree=tree)
-    scenario = reply.scenario.item.scenario if reply.scenario else None
-    deviation = session.get(Deviation, scenario.deviation_id) if scenario else None
-    return RoomView(tree.study, stamp, reply, session.get(Node, reply.node_id), deviation,
-                    len(scenarios))
+        return RoomView(study, stamp, None, None, None, 0)
+    view, node = located_scenario(session=session, study_id=study_id, scenario_id=chosen)
+    deviation = session.get(Deviation, view.item.scenario.deviation_id)
+    return RoomView(study, stamp, view, node, deviation, fetch_scenario_count(session, study_id))
+
+
+def shown_scenario_id(session: Session, study: Study) -> int | None:
+    """The scribe's focus while that scenario exists, else the study's first scenario."""
+    focus = session.get(Scenario, study.focus_scenario_id) if study.focus_scenario_id else None
+    if focus is not None and focus.study_id == study.id:
+        return focus.id
+    return fetch_first_scenario_id(session, study.id or 0)

@@ -1,11 +1,14 @@
 """Study listing and the study overview page's data."""
 
+import math
+from collections.abc import Sequence
 from dataclasses import dataclass
 
 from sqlmodel import Session
 
 from app.db.models import Study
 from app.db.queries import fetch_studies_with_counts
+from app.likelihood.types import ScenarioResult
 from app.services.study_tree import NodeNode, ScenarioNode, StudyTree, load_study_tree
 
 
@@ -42,15 +45,21 @@ def list_studies(*, session: Session) -> list[StudyListing]:
     return [StudyListing(*row) for row in fetch_studies_with_counts(session)]
 
 
+def totals_of_results(results: Sequence[ScenarioResult | None]) -> NodeTotals:
+    """Count and sum scenario results; None stands for a scenario that could not be computed."""
+    computed = [r for r in results if r is not None]
+    return NodeTotals(
+        scenario_count=len(results),
+        short_count=sum(not r.meets_target for r in computed),
+        unresolved_count=len(results) - len(computed),
+        # fsum is exact, so the sum does not depend on the order the scenarios were read in.
+        summed_frequency=math.fsum(r.mitigated_frequency for r in computed),
+    )
+
+
 def totals_of(scenarios: list[ScenarioNode]) -> NodeTotals:
     """Count and sum a set of scenarios' outcomes."""
-    results = [s.outcome.result for s in scenarios if s.outcome.result is not None]
-    return NodeTotals(
-        scenario_count=len(scenarios),
-        short_count=sum(not r.meets_target for r in results),
-        unresolved_count=len(scenarios) - len(results),
-        summed_frequency=sum(r.mitigated_frequency for r in results),
-    )
+    return totals_of_results([s.outcome.result for s in scenarios])
 
 
 def node_totals(nodes: list[NodeNode]) -> dict[int, NodeTotals]:

@@ -1,7 +1,9 @@
-"""Load a whole study in a handful of queries and compute every scenario once."""
+"""Load a whole study, or one node of it, in a handful of queries and compute its scenarios."""
 
 from collections import defaultdict
+from collections.abc import Callable
 from dataclasses import dataclass, field
+from typing import Any
 
 from sqlmodel import Session
 
@@ -15,7 +17,7 @@ from app.db.models import (
     Step,
     Study,
 )
-from app.db.queries import fetch_rows_of_study
+from app.db.queries import fetch_rows_of_node, fetch_rows_of_study
 from app.services.results import ScenarioOutcome, compute_outcome
 
 
@@ -63,6 +65,25 @@ class StudyTree:
         return [s for n in self.nodes for s in n.scenario_nodes()]
 
 
+@dataclass
+class NodeTree:
+    """One node of a study, ordered and computed as the worksheet shows it."""
+
+    study: Study
+    categories: list[SeverityCategory]
+    node: NodeNode
+
+
+@dataclass(frozen=True)
+class _ContentRows:
+    """Deviations, scenarios, steps and safeguards, each grouped by its parent's id."""
+
+    deviations: dict[int, list[Deviation]]
+    scenarios: dict[int, list[Scenario]]
+    steps: dict[int, list[Step]]
+    safeguards: dict[int, list[Safeguard]]
+
+
 def get_study(session: Session, study_id: int) -> Study:
     """The study, or NotFoundError."""
     study = session.get(Study, study_id)
@@ -75,25 +96,49 @@ def load_study_tree(session: Session, study_id: int) -> StudyTree:
     """All of a study's content with every scenario computed."""
     study = get_study(session, study_id)
     categories = fetch_rows_of_study(session, SeverityCategory, study_id)
-    by_id = {c.id: c for c in categories if c.id is not None}
-    steps = _group(fetch_rows_of_study(session, Step, study_id), "scenario_id")
-    safeguards = _group(fetch_rows_of_study(session, Safeguard, study_id), "scenario_id")
-    scenarios = _group(fetch_rows_of_study(session, Scenario, study_id), "deviation_id")
-    deviations = _group(fetch_rows_of_study(session, Deviation, study_id), "node_id")
-    nodes = []
-    for node in fetch_rows_of_study(session, Node, study_id):
-        node_node = NodeNode(node)
-        for deviation in deviations[node.id]:
-            deviation_node = DeviationNode(deviation)
-            for scenario in scenarios[deviation.id]:
-                outcome = compute_outcome(scenario, steps[scenario.id], by_id)
-                deviation_node.scenarios.append(
-                    ScenarioNode(scenario, steps[scenario.id], safeguards[scenario.id], outcome)
-                )
-            node_node.deviations.append(deviation_node)
-        nodes.append(node_node)
+    rows = _content_rows(lambda model: fetch_rows_of_study(session, model, study_id))
+    nodes = _assemble(fetch_rows_of_study(session, Node, study_id), rows, categories)
     actions = fetch_rows_of_study(session, Recommendation, study_id)
     return StudyTree(study, categories, nodes, actions)
+
+
+def load_node_tree(session: Session, study_id: int, node_id: int) -> NodeTree:
+    """One node's content with its scenarios computed; no other node's rows are loaded."""
+    study = get_study(session, study_id)
+    node = session.get(Node, node_id)
+    if node is None or node.study_id != study_id:
+        raise NotFoundError(f"There is no node {node_id} in study {study_id}.")
+    categories = fetch_rows_of_study(session, SeverityCategory, study_id)
+    rows = _content_rows(lambda model: fetch_rows_of_node(session, model, node_id))
+    return NodeTree(study, categories, _assemble([node], rows, categories)[0])
+
+
+def _content_rows(fetch: Callable[[type[Any]], list[Any]]) -> _ContentRows:
+    return _ContentRows(
+        deviations=_group(fetch(Deviation), "node_id"),
+        scenarios=_group(fetch(Scenario), "deviation_id"),
+        steps=_group(fetch(Step), "scenario_id"),
+        safeguards=_group(fetch(Safeguard), "scenario_id"),
+    )
+
+
+def _assemble(nodes: list[Node], rows: _ContentRows,
+              categories: list[SeverityCategory]) -> list[NodeNode]:
+    """Nest the rows under their nodes in worksheet order, computing each scenario."""
+    by_id = {c.id: c for c in categories if c.id is not None}
+    assembled = []
+    for node in nodes:
+        node_node = NodeNode(node)
+        for deviation in rows.deviations[node.id or 0]:
+            deviation_node = DeviationNode(deviation)
+            for scenario in rows.scenarios[deviation.id or 0]:
+                steps = rows.steps[scenario.id or 0]
+                deviation_node.scenarios.append(ScenarioNode(
+                    scenario, steps, rows.safeguards[scenario.id or 0],
+                    compute_outcome(scenario, steps, by_id)))
+            node_node.deviations.append(deviation_node)
+        assembled.append(node_node)
+    return assembled
 
 
 def _group(rows: list, key: str) -> dict[int, list]:  # type: ignore[type-arg]

@@ -1,28 +1,28 @@
 """The node worksheet: display-ready scenarios with their ladders, and live value edits."""
 
-from collections import OrderedDict
+from collections import OrderedDict, defaultdict
 from dataclasses import dataclass
 from threading import Lock
 
 from sqlmodel import Session
 
 from app.db.models import DeletedItem, Node, Recommendation, SeverityCategory, Step, Study
+from app.db.queries import fetch_first_node_id, fetch_node_links, fetch_recommendations_of_node
 from app.likelihood.checks import CheckWarning
 from app.likelihood.numbers import format_number
 from app.likelihood.types import STEP_KIND_LABELS, LikelihoodInputError, StepKind
-from app.services.actions import scenario_ids_by_action
 from app.services.ipl_checks import scenario_warnings
 from app.services.ladder import LadderView, build_ladder
 from app.services.structure import parse_step_value, step_label
 from app.services.structure_undo import DeleteCounts, delete_question, last_deleted
-from app.services.studies import NodeTotals, totals_of
+from app.services.studies import NodeTotals
+from app.services.study_totals import study_totals
 from app.services.study_tree import (
     DeviationNode,
     NodeNode,
-    NotFoundError,
     ScenarioNode,
-    StudyTree,
-    load_study_tree,
+    get_study,
+    load_node_tree,
 )
 
 KIND_ORDER = [StepKind.INITIATING_EVENT, StepKind.ENABLING_CONDITION,
@@ -66,12 +66,21 @@ class DeviationView:
 
 
 @dataclass(frozen=True)
+class NodeLink:
+    """A node as the node switcher lists it."""
+
+    id: int
+    number: str
+    name: str
+
+
+@dataclass(frozen=True)
 class WorksheetPage:
     """Everything the node worksheet shows."""
 
     study: Study
     node: Node
-    nodes: tuple[Node, ...]
+    nodes: tuple[NodeLink, ...]
     categories: tuple[SeverityCategory, ...]
     deviations: tuple[DeviationView, ...]
     node_totals: NodeTotals
@@ -103,17 +112,13 @@ def _step_rows(steps: list[Step]) -> tuple[StepRow, ...]:
     return tuple(rows)
 
 
-def recommendations_by_scenario(session: Session, tree: StudyTree
-                                ) -> dict[int, tuple[Recommendation, ...]]:
-    """Each scenario's linked recommendations, in the actions' order."""
-    actions = {a.id: a for a in tree.recommendations if a.id is not None}
-    linked: dict[int, list[Recommendation]] = {}
-    for action_id, scenario_ids in scenario_ids_by_action(
-            session=session, action_ids=list(actions)).items():
-        for scenario_id in scenario_ids:
-            linked.setdefault(scenario_id, []).append(actions[action_id])
-    return {sid: tuple(sorted(recs, key=lambda a: (a.position, a.id or 0)))
-            for sid, recs in linked.items()}
+def recommendations_of_node(session: Session, node_id: int
+                            ) -> dict[int, tuple[Recommendation, ...]]:
+    """The recommendations linked to each scenario of one node, in the actions' order."""
+    linked: dict[int, list[Recommendation]] = defaultdict(list)
+    for scenario_id, action in fetch_recommendations_of_node(session, node_id):
+        linked[scenario_id].append(action)
+    return {scenario_id: tuple(actions) for scenario_id, actions in linked.items()}
 
 
 def scenario_view(item: ScenarioNode, number: str, recommendations: tuple[Recommendation, ...],
@@ -154,36 +159,37 @@ def node_delete_question(node_node: NodeNode) -> str:
     return delete_question("node", node_node.node.number, counts)
 
 
-def find_node(tree: StudyTree, node_id: int) -> NodeNode:
-    """The node of the loaded study, or NotFoundError."""
-    for node_node in tree.nodes:
-        if node_node.node.id == node_id:
-            return node_node
-    raise NotFoundError(f"There is no node {node_id} in study {tree.study.id}.")
-
-
 def read_worksheet(*, session: Session, study_id: int, node_id: int) -> WorksheetPage:
-    """The node's deviations and scenarios, every scenario computed, with node and study totals."""
-    tree = load_study_tree(session, study_id)
-    node_node = find_node(tree, node_id)
+    """The node's deviations and scenarios, every scenario computed, with node and study totals.
+
+    Only this node's rows are loaded as objects; the totals come from plain rows.
+    """
+    tree = load_node_tree(session, study_id, node_id)
+    node_node = tree.node
     number = node_node.node.number or str(node_id)
-    recommendations = recommendations_by_scenario(session, tree)
+    recommendations = recommendations_of_node(session, node_id)
     deviations = tuple(_deviation_view(d, f"{number}.{i}", recommendations)
                        for i, d in enumerate(node_node.deviations, start=1))
+    totals = study_totals(session, study_id)
     return WorksheetPage(
-        study=tree.study, node=node_node.node, nodes=tuple(n.node for n in tree.nodes),
+        study=tree.study, node=node_node.node, nodes=node_links(session, study_id),
         categories=tuple(tree.categories), deviations=deviations,
-        node_totals=totals_of(node_node.scenario_nodes()),
-        study_totals=totals_of(tree.scenario_nodes()),
+        node_totals=totals.of_node(node_id), study_totals=totals.study,
         undo=last_deleted(session=session, study_id=study_id),
         node_delete_question=node_delete_question(node_node),
     )
 
 
+def node_links(session: Session, study_id: int) -> tuple[NodeLink, ...]:
+    """Every node of the study for the node switcher, in display order."""
+    return tuple(NodeLink(row.id, row.number, row.name)
+                 for row in fetch_node_links(session, study_id))
+
+
 def first_node_id(*, session: Session, study_id: int) -> int | None:
     """The study's first node, where the worksheet opens (None when it has none)."""
-    tree = load_study_tree(session, study_id)
-    return tree.nodes[0].node.id if tree.nodes else None
+    get_study(session, study_id)
+    return fetch_first_node_id(session, study_id)
 
 
 class LatestEdits:

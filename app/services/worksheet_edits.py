@@ -6,7 +6,7 @@ from typing import Any
 
 from sqlmodel import Session
 
-from app.db.models import Step
+from app.db.models import Node, Step
 from app.likelihood.numbers import format_number
 from app.likelihood.types import LikelihoodInputError
 from app.services.structure import (
@@ -18,14 +18,14 @@ from app.services.structure import (
     step_label,
     update_row,
 )
-from app.services.studies import NodeTotals, totals_of
-from app.services.study_tree import NodeNode, NotFoundError, StudyTree, load_study_tree
+from app.services.studies import NodeTotals
+from app.services.study_totals import study_totals
+from app.services.study_tree import NodeNode, NotFoundError, ScenarioNode, load_node_tree
 from app.services.worksheet import (
     LATEST_EDITS,
     ScenarioView,
-    find_node,
     plain_value,
-    recommendations_by_scenario,
+    recommendations_of_node,
     scenario_view,
 )
 
@@ -59,43 +59,48 @@ class FieldReply:
     reply: ScenarioReply
 
 
-def _locate(tree: StudyTree, scenario_id: int) -> tuple[NodeNode, str]:
-    for node_node in tree.nodes:
-        node_number = node_node.node.number or str(node_node.node.id)
-        for d_index, deviation_node in enumerate(node_node.deviations, start=1):
-            for s_index, item in enumerate(deviation_node.scenarios, start=1):
-                if item.scenario.id == scenario_id:
-                    return node_node, f"{node_number}.{d_index}.{s_index}"
-    raise NotFoundError(f"There is no scenario {scenario_id} in study {tree.study.id}.")
+def _locate(node_node: NodeNode, scenario_id: int) -> tuple[ScenarioNode, str]:
+    node_number = node_node.node.number or str(node_node.node.id)
+    for d_index, deviation_node in enumerate(node_node.deviations, start=1):
+        for s_index, item in enumerate(deviation_node.scenarios, start=1):
+            if item.scenario.id == scenario_id:
+                return item, f"{node_number}.{d_index}.{s_index}"
+    raise NotFoundError(f"There is no scenario {scenario_id} in node {node_node.node.id}.")
+
+
+def located_scenario(*, session: Session, study_id: int, scenario_id: int,
+                     fallback: str = "") -> tuple[ScenarioView, Node]:
+    """One scenario recomputed and numbered within its node; only that node is loaded."""
+    scenario = get_row(session, kind_of("scenario"), study_id, scenario_id)
+    node_id = node_id_of(session, "scenario", scenario)
+    node_node = load_node_tree(session, study_id, node_id).node
+    item, number = _locate(node_node, scenario_id)
+    links = recommendations_of_node(session, node_id).get(scenario_id, ())
+    return scenario_view(item, number, links, fallback), node_node.node
 
 
 def scenario_reply(*, session: Session, study_id: int, scenario_id: int,
-                   fallback: str = "", tree: StudyTree | None = None) -> ScenarioReply:
+                   fallback: str = "") -> ScenarioReply:
     """The scenario recomputed from what is saved, with its node's and the study's totals."""
-    tree = tree or load_study_tree(session, study_id)
-    node_node, number = _locate(tree, scenario_id)
-    item = next(s for s in node_node.scenario_nodes() if s.scenario.id == scenario_id)
-    links = recommendations_by_scenario(session, tree).get(scenario_id, ())
-    return ScenarioReply(scenario_view(item, number, links, fallback), node_node.node.id or 0,
-                         totals_of(node_node.scenario_nodes()), totals_of(tree.scenario_nodes()))
+    view, node = located_scenario(session=session, study_id=study_id, scenario_id=scenario_id,
+                                  fallback=fallback)
+    return totals_reply(session=session, study_id=study_id, node_id=node.id or 0, scenario=view)
 
 
-def node_reply(*, session: Session, study_id: int, node_id: int) -> ScenarioReply:
-    """Only the totals, for edits that change no figure."""
-    tree = load_study_tree(session, study_id)
-    node_node = find_node(tree, node_id)
-    return ScenarioReply(None, node_id, totals_of(node_node.scenario_nodes()),
-                         totals_of(tree.scenario_nodes()))
+def totals_reply(*, session: Session, study_id: int, node_id: int,
+                 scenario: ScenarioView | None = None) -> ScenarioReply:
+    """The node's and the study's totals (and the scenario's view, when one was edited)."""
+    totals = study_totals(session, study_id)
+    return ScenarioReply(scenario, node_id, totals.of_node(node_id), totals.study)
 
 
 def node_id_of(session: Session, kind_name: str, row: Any) -> int:
-    """The node a worksheet row sits under."""
-    while kind_name != "node":
+    """The node a worksheet row sits under (the node itself is not loaded)."""
+    while kind_name not in ("node", "deviation"):
         parent_field = KINDS[kind_name].parent_field or ""
-        kind_name = {"node_id": "node", "deviation_id": "deviation",
-                     "scenario_id": "scenario"}[parent_field]
+        kind_name = {"deviation_id": "deviation", "scenario_id": "scenario"}[parent_field]
         row = session.get(KINDS[kind_name].model, getattr(row, parent_field))
-    return int(row.id)
+    return int(row.id if kind_name == "node" else row.node_id)
 
 
 def scenario_id_of(kind_name: str, row: Any) -> int | None:
@@ -108,8 +113,8 @@ def scenario_id_of(kind_name: str, row: Any) -> int | None:
 def _reply_for(session: Session, kind_name: str, row: Any, fallback: str = "") -> ScenarioReply:
     scenario_id = scenario_id_of(kind_name, row)
     if scenario_id is None:
-        return node_reply(session=session, study_id=row.study_id,
-                          node_id=node_id_of(session, kind_name, row))
+        return totals_reply(session=session, study_id=row.study_id,
+                            node_id=node_id_of(session, kind_name, row))
     return scenario_reply(session=session, study_id=row.study_id, scenario_id=scenario_id,
                           fallback=fallback)
 

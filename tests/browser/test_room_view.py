@@ -1,5 +1,6 @@
 """In real browsers: the room view follows the scribe within a second; large type; screenshots."""
 
+import os
 import shutil
 import time
 from pathlib import Path
@@ -72,9 +73,12 @@ def _showcase(session: Session, study: Study) -> Scenario:
 
 
 def _save_shot(page: Page, artifacts: Path, name: str) -> None:
-    """Write the screenshot as a test artifact and a small copy for the README."""
+    """Write the screenshot as a test artifact (and, when asked, a small copy for the README)."""
     target = artifacts / name
     page.screenshot(path=str(target))
+    # The README's copies are tracked files: refresh them only when asked, never in CI.
+    if os.environ.get("TALLYROOM_UPDATE_SCREENSHOTS") != "1":
+        return
     README_SHOTS.mkdir(parents=True, exist_ok=True)
     try:
         from PIL import Image
