@@ -110,6 +110,7 @@ def test_links_are_logged_and_refuse_a_scenario_of_another_study(session: Sessio
     logged = session.exec(
         select(ChangeLogEntry.action, ChangeLogEntry.scenario_id)
         .where(ChangeLogEntry.entity == "recommendation", ChangeLogEntry.field == "scenarios")
+        .order_by(ChangeLogEntry.id)
     ).all()
     assert list(logged) == [("link", scenario.id), ("unlink", scenario.id)]
 
