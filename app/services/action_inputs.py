@@ -11,6 +11,7 @@ from enum import StrEnum
 from typing import Any
 
 from app.db.models import ActionStatus, Recommendation, text_limit
+from app.services.errors import FieldInputError, length_problem
 
 EDITABLE_FIELDS = ("text", "owner", "due_date", "status", "status_reason", "expected_rrf")
 TEXT_LIMITS = {
@@ -26,13 +27,8 @@ class ActionOrder(StrEnum):
     TEAM = "team"
 
 
-class ActionInputError(ValueError):
+class ActionInputError(FieldInputError):
     """Bad input for a recommendation: `field` is the form field, `message` names the rule."""
-
-    def __init__(self, field: str, message: str) -> None:
-        super().__init__(message)
-        self.field = field
-        self.message = message
 
 
 def read_due_date(value: Any) -> date | None:
@@ -106,10 +102,8 @@ def _read_text(field: str, value: Any) -> str:
     text = "" if value is None else str(value).strip()
     if field == "text" and not text:
         raise ActionInputError("text", "the recommendation text is required.")
-    if len(text) > TEXT_LIMITS[field]:
-        raise ActionInputError(
-            field, f"at most {TEXT_LIMITS[field]} characters (got {len(text)})."
-        )
+    if problem := length_problem(text, TEXT_LIMITS[field]):
+        raise ActionInputError(field, problem)
     return text
 
 

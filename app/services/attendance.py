@@ -11,6 +11,7 @@ from sqlmodel import Session, col, select
 
 from app.db.models import Attendance, Participant, SessionDay, Study, text_limit
 from app.db.queries import fetch_rows_of_study
+from app.services.errors import FieldInputError, length_problem
 from app.services.study_tree import NotFoundError, get_study
 
 PARTICIPANT_LIMITS = {
@@ -19,13 +20,8 @@ PARTICIPANT_LIMITS = {
 NOTE_LIMIT = text_limit(SessionDay, "note")
 
 
-class AttendanceInputError(ValueError):
+class AttendanceInputError(FieldInputError):
     """Bad input for a date or a participant: `field` is the form field, `message` the rule."""
-
-    def __init__(self, field: str, message: str) -> None:
-        super().__init__(message)
-        self.field = field
-        self.message = message
 
 
 def read_day(typed: str) -> date:
@@ -43,8 +39,8 @@ def read_day(typed: str) -> date:
 
 def _read_note(typed: str) -> str:
     note = typed.strip()
-    if len(note) > NOTE_LIMIT:
-        raise AttendanceInputError("note", f"at most {NOTE_LIMIT} characters (got {len(note)}).")
+    if problem := length_problem(note, NOTE_LIMIT):
+        raise AttendanceInputError("note", problem)
     return note
 
 
@@ -54,9 +50,8 @@ def read_participant(values: dict[str, str]) -> dict[str, str]:
     if not cleaned["name"]:
         raise AttendanceInputError("name", "the participant's name is required.")
     for name, limit in PARTICIPANT_LIMITS.items():
-        if len(cleaned[name]) > limit:
-            raise AttendanceInputError(name, f"at most {limit} characters "
-                                             f"(got {len(cleaned[name])}).")
+        if problem := length_problem(cleaned[name], limit):
+            raise AttendanceInputError(name, problem)
     return cleaned
 
 

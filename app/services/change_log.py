@@ -13,19 +13,15 @@ from sqlmodel.sql.expression import SelectOfScalar
 
 from app.db.models import ChangeLogEntry, Recommendation, Scenario, Study
 from app.db.tracking import AUTHOR_KEY, SUPPRESS_LOG_KEY, describe
+from app.services.errors import FieldInputError
 from app.services.study_tree import get_study
 
 # A long study's log runs to thousands of entries; a page shows the newest ones.
 PAGE_LIMIT = 500
 
 
-class ChangeLogFilterError(ValueError):
+class ChangeLogFilterError(FieldInputError):
     """A filter value that cannot be read: `field` is the query parameter."""
-
-    def __init__(self, field: str, message: str) -> None:
-        super().__init__(message)
-        self.field = field
-        self.message = message
 
 
 @dataclass(frozen=True)

@@ -13,6 +13,7 @@ from sqlmodel.sql.expression import SelectOfScalar
 from app.db.models import Receptor, Scenario, SeverityCategory, Study, text_limit
 from app.likelihood.numbers import parse_frequency
 from app.likelihood.types import LikelihoodInputError
+from app.services.errors import length_problem
 from app.services.results import governing_category
 from app.services.study_tree import NotFoundError, StudyTree, get_study, load_study_tree
 
@@ -146,11 +147,10 @@ def validate_category(form: CategoryForm) -> tuple[dict[str, object], dict[str, 
     errors: dict[str, str] = {}
     if not form.name:
         errors["name"] = "Name: a category needs a name."
-    elif len(form.name) > NAME_LIMIT:
-        errors["name"] = f"Name: at most {NAME_LIMIT} characters (got {len(form.name)})."
-    if len(form.description) > DESCRIPTION_LIMIT:
-        errors["description"] = (f"Description: at most {DESCRIPTION_LIMIT} characters "
-                                 f"(got {len(form.description)}).")
+    elif problem := length_problem(form.name, NAME_LIMIT):
+        errors["name"] = f"Name: {problem}"
+    if problem := length_problem(form.description, DESCRIPTION_LIMIT):
+        errors["description"] = f"Description: {problem}"
     try:
         values["tolerable_frequency"] = parse_frequency(
             form.tolerable_frequency, "Tolerable frequency").value
@@ -248,8 +248,8 @@ def update_criteria_basis(*, session: Session, study_id: int, text: str) -> Crit
     typed = text.strip()
     if not typed:
         error = "Criteria basis: say where these criteria come from (e.g. your company standard)."
-    elif len(typed) > BASIS_LIMIT:
-        error = f"Criteria basis: at most {BASIS_LIMIT} characters (got {len(typed)})."
+    elif problem := length_problem(typed, BASIS_LIMIT):
+        error = f"Criteria basis: {problem}"
     else:
         study.criteria_basis = typed
         session.add(study)

@@ -8,6 +8,7 @@ from sqlmodel import Session, col, select
 
 from app.db.models import ChangeLogEntry, Revision, Study, text_limit, utc_now
 from app.db.tracking import SUPPRESS_LOG_KEY
+from app.services.errors import FieldInputError, length_problem
 from app.services.revision_diff import (
     MATCHING_RULE,
     ScenarioNumbers,
@@ -23,13 +24,8 @@ LIVE = "live"
 LIMITS = {field: text_limit(Revision, field) for field in ("label", "note", "signed_off_by")}
 
 
-class RevisionInputError(ValueError):
+class RevisionInputError(FieldInputError):
     """Bad input for freezing or comparing: `field` is the form field, `message` the rule."""
-
-    def __init__(self, field: str, message: str) -> None:
-        super().__init__(message)
-        self.field = field
-        self.message = message
 
 
 def _revisions(session: Session, study_id: int) -> list[Revision]:
@@ -44,9 +40,8 @@ def _read_freeze_form(session: Session, study_id: int, values: dict[str, str]) -
     if not cleaned["signed_off_by"]:
         raise RevisionInputError("signed_off_by", "say who signed this revision off.")
     for name, limit in LIMITS.items():
-        if len(cleaned[name]) > limit:
-            length = len(cleaned[name])
-            raise RevisionInputError(name, f"at most {limit} characters (got {length}).")
+        if problem := length_problem(cleaned[name], limit):
+            raise RevisionInputError(name, problem)
     taken = {r.label.casefold() for r in _revisions(session, study_id)}
     if cleaned["label"].casefold() in taken:
         raise RevisionInputError("label", f"this study already has a revision "

@@ -13,6 +13,7 @@ from app.db.queries import fetch_rows_of_study
 from app.likelihood.checks import CheckWarning, check_scenario
 from app.likelihood.types import STEP_KIND_LABELS, DemandMode, IplType, StepKind
 from app.likelihood.typical import TypicalValue, typical_by_key, typical_for_kind
+from app.services.errors import length_problem
 from app.services.ipl_checks import checked_steps, worksheet_href
 from app.services.results import compute_outcome
 from app.services.study_tree import NotFoundError, get_study
@@ -189,8 +190,8 @@ def _typical(text: str, kind: StepKind) -> str | None:
 
 
 def _text(text: str, limit: int, label: str) -> str:
-    if len(text) > limit:
-        raise ValueError(f"{label}: at most {limit} characters (got {len(text)}).")
+    if problem := length_problem(text, limit):
+        raise ValueError(f"{label}: {problem}")
     return text
 
 

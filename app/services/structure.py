@@ -22,6 +22,7 @@ from app.db.models import (
 )
 from app.likelihood.numbers import ParsedNumber, parse_frequency, parse_probability
 from app.likelihood.types import STEP_KIND_LABELS, LikelihoodInputError, StepKind
+from app.services.errors import FieldInputError, length_problem
 from app.services.study_tree import NotFoundError, get_study
 
 # A new step counts as 1: no credit for a layer, one event a year for a cause, until the team
@@ -29,13 +30,8 @@ from app.services.study_tree import NotFoundError, get_study
 NEW_STEP_VALUE_TEXT = "1"
 
 
-class StructureInputError(ValueError):
+class StructureInputError(FieldInputError):
     """Bad input for a worksheet row: `field` is the form field, `message` names the rule."""
-
-    def __init__(self, field: str, message: str) -> None:
-        super().__init__(message)
-        self.field = field
-        self.message = message
 
 
 @dataclass(frozen=True)
@@ -212,9 +208,8 @@ def _read_text_fields(kind: RowKind, changes: Mapping[str, str], *,
         value = text.strip()
         if field in kind.required and not value:
             raise StructureInputError(field, f"the {kind.name} {field} is required.")
-        if len(value) > kind.text_limits[field]:
-            raise StructureInputError(
-                field, f"at most {kind.text_limits[field]} characters (got {len(value)}).")
+        if problem := length_problem(value, kind.text_limits[field]):
+            raise StructureInputError(field, problem)
         values[field] = value
     missing = [f for f in kind.required if creating and f not in values]
     if missing:

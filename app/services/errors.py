@@ -1,0 +1,17 @@
+"""The one shape of a form error: which field, and a message naming the rule it breaks."""
+
+
+class FieldInputError(ValueError):
+    """Bad input for one form field; routes answer 422 with `message` at `field`."""
+
+    def __init__(self, field: str, message: str) -> None:
+        super().__init__(message)
+        self.field = field
+        self.message = message
+
+
+def length_problem(text: str, limit: int) -> str | None:
+    """The message of the length rule when `text` is over its column's `limit`, else None."""
+    if len(text) <= limit:
+        return None
+    return f"at most {limit} characters (got {len(text)})."
