@@ -123,8 +123,8 @@ Edited = dict[int, tuple[CategoryForm, dict[str, str]]]
 def _page(session: Session, study_id: int, *, edited: Edited | None = None,
           new_form: CategoryForm | None = None, new_errors: dict[str, str] | None = None,
           basis_text: str | None = None, basis_error: str = "", message: str = "",
-          refusal: str = "") -> CriteriaPage:
-    tree = load_study_tree(session, study_id)
+          refusal: str = "", tree: StudyTree | None = None) -> CriteriaPage:
+    tree = tree or load_study_tree(session, study_id)
     edited = edited or {}
     uses = tuple(_use(tree, row, *edited.get(row.id or 0, (None, None)))
                  for row in tree.categories)
@@ -192,11 +192,11 @@ def update_category(*, session: Session, study_id: int, category_id: int,
     row.sqlmodel_update(values)
     session.add(row)
     session.commit()
-    short_after, governed_after = _short_and_governed(load_study_tree(session, study_id),
-                                                      category_id)
+    after = load_study_tree(session, study_id)
+    short_after, governed_after = _short_and_governed(after, category_id)
     change = ReEvaluation(row.name, len(short_after), sum(short_before), sum(short_after),
                           governed_before, governed_after)
-    return _page(session, study_id, message=change.sentence)
+    return _page(session, study_id, message=change.sentence, tree=after)
 
 
 def _next_position(session: Session, study_id: int) -> int:

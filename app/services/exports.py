@@ -103,14 +103,15 @@ def build_export(
     *, session: Session, study_id: int, export_format: ExportFormat, env: Environment
 ) -> ExportFile:
     """Export one study in one format; NotFoundError when there is no such study."""
-    tree = load_study_tree(session, study_id)
-    data = export_study(session, study_id)
     info = FORMAT_INFO[export_format]
-    name = export_filename(tree.study, export_format)
+    name = export_filename(get_study(session, study_id), export_format)
+    # Each format loads only what it writes: the file needs no computed tree, the CSV no history.
     if export_format is ExportFormat.JSON:
-        return ExportFile(name, info.media_type, study_json_bytes(data))
+        return ExportFile(name, info.media_type, study_json_bytes(export_study(session, study_id)))
+    tree = load_study_tree(session, study_id)
     if export_format is ExportFormat.CSV:
         return ExportFile(name, info.media_type, table_csv(scenario_table(tree)))
+    data = export_study(session, study_id)
     now = datetime.now(UTC).replace(microsecond=0)
     if export_format is ExportFormat.XLSX:
         content = workbook_bytes(all_tables(tree, data), data,
