@@ -57,8 +57,8 @@ def cmd_serve(args: argparse.Namespace) -> int:
 def cmd_export(args: argparse.Namespace) -> int:
     """Write one study to a file in the chosen format."""
     from app.routes.rendering import templates
-    from app.services.exports import ExportFormat, build_export, find_study
-    from app.services.study_tree import NotFoundError
+    from app.services.exchange.exports import ExportFormat, build_export, find_study
+    from app.services.study.tree import NotFoundError
 
     with Session(get_db_engine()) as session:
         try:
@@ -78,8 +78,8 @@ def cmd_export(args: argparse.Namespace) -> int:
 def cmd_import(args: argparse.Namespace) -> int:
     """Create a new study from a study file; print its id."""
     from app.db.tracking import install_tracking
-    from app.services.study_import import import_study_upload
-    from app.services.study_io import StudyFileError
+    from app.services.exchange.study_file import StudyFileError
+    from app.services.exchange.study_import import import_study_upload
 
     path = Path(args.file)
     try:

@@ -11,7 +11,7 @@ from starlette.responses import Response
 import app.routes
 from app.db.tracking import install_tracking
 from app.routes.rendering import render
-from app.services.study_tree import NotFoundError
+from app.services.study.tree import NotFoundError
 from app.settings import PROJECT_ROOT
 
 

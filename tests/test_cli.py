@@ -8,8 +8,8 @@ from sqlmodel import Session
 
 from app.cli import main
 from app.db.models import Study
-from app.services.exports import study_json_bytes
-from app.services.study_io import export_study
+from app.services.exchange.exports import study_json_bytes
+from app.services.exchange.study_file import export_study
 from tests.factories import make_scenario_tree, make_study
 from tests.services.export_samples import study_count
 

@@ -7,7 +7,7 @@ from sqlmodel import Session, func, select
 from app.db.models import Study
 from app.demo import DEMO_STUDY_PATH, load_demo_if_empty
 from app.likelihood.types import StepKind
-from app.services.study_tree import load_study_tree
+from app.services.study.tree import load_study_tree
 
 
 def test_the_demo_file_says_it_is_invented() -> None:
@@ -48,7 +48,7 @@ def test_the_demo_loads_only_into_an_empty_database(session: Session) -> None:
 def test_the_demo_study_is_flagged_invented_and_stays_so_on_export(
     session: Session, demo_study: Study
 ) -> None:
-    from app.services.study_io import export_study
+    from app.services.exchange.study_file import export_study
 
     assert demo_study.invented is True
     assert export_study(session, demo_study.id)["invented"] is True

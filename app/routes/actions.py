@@ -9,9 +9,14 @@ from starlette.responses import RedirectResponse, Response
 
 from app.routes.deps import SessionDep
 from app.routes.rendering import is_htmx, render
-from app.services import actions as action_service
-from app.services.action_inputs import ActionInputError, ActionOrder, read_order, read_scenario_id
-from app.services.actions_page import ActionForm, order_query, read_actions_page
+from app.services.record import actions as action_service
+from app.services.record.action_inputs import (
+    ActionInputError,
+    ActionOrder,
+    read_order,
+    read_scenario_id,
+)
+from app.services.record.actions_page import ActionForm, order_query, read_actions_page
 
 router = APIRouter()
 TEMPLATE = "actions/list.html"

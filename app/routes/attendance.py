@@ -7,8 +7,8 @@ from starlette.responses import RedirectResponse, Response
 
 from app.routes.deps import SessionDep
 from app.routes.rendering import is_htmx, render
-from app.services import attendance as attendance_service
-from app.services.attendance import AttendanceForm, AttendanceInputError
+from app.services.record import attendance as attendance_service
+from app.services.record.attendance import AttendanceForm, AttendanceInputError
 
 router = APIRouter()
 TEMPLATE = "attendance/page.html"

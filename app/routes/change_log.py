@@ -7,7 +7,7 @@ from starlette.responses import Response
 
 from app.routes.deps import SessionDep
 from app.routes.rendering import is_htmx, render
-from app.services import change_log as log_service
+from app.services.record import change_log as log_service
 
 router = APIRouter()
 

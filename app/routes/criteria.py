@@ -5,7 +5,7 @@ from starlette.responses import Response
 
 from app.routes.deps import SessionDep
 from app.routes.rendering import render
-from app.services import criteria as service
+from app.services.risk import criteria as service
 
 router = APIRouter()
 PAGE = "criteria/edit.html"

@@ -8,11 +8,11 @@ from starlette.responses import RedirectResponse, Response
 
 from app.routes.deps import SessionDep
 from app.routes.rendering import render, templates
-from app.services import studies as study_service
-from app.services.exports import ExportFormat, build_export, read_export_page
-from app.services.study_import import MAX_FILE_BYTES, import_study_upload
-from app.services.study_io import StudyFileError
-from app.services.study_schema import SCHEMA_PATH, study_json_schema
+from app.services.exchange.exports import ExportFormat, build_export, read_export_page
+from app.services.exchange.study_file import StudyFileError
+from app.services.exchange.study_import import MAX_FILE_BYTES, import_study_upload
+from app.services.exchange.study_schema import SCHEMA_PATH, study_json_schema
+from app.services.study import listing as study_service
 
 router = APIRouter()
 

@@ -5,8 +5,8 @@ from starlette.responses import RedirectResponse, Response
 
 from app.routes.deps import SessionDep
 from app.routes.rendering import is_htmx, render
-from app.services import proof_tests as service
-from app.services.proof_test_inputs import ProofTestForm
+from app.services.risk import proof_test as service
+from app.services.risk.proof_test_form import ProofTestForm
 
 router = APIRouter()
 PAGE = "proof_test/calculator.html"

@@ -7,8 +7,8 @@ from starlette.responses import RedirectResponse, Response
 
 from app.routes.deps import AuthorDep, SessionDep
 from app.routes.rendering import is_htmx, render
-from app.services import revisions as revision_service
-from app.services.revisions import RevisionInputError
+from app.services.record import revisions as revision_service
+from app.services.record.revisions import RevisionInputError
 
 router = APIRouter()
 TextForm = Annotated[str, Form()]

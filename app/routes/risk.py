@@ -5,7 +5,7 @@ from starlette.responses import Response
 
 from app.routes.deps import SessionDep
 from app.routes.rendering import render
-from app.services import risk_picture
+from app.services.risk import picture as risk_picture
 
 router = APIRouter()
 

@@ -7,7 +7,7 @@ from starlette.responses import Response
 
 from app.routes.deps import SessionDep
 from app.routes.rendering import render
-from app.services import room as room_service
+from app.services.worksheet import room as room_service
 from app.settings import get_settings
 
 router = APIRouter()

@@ -5,7 +5,7 @@ from starlette.responses import Response
 
 from app.routes.deps import SessionDep
 from app.routes.rendering import is_htmx, render
-from app.services import step_details as service
+from app.services.risk import step_details as service
 
 router = APIRouter()
 PAGE = "step_details/form.html"

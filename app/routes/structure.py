@@ -13,9 +13,10 @@ from starlette.responses import RedirectResponse, Response
 from app.routes.deps import AuthorDep, SessionDep
 from app.routes.rendering import is_htmx, render
 from app.routes.worksheet import render_field_reply, render_worksheet, worksheet_url
-from app.services import structure, structure_undo
-from app.services.worksheet import first_node_id
-from app.services.worksheet_edits import edit_field, field_id, node_id_of
+from app.services.worksheet import structure
+from app.services.worksheet import undo as structure_undo
+from app.services.worksheet.edits import edit_field, field_id, node_id_of
+from app.services.worksheet.page import first_node_id
 
 router = APIRouter()
 PLURALS = {"node": "nodes", "deviation": "deviations", "scenario": "scenarios",

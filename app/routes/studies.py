@@ -5,7 +5,7 @@ from starlette.responses import Response
 
 from app.routes.deps import SessionDep
 from app.routes.rendering import render
-from app.services import studies as study_service
+from app.services.study import listing as study_service
 
 router = APIRouter()
 

@@ -8,8 +8,8 @@ from starlette.routing import NoMatchFound
 
 from app.routes.deps import SessionDep
 from app.routes.rendering import is_htmx, render
-from app.services import worksheet as worksheet_service
-from app.services.worksheet_edits import FieldReply, edit_step_value
+from app.services.worksheet import page as worksheet_service
+from app.services.worksheet.edits import FieldReply, edit_step_value
 
 router = APIRouter()
 

@@ -6,7 +6,7 @@ from playwright.sync_api import Page, expect
 from sqlmodel import Session, col, select
 
 from app.db.models import Recommendation
-from app.services.actions import create_action
+from app.services.record.actions import create_action
 from tests.factories import make_scenario_tree
 
 

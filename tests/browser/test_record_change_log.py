@@ -6,7 +6,7 @@ from playwright.sync_api import Page, expect
 from sqlmodel import Session
 
 from app.db.models import Study
-from app.services.actions import create_action
+from app.services.record.actions import create_action
 
 
 def test_an_edit_appears_in_the_change_log_under_the_masthead_name(

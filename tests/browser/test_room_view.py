@@ -9,7 +9,7 @@ from playwright.sync_api import Browser, Page, expect
 from sqlmodel import Session
 
 from app.db.models import Deviation, Scenario, Study
-from app.services.study_tree import load_study_tree
+from app.services.study.tree import load_study_tree
 from app.settings import PROJECT_ROOT
 from tests.browser.conftest import SCREEN
 from tests.factories import make_scenario, make_scenario_tree, make_step

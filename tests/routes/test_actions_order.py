@@ -11,7 +11,7 @@ from sqlmodel import Session, col, select
 
 from app.db.models import ChangeLogEntry, Deviation, Recommendation, Scenario
 from app.routes.actions import today
-from app.services.actions import create_action, move_action
+from app.services.record.actions import create_action, move_action
 from tests.factories import make_scenario_tree
 from tests.routes.test_studies import table_rows
 

@@ -6,7 +6,7 @@ import pytest
 from sqlmodel import Session, select
 
 from app.db.models import ActionStatus, ChangeLogEntry, RecommendationScenario, Study
-from app.services.actions import (
+from app.services.record.actions import (
     ActionInputError,
     actions_of_scenario,
     create_action,
@@ -16,7 +16,7 @@ from app.services.actions import (
     unlink_scenario,
     update_action,
 )
-from app.services.study_tree import NotFoundError
+from app.services.study.tree import NotFoundError
 from tests.factories import make_deviation, make_node, make_scenario, make_scenario_tree
 
 TODAY = date(2026, 12, 1)

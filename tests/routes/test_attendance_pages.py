@@ -7,7 +7,7 @@ from fastapi.testclient import TestClient
 from sqlmodel import Session, select
 
 from app.db.models import Attendance, Participant, SessionDay, Study
-from app.services.attendance import add_day, add_participant, set_attendance
+from app.services.record.attendance import add_day, add_participant, set_attendance
 from tests.factories import make_study
 from tests.routes.test_studies import table_rows
 

@@ -12,7 +12,7 @@ from fastapi.testclient import TestClient
 from sqlmodel import Session, select
 
 from app.db.models import Scenario, Step, StepKindValue
-from app.services.ipl_checks import checked_steps
+from app.services.risk.ipl_checks import checked_steps
 from tests.factories import make_scenario_tree, make_step
 
 BPCS = "IEC 61511-1:2016, clause 9.3 (value secondary; clause from memory)"

@@ -9,8 +9,8 @@ from openpyxl import load_workbook
 from sqlmodel import Session
 
 from app.db.models import Study
-from app.services.study_io import export_study
-from app.services.study_schema import study_json_schema
+from app.services.exchange.study_file import export_study
+from app.services.exchange.study_schema import study_json_schema
 from tests.factories import make_scenario_tree, make_step
 from tests.routes.test_studies import table_rows
 

@@ -12,8 +12,8 @@ from sqlmodel import Session
 
 import app.routes.exports as export_routes
 from app.db.models import Study
-from app.services import study_import
-from app.services.study_io import export_study
+from app.services.exchange import study_import
+from app.services.exchange.study_file import export_study
 from tests.services.export_samples import edit_demo_study, make_hostile_study, study_count
 
 

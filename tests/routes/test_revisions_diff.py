@@ -4,7 +4,7 @@ import copy
 import math
 from typing import Any
 
-from app.services.revision_diff import SEP, diff_studies, match_rows, scenario_numbers
+from app.services.record.comparison import SEP, diff_studies, match_rows, scenario_numbers
 
 
 def _study(**changes: Any) -> dict[str, Any]:

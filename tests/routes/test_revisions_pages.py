@@ -8,8 +8,8 @@ from fastapi.testclient import TestClient
 from sqlmodel import Session, select
 
 from app.db.models import ChangeLogEntry, Deviation, Revision, Scenario, Study
-from app.services.revision_diff import SEP
-from app.services.revisions import freeze_revision
+from app.services.record.comparison import SEP
+from app.services.record.revisions import freeze_revision
 from tests.conftest import TEST_AUTHOR
 from tests.factories import make_deviation, make_node, make_scenario, make_scenario_tree, make_step
 from tests.routes.test_studies import table_rows

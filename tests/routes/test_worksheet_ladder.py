@@ -8,7 +8,7 @@ from jinja2 import Environment, FileSystemLoader
 
 from app.likelihood.frequency import compute_scenario
 from app.likelihood.types import StepInput, StepKind
-from app.services.ladder import DECADE_HEIGHT, MARGIN_TOP, build_ladder, decade_range
+from app.services.worksheet.ladder import DECADE_HEIGHT, MARGIN_TOP, build_ladder, decade_range
 from app.settings import PROJECT_ROOT
 
 SVG = "{http://www.w3.org/2000/svg}"

@@ -22,10 +22,10 @@ from sqlmodel import Session, select
 
 from app.db.models import Deviation, Node, Safeguard, Scenario, Step, StepKindValue, Study
 from app.routes.rendering import sci
-from app.services.studies import NodeTotals, totals_of
-from app.services.study_import import import_study_text
-from app.services.study_totals import study_totals
-from app.services.study_tree import load_node_tree, load_study_tree
+from app.services.exchange.study_import import import_study_text
+from app.services.study.listing import NodeTotals, totals_of
+from app.services.study.totals import study_totals
+from app.services.study.tree import load_node_tree, load_study_tree
 from tests.routes.test_worksheet_page import HX
 
 LARGE = 40

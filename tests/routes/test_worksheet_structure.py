@@ -20,7 +20,7 @@ from app.db.models import (
     StepKindValue,
     Study,
 )
-from app.services.actions import create_action
+from app.services.record.actions import create_action
 from tests.factories import (
     make_category,
     make_deviation,

@@ -6,7 +6,7 @@ from sqlmodel import Session, func, select
 
 from app.db.models import Participant, Revision, Scenario, Step, StepKindValue, Study, text_limit
 from app.db.queries import fetch_rows_of_study
-from app.services.study_io import export_study
+from app.services.exchange.study_file import export_study
 from tests.factories import (
     make_deviation,
     make_node,

@@ -12,10 +12,10 @@ from sqlmodel import Session
 
 from app.db.models import Study
 from app.routes.rendering import CAUTIONS, templates
-from app.services.exports import ExportFormat, build_export
-from app.services.report import build_report, report_html
-from app.services.study_io import export_study
-from app.services.study_tree import load_study_tree
+from app.services.exchange.exports import ExportFormat, build_export
+from app.services.exchange.report import build_report, report_html
+from app.services.exchange.study_file import export_study
+from app.services.study.tree import load_study_tree
 from tests.services.export_samples import FORMULA_TEXTS, SCRIPTS, make_hostile_study
 
 WHEN = datetime(2026, 11, 12, 15, 30, tzinfo=UTC)

@@ -12,10 +12,10 @@ from sqlmodel import Session
 
 from app.db.models import Study
 from app.routes.rendering import CAUTIONS, templates
-from app.services.exports import ExportFormat, build_export
-from app.services.exports_tables import SCENARIO_COLUMNS, spreadsheet_text
-from app.services.exports_xlsx import MAX_CELL_CHARS, cell_text
-from app.services.study_tree import load_study_tree
+from app.services.exchange.export_tables import SCENARIO_COLUMNS, spreadsheet_text
+from app.services.exchange.export_xlsx import MAX_CELL_CHARS, cell_text
+from app.services.exchange.exports import ExportFormat, build_export
+from app.services.study.tree import load_study_tree
 from tests.services.export_samples import (
     FORMULA_TEXTS,
     LONG_TEXT,

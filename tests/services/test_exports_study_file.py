@@ -8,11 +8,11 @@ from sqlmodel import Session
 
 from app.db.models import ChangeLogEntry, Step, Study
 from app.db.queries import fetch_rows_of_study
-from app.services import study_import
-from app.services.exports import ExportFormat, export_filename, study_json_bytes
-from app.services.study_import import import_study_text, import_study_upload
-from app.services.study_io import StudyFileError, export_study, parse_study_file
-from app.services.study_schema import StudyFile, study_json_schema
+from app.services.exchange import study_import
+from app.services.exchange.exports import ExportFormat, export_filename, study_json_bytes
+from app.services.exchange.study_file import StudyFileError, export_study, parse_study_file
+from app.services.exchange.study_import import import_study_text, import_study_upload
+from app.services.exchange.study_schema import StudyFile, study_json_schema
 from tests.services.export_samples import (
     FORMULA_TEXTS,
     MARKUP,

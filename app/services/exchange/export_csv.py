@@ -8,7 +8,7 @@ import csv
 import io
 from datetime import date
 
-from app.services.exports_tables import Cell, Table, spreadsheet_text
+from app.services.exchange.export_tables import Cell, Table, spreadsheet_text
 
 BYTE_ORDER_MARK = "\ufeff"
 

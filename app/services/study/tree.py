@@ -18,7 +18,7 @@ from app.db.models import (
     Study,
 )
 from app.db.queries import fetch_rows_of_node, fetch_rows_of_study
-from app.services.results import ScenarioOutcome, compute_outcome
+from app.services.study.results import ScenarioOutcome, compute_outcome
 
 
 class NotFoundError(LookupError):

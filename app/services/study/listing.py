@@ -9,7 +9,7 @@ from sqlmodel import Session
 from app.db.models import Study
 from app.db.queries import fetch_studies_with_counts
 from app.likelihood.types import ScenarioResult
-from app.services.study_tree import NodeNode, ScenarioNode, StudyTree, load_study_tree
+from app.services.study.tree import NodeNode, ScenarioNode, StudyTree, load_study_tree
 
 
 @dataclass(frozen=True)

@@ -12,9 +12,9 @@ from datetime import date
 from sqlmodel import Session
 
 from app.db.models import Study
-from app.services.action_inputs import ActionOrder
-from app.services.actions import STATUS_LABELS, ActionEntry, list_actions
-from app.services.study_tree import ScenarioNode, load_study_tree
+from app.services.record.action_inputs import ActionOrder
+from app.services.record.actions import STATUS_LABELS, ActionEntry, list_actions
+from app.services.study.tree import ScenarioNode, load_study_tree
 
 # Products of decimals sit a hair off exact powers of ten; a closure within this is a closure.
 CLOSE_TOLERANCE_ORDERS = 1e-9

@@ -20,9 +20,9 @@ from app.db.models import (
     utc_now,
 )
 from app.db.queries import fetch_first_scenario_id, fetch_scenario_count
-from app.services.study_tree import NotFoundError, get_study
-from app.services.worksheet import ScenarioView
-from app.services.worksheet_edits import located_scenario
+from app.services.study.tree import NotFoundError, get_study
+from app.services.worksheet.edits import located_scenario
+from app.services.worksheet.page import ScenarioView
 
 WATCHED = (Node, Deviation, Scenario, Step, Safeguard, SeverityCategory, Recommendation)
 

@@ -13,10 +13,10 @@ from app.db.queries import fetch_rows_of_study
 from app.likelihood.checks import CheckWarning, check_scenario
 from app.likelihood.types import STEP_KIND_LABELS, DemandMode, IplType, StepKind
 from app.likelihood.typical import TypicalValue, typical_by_key, typical_for_kind
-from app.services.errors import length_problem
-from app.services.ipl_checks import checked_steps, worksheet_href
-from app.services.results import compute_outcome
-from app.services.study_tree import NotFoundError, get_study
+from app.services.risk.ipl_checks import checked_steps, worksheet_href
+from app.services.study.errors import length_problem
+from app.services.study.results import compute_outcome
+from app.services.study.tree import NotFoundError, get_study
 
 IPL_TYPE_LABELS: dict[IplType, str] = {
     IplType.BPCS: "BPCS loop (basic process control system)",

@@ -11,7 +11,7 @@ from enum import StrEnum
 from typing import Any
 
 from app.db.models import ActionStatus, Recommendation, text_limit
-from app.services.errors import FieldInputError, length_problem
+from app.services.study.errors import FieldInputError, length_problem
 
 EDITABLE_FIELDS = ("text", "owner", "due_date", "status", "status_reason", "expected_rrf")
 TEXT_LIMITS = {

@@ -18,8 +18,8 @@ from app.db.models import (
     StepKindValue,
     utc_now,
 )
-from app.services.structure import KINDS, StructureInputError, get_row, kind_of
-from app.services.study_tree import get_study
+from app.services.study.tree import get_study
+from app.services.worksheet.structure import KINDS, StructureInputError, get_row, kind_of
 
 CHILDREN: dict[str, tuple[tuple[str, str], ...]] = {
     "node": (("deviation", "node_id"),),

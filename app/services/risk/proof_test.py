@@ -16,9 +16,9 @@ from app.likelihood.proof_test import (
     pfd_avg,
 )
 from app.likelihood.sil import HOURS_PER_YEAR, pfd_band
-from app.services.proof_test_inputs import ProofTestForm, read_inputs
-from app.services.step_details import StepNeed, StepPlace, locate_step, step_need
-from app.services.study_tree import NotFoundError, get_study
+from app.services.risk.proof_test_form import ProofTestForm, read_inputs
+from app.services.risk.step_details import StepNeed, StepPlace, locate_step, step_need
+from app.services.study.tree import NotFoundError, get_study
 
 METHOD = "IEC 61508-6 Annex B simplified equation"
 

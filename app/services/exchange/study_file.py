@@ -22,8 +22,8 @@ from app.db.models import (
     SeverityCategory,
     Step,
 )
-from app.services.study_schema import FILE_FORMAT, SCHEMA_VERSION, StudyFile
-from app.services.study_tree import get_study
+from app.services.exchange.study_schema import FILE_FORMAT, SCHEMA_VERSION, StudyFile
+from app.services.study.tree import get_study
 
 
 class StudyFileError(ValueError):

@@ -9,7 +9,17 @@ from sqlmodel import Session
 from app.db.models import Node, Step
 from app.likelihood.numbers import format_number
 from app.likelihood.types import LikelihoodInputError
-from app.services.structure import (
+from app.services.study.listing import NodeTotals
+from app.services.study.totals import study_totals
+from app.services.study.tree import NodeNode, NotFoundError, ScenarioNode, load_node_tree
+from app.services.worksheet.page import (
+    LATEST_EDITS,
+    ScenarioView,
+    plain_value,
+    recommendations_of_node,
+    scenario_view,
+)
+from app.services.worksheet.structure import (
     KINDS,
     StructureInputError,
     get_row,
@@ -17,16 +27,6 @@ from app.services.structure import (
     parse_step_value,
     step_label,
     update_row,
-)
-from app.services.studies import NodeTotals
-from app.services.study_totals import study_totals
-from app.services.study_tree import NodeNode, NotFoundError, ScenarioNode, load_node_tree
-from app.services.worksheet import (
-    LATEST_EDITS,
-    ScenarioView,
-    plain_value,
-    recommendations_of_node,
-    scenario_view,
 )
 
 FIELD_PREFIX = {"node": "node", "deviation": "dev", "scenario": "sc", "step": "step",

@@ -13,8 +13,8 @@ from sqlmodel.sql.expression import SelectOfScalar
 
 from app.db.models import ChangeLogEntry, Recommendation, Scenario, Study
 from app.db.tracking import AUTHOR_KEY, SUPPRESS_LOG_KEY, describe
-from app.services.errors import FieldInputError
-from app.services.study_tree import get_study
+from app.services.study.errors import FieldInputError
+from app.services.study.tree import get_study
 
 # A long study's log runs to thousands of entries; a page shows the newest ones.
 PAGE_LIMIT = 500

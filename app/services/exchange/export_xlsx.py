@@ -10,8 +10,8 @@ from openpyxl.styles import Alignment, Border, Font, PatternFill, Side
 from openpyxl.utils import get_column_letter
 from openpyxl.worksheet.worksheet import Worksheet
 
-from app.services.exports_tables import Cell, Column, StudyData, Table, spreadsheet_text
-from app.services.study_schema import SCHEMA_PATH
+from app.services.exchange.export_tables import Cell, Column, StudyData, Table, spreadsheet_text
+from app.services.exchange.study_schema import SCHEMA_PATH
 
 # Excel's limit on the characters in one cell.
 MAX_CELL_CHARS = 32_767

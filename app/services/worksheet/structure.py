@@ -22,8 +22,8 @@ from app.db.models import (
 )
 from app.likelihood.numbers import ParsedNumber, parse_frequency, parse_probability
 from app.likelihood.types import STEP_KIND_LABELS, LikelihoodInputError, StepKind
-from app.services.errors import FieldInputError, length_problem
-from app.services.study_tree import NotFoundError, get_study
+from app.services.study.errors import FieldInputError, length_problem
+from app.services.study.tree import NotFoundError, get_study
 
 # A new step counts as 1: no credit for a layer, one event a year for a cause, until the team
 # agrees a number. Never a guess that would lower the frequency.

@@ -7,8 +7,7 @@ from sqlmodel import Session
 
 from app.db.models import SeverityCategory
 from app.likelihood.types import DemandMode, ScenarioResult, SilStatus
-from app.services.ipl_checks import ScenarioWarnings, study_warnings, worksheet_href
-from app.services.risk_charts import (
+from app.services.risk.charts import (
     GapBarInput,
     GapBars,
     MatrixRowInput,
@@ -18,8 +17,9 @@ from app.services.risk_charts import (
     cell_key,
     decade_of,
 )
-from app.services.studies import NodeTotals, totals_of
-from app.services.study_tree import NodeNode, ScenarioNode, StudyTree, load_study_tree
+from app.services.risk.ipl_checks import ScenarioWarnings, study_warnings, worksheet_href
+from app.services.study.listing import NodeTotals, totals_of
+from app.services.study.tree import NodeNode, ScenarioNode, StudyTree, load_study_tree
 
 
 @dataclass(frozen=True)

@@ -13,9 +13,9 @@ from sqlmodel.sql.expression import SelectOfScalar
 from app.db.models import Receptor, Scenario, SeverityCategory, Study, text_limit
 from app.likelihood.numbers import parse_frequency
 from app.likelihood.types import LikelihoodInputError
-from app.services.errors import length_problem
-from app.services.results import governing_category
-from app.services.study_tree import NotFoundError, StudyTree, get_study, load_study_tree
+from app.services.study.errors import length_problem
+from app.services.study.results import governing_category
+from app.services.study.tree import NotFoundError, StudyTree, get_study, load_study_tree
 
 NAME_LIMIT = text_limit(SeverityCategory, "name")
 DESCRIPTION_LIMIT = text_limit(SeverityCategory, "description")

@@ -11,19 +11,19 @@ from app.db.queries import fetch_first_node_id, fetch_node_links, fetch_recommen
 from app.likelihood.checks import CheckWarning
 from app.likelihood.numbers import format_number
 from app.likelihood.types import STEP_KIND_LABELS, LikelihoodInputError, StepKind
-from app.services.ipl_checks import scenario_warnings
-from app.services.ladder import LadderView, build_ladder
-from app.services.structure import parse_step_value, step_label
-from app.services.structure_undo import DeleteCounts, delete_question, last_deleted
-from app.services.studies import NodeTotals
-from app.services.study_totals import study_totals
-from app.services.study_tree import (
+from app.services.risk.ipl_checks import scenario_warnings
+from app.services.study.listing import NodeTotals
+from app.services.study.totals import study_totals
+from app.services.study.tree import (
     DeviationNode,
     NodeNode,
     ScenarioNode,
     get_study,
     load_node_tree,
 )
+from app.services.worksheet.ladder import LadderView, build_ladder
+from app.services.worksheet.structure import parse_step_value, step_label
+from app.services.worksheet.undo import DeleteCounts, delete_question, last_deleted
 
 KIND_ORDER = [StepKind.INITIATING_EVENT, StepKind.ENABLING_CONDITION,
               StepKind.CONDITIONAL_MODIFIER, StepKind.IPL]

@@ -15,8 +15,8 @@ from typing import Any
 
 from app.db.models import StepKindValue
 from app.likelihood.types import STEP_KIND_LABELS, DemandMode, StepKind
-from app.services.study_io import scenario_ref
-from app.services.study_tree import DeviationNode, NodeNode, ScenarioNode, StudyTree
+from app.services.exchange.study_file import scenario_ref
+from app.services.study.tree import DeviationNode, NodeNode, ScenarioNode, StudyTree
 
 Cell = str | float | int | date | datetime | None
 StudyData = dict[str, Any]

@@ -20,8 +20,8 @@ from app.db.queries import (
     step_figures_of_study,
 )
 from app.likelihood.types import ScenarioResult
-from app.services.results import governing_category, result_of_rows
-from app.services.studies import NodeTotals, totals_of_results
+from app.services.study.listing import NodeTotals, totals_of_results
+from app.services.study.results import governing_category, result_of_rows
 
 NO_SCENARIOS = totals_of_results([])
 

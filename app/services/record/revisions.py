@@ -8,8 +8,8 @@ from sqlmodel import Session, col, select
 
 from app.db.models import ChangeLogEntry, Revision, Study, text_limit, utc_now
 from app.db.tracking import SUPPRESS_LOG_KEY
-from app.services.errors import FieldInputError, length_problem
-from app.services.revision_diff import (
+from app.services.exchange.study_file import export_study
+from app.services.record.comparison import (
     MATCHING_RULE,
     ScenarioNumbers,
     StudyDiff,
@@ -17,8 +17,8 @@ from app.services.revision_diff import (
     diff_studies,
     scenario_numbers,
 )
-from app.services.study_io import export_study
-from app.services.study_tree import NotFoundError, get_study
+from app.services.study.errors import FieldInputError, length_problem
+from app.services.study.tree import NotFoundError, get_study
 
 LIVE = "live"
 LIMITS = {field: text_limit(Revision, field) for field in ("label", "note", "signed_off_by")}

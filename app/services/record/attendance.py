@@ -11,8 +11,8 @@ from sqlmodel import Session, col, select
 
 from app.db.models import Attendance, Participant, SessionDay, Study, text_limit
 from app.db.queries import fetch_rows_of_study
-from app.services.errors import FieldInputError, length_problem
-from app.services.study_tree import NotFoundError, get_study
+from app.services.study.errors import FieldInputError, length_problem
+from app.services.study.tree import NotFoundError, get_study
 
 PARTICIPANT_LIMITS = {
     field: text_limit(Participant, field) for field in ("name", "role", "discipline", "company")

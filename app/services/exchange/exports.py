@@ -17,12 +17,12 @@ from sqlmodel import Session, col, select
 from sqlmodel.sql.expression import SelectOfScalar
 
 from app.db.models import Study
-from app.services.exports_csv import table_csv
-from app.services.exports_tables import all_tables, scenario_table
-from app.services.exports_xlsx import workbook_bytes
-from app.services.report import report_pdf
-from app.services.study_io import export_study
-from app.services.study_tree import NotFoundError, get_study, load_study_tree
+from app.services.exchange.export_csv import table_csv
+from app.services.exchange.export_tables import all_tables, scenario_table
+from app.services.exchange.export_xlsx import workbook_bytes
+from app.services.exchange.report import report_pdf
+from app.services.exchange.study_file import export_study
+from app.services.study.tree import NotFoundError, get_study, load_study_tree
 
 
 class ExportFormat(StrEnum):

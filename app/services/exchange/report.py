@@ -8,7 +8,7 @@ from weasyprint import HTML, URLFetcher
 
 from app.db.models import Node, Study
 from app.likelihood.types import STEP_KIND_LABELS, StepKind
-from app.services.exports_tables import (
+from app.services.exchange.export_tables import (
     DEMAND_LABELS,
     StudyData,
     Table,
@@ -19,10 +19,10 @@ from app.services.exports_tables import (
     node_label,
     scenario_refs,
 )
-from app.services.ladder import LadderView, build_ladder
-from app.services.risk_picture import RiskPicture, build_risk_picture
-from app.services.studies import NodeTotals, totals_of
-from app.services.study_tree import ScenarioNode, StudyTree
+from app.services.risk.picture import RiskPicture, build_risk_picture
+from app.services.study.listing import NodeTotals, totals_of
+from app.services.study.tree import ScenarioNode, StudyTree
+from app.services.worksheet.ladder import LadderView, build_ladder
 
 REPORT_TEMPLATE = "report/study.html"
 

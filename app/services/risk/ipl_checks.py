@@ -6,7 +6,7 @@ from dataclasses import dataclass
 from app.db.models import Step
 from app.likelihood.checks import CheckedStep, CheckWarning, check_scenario
 from app.likelihood.types import IplType, StepKind
-from app.services.study_tree import ScenarioNode, StudyTree
+from app.services.study.tree import ScenarioNode, StudyTree
 
 
 @dataclass(frozen=True)

@@ -1,6 +1,6 @@
 """Recommendations (actions): create, edit, delete, move, link to scenarios, and the list.
 
-Every write validates first (app/services/action_inputs.py) and raises ActionInputError naming
+Every write validates first (record/action_inputs.py) and raises ActionInputError naming
 the field and the rule, so nothing invalid reaches the database.
 """
 
@@ -17,15 +17,15 @@ from app.db.models import (
     RecommendationScenario,
     Scenario,
 )
-from app.services.action_inputs import (
+from app.services.record.action_inputs import (
     ActionInputError,
     ActionOrder,
     check_reason,
     read_changes,
     read_direction,
 )
-from app.services.change_log import record_link_change
-from app.services.study_tree import NotFoundError, get_study
+from app.services.record.change_log import record_link_change
+from app.services.study.tree import NotFoundError, get_study
 
 STILL_OPEN = (ActionStatus.OPEN, ActionStatus.IN_PROGRESS)
 STATUS_LABELS = {

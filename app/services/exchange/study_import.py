@@ -25,8 +25,8 @@ from app.db.models import (
 )
 from app.db.queries import fetch_plain_rows, placed_rows_of_study
 from app.db.tracking import SUPPRESS_LOG_KEY
-from app.services.study_io import StudyFileError, parse_study_file
-from app.services.study_schema import StudyFile
+from app.services.exchange.study_file import StudyFileError, parse_study_file
+from app.services.exchange.study_schema import StudyFile
 
 # Far above any real study (the invented demo is under 100 kB); refuses runaway uploads early.
 MAX_FILE_BYTES = 20 * 1024 * 1024
