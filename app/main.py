@@ -16,10 +16,11 @@ from app.settings import PROJECT_ROOT
 
 
 def discover_routers() -> list[APIRouter]:
-    """Every `router` defined by a module of app.routes, so an area adds itself by existing."""
+    """Every `router` defined by a module of app.routes or its area packages, in name order."""
     routers = []
-    for module_info in sorted(pkgutil.iter_modules(app.routes.__path__), key=lambda m: m.name):
-        module = importlib.import_module(f"app.routes.{module_info.name}")
+    found = pkgutil.walk_packages(app.routes.__path__, prefix="app.routes.")
+    for module_info in sorted(found, key=lambda m: m.name):
+        module = importlib.import_module(module_info.name)
         if isinstance(getattr(module, "router", None), APIRouter):
             routers.append(module.router)
     return routers

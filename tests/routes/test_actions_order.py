@@ -10,7 +10,7 @@ from httpx import Response
 from sqlmodel import Session, col, select
 
 from app.db.models import ChangeLogEntry, Deviation, Recommendation, Scenario
-from app.routes.actions import today
+from app.routes.record.actions import today
 from app.services.record.actions import create_action, move_action
 from tests.factories import make_scenario_tree
 from tests.routes.test_studies import table_rows

@@ -8,7 +8,7 @@ from fastapi.testclient import TestClient
 from sqlmodel import Session, select
 
 from app.db.models import ActionStatus, Recommendation, RecommendationScenario, Scenario
-from app.routes.actions import today
+from app.routes.record.actions import today
 from app.services.record.actions import create_action
 from tests.factories import make_scenario_tree, make_step
 from tests.routes.test_studies import table_rows

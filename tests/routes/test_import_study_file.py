@@ -10,7 +10,7 @@ from fastapi.testclient import TestClient
 from sqlalchemy.exc import IntegrityError
 from sqlmodel import Session
 
-import app.routes.exports as export_routes
+import app.routes.exchange.exports as export_routes
 from app.db.models import Study
 from app.services.exchange import study_import
 from app.services.exchange.study_file import export_study

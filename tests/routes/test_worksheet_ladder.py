@@ -74,7 +74,7 @@ def test_labels_of_a_mitigated_frequency_on_the_target_line_do_not_overlap() -> 
 def test_the_svg_draws_with_inline_presentation_attributes() -> None:
     environment = Environment(loader=FileSystemLoader(PROJECT_ROOT / "templates"))
     ladder = build_ladder(scenario((IE, 0.1), (IPL, 0.1)))
-    svg = ET.fromstring(environment.get_template("_ladder.html").render(ladder=ladder))
+    svg = ET.fromstring(environment.get_template("worksheet/_ladder.html").render(ladder=ladder))
     assert svg.tag == f"{SVG}svg"
     steps = svg.findall(f"{SVG}g[@data-ladder='step']")
     assert [float(g.get("data-y", "")) for g in steps] == pytest.approx(

@@ -149,7 +149,7 @@ def test_room_text_colours_pass_wcag_aa(text: str, background: str) -> None:
 
 
 def test_ladder_text_colours_pass_wcag_aa_on_its_white_card() -> None:
-    ladder = (PROJECT_ROOT / "templates" / "_ladder.html").read_text()
+    ladder = (PROJECT_ROOT / "templates" / "worksheet" / "_ladder.html").read_text()
     text_fills = set(re.findall(r'<text[^>]*fill="(#[0-9a-fA-F]{6})"', ladder))
     result_colours = set(re.findall(r"_colour = '(#[0-9a-fA-F]{6})'", ladder))
     assert len(text_fills) >= 3 and len(result_colours) == 2

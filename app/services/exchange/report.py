@@ -24,7 +24,7 @@ from app.services.study.listing import NodeTotals, totals_of
 from app.services.study.tree import ScenarioNode, StudyTree
 from app.services.worksheet.ladder import LadderView, build_ladder
 
-REPORT_TEMPLATE = "report/study.html"
+REPORT_TEMPLATE = "exchange/report/study.html"
 
 
 @dataclass(frozen=True)
