@@ -21,19 +21,20 @@ def test_the_demo_study_has_the_promised_size(session: Session, demo_study: Stud
     deviations = [d for n in tree.nodes for d in n.deviations]
     assert len(tree.nodes) >= 3
     assert len(deviations) >= 8
-    assert len(tree.scenario_nodes()) >= 15
+    assert len(tree.scenario_branches()) >= 15
 
 
 def test_the_demo_uses_every_step_kind(session: Session, demo_study: Study) -> None:
     tree = load_study_tree(session, demo_study.id)
-    kinds = {str(step.kind) for s in tree.scenario_nodes() for step in s.steps}
+    kinds = {str(step.kind) for s in tree.scenario_branches() for step in s.steps}
     assert kinds == {str(kind) for kind in StepKind}
 
 
 def test_some_demo_scenarios_meet_their_target_and_some_fall_short(
     session: Session, demo_study: Study
 ) -> None:
-    results = [s.outcome.result for s in load_study_tree(session, demo_study.id).scenario_nodes()]
+    tree = load_study_tree(session, demo_study.id)
+    results = [s.outcome.result for s in tree.scenario_branches()]
     assert all(result is not None for result in results)
     verdicts = {result.meets_target for result in results if result is not None}
     assert verdicts == {True, False}

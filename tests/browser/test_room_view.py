@@ -65,9 +65,9 @@ def test_the_scribes_edit_appears_in_the_room_view_within_a_second(
 def _showcase(session: Session, study: Study) -> Scenario:
     """The demo scenario with the most credited steps among those short of target."""
     tree = load_study_tree(session, study.id or 0)
-    short = [s for s in tree.scenario_nodes()
+    short = [s for s in tree.scenario_branches()
              if s.outcome.result is not None and not s.outcome.result.meets_target]
-    chosen = max(short or tree.scenario_nodes(), key=lambda s: len(s.outcome.result.ladder)
+    chosen = max(short or tree.scenario_branches(), key=lambda s: len(s.outcome.result.ladder)
                  if s.outcome.result else 0)
     return chosen.scenario
 

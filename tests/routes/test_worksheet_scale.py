@@ -236,7 +236,7 @@ def whole_study_totals(session: Session, study: Study, node_id: int) -> dict[str
     session.expire_all()
     tree = load_study_tree(session, study.id or 0)
     node = next(n for n in tree.nodes if n.node.id == node_id)
-    return as_shown(totals_of(node.scenario_nodes()), totals_of(tree.scenario_nodes()))
+    return as_shown(totals_of(node.scenario_branches()), totals_of(tree.scenario_branches()))
 
 
 @pytest.mark.parametrize("prepared", [view_worksheet, edit_value],
@@ -257,21 +257,21 @@ def test_light_totals_match_the_tree_for_every_node_to_the_last_bit(session: Ses
     study = imported_study(session, LARGE)
     tree = load_study_tree(session, study.id or 0)
     light = study_totals(session, study.id or 0)
-    assert light.study == totals_of(tree.scenario_nodes())
+    assert light.study == totals_of(tree.scenario_branches())
     assert light.study.unresolved_count == 1
-    for node_node in tree.nodes:
-        assert light.of_node(node_node.node.id or 0) == totals_of(node_node.scenario_nodes())
+    for node_branch in tree.nodes:
+        assert light.of_node(node_branch.node.id or 0) == totals_of(node_branch.scenario_branches())
 
 
 def test_a_node_tree_is_that_node_of_the_study_tree(session: Session) -> None:
     study = imported_study(session, 3)
     whole = load_study_tree(session, study.id or 0)
-    for node_node in whole.nodes:
-        alone = load_node_tree(session, study.id or 0, node_node.node.id or 0).node
+    for node_branch in whole.nodes:
+        alone = load_node_tree(session, study.id or 0, node_branch.node.id or 0).node
         assert [(s.scenario.id, [step.id for step in s.steps], s.outcome)
-                for s in alone.scenario_nodes()] == [
+                for s in alone.scenario_branches()] == [
             (s.scenario.id, [step.id for step in s.steps], s.outcome)
-            for s in node_node.scenario_nodes()]
+            for s in node_branch.scenario_branches()]
 
 
 def test_importing_40_nodes_sends_as_many_statements_as_importing_1(

@@ -86,15 +86,15 @@ def test_the_report_draws_a_ladder_per_computed_scenario_and_the_risk_picture(
     tree = load_study_tree(session, demo_study.id or 0)
     data = export_study(session, demo_study.id or 0)
     html = report_html(build_report(tree, data, when=WHEN), env=templates.env)
-    computed = [s for s in tree.scenario_nodes() if s.outcome.result is not None]
+    computed = [s for s in tree.scenario_branches() if s.outcome.result is not None]
     assert html.count('<svg class="ladder"') == len(computed) >= 15
     assert html.count('<svg class="risk-matrix"') == 1
     assert html.count('<svg class="gap-bars"') == 1
-    for node_node in tree.nodes:
-        assert f"Node {node_node.node.number} · {node_node.node.name}" in html
+    for node_branch in tree.nodes:
+        assert f"Node {node_branch.node.number} · {node_branch.node.name}" in html
     assert "2026-11-12 15:30 UTC" in html
     assert all(f"<td>{p['name']}</td>" in html for p in data["participants"])
-    assert html.count('id="scenario-S') == len(tree.scenario_nodes())
+    assert html.count('id="scenario-S') == len(tree.scenario_branches())
 
 
 def test_hostile_text_is_escaped_in_the_report_source_and_the_pdf_still_renders(

@@ -72,7 +72,7 @@ def test_scenario_numbers_are_the_apps_own_results_as_real_numbers(
 ) -> None:
     tree = load_study_tree(session, demo_study.id or 0)
     records = sheet_records(workbook_of(session, demo_study)["Scenarios"])
-    items = tree.scenario_nodes()
+    items = tree.scenario_branches()
     assert len(records) == len(items) >= 15
     for record, item in zip(records, items, strict=True):
         result = item.outcome.result
@@ -112,8 +112,8 @@ def test_the_steps_actions_and_attendance_sheets_follow_the_study_file(
     book = workbook_of(session, demo_study)
     tree = load_study_tree(session, demo_study.id or 0)
     steps = sheet_records(book["Steps"])
-    assert len(steps) == sum(len(item.steps) for item in tree.scenario_nodes())
-    first = tree.scenario_nodes()[0].steps[0]
+    assert len(steps) == sum(len(item.steps) for item in tree.scenario_branches())
+    first = tree.scenario_branches()[0].steps[0]
     assert steps[0]["Scenario"] == "S1"
     assert steps[0]["Value"] == pytest.approx(first.value, rel=SAME)
     actions = sheet_records(book["Actions"])

@@ -79,10 +79,10 @@ def update_step_value(
         response = render_field_reply(request, reply)
         response.headers["X-Tallyroom-Seq"] = str(seq if seq is not None else "")
         return response
-    anchor = f"scenario-{reply.reply.scenario.item.scenario.id}" if reply.reply.scenario else ""
+    anchor = f"scenario-{reply.scenario.item.scenario.id}" if reply.scenario else ""
     if reply.error:
-        return render_worksheet(request, session, study_id, reply.reply.node_id,
+        return render_worksheet(request, session, study_id, reply.node_id,
                                 status_code=422, notice=reply.error,
                                 typed={reply.field_id: value_text}, focus_id=reply.field_id)
-    return RedirectResponse(worksheet_url(study_id, reply.reply.node_id, anchor),
+    return RedirectResponse(worksheet_url(study_id, reply.node_id, anchor),
                             status_code=303)

@@ -15,8 +15,9 @@ from app.routes.rendering import is_htmx, render
 from app.routes.worksheet.page import render_field_reply, render_worksheet, worksheet_url
 from app.services.worksheet import structure
 from app.services.worksheet import undo as structure_undo
-from app.services.worksheet.edits import edit_field, field_id, node_id_of
+from app.services.worksheet.edits import edit_field, field_id
 from app.services.worksheet.page import first_node_id
+from app.services.worksheet.structure import node_id_of
 
 router = APIRouter()
 PLURALS = {"node": "nodes", "deviation": "deviations", "scenario": "scenarios",
@@ -90,7 +91,7 @@ def make_update(kind: str) -> Callable[..., Any]:
                            changes=changes)
         if is_htmx(request):
             return render_field_reply(request, reply)
-        return _after_change(request, session, study_id, reply.reply.node_id,
+        return _after_change(request, session, study_id, reply.node_id,
                              focus_id=reply.field_id, notice=reply.error,
                              status_code=422 if reply.error else 200)
     return update_row

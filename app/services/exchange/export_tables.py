@@ -16,7 +16,7 @@ from typing import Any
 from app.db.models import StepKindValue
 from app.likelihood.types import STEP_KIND_LABELS, DemandMode, StepKind
 from app.services.exchange.study_file import scenario_ref
-from app.services.study.tree import DeviationNode, NodeNode, ScenarioNode, StudyTree
+from app.services.study.tree import DeviationBranch, NodeBranch, ScenarioBranch, StudyTree
 
 Cell = str | float | int | date | datetime | None
 StudyData = dict[str, Any]
@@ -72,41 +72,41 @@ SCENARIO_COLUMNS = (
 
 def scenario_refs(tree: StudyTree) -> dict[int, str]:
     """Scenario id -> the ref the study file gives it (S1, S2, ... in worksheet order)."""
-    return {s.scenario.id: scenario_ref(i) for i, s in enumerate(tree.scenario_nodes())
+    return {s.scenario.id: scenario_ref(i) for i, s in enumerate(tree.scenario_branches())
             if s.scenario.id is not None}
 
 
-def node_label(node_node: NodeNode) -> str:
+def node_label(node_branch: NodeBranch) -> str:
     """'1 · Feed drum'."""
-    return f"{node_node.node.number} · {node_node.node.name}"
+    return f"{node_branch.node.number} · {node_branch.node.name}"
 
 
-def deviation_label(deviation_node: DeviationNode) -> str:
+def deviation_label(deviation_branch: DeviationBranch) -> str:
     """'More Level'."""
-    return f"{deviation_node.deviation.guideword} {deviation_node.deviation.parameter}"
+    return f"{deviation_branch.deviation.guideword} {deviation_branch.deviation.parameter}"
 
 
 def scenario_table(tree: StudyTree) -> Table:
     """One row per scenario: what it is, its numbers and what it asks for."""
     refs = scenario_refs(tree)
     rows = [
-        _scenario_row(refs[item.scenario.id or 0], node_node, deviation_node, item)
-        for node_node in tree.nodes
-        for deviation_node in node_node.deviations
-        for item in deviation_node.scenarios
+        _scenario_row(refs[item.scenario.id or 0], node_branch, deviation_branch, item)
+        for node_branch in tree.nodes
+        for deviation_branch in node_branch.deviations
+        for item in deviation_branch.scenarios
     ]
     return Table("Scenarios", SCENARIO_COLUMNS, rows)
 
 
 def _scenario_row(
-    ref: str, node_node: NodeNode, deviation_node: DeviationNode, item: ScenarioNode
+    ref: str, node_branch: NodeBranch, deviation_branch: DeviationBranch, item: ScenarioBranch
 ) -> list[Cell]:
     scenario, outcome, result = item.scenario, item.outcome, item.outcome.result
     category = outcome.governing_category
     initiating = next((s for s in item.steps if s.kind == StepKindValue.INITIATING_EVENT), None)
     credited = [s for s in item.steps if s.kind == StepKindValue.IPL and s.credited]
     head: list[Cell] = [
-        ref, node_label(node_node), deviation_label(deviation_node), scenario.cause,
+        ref, node_label(node_branch), deviation_label(deviation_branch), scenario.cause,
         scenario.consequence, category.name if category else "",
         category.tolerable_frequency if category else None,
         initiating.description if initiating else "",
@@ -136,11 +136,11 @@ def step_table(tree: StudyTree) -> Table:
     """One row per step of every scenario, with the scenario's ref."""
     refs = scenario_refs(tree)
     rows: list[list[Cell]] = []
-    for node_node in tree.nodes:
-        for item in node_node.scenario_nodes():
+    for node_branch in tree.nodes:
+        for item in node_branch.scenario_branches():
             for number, step in enumerate(item.steps, 1):
                 rows.append([
-                    refs[item.scenario.id or 0], node_label(node_node), number,
+                    refs[item.scenario.id or 0], node_label(node_branch), number,
                     STEP_KIND_LABELS[StepKind(str(step.kind))], step.description, step.value,
                     step.value_text, "yes" if step.credited else "no", step.ipl_type or "",
                     step.system_tag, step.sil_claimed, step.response_time_minutes, step.basis,

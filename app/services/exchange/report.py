@@ -21,7 +21,7 @@ from app.services.exchange.export_tables import (
 )
 from app.services.risk.picture import RiskPicture, build_risk_picture
 from app.services.study.listing import NodeTotals, totals_of
-from app.services.study.tree import ScenarioNode, StudyTree
+from app.services.study.tree import ScenarioBranch, StudyTree
 from app.services.worksheet.ladder import LadderView, build_ladder
 
 REPORT_TEMPLATE = "exchange/report/study.html"
@@ -44,7 +44,7 @@ class ReportScenario:
 
     ref: str
     deviation: str
-    item: ScenarioNode
+    item: ScenarioBranch
     steps: tuple[ReportStep, ...]
     ladder: LadderView | None
     demand_mode: str
@@ -80,25 +80,25 @@ def build_report(tree: StudyTree, data: StudyData, *, when: datetime) -> Report:
     refs = scenario_refs(tree)
     nodes = tuple(
         ReportNode(
-            label=node_label(node_node), node=node_node.node,
-            totals=totals_of(node_node.scenario_nodes()),
+            label=node_label(node_branch), node=node_branch.node,
+            totals=totals_of(node_branch.scenario_branches()),
             scenarios=tuple(
                 _report_scenario(refs[item.scenario.id or 0], deviation_label(d), item)
-                for d in node_node.deviations for item in d.scenarios
+                for d in node_branch.deviations for item in d.scenarios
             ),
         )
-        for node_node in tree.nodes
+        for node_branch in tree.nodes
     )
     return Report(
         study=tree.study, session_days=tuple(day["day"] for day in data["session_days"]),
-        generated_at=when, totals=totals_of(tree.scenario_nodes()),
+        generated_at=when, totals=totals_of(tree.scenario_branches()),
         criteria=criteria_table(data), attendance=attendance_table(data),
         actions=action_table(data),
         nodes=nodes, picture=build_risk_picture(tree),
     )
 
 
-def _report_scenario(ref: str, deviation: str, item: ScenarioNode) -> ReportScenario:
+def _report_scenario(ref: str, deviation: str, item: ScenarioBranch) -> ReportScenario:
     result = item.outcome.result
     steps = tuple(
         ReportStep(STEP_KIND_LABELS[StepKind(str(s.kind))], s.description, s.value, s.credited,

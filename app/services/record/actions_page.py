@@ -14,7 +14,7 @@ from sqlmodel import Session
 from app.db.models import Study
 from app.services.record.action_inputs import ActionOrder
 from app.services.record.actions import STATUS_LABELS, ActionEntry, list_actions
-from app.services.study.tree import ScenarioNode, load_study_tree
+from app.services.study.tree import ScenarioBranch, load_study_tree
 
 # Products of decimals sit a hair off exact powers of ten; a closure within this is a closure.
 CLOSE_TOLERANCE_ORDERS = 1e-9
@@ -80,7 +80,7 @@ def order_query(order: ActionOrder) -> str:
     return f"?order={order.value}" if order == ActionOrder.TEAM else ""
 
 
-def scenario_label(node_number: str, item: ScenarioNode) -> str:
+def scenario_label(node_number: str, item: ScenarioBranch) -> str:
     """'Node 1 · Overfill: cause text' as lists and selects show a scenario."""
     cause = item.scenario.cause or item.scenario.consequence or f"scenario {item.scenario.id}"
     return f"Node {node_number} · {cause[:90]}"
@@ -91,7 +91,8 @@ def rrf_orders(rrf: float | None) -> float | None:
     return math.log10(rrf) if rrf else None
 
 
-def judge_closure(item: ScenarioNode, label: str, expected_rrf: float | None) -> AddressedScenario:
+def judge_closure(item: ScenarioBranch, label: str,
+                  expected_rrf: float | None) -> AddressedScenario:
     """The scenario's gap and what the expected RRF would do to it."""
     result = item.outcome.result
     scenario_id = item.scenario.id or 0
@@ -120,7 +121,7 @@ def read_actions_page(
     listing = list_actions(session=session, study_id=study_id, today=today, order=order)
     scenarios = {
         item.scenario.id: (scenario_label(node.node.number, item), item)
-        for node in tree.nodes for item in node.scenario_nodes()
+        for node in tree.nodes for item in node.scenario_branches()
     }
     choices = tuple(ScenarioChoice(sid, label) for sid, (label, _) in scenarios.items() if sid)
     rows = []

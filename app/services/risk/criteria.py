@@ -105,7 +105,7 @@ def _rated_with(scenario: Scenario, category_id: int) -> bool:
 
 def _use(tree: StudyTree, row: SeverityCategory, form: CategoryForm | None = None,
          errors: dict[str, str] | None = None) -> CategoryUse:
-    items = tree.scenario_nodes()
+    items = tree.scenario_branches()
     by_id = {c.id: c for c in tree.categories}
     governed = [s for s in items if (g := governing_category(s.scenario, by_id)) and g.id == row.id]
     short = [s for s in governed if s.outcome.result and not s.outcome.result.meets_target]
@@ -172,7 +172,7 @@ def _get_category(session: Session, study_id: int, category_id: int) -> Severity
 
 def _short_and_governed(tree: StudyTree, category_id: int) -> tuple[list[bool], int]:
     by_id = {c.id: c for c in tree.categories}
-    rated = [s for s in tree.scenario_nodes() if _rated_with(s.scenario, category_id)]
+    rated = [s for s in tree.scenario_branches() if _rated_with(s.scenario, category_id)]
     short = [bool(s.outcome.result and not s.outcome.result.meets_target) for s in rated]
     governed = sum(
         1 for s in rated if (g := governing_category(s.scenario, by_id)) and g.id == category_id

@@ -6,7 +6,7 @@ from dataclasses import dataclass
 from app.db.models import Step
 from app.likelihood.checks import CheckedStep, CheckWarning, check_scenario
 from app.likelihood.types import IplType, StepKind
-from app.services.study.tree import ScenarioNode, StudyTree
+from app.services.study.tree import ScenarioBranch, StudyTree
 
 
 @dataclass(frozen=True)
@@ -51,7 +51,7 @@ def checked_steps(steps: Iterable[Step]) -> list[CheckedStep]:
     ]
 
 
-def scenario_warnings(scenario_node: ScenarioNode) -> list[CheckWarning]:
+def scenario_warnings(scenario_node: ScenarioBranch) -> list[CheckWarning]:
     """Every IPL-check warning for one scenario (warnings never block its result)."""
     return check_scenario(checked_steps(scenario_node.steps))
 
@@ -64,9 +64,9 @@ def worksheet_href(study_id: int, node_id: int, scenario_id: int) -> str:
 def study_warnings(tree: StudyTree) -> list[ScenarioWarnings]:
     """Each scenario of the study that raises warnings, in worksheet order."""
     found = []
-    for node_node in tree.nodes:
-        node = node_node.node
-        for item in node_node.scenario_nodes():
+    for node_branch in tree.nodes:
+        node = node_branch.node
+        for item in node_branch.scenario_branches():
             warnings = scenario_warnings(item)
             if not warnings:
                 continue

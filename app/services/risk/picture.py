@@ -19,7 +19,7 @@ from app.services.risk.charts import (
 )
 from app.services.risk.ipl_checks import ScenarioWarnings, study_warnings, worksheet_href
 from app.services.study.listing import NodeTotals, totals_of
-from app.services.study.tree import NodeNode, ScenarioNode, StudyTree, load_study_tree
+from app.services.study.tree import NodeBranch, ScenarioBranch, StudyTree, load_study_tree
 
 
 @dataclass(frozen=True)
@@ -115,18 +115,18 @@ BAND_ORDER = ("Below SIL 1", "SIL 1", "SIL 2", "SIL 3", "SIL 4", "Beyond one fun
 DEMAND_WORDS = {DemandMode.LOW: "low demand", DemandMode.HIGH: "high demand"}
 
 
-def _node_label(node_node: NodeNode) -> str:
-    return f"{node_node.node.number} {node_node.node.name}"
+def _node_label(node_branch: NodeBranch) -> str:
+    return f"{node_branch.node.number} {node_branch.node.name}"
 
 
-def _ranked(study_id: int, node_node: NodeNode, deviation_label: str, item: ScenarioNode,
+def _ranked(study_id: int, node_branch: NodeBranch, deviation_label: str, item: ScenarioBranch,
             result: ScenarioResult) -> RankedScenario:
     scenario, category = item.scenario, item.outcome.governing_category
     assert category is not None and category.id is not None  # a result needs a category
     return RankedScenario(
         scenario_id=scenario.id or 0,
         label=f"{scenario.cause} → {scenario.consequence}",
-        node_label=_node_label(node_node),
+        node_label=_node_label(node_branch),
         deviation_label=deviation_label,
         category_id=category.id,
         category_name=category.name,
@@ -137,7 +137,7 @@ def _ranked(study_id: int, node_node: NodeNode, deviation_label: str, item: Scen
         gap_orders=result.gap_orders,
         meets=result.meets_target,
         sil_label=result.sil_target.label,
-        href=worksheet_href(study_id, node_node.node.id or 0, scenario.id or 0),
+        href=worksheet_href(study_id, node_branch.node.id or 0, scenario.id or 0),
         cell=cell_key(category.id, decade_of(result.mitigated_frequency)),
     )
 
@@ -145,19 +145,19 @@ def _ranked(study_id: int, node_node: NodeNode, deviation_label: str, item: Scen
 def _scenarios(tree: StudyTree) -> tuple[list[RankedScenario], list[UnresolvedScenario]]:
     ranked, unresolved = [], []
     study_id = tree.study.id or 0
-    for node_node in tree.nodes:
-        for deviation_node in node_node.deviations:
-            deviation = deviation_node.deviation
+    for node_branch in tree.nodes:
+        for deviation_branch in node_branch.deviations:
+            deviation = deviation_branch.deviation
             deviation_label = f"{deviation.guideword} {deviation.parameter}"
-            for item in deviation_node.scenarios:
+            for item in deviation_branch.scenarios:
                 result = item.outcome.result
                 if result is not None:
-                    ranked.append(_ranked(study_id, node_node, deviation_label, item, result))
+                    ranked.append(_ranked(study_id, node_branch, deviation_label, item, result))
                     continue
                 scenario = item.scenario
                 unresolved.append(UnresolvedScenario(
-                    f"{scenario.cause} → {scenario.consequence}", _node_label(node_node),
-                    worksheet_href(study_id, node_node.node.id or 0, scenario.id or 0),
+                    f"{scenario.cause} → {scenario.consequence}", _node_label(node_branch),
+                    worksheet_href(study_id, node_branch.node.id or 0, scenario.id or 0),
                     item.outcome.error,
                 ))
     ranked.sort(key=lambda r: -r.gap_orders)  # stable: worksheet order among equal gaps
@@ -200,7 +200,7 @@ def _band_label(result_label: str, status: SilStatus, sil: int | None) -> str:
 
 
 def _sil_needs(tree: StudyTree, ranked: list[RankedScenario]) -> list[tuple[SilNeed, str]]:
-    results = {s.scenario.id: s.outcome.result for s in tree.scenario_nodes()}
+    results = {s.scenario.id: s.outcome.result for s in tree.scenario_branches()}
     needs = []
     for item in ranked:
         result = results[item.scenario_id]
@@ -235,7 +235,7 @@ def build_risk_picture(tree: StudyTree) -> RiskPicture:
         category_sums=tuple(_category_sum(c, ranked) for c in _severity_order(tree.categories)),
         node_sums=tuple(
             NodeSum(_node_label(n), f"/studies/{study_id}/nodes/{n.node.id}",
-                    totals_of(n.scenario_nodes()))
+                    totals_of(n.scenario_branches()))
             for n in tree.nodes
         ),
         matrix=_matrix(tree, ranked),

@@ -9,7 +9,7 @@ from sqlmodel import Session
 from app.db.models import Study
 from app.db.queries import fetch_studies_with_counts
 from app.likelihood.types import ScenarioResult
-from app.services.study.tree import NodeNode, ScenarioNode, StudyTree, load_study_tree
+from app.services.study.tree import NodeBranch, ScenarioBranch, StudyTree, load_study_tree
 
 
 @dataclass(frozen=True)
@@ -57,17 +57,17 @@ def totals_of_results(results: Sequence[ScenarioResult | None]) -> NodeTotals:
     )
 
 
-def totals_of(scenarios: list[ScenarioNode]) -> NodeTotals:
+def totals_of(scenarios: list[ScenarioBranch]) -> NodeTotals:
     """Count and sum a set of scenarios' outcomes."""
     return totals_of_results([s.outcome.result for s in scenarios])
 
 
-def node_totals(nodes: list[NodeNode]) -> dict[int, NodeTotals]:
+def node_totals(nodes: list[NodeBranch]) -> dict[int, NodeTotals]:
     """Totals for each node, keyed by node id."""
-    return {n.node.id: totals_of(n.scenario_nodes()) for n in nodes if n.node.id is not None}
+    return {n.node.id: totals_of(n.scenario_branches()) for n in nodes if n.node.id is not None}
 
 
 def read_study_overview(*, session: Session, study_id: int) -> StudyOverview:
     """The study with every scenario computed and totals per node and for the study."""
     tree = load_study_tree(session, study_id)
-    return StudyOverview(tree, node_totals(tree.nodes), totals_of(tree.scenario_nodes()))
+    return StudyOverview(tree, node_totals(tree.nodes), totals_of(tree.scenario_branches()))

@@ -26,7 +26,7 @@ class NotFoundError(LookupError):
 
 
 @dataclass
-class ScenarioNode:
+class ScenarioBranch:
     """One scenario with its steps, safeguards and computed outcome."""
 
     scenario: Scenario
@@ -36,17 +36,17 @@ class ScenarioNode:
 
 
 @dataclass
-class DeviationNode:
+class DeviationBranch:
     deviation: Deviation
-    scenarios: list[ScenarioNode] = field(default_factory=list)
+    scenarios: list[ScenarioBranch] = field(default_factory=list)
 
 
 @dataclass
-class NodeNode:
+class NodeBranch:
     node: Node
-    deviations: list[DeviationNode] = field(default_factory=list)
+    deviations: list[DeviationBranch] = field(default_factory=list)
 
-    def scenario_nodes(self) -> list[ScenarioNode]:
+    def scenario_branches(self) -> list[ScenarioBranch]:
         """Every scenario of this node, in worksheet order."""
         return [s for d in self.deviations for s in d.scenarios]
 
@@ -57,12 +57,12 @@ class StudyTree:
 
     study: Study
     categories: list[SeverityCategory]
-    nodes: list[NodeNode]
+    nodes: list[NodeBranch]
     recommendations: list[Recommendation]
 
-    def scenario_nodes(self) -> list[ScenarioNode]:
+    def scenario_branches(self) -> list[ScenarioBranch]:
         """Every scenario of the study, in worksheet order."""
-        return [s for n in self.nodes for s in n.scenario_nodes()]
+        return [s for n in self.nodes for s in n.scenario_branches()]
 
 
 @dataclass
@@ -71,7 +71,7 @@ class NodeTree:
 
     study: Study
     categories: list[SeverityCategory]
-    node: NodeNode
+    node: NodeBranch
 
 
 @dataclass(frozen=True)
@@ -123,21 +123,21 @@ def _content_rows(fetch: Callable[[type[Any]], list[Any]]) -> _ContentRows:
 
 
 def _assemble(nodes: list[Node], rows: _ContentRows,
-              categories: list[SeverityCategory]) -> list[NodeNode]:
+              categories: list[SeverityCategory]) -> list[NodeBranch]:
     """Nest the rows under their nodes in worksheet order, computing each scenario."""
     by_id = {c.id: c for c in categories if c.id is not None}
     assembled = []
     for node in nodes:
-        node_node = NodeNode(node)
+        node_branch = NodeBranch(node)
         for deviation in rows.deviations[node.id or 0]:
-            deviation_node = DeviationNode(deviation)
+            deviation_branch = DeviationBranch(deviation)
             for scenario in rows.scenarios[deviation.id or 0]:
                 steps = rows.steps[scenario.id or 0]
-                deviation_node.scenarios.append(ScenarioNode(
+                deviation_branch.scenarios.append(ScenarioBranch(
                     scenario, steps, rows.safeguards[scenario.id or 0],
                     compute_outcome(scenario, steps, by_id)))
-            node_node.deviations.append(deviation_node)
-        assembled.append(node_node)
+            node_branch.deviations.append(deviation_branch)
+        assembled.append(node_branch)
     return assembled
 
 

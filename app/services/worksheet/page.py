@@ -1,8 +1,7 @@
-"""The node worksheet: display-ready scenarios with their ladders, and live value edits."""
+"""The node worksheet page: display-ready scenarios with their figures, ladders and warnings."""
 
-from collections import OrderedDict, defaultdict
+from collections import defaultdict
 from dataclasses import dataclass
-from threading import Lock
 
 from sqlmodel import Session
 
@@ -15,14 +14,21 @@ from app.services.risk.ipl_checks import scenario_warnings
 from app.services.study.listing import NodeTotals
 from app.services.study.totals import study_totals
 from app.services.study.tree import (
-    DeviationNode,
-    NodeNode,
-    ScenarioNode,
+    DeviationBranch,
+    NodeBranch,
+    NotFoundError,
+    ScenarioBranch,
     get_study,
     load_node_tree,
 )
 from app.services.worksheet.ladder import LadderView, build_ladder
-from app.services.worksheet.structure import parse_step_value, step_label
+from app.services.worksheet.structure import (
+    get_row,
+    kind_of,
+    node_id_of,
+    parse_step_value,
+    step_label,
+)
 from app.services.worksheet.undo import DeleteCounts, delete_question, last_deleted
 
 KIND_ORDER = [StepKind.INITIATING_EVENT, StepKind.ENABLING_CONDITION,
@@ -45,7 +51,7 @@ class StepRow:
 class ScenarioView:
     """One scenario, display-ready: steps in ladder order, figures, ladder, warnings, actions."""
 
-    item: ScenarioNode
+    item: ScenarioBranch
     number: str
     steps: tuple[StepRow, ...]
     ladder: LadderView | None
@@ -59,7 +65,7 @@ class ScenarioView:
 class DeviationView:
     """One deviation with its scenarios."""
 
-    deviation_node: DeviationNode
+    deviation_branch: DeviationBranch
     number: str
     scenarios: tuple[ScenarioView, ...]
     delete_question: str
@@ -121,7 +127,7 @@ def recommendations_of_node(session: Session, node_id: int
     return {scenario_id: tuple(actions) for scenario_id, actions in linked.items()}
 
 
-def scenario_view(item: ScenarioNode, number: str, recommendations: tuple[Recommendation, ...],
+def scenario_view(item: ScenarioBranch, number: str, recommendations: tuple[Recommendation, ...],
                   fallback: str = "") -> ScenarioView:
     """Display-ready data of one scenario."""
     result = item.outcome.result
@@ -136,27 +142,27 @@ def scenario_view(item: ScenarioNode, number: str, recommendations: tuple[Recomm
     )
 
 
-def _deviation_view(deviation_node: DeviationNode, number: str,
+def _deviation_view(deviation_branch: DeviationBranch, number: str,
                     recommendations: dict[int, tuple[Recommendation, ...]]) -> DeviationView:
-    deviation = deviation_node.deviation
+    deviation = deviation_branch.deviation
     scenarios = tuple(scenario_view(item, f"{number}.{index}",
                                     recommendations.get(item.scenario.id or 0, ()))
-                      for index, item in enumerate(deviation_node.scenarios, start=1))
+                      for index, item in enumerate(deviation_branch.scenarios, start=1))
     counts = DeleteCounts(scenarios=len(scenarios),
                           steps=sum(len(s.item.steps) for s in scenarios),
                           safeguards=sum(len(s.item.safeguards) for s in scenarios))
     label = f"{number} '{deviation.guideword} {deviation.parameter}'".rstrip(" '")
-    return DeviationView(deviation_node, number, scenarios,
+    return DeviationView(deviation_branch, number, scenarios,
                          delete_question("deviation", label, counts))
 
 
-def node_delete_question(node_node: NodeNode) -> str:
+def node_delete_question(node_branch: NodeBranch) -> str:
     """The question asked before deleting a node, counting what goes with it."""
-    scenarios = node_node.scenario_nodes()
-    counts = DeleteCounts(deviations=len(node_node.deviations), scenarios=len(scenarios),
+    scenarios = node_branch.scenario_branches()
+    counts = DeleteCounts(deviations=len(node_branch.deviations), scenarios=len(scenarios),
                           steps=sum(len(s.steps) for s in scenarios),
                           safeguards=sum(len(s.safeguards) for s in scenarios))
-    return delete_question("node", node_node.node.number, counts)
+    return delete_question("node", node_branch.node.number, counts)
 
 
 def read_worksheet(*, session: Session, study_id: int, node_id: int) -> WorksheetPage:
@@ -165,18 +171,18 @@ def read_worksheet(*, session: Session, study_id: int, node_id: int) -> Workshee
     Only this node's rows are loaded as objects; the totals come from plain rows.
     """
     tree = load_node_tree(session, study_id, node_id)
-    node_node = tree.node
-    number = node_node.node.number or str(node_id)
+    node_branch = tree.node
+    number = node_branch.node.number or str(node_id)
     recommendations = recommendations_of_node(session, node_id)
     deviations = tuple(_deviation_view(d, f"{number}.{i}", recommendations)
-                       for i, d in enumerate(node_node.deviations, start=1))
+                       for i, d in enumerate(node_branch.deviations, start=1))
     totals = study_totals(session, study_id)
     return WorksheetPage(
-        study=tree.study, node=node_node.node, nodes=node_links(session, study_id),
+        study=tree.study, node=node_branch.node, nodes=node_links(session, study_id),
         categories=tuple(tree.categories), deviations=deviations,
         node_totals=totals.of_node(node_id), study_totals=totals.study,
         undo=last_deleted(session=session, study_id=study_id),
-        node_delete_question=node_delete_question(node_node),
+        node_delete_question=node_delete_question(node_branch),
     )
 
 
@@ -192,27 +198,21 @@ def first_node_id(*, session: Session, study_id: int) -> int | None:
     return fetch_first_node_id(session, study_id)
 
 
-class LatestEdits:
-    """The newest sequence number seen per (step, browser page), so an older edit is dropped."""
-
-    def __init__(self, capacity: int = 10_000) -> None:
-        self._seen: OrderedDict[tuple[int, str], int] = OrderedDict()
-        self._lock = Lock()
-        self._capacity = capacity
-
-    def accept(self, step_id: int, client: str, seq: int | None) -> bool:
-        """True when this edit is newer than every one seen from that page for that step."""
-        if not client or seq is None:
-            return True  # a plain form post carries no sequence: always current
-        with self._lock:
-            key = (step_id, client)
-            if seq <= self._seen.get(key, -1):
-                return False
-            self._seen[key] = seq
-            self._seen.move_to_end(key)
-            while len(self._seen) > self._capacity:
-                self._seen.popitem(last=False)
-            return True
+def located_scenario(*, session: Session, study_id: int, scenario_id: int,
+                     fallback: str = "") -> tuple[ScenarioView, Node]:
+    """One scenario recomputed and numbered within its node; only that node is loaded."""
+    scenario = get_row(session, kind_of("scenario"), study_id, scenario_id)
+    node_id = node_id_of(session, "scenario", scenario)
+    branch = load_node_tree(session, study_id, node_id).node
+    item, number = _locate(branch, scenario_id)
+    links = recommendations_of_node(session, node_id).get(scenario_id, ())
+    return scenario_view(item, number, links, fallback), branch.node
 
 
-LATEST_EDITS = LatestEdits()
+def _locate(branch: NodeBranch, scenario_id: int) -> tuple[ScenarioBranch, str]:
+    node_number = branch.node.number or str(branch.node.id)
+    for d_index, deviation_branch in enumerate(branch.deviations, start=1):
+        for s_index, item in enumerate(deviation_branch.scenarios, start=1):
+            if item.scenario.id == scenario_id:
+                return item, f"{node_number}.{d_index}.{s_index}"
+    raise NotFoundError(f"There is no scenario {scenario_id} in node {branch.node.id}.")

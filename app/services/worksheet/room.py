@@ -21,8 +21,7 @@ from app.db.models import (
 )
 from app.db.queries import fetch_first_scenario_id, fetch_scenario_count
 from app.services.study.tree import NotFoundError, get_study
-from app.services.worksheet.edits import located_scenario
-from app.services.worksheet.page import ScenarioView
+from app.services.worksheet.page import ScenarioView, located_scenario
 
 WATCHED = (Node, Deviation, Scenario, Step, Safeguard, SeverityCategory, Recommendation)
 

@@ -289,3 +289,12 @@ def move_row(*, session: Session, study_id: int, kind_name: str, row_id: int,
     session.commit()
     session.refresh(row)
     return row
+
+
+def node_id_of(session: Session, kind_name: str, row: Any) -> int:
+    """The node a worksheet row sits under (the node itself is not loaded)."""
+    while kind_name not in ("node", "deviation"):
+        parent_field = KINDS[kind_name].parent_field or ""
+        kind_name = {"deviation_id": "deviation", "scenario_id": "scenario"}[parent_field]
+        row = session.get(KINDS[kind_name].model, getattr(row, parent_field))
+    return int(row.id if kind_name == "node" else row.node_id)
