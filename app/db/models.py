@@ -3,8 +3,11 @@
 from datetime import UTC, date, datetime
 from enum import StrEnum
 
-from sqlalchemy import Column, Index, MetaData, Text, false, text
+from sqlalchemy import Column, Dialect, Index, MetaData, Text, false, text
+from sqlalchemy.types import TypeDecorator
 from sqlmodel import AutoString, Field, SQLModel
+
+from app.likelihood.types import StepKind
 
 # Constraint names are fixed so Alembic migrations are stable on SQLite and PostgreSQL alike.
 SQLModel.metadata = MetaData(
@@ -31,13 +34,18 @@ def text_limit(model: type[SQLModel], field: str) -> int:
     return int(length)
 
 
-class StepKindValue(StrEnum):
-    """Stored step kinds; the same strings as app.likelihood.StepKind."""
+class StepKindText(TypeDecorator[StepKind]):
+    """A step kind stored as plain text (not a database enum, so a new kind needs no migration
+    on PostgreSQL) and read back as app.likelihood's StepKind, the one vocabulary of kinds."""
 
-    INITIATING_EVENT = "initiating_event"
-    ENABLING_CONDITION = "enabling_condition"
-    CONDITIONAL_MODIFIER = "conditional_modifier"
-    IPL = "ipl"
+    impl = AutoString(length=30)
+    cache_ok = True
+
+    def process_bind_param(self, value: str | None, dialect: Dialect) -> str | None:
+        return None if value is None else StepKind(value).value
+
+    def process_result_value(self, value: str | None, dialect: Dialect) -> StepKind | None:
+        return None if value is None else StepKind(value)
 
 
 class Receptor(StrEnum):
@@ -151,7 +159,7 @@ class Scenario(ScenarioBase, TrackedRow, table=True):
 
 
 class StepBase(SQLModel):
-    kind: StepKindValue = Field(sa_type=AutoString(length=30))  # plain text, not a DB enum
+    kind: StepKind = Field(sa_type=StepKindText)
     description: str = Field(default="", max_length=1000)
     value: float = Field(gt=0)
     # The scribe's own words for the last valid value, e.g. "1 in 100" or "3 in 30 years".

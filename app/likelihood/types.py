@@ -7,20 +7,69 @@ from enum import StrEnum
 
 
 class StepKind(StrEnum):
-    """The four kinds of factor in a LOPA scenario."""
+    """The four kinds of factor in a LOPA scenario, in ladder order (the order they multiply in).
+
+    The one vocabulary of step kinds: the value stored in the database and the study file, and
+    through `terms` every word the app shows for it.
+    """
 
     INITIATING_EVENT = "initiating_event"
     ENABLING_CONDITION = "enabling_condition"
     CONDITIONAL_MODIFIER = "conditional_modifier"
     IPL = "ipl"
 
+    @property
+    def terms(self) -> StepKindTerms:
+        """The words for this kind (label, short code, words in a sentence, room word)."""
+        return STEP_KIND_TERMS[self]
 
-STEP_KIND_LABELS: dict[StepKind, str] = {
-    StepKind.INITIATING_EVENT: "Initiating event",
-    StepKind.ENABLING_CONDITION: "Enabling condition",
-    StepKind.CONDITIONAL_MODIFIER: "Conditional modifier",
-    StepKind.IPL: "Independent protection layer",
+    @property
+    def label(self) -> str:
+        """As a heading or a column value: "Initiating event"."""
+        return self.terms.label
+
+    @property
+    def short(self) -> str:
+        """The short code on worksheet tags and ladder marks: "IE"."""
+        return self.terms.short
+
+    @property
+    def words(self) -> str:
+        """Inside a sentence and on its add button: "enabling condition"."""
+        return self.terms.words
+
+    @property
+    def order(self) -> int:
+        """Its place in the ladder (0 for the initiating event)."""
+        return tuple(StepKind).index(self)
+
+    @property
+    def is_addable(self) -> bool:
+        """A scenario gets its one initiating event when created; the other kinds are added."""
+        return self is not StepKind.INITIATING_EVENT
+
+
+@dataclass(frozen=True)
+class StepKindTerms:
+    """What people call one step kind in each place it is shown."""
+
+    label: str
+    short: str
+    words: str
+    room: str  # the room view's narrow first column
+
+
+STEP_KIND_TERMS: dict[StepKind, StepKindTerms] = {
+    StepKind.INITIATING_EVENT: StepKindTerms("Initiating event", "IE", "initiating event",
+                                             "Initiating event"),
+    StepKind.ENABLING_CONDITION: StepKindTerms("Enabling condition", "EC", "enabling condition",
+                                               "Enabling"),
+    StepKind.CONDITIONAL_MODIFIER: StepKindTerms("Conditional modifier", "CM",
+                                                 "conditional modifier", "Modifier"),
+    StepKind.IPL: StepKindTerms("Independent protection layer", "IPL", "IPL", "IPL"),
 }
+STEP_KIND_LABELS: dict[StepKind, str] = {kind: terms.label
+                                         for kind, terms in STEP_KIND_TERMS.items()}
 
 
 class IplType(StrEnum):

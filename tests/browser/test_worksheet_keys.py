@@ -4,7 +4,8 @@ import pytest
 from playwright.sync_api import Dialog, Page, expect
 from sqlmodel import Session, select
 
-from app.db.models import Deviation, Scenario, Step, StepKindValue
+from app.db.models import Deviation, Scenario, Step
+from app.likelihood.types import StepKind
 from tests.factories import make_scenario_tree, make_step
 
 
@@ -27,7 +28,7 @@ def layers(session: Session, scenario: Scenario) -> list[Step]:
     """The scenario's IPL steps in order, read fresh."""
     session.expire_all()
     return list(session.exec(select(Step).where(
-        Step.scenario_id == scenario.id, Step.kind == StepKindValue.IPL)
+        Step.scenario_id == scenario.id, Step.kind == StepKind.IPL)
         .order_by(Step.position, Step.id)).all())  # type: ignore[arg-type]
 
 

@@ -11,7 +11,8 @@ import pytest
 from fastapi.testclient import TestClient
 from sqlmodel import Session, select
 
-from app.db.models import Scenario, Step, StepKindValue
+from app.db.models import Scenario, Step
+from app.likelihood.types import StepKind
 from app.services.risk.ipl_checks import checked_steps
 from tests.factories import make_scenario_tree, make_step
 
@@ -20,7 +21,7 @@ INDEPENDENCE = "CCPS, Layer of Protection Analysis (2001), ch. 6 (secondary)"
 OPERATOR = "CCPS, Layer of Protection Analysis (2001), ch. 6 (from memory)"
 SIL_TABLE = "IEC 61511-1:2016, Table 4, low demand (values secondary; table from memory)"
 
-IPL = StepKindValue.IPL
+IPL = StepKind.IPL
 # rule -> (steps to add to a scenario whose initiating event is tagged DCS-1, source shown)
 CASES: dict[str, tuple[list[dict[str, Any]], str]] = {
     "bpcs_pfd_floor": ([{"ipl_type": "bpcs", "value": 0.01, "system_tag": "DCS-2"}], BPCS),
@@ -89,7 +90,7 @@ def test_a_rule_of_thumb_says_common_practice_no_source(
 ) -> None:
     """The enabling-condition illustrations carry no published source."""
     scenario = make_scenario_tree(session)
-    make_step(session, scenario, kind=StepKindValue.ENABLING_CONDITION, value=0.9,
+    make_step(session, scenario, kind=StepKind.ENABLING_CONDITION, value=0.9,
               typical_key="freezing_season", description="Winter")
     page = unescape(client.get(f"/studies/{scenario.study_id}/risk").text)
     assert _rules_shown(page) == ["outside_typical_range"]

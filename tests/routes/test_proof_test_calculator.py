@@ -13,13 +13,14 @@ import pytest
 from fastapi.testclient import TestClient
 from sqlmodel import Session, select
 
-from app.db.models import Step, StepKindValue
+from app.db.models import Step
 from app.likelihood.proof_test import (
     Architecture,
     SifInputs,
     longest_proof_test_interval,
     pfd_avg,
 )
+from app.likelihood.types import StepKind
 from tests.factories import make_scenario_tree, make_step
 
 REFERENCE_1OO1 = {  # lambda = 1e-6 /h total -> lambda_D = 5e-7, DC 0 -> all undetected
@@ -194,7 +195,7 @@ def test_use_for_step_with_bad_input_saves_nothing(client: TestClient, session: 
 
 def test_only_an_ipl_step_can_be_attached(client: TestClient, session: Session) -> None:
     scenario = make_scenario_tree(session)
-    cause = make_step(session, scenario, kind=StepKindValue.ENABLING_CONDITION, value=0.5)
+    cause = make_step(session, scenario, kind=StepKind.ENABLING_CONDITION, value=0.5)
     response = client.get(f"/studies/{scenario.study_id}/proof-test",
                           params={"step_id": cause.id})
     assert response.status_code == 404
@@ -206,7 +207,7 @@ def test_a_layer_with_demand_above_once_a_year_is_flagged_high_demand(
 ) -> None:
     scenario = make_scenario_tree(session)  # IE 0.1 /yr; raise it to 3 /yr
     ie = session.exec(select(Step).where(Step.scenario_id == scenario.id,
-                                         Step.kind == StepKindValue.INITIATING_EVENT)).one()
+                                         Step.kind == StepKind.INITIATING_EVENT)).one()
     ie.value = 3.0
     session.add(ie)
     session.commit()

@@ -7,7 +7,8 @@ import pytest
 from fastapi.testclient import TestClient
 from sqlmodel import Session, select
 
-from app.db.models import Step, StepKindValue
+from app.db.models import Step
+from app.likelihood.types import StepKind
 from tests.factories import make_scenario_tree, make_step
 
 VALID = {"ipl_type": "operator_response", "system_tag": "Control room panel",
@@ -121,4 +122,4 @@ def test_an_ipl_links_to_the_proof_test_calculator(client: TestClient, session: 
     step = _ipl(session)
     page = client.get(_url(step)).text
     assert f"/proof-test?step_id={step.id}" in page
-    assert step.kind == StepKindValue.IPL
+    assert step.kind == StepKind.IPL

@@ -6,7 +6,7 @@ from html.parser import HTMLParser
 from fastapi.testclient import TestClient
 from sqlmodel import Session
 
-from app.db.models import StepKindValue
+from app.likelihood.types import StepKind
 from tests.factories import (
     make_deviation,
     make_node,
@@ -108,7 +108,7 @@ def test_the_worksheet_shows_each_scenario_with_its_steps_and_figures(
     client: TestClient, session: Session
 ) -> None:
     scenario = make_scenario_tree(session)  # IE 0.1/yr against 1e-5/yr
-    enabling = make_step(session, scenario, kind=StepKindValue.ENABLING_CONDITION, value=0.5,
+    enabling = make_step(session, scenario, kind=StepKind.ENABLING_CONDITION, value=0.5,
                          value_text="1 in 2", description="Tank being filled", position=1)
     ipl = make_step(session, scenario, value=0.01, value_text="1 in 100",
                     description="Relief valve")
@@ -132,7 +132,7 @@ def test_steps_show_in_ladder_order_with_the_credited_box_only_on_layers(
 ) -> None:
     scenario = make_scenario_tree(session)
     ipl = make_step(session, scenario, description="Trip", position=0)
-    modifier = make_step(session, scenario, kind=StepKindValue.CONDITIONAL_MODIFIER,
+    modifier = make_step(session, scenario, kind=StepKind.CONDITIONAL_MODIFIER,
                          value=0.5, description="Occupancy", position=5)
     page = client.get(f"/studies/{scenario.study_id}/worksheet", follow_redirects=True).text
     rows = [element_id for element_id in parse(page).found if element_id.startswith("step-row-")]

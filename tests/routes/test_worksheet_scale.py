@@ -20,7 +20,8 @@ from httpx import Response
 from sqlalchemy import Engine, event
 from sqlmodel import Session, select
 
-from app.db.models import Deviation, Node, Safeguard, Scenario, Step, StepKindValue, Study
+from app.db.models import Deviation, Node, Safeguard, Scenario, Step, Study
+from app.likelihood.types import StepKind
 from app.routes.rendering import sci
 from app.services.exchange.study_import import import_study_text
 from app.services.study.listing import NodeTotals, totals_of
@@ -80,7 +81,7 @@ def imported_study(session: Session, node_count: int) -> Study:
     (so the totals include a scenario that cannot be computed)."""
     study = import_study_text(session, generated_study(node_count))
     last = session.exec(select(Step).join(Scenario).where(
-        Scenario.study_id == study.id, Step.kind == StepKindValue.INITIATING_EVENT)
+        Scenario.study_id == study.id, Step.kind == StepKind.INITIATING_EVENT)
         .order_by(Step.id.desc())).first()  # type: ignore[union-attr]
     assert last is not None
     session.delete(last)

@@ -17,9 +17,9 @@ from app.db.models import (
     Scenario,
     SeverityCategory,
     Step,
-    StepKindValue,
     Study,
 )
+from app.likelihood.types import StepKind
 from app.services.record.actions import create_action
 from tests.factories import (
     make_category,
@@ -71,7 +71,7 @@ def test_adding_a_step_puts_it_after_the_row_and_focuses_its_first_field(
                            data={"parent_id": scenario.id, "after_id": first.id, "kind": "ipl"})
     assert response.status_code == 200
     layers = [s for s in rows(session, Step, scenario_id=scenario.id or 0)
-              if s.kind == StepKindValue.IPL]
+              if s.kind == StepKind.IPL]
     assert [s.description for s in layers] == ["Alarm", "", "Trip"]
     new = layers[1]
     assert (new.value, new.value_text, new.credited) == (1.0, "1", True)  # no credit until agreed
@@ -92,7 +92,7 @@ def test_a_new_scenario_comes_with_its_initiating_event_and_the_previous_severit
     assert created.severity_category_id == scenario.severity_category_id
     steps = rows(session, Step, scenario_id=created.id)
     assert [(s.kind, s.value, s.value_text) for s in steps] == [
-        (StepKindValue.INITIATING_EVENT, 1.0, "1")]
+        (StepKind.INITIATING_EVENT, 1.0, "1")]
     assert figures(response.text, created.id or 0)["mitigated"] == "1.0e0 /yr"
 
 
@@ -266,13 +266,13 @@ def test_moving_a_step_up_and_down_within_its_kind(client: TestClient, session: 
     client.post(url, headers=HX, data={"offset": "-1", "focus": f"step-{c.id}-value_text"})
     response = client.post(url, headers=HX, data={"offset": "-1"})
     layers = [s.description for s in rows(session, Step, scenario_id=scenario.id or 0)
-              if s.kind == StepKindValue.IPL]
+              if s.kind == StepKind.IPL]
     assert layers == ["C", "A", "B"]
     client.post(url, headers=HX, data={"offset": "-1"})  # already first: stays
     client.post(f"/studies/{scenario.study_id}/steps/{a.id}/move", headers=HX,
                 data={"offset": "1"})
     layers = [s.description for s in rows(session, Step, scenario_id=scenario.id or 0)
-              if s.kind == StepKindValue.IPL]
+              if s.kind == StepKind.IPL]
     assert layers == ["C", "B", "A"]
     assert attrs_of(response.text, f"step-{c.id}-description").get("autofocus") == ""
     assert b.id is not None
@@ -325,7 +325,7 @@ def test_deleting_a_scenario_and_undoing_it_brings_everything_back(
     assert (back.cause, back.severity_category_id) == (cause, category)
     steps = rows(session, Step, scenario_id=back.id or 0)
     assert [(s.kind, s.value_text, s.basis) for s in steps] == [
-        (StepKindValue.INITIATING_EVENT, "", ""), (StepKindValue.IPL, "1 in 100", "Trip test")]
+        (StepKind.INITIATING_EVENT, "", ""), (StepKind.IPL, "1 in 100", "Trip test")]
     assert [g.description for g in rows(session, Safeguard, scenario_id=back.id or 0)] == [
         "Gauge"]
     links = rows(session, RecommendationScenario)

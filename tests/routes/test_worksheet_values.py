@@ -6,7 +6,8 @@ from fastapi.testclient import TestClient
 from httpx import Response
 from sqlmodel import Session, select
 
-from app.db.models import Step, StepKindValue
+from app.db.models import Step
+from app.likelihood.types import StepKind
 from tests.factories import make_scenario_tree, make_step
 from tests.routes.test_worksheet_page import HX, attrs_of, figures, parse, text_of
 
@@ -36,7 +37,7 @@ def layer(session: Session) -> Step:
 def initiating(session: Session, layer: Step) -> Step:
     """The initiating event of the same scenario."""
     return session.exec(select(Step).where(Step.scenario_id == layer.scenario_id,
-                                           Step.kind == StepKindValue.INITIATING_EVENT)).one()
+                                           Step.kind == StepKind.INITIATING_EVENT)).one()
 
 
 @pytest.mark.parametrize(("text", "value", "said"), [

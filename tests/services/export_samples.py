@@ -4,8 +4,9 @@ import json
 
 from sqlmodel import Session, func, select
 
-from app.db.models import Participant, Revision, Scenario, Step, StepKindValue, Study, text_limit
+from app.db.models import Participant, Revision, Scenario, Step, Study, text_limit
 from app.db.queries import fetch_rows_of_study
+from app.likelihood.types import StepKind
 from app.services.exchange.study_file import export_study
 from tests.factories import (
     make_deviation,
@@ -59,7 +60,7 @@ def edit_demo_study(session: Session, study: Study) -> None:
     scenarios = fetch_rows_of_study(session, Scenario, study.id)
     scenarios[0].cause = scenarios[0].cause + " (reworded at the review)"
     step = next(s for s in fetch_rows_of_study(session, Step, study.id)
-                if s.scenario_id == scenarios[1].id and s.kind != StepKindValue.INITIATING_EVENT)
+                if s.scenario_id == scenarios[1].id and s.kind != StepKind.INITIATING_EVENT)
     step.value = step.value / 2
     session.add(Participant(study_id=study.id, name="Late joiner (invented)", role="Observer"))
     session.delete(scenarios[2])

@@ -13,8 +13,7 @@ from dataclasses import dataclass
 from datetime import UTC, date, datetime
 from typing import Any
 
-from app.db.models import StepKindValue
-from app.likelihood.types import STEP_KIND_LABELS, DemandMode, StepKind
+from app.likelihood.types import DemandMode, StepKind
 from app.services.exchange.study_file import scenario_ref
 from app.services.study.tree import DeviationBranch, NodeBranch, ScenarioBranch, StudyTree
 
@@ -103,8 +102,8 @@ def _scenario_row(
 ) -> list[Cell]:
     scenario, outcome, result = item.scenario, item.outcome, item.outcome.result
     category = outcome.governing_category
-    initiating = next((s for s in item.steps if s.kind == StepKindValue.INITIATING_EVENT), None)
-    credited = [s for s in item.steps if s.kind == StepKindValue.IPL and s.credited]
+    initiating = next((s for s in item.steps if s.kind == StepKind.INITIATING_EVENT), None)
+    credited = [s for s in item.steps if s.kind == StepKind.IPL and s.credited]
     head: list[Cell] = [
         ref, node_label(node_branch), deviation_label(deviation_branch), scenario.cause,
         scenario.consequence, category.name if category else "",
@@ -141,7 +140,7 @@ def step_table(tree: StudyTree) -> Table:
             for number, step in enumerate(item.steps, 1):
                 rows.append([
                     refs[item.scenario.id or 0], node_label(node_branch), number,
-                    STEP_KIND_LABELS[StepKind(str(step.kind))], step.description, step.value,
+                    step.kind.label, step.description, step.value,
                     step.value_text, "yes" if step.credited else "no", step.ipl_type or "",
                     step.system_tag, step.sil_claimed, step.response_time_minutes, step.basis,
                 ])

@@ -7,7 +7,6 @@ from jinja2 import Environment
 from weasyprint import HTML, URLFetcher
 
 from app.db.models import Node, Study
-from app.likelihood.types import STEP_KIND_LABELS, StepKind
 from app.services.exchange.export_tables import (
     DEMAND_LABELS,
     StudyData,
@@ -101,7 +100,7 @@ def build_report(tree: StudyTree, data: StudyData, *, when: datetime) -> Report:
 def _report_scenario(ref: str, deviation: str, item: ScenarioBranch) -> ReportScenario:
     result = item.outcome.result
     steps = tuple(
-        ReportStep(STEP_KIND_LABELS[StepKind(str(s.kind))], s.description, s.value, s.credited,
+        ReportStep(s.kind.label, s.description, s.value, s.credited,
                    s.basis)
         for s in item.steps
     )

@@ -180,7 +180,7 @@ def _export_scenario(
 
 
 def _export_step(step: Step) -> dict[str, Any]:
-    row = {"kind": str(step.kind), **_fields(step, STEP_FIELDS)}
+    row = {"kind": step.kind.value, **_fields(step, STEP_FIELDS)}
     row["proof_test"] = json.loads(step.proof_test) if step.proof_test else None
     return row
 

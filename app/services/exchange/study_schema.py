@@ -9,7 +9,8 @@ from typing import Any, Literal
 
 from pydantic import BaseModel, ConfigDict, Field, field_validator, model_validator
 
-from app.db.models import ActionStatus, Receptor, StepKindValue
+from app.db.models import ActionStatus, Receptor
+from app.likelihood.types import StepKind
 
 FILE_FORMAT = "tallyroom-study"
 SCHEMA_VERSION = 1
@@ -46,7 +47,7 @@ class CategoryRow(FileRow):
 class StepRow(FileRow):
     """One factor of a scenario: the initiating event (per year) or a probability / PFD."""
 
-    kind: StepKindValue
+    kind: StepKind
     description: str = Field(default="", max_length=1000)
     value: float = Field(gt=0, allow_inf_nan=False)
     value_text: str = Field(default="", max_length=100)
@@ -62,7 +63,7 @@ class StepRow(FileRow):
     @model_validator(mode="after")
     def probability_at_most_one(self) -> "StepRow":
         """Probabilities and PFDs lie in (0, 1]; only the initiating event is a frequency."""
-        if self.kind != StepKindValue.INITIATING_EVENT and self.value > 1:
+        if self.kind != StepKind.INITIATING_EVENT and self.value > 1:
             raise ValueError(f"a probability must be at most 1 (got {self.value})")
         return self
 
@@ -90,7 +91,7 @@ class ScenarioRow(FileRow):
     @model_validator(mode="after")
     def one_initiating_event(self) -> "ScenarioRow":
         """A scenario has exactly one initiating event."""
-        count = sum(step.kind == StepKindValue.INITIATING_EVENT for step in self.steps)
+        count = sum(step.kind == StepKind.INITIATING_EVENT for step in self.steps)
         if count != 1:
             raise ValueError(f"a scenario needs exactly one initiating event (found {count})")
         return self

@@ -31,8 +31,11 @@ STEP_FIELDS = ("kind", "description", "value", "credited", "basis", "ipl_type", 
                "sil_claimed", "response_time_minutes")
 # Joins the parts of a row's place in the study, as in a breadcrumb trail.
 SEP = " \N{SINGLE RIGHT-POINTING ANGLE QUOTATION MARK} "
-KIND_NAMES = {"initiating_event": "initiating event", "enabling_condition": "enabling condition",
-              "conditional_modifier": "conditional modifier", "ipl": "IPL"}
+
+
+def _kind_words(stored: str) -> str:
+    """A study file's step kind as words ("enabling condition"); unknown text as it is."""
+    return StepKind(stored).words if stored in tuple(StepKind) else stored
 
 
 def normalised(text: Any) -> str:
@@ -259,7 +262,7 @@ class _Differ:
                                              _step_key):
             either = new_step or old_step
             assert either is not None
-            label = f"{where}{SEP}{KIND_NAMES.get(either['kind'], either['kind'])}" \
+            label = f"{where}{SEP}{_kind_words(either['kind'])}" \
                     f" '{either.get('description', '')}'"
             if old_step is None or new_step is None:
                 _added_or_removed(self.diff, "Steps", "", old_step, label)

@@ -29,7 +29,7 @@ def _ipl_type(stored: str | None) -> IplType | None:
 def checked_step(step: Step, cause_system_tag: str = "") -> CheckedStep:
     """One stored step as the checks see it."""
     return CheckedStep(
-        kind=StepKind(str(step.kind)),
+        kind=step.kind,
         value=step.value,
         label=step.description,
         credited=step.credited,

@@ -7,7 +7,7 @@ from dataclasses import asdict, dataclass, replace
 
 from sqlmodel import Session
 
-from app.db.models import Step, StepKindValue, Study
+from app.db.models import Step, Study
 from app.likelihood.numbers import format_number
 from app.likelihood.proof_test import (
     PROOF_TEST_INTERVAL_CAP_HOURS,
@@ -16,6 +16,7 @@ from app.likelihood.proof_test import (
     pfd_avg,
 )
 from app.likelihood.sil import HOURS_PER_YEAR, pfd_band
+from app.likelihood.types import StepKind
 from app.services.risk.proof_test_form import ProofTestForm, read_inputs
 from app.services.risk.step_details import StepNeed, StepPlace, locate_step, step_need
 from app.services.study.tree import NotFoundError, get_study
@@ -129,7 +130,7 @@ def _ipl_place(session: Session, study_id: int, step_id: int | None) -> StepPlac
     if step_id is None:
         return None
     place = locate_step(session, study_id, step_id)
-    if place.step.kind != StepKindValue.IPL:
+    if place.step.kind != StepKind.IPL:
         raise NotFoundError(f"Step {step_id} is not a protection layer: the proof-test "
                             f"calculator attaches only to an IPL.")
     return place

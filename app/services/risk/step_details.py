@@ -11,7 +11,7 @@ from sqlmodel.sql.expression import SelectOfScalar
 from app.db.models import Deviation, Scenario, SeverityCategory, Step, Study, text_limit
 from app.db.queries import fetch_rows_of_study
 from app.likelihood.checks import CheckWarning, check_scenario
-from app.likelihood.types import STEP_KIND_LABELS, DemandMode, IplType, StepKind
+from app.likelihood.types import DemandMode, IplType, StepKind
 from app.likelihood.typical import TypicalValue, typical_by_key, typical_for_kind
 from app.services.risk.ipl_checks import checked_steps, worksheet_href
 from app.services.study.errors import length_problem
@@ -133,11 +133,11 @@ class StepDetailsPage:
 
 def _page(session: Session, place: StepPlace, form: StepDetailsForm,
           errors: dict[str, str], *, saved: bool = False) -> StepDetailsPage:
-    kind = StepKind(str(place.step.kind))
+    kind = place.step.kind
     steps = fetch_steps_of_scenario(session, place.scenario.id or 0)
     return StepDetailsPage(
         study=get_study(session, place.step.study_id), place=place,
-        kind_label=STEP_KIND_LABELS[kind], is_ipl=kind is StepKind.IPL, form=form, errors=errors,
+        kind_label=kind.label, is_ipl=kind is StepKind.IPL, form=form, errors=errors,
         typical_options=typical_for_kind(kind), chosen_typical=typical_by_key(form.typical_key),
         ipl_types=IPL_TYPE_LABELS, warnings=check_scenario(checked_steps(steps)), saved=saved,
     )
@@ -185,7 +185,7 @@ def _typical(text: str, kind: StepKind) -> str | None:
         raise ValueError(f"Typical value: no typical-value row '{text}'.")
     if row.kind != kind:
         raise ValueError(f"Typical value: '{row.label}' is a typical value for "
-                         f"{STEP_KIND_LABELS[row.kind].lower()}, not for this step.")
+                         f"{row.kind.label.lower()}, not for this step.")
     return text
 
 
@@ -214,7 +214,7 @@ def update_step_details(*, session: Session, study_id: int, step_id: int,
     """Save the details if every field is valid; otherwise save nothing, errors at the fields."""
     place = locate_step(session, study_id, step_id)
     values, errors = {}, {}
-    for name, reader in _readers(StepKind(str(place.step.kind))).items():
+    for name, reader in _readers(place.step.kind).items():
         try:
             values[name] = reader(getattr(form, name))
         except ValueError as err:

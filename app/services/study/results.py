@@ -38,7 +38,7 @@ class StoredStep(Protocol):
     @property
     def position(self) -> int: ...
     @property
-    def kind(self) -> str: ...
+    def kind(self) -> StepKind: ...
     @property
     def value(self) -> float: ...
     @property
@@ -76,7 +76,7 @@ def step_inputs(steps: Iterable[StoredStep]) -> list[StepInput]:
     """Stored steps as pure likelihood inputs, in their stored order."""
     ordered = sorted(steps, key=lambda s: (s.position, s.id or 0))
     return [
-        StepInput(kind=StepKind(str(s.kind)), value=s.value, label=s.description,
+        StepInput(kind=s.kind, value=s.value, label=s.description,
                   credited=s.credited)
         for s in ordered
     ]

@@ -76,7 +76,7 @@ def edit_step_value(*, session: Session, study_id: int, step_id: int, text: str,
 def _parse_typed_value(step: Step, text: str) -> ParsedNumber | LikelihoodInputError:
     """The typed text read as the step's kind needs (a frequency or a probability), or why not."""
     try:
-        return parse_step_value(str(step.kind), text, step_label(step))
+        return parse_step_value(step.kind, text, step_label(step))
     except LikelihoodInputError as err:
         return err
 

@@ -21,20 +21,6 @@ PLOT_RIGHT = 330.0
 MARGIN_TOP = 22.0
 MARGIN_BOTTOM = 14.0
 
-KIND_CODES = {
-    StepKind.INITIATING_EVENT: "IE",
-    StepKind.ENABLING_CONDITION: "EC",
-    StepKind.CONDITIONAL_MODIFIER: "CM",
-    StepKind.IPL: "IPL",
-}
-KIND_NAMES = {
-    StepKind.INITIATING_EVENT: "initiating event",
-    StepKind.ENABLING_CONDITION: "enabling condition",
-    StepKind.CONDITIONAL_MODIFIER: "conditional modifier",
-    StepKind.IPL: "IPL",
-}
-
-
 @dataclass(frozen=True)
 class LadderDecade:
     """One decade line of the scale: 10**exponent per year at height y."""
@@ -118,9 +104,9 @@ def _marks(result: ScenarioResult, top: int) -> tuple[LadderMark, ...]:
         x_start = PLOT_LEFT + index * width
         factor = (f"{format_number(point.factor)} /yr" if point.kind == StepKind.INITIATING_EVENT
                   else f"× {format_number(point.factor)}")  # noqa: RUF001
-        name = point.label or KIND_NAMES[point.kind]
+        name = point.label or point.kind.words
         marks.append(LadderMark(
-            code=KIND_CODES[point.kind], label=name, factor_text=factor,
+            code=point.kind.short, label=name, factor_text=factor,
             frequency=point.frequency_after,
             frequency_text=format_number(point.frequency_after),
             x_start=x_start, x_end=x_start + width, x_mid=x_start + width / 2,

@@ -9,7 +9,7 @@ from app.db.models import DeletedItem, Node, Recommendation, SeverityCategory, S
 from app.db.queries import fetch_first_node_id, fetch_node_links, fetch_recommendations_of_node
 from app.likelihood.checks import CheckWarning
 from app.likelihood.numbers import format_number
-from app.likelihood.types import STEP_KIND_LABELS, LikelihoodInputError, StepKind
+from app.likelihood.types import LikelihoodInputError, StepKind
 from app.services.risk.ipl_checks import scenario_warnings
 from app.services.study.listing import NodeTotals
 from app.services.study.totals import study_totals
@@ -30,9 +30,6 @@ from app.services.worksheet.structure import (
     step_label,
 )
 from app.services.worksheet.undo import DeleteCounts, delete_question, last_deleted
-
-KIND_ORDER = [StepKind.INITIATING_EVENT, StepKind.ENABLING_CONDITION,
-              StepKind.CONDITIONAL_MODIFIER, StepKind.IPL]
 
 
 @dataclass(frozen=True)
@@ -99,19 +96,19 @@ def plain_value(step: Step) -> str:
     """The stored value restated in plain words ("1 in 100 · 1.0e-2")."""
     for text in (step.value_text, repr(step.value)):
         try:
-            return parse_step_value(str(step.kind), text).plain
+            return parse_step_value(step.kind, text).plain
         except LikelihoodInputError:
             continue
     return format_number(step.value)
 
 
 def _step_rows(steps: list[Step]) -> tuple[StepRow, ...]:
-    ordered = sorted(steps, key=lambda s: (KIND_ORDER.index(StepKind(str(s.kind))),
+    ordered = sorted(steps, key=lambda s: (s.kind.order,
                                            s.position, s.id or 0))
     rows = []
     for step in ordered:
-        kind = StepKind(str(step.kind))
-        question = f"Delete step '{step_label(step)}' ({STEP_KIND_LABELS[kind].lower()})?"
+        kind = step.kind
+        question = f"Delete step '{step_label(step)}' ({kind.label.lower()})?"
         rows.append(StepRow(step, kind, kind == StepKind.INITIATING_EVENT,
                             step.value_text or format_number(step.value), plain_value(step),
                             question))

@@ -10,18 +10,9 @@ from typing import Any
 
 from sqlmodel import Session, col, select
 
-from app.db.models import (
-    Deviation,
-    Node,
-    Safeguard,
-    Scenario,
-    SeverityCategory,
-    Step,
-    StepKindValue,
-    text_limit,
-)
+from app.db.models import Deviation, Node, Safeguard, Scenario, SeverityCategory, Step, text_limit
 from app.likelihood.numbers import ParsedNumber, parse_frequency, parse_probability
-from app.likelihood.types import STEP_KIND_LABELS, LikelihoodInputError, StepKind
+from app.likelihood.types import LikelihoodInputError, StepKind
 from app.services.study.errors import FieldInputError, length_problem
 from app.services.study.tree import NotFoundError, get_study
 
@@ -82,16 +73,16 @@ def get_row(session: Session, kind: RowKind, study_id: int, row_id: int) -> Any:
     return row
 
 
-def parse_step_value(step_kind: str, text: str, label: str = "") -> ParsedNumber:
+def parse_step_value(step_kind: StepKind, text: str, label: str = "") -> ParsedNumber:
     """Read a step's value as typed: a frequency for the initiating event, else a probability."""
-    if step_kind == StepKindValue.INITIATING_EVENT:
+    if step_kind == StepKind.INITIATING_EVENT:
         return parse_frequency(text, label)
     return parse_probability(text, label)
 
 
 def step_label(step: Step) -> str:
     """How messages name a step: its description, or its kind when it has none."""
-    return step.description or STEP_KIND_LABELS[StepKind(str(step.kind))]
+    return step.description or step.kind.label
 
 
 def siblings(session: Session, kind: RowKind, row: Any) -> list[Any]:
@@ -130,7 +121,7 @@ def _new_row(session: Session, kind: RowKind, study_id: int, parent: Any,
     if kind.parent_field:
         fields[kind.parent_field] = parent.id
     if kind.name == "step":
-        fields.setdefault("kind", StepKindValue.IPL)
+        fields.setdefault("kind", StepKind.IPL)
         fields.update(value=1.0, value_text=NEW_STEP_VALUE_TEXT)
     if kind.name == "scenario":
         fields["severity_category_id"] = _default_category(session, study_id, parent)
@@ -149,7 +140,7 @@ def create_row(
     parent = _parent(session, kind, study_id, parent_id)
     given = dict(values or {})
     step_kind = _step_kind(given.pop("kind", "ipl")) if kind.name == "step" else None
-    if step_kind == StepKindValue.INITIATING_EVENT:
+    if step_kind == StepKind.INITIATING_EVENT:
         raise StructureInputError("kind", "a scenario has exactly one initiating event; "
                                   "change the value of the one it has.")
     checked = _read_text_fields(kind, given, creating=True)
@@ -161,17 +152,17 @@ def create_row(
     session.flush()
     if kind.name == "scenario":
         session.add(Step(study_id=study_id, scenario_id=row.id, value=1.0, position=0,
-                         kind=StepKindValue.INITIATING_EVENT, value_text=NEW_STEP_VALUE_TEXT))
+                         kind=StepKind.INITIATING_EVENT, value_text=NEW_STEP_VALUE_TEXT))
     session.commit()
     session.refresh(row)
     return row
 
 
-def _step_kind(text: str) -> StepKindValue:
+def _step_kind(text: str) -> StepKind:
     try:
-        return StepKindValue(text)
+        return StepKind(text)
     except ValueError:
-        known = ", ".join(k.value for k in StepKindValue)
+        known = ", ".join(k.value for k in StepKind)
         raise StructureInputError("kind", f"the step kind must be one of {known} "
                                   f"(got '{text}').") from None
 
@@ -235,7 +226,7 @@ def _read_step_fields(row: Step, changes: Mapping[str, Any]) -> dict[str, Any]:
         values["credited"] = str(last).strip().lower() in ("true", "on", "1", "yes")
     if "value_text" in changes:
         try:
-            parsed = parse_step_value(str(row.kind), str(changes["value_text"]), step_label(row))
+            parsed = parse_step_value(row.kind, str(changes["value_text"]), step_label(row))
         except LikelihoodInputError as err:
             raise StructureInputError("value_text", err.message) from None
         values.update(value=parsed.value, value_text=parsed.text)

@@ -11,13 +11,8 @@ from typing import Any
 
 from sqlmodel import Session, col, select
 
-from app.db.models import (
-    DeletedItem,
-    Recommendation,
-    RecommendationScenario,
-    StepKindValue,
-    utc_now,
-)
+from app.db.models import DeletedItem, Recommendation, RecommendationScenario, utc_now
+from app.likelihood.types import StepKind
 from app.services.study.tree import get_study
 from app.services.worksheet.structure import KINDS, StructureInputError, get_row, kind_of
 
@@ -116,7 +111,7 @@ def delete_row(*, session: Session, study_id: int, kind_name: str, row_id: int,
     """Delete a row and everything under it, keeping a copy so the delete can be undone."""
     kind = kind_of(kind_name)
     row = get_row(session, kind, study_id, row_id)
-    if kind.name == "step" and row.kind == StepKindValue.INITIATING_EVENT:
+    if kind.name == "step" and row.kind == StepKind.INITIATING_EVENT:
         raise StructureInputError("kind", "a scenario always keeps exactly one initiating "
                                   "event: change its value instead of deleting it.")
     subtree = [(kind.name, row), *_children(session, kind.name, row)]
