@@ -2,6 +2,7 @@
 
 from datetime import UTC, date, datetime
 from enum import StrEnum
+from typing import Any
 
 from sqlalchemy import Column, Dialect, Index, MetaData, Text, false, text
 from sqlalchemy.types import TypeDecorator
@@ -19,6 +20,13 @@ SQLModel.metadata = MetaData(
         "pk": "pk_%(table_name)s",
     }
 )
+
+
+def saved_id(row_id: int | None) -> int:
+    """The id of a row that has been flushed (only a row never flushed has none)."""
+    if row_id is None:
+        raise ValueError("the row has no id until it is flushed")
+    return row_id
 
 
 def utc_now() -> datetime:
@@ -73,7 +81,7 @@ class TrackedRow(SQLModel):
     updated_at: datetime = Field(default_factory=utc_now, nullable=False)
 
 
-def _study_fk() -> int:
+def _study_fk() -> Any:  # Any: SQLModel's Field() is typed to fit any annotation
     return Field(foreign_key="study.id", ondelete="CASCADE", index=True)
 
 

@@ -88,7 +88,8 @@ def create_action(
     """Add an open recommendation."""
     values = {"text": text, "owner": owner, "due_date": due_date, "expected_rrf": expected_rrf}
     try:
-        action_service.create_action(session=session, study_id=study_id, **values)
+        action_service.create_action(session=session, study_id=study_id, text=text, owner=owner,
+                                     due_date=due_date, expected_rrf=expected_rrf)
     except ActionInputError as error:
         return _refused(request, session, study_id, view, error, None, values)
     return _done(request, session, study_id, view)

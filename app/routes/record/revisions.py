@@ -39,7 +39,7 @@ def create_revision(request: Request, study_id: int, session: SessionDep, author
         return render(request, "record/revisions/list.html", {"page": page, "form": form},
                       block=block, status_code=422)
     url = request.url_for("read_revision", study_id=study_id, revision_id=revision.id)
-    response = RedirectResponse(url, status_code=303)
+    response: Response = RedirectResponse(url, status_code=303)
     if is_htmx(request):
         response = Response(status_code=200, headers={"HX-Redirect": str(url)})
     return response

@@ -8,7 +8,8 @@ from starlette.responses import RedirectResponse, Response
 from app.routes.deps import SessionDep
 from app.routes.rendering import is_htmx
 from app.routes.worksheet.page import render_worksheet, worksheet_url
-from app.services.record.actions import ActionInputError, create_action
+from app.services.record.action_inputs import ActionInputError
+from app.services.record.actions import create_action
 from app.services.worksheet.structure import get_row, kind_of, node_id_of
 
 router = APIRouter()

@@ -52,6 +52,8 @@ def workbook_bytes(
 def _write_cover(
     sheet: Worksheet, study: dict[str, str], *, cautions: str, exported_at: datetime
 ) -> None:
+    sheet_notes: list[list[Cell]] = [[f"Sheet: {name}", note]
+                                     for name, note in SHEET_NOTES.items()]
     rows: list[list[Cell]] = [
         ["Study", study["title"]], ["Facility", study["facility"]],
         ["Revision", study["revision_label"]], ["Exported (UTC)", exported_at],
@@ -59,7 +61,7 @@ def _write_cover(
         ["Frequencies", "events per year; probabilities and PFDs are fractions of 1"],
         ["Cautions", cautions],
         ["File format", f"the JSON export follows the schema at {SCHEMA_PATH}"],
-        *([f"Sheet: {name}", note] for name, note in SHEET_NOTES.items()),
+        *sheet_notes,
     ]  # fmt: skip
     columns = (Column("About this file"), Column("", "yyyy-mm-dd hh:mm"))
     _write_table(sheet, Table("About", columns, rows))

@@ -119,7 +119,8 @@ def report_html(report: Report, *, env: Environment) -> str:
 def html_to_pdf(html: str) -> bytes:
     """Lay the HTML out as PDF; only data: URLs may be fetched, so nothing leaves the machine."""
     fetcher = URLFetcher(allowed_protocols={"data"})
-    pdf = HTML(string=html, base_url=".", url_fetcher=fetcher).write_pdf()
+    # WeasyPrint is untyped (a boundary): write_pdf() gives bytes when no target is passed.
+    pdf: bytes | None = HTML(string=html, base_url=".", url_fetcher=fetcher).write_pdf()
     assert pdf is not None
     return pdf
 

@@ -21,6 +21,7 @@ from app.db.models import (
     SessionDay,
     SeverityCategory,
     Step,
+    saved_id,
 )
 from app.services.exchange.study_schema import FILE_FORMAT, SCHEMA_VERSION, StudyFile
 from app.services.study.tree import get_study
@@ -213,7 +214,7 @@ def _export_days(
 ) -> list[dict[str, Any]]:
     days = session.exec(
         select(SessionDay).where(SessionDay.study_id == study_id).order_by(
-            SessionDay.day, SessionDay.id)
+            col(SessionDay.day), col(SessionDay.id))
     ).all()
     present = session.exec(
         select(Attendance).where(col(Attendance.session_day_id).in_([d.id for d in days]))
@@ -221,7 +222,7 @@ def _export_days(
     by_day = _by_parent(sorted(present, key=lambda a: a.participant_id), "session_day_id")
     return [
         {"day": d.day.isoformat(), "note": d.note,
-         "attendees": [people_refs[a.participant_id] for a in by_day[d.id]]}
+         "attendees": [people_refs[a.participant_id] for a in by_day[saved_id(d.id)]]}
         for d in days
     ]
 
@@ -231,7 +232,7 @@ def _export_log(
 ) -> list[dict[str, Any]]:
     entries = session.exec(
         select(ChangeLogEntry).where(ChangeLogEntry.study_id == study_id).order_by(
-            ChangeLogEntry.id)
+            col(ChangeLogEntry.id))
     ).all()
     return [
         {"at": e.at.isoformat(), "author": e.author, "action": e.action, "entity": e.entity,
@@ -244,7 +245,7 @@ def _export_log(
 
 def _export_revisions(session: Session, study_id: int) -> list[dict[str, Any]]:
     revisions = session.exec(
-        select(Revision).where(Revision.study_id == study_id).order_by(Revision.id)
+        select(Revision).where(Revision.study_id == study_id).order_by(col(Revision.id))
     ).all()
     return [
         {"label": r.label, "note": r.note, "frozen_at": r.frozen_at.isoformat(),

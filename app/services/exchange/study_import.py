@@ -22,6 +22,7 @@ from app.db.models import (
     SeverityCategory,
     Step,
     Study,
+    saved_id,
 )
 from app.db.queries import fetch_plain_rows, placed_rows_of_study
 from app.db.tracking import SUPPRESS_LOG_KEY
@@ -173,8 +174,8 @@ def _insert_placed(session: Session, model: type[SQLModel], parent_field: str,
         return []
     _insert_all(session, model, rows)
     study_id = rows[0]["study_id"]
-    new_ids = {(parent_id, position): row_id for row_id, parent_id, position
-               in fetch_plain_rows(session, placed_rows_of_study(model, parent_field, study_id))}
+    placed = fetch_plain_rows(session, placed_rows_of_study(model, parent_field, study_id))
+    new_ids = {(row[1], row[2]): row[0] for row in map(tuple, placed)}  # (id, parent id, position)
     return [new_ids[(row[parent_field], row["position"])] for row in rows]
 
 
@@ -199,7 +200,8 @@ def _import_actions(
                               **row.model_dump(exclude={"scenarios"}))
                for position, row in enumerate(data.recommendations)]
     _flush_all(session, actions)
-    session.add_all(RecommendationScenario(recommendation_id=action.id, scenario_id=scenarios[ref])
+    session.add_all(RecommendationScenario(recommendation_id=saved_id(action.id),
+                                           scenario_id=scenarios[ref])
                     for action, row in zip(actions, data.recommendations, strict=True)
                     for ref in row.scenarios)
 
@@ -211,7 +213,8 @@ def _import_attendance(session: Session, study_id: int, data: StudyFile) -> None
     days = [SessionDay(study_id=study_id, day=row.day, note=row.note)
             for row in data.session_days]
     _flush_all(session, days)
-    session.add_all(Attendance(session_day_id=day.id, participant_id=people[ref].id)
+    session.add_all(Attendance(session_day_id=saved_id(day.id),
+                               participant_id=saved_id(people[ref].id))
                     for day, row in zip(days, data.session_days, strict=True)
                     for ref in row.attendees)
 

@@ -5,15 +5,15 @@ so a file imports into any database.
 """
 
 from datetime import date, datetime
-from typing import Any, Literal
+from typing import Any, Final, Literal
 
 from pydantic import BaseModel, ConfigDict, Field, field_validator, model_validator
 
 from app.db.models import ActionStatus, Receptor
 from app.likelihood.types import StepKind
 
-FILE_FORMAT = "tallyroom-study"
-SCHEMA_VERSION = 1
+FILE_FORMAT: Final = "tallyroom-study"
+SCHEMA_VERSION: Final = 1
 SCHEMA_PATH = "/schema/study-v1.json"
 
 

@@ -11,12 +11,7 @@ from typing import Any
 
 from sqlmodel import Session, col, select
 
-from app.db.models import (
-    ActionStatus,
-    Recommendation,
-    RecommendationScenario,
-    Scenario,
-)
+from app.db.models import ActionStatus, Recommendation, RecommendationScenario, Scenario, saved_id
 from app.services.record.action_inputs import (
     ActionInputError,
     ActionOrder,
@@ -68,7 +63,8 @@ def create_action(
     session.add(action)
     session.flush()
     for scenario in scenarios:
-        session.add(RecommendationScenario(recommendation_id=action.id, scenario_id=scenario.id))
+        session.add(RecommendationScenario(recommendation_id=saved_id(action.id),
+                                            scenario_id=saved_id(scenario.id)))
     session.commit()
     session.refresh(action)
     return action

@@ -5,7 +5,7 @@ Writes validate first and raise AttendanceInputError naming the field and the ru
 
 from dataclasses import dataclass
 from datetime import date
-from typing import Any
+from typing import Any, TypeVar
 
 from sqlmodel import Session, col, select
 
@@ -14,6 +14,7 @@ from app.db.queries import fetch_rows_of_study
 from app.services.study.errors import FieldInputError, length_problem
 from app.services.study.tree import NotFoundError, get_study
 
+Saved = TypeVar("Saved", SessionDay, Participant)
 PARTICIPANT_LIMITS = {
     field: text_limit(Participant, field) for field in ("name", "role", "discipline", "company")
 }
@@ -55,7 +56,7 @@ def read_participant(values: dict[str, str]) -> dict[str, str]:
     return cleaned
 
 
-def _row(session: Session, model: Any, row_id: int, study_id: int, what: str) -> Any:
+def _row(session: Session, model: type[Saved], row_id: int, study_id: int, what: str) -> Saved:
     row = session.get(model, row_id)
     if row is None or row.study_id != study_id:
         raise NotFoundError(f"There is no {what} {row_id} in this study.")
@@ -82,7 +83,7 @@ def _check_unique_day(session: Session, study_id: int, day: date, day_id: int | 
         raise AttendanceInputError("day", f"{day.isoformat()} is already a session date.")
 
 
-def _save(session: Session, row: Any) -> Any:
+def _save(session: Session, row: Saved) -> Saved:
     session.add(row)
     session.commit()
     session.refresh(row)
@@ -123,7 +124,8 @@ def delete_day(*, session: Session, study_id: int, day_id: int) -> None:
 def add_participant(*, session: Session, study_id: int, values: dict[str, str]) -> Participant:
     """Add a participant."""
     get_study(session, study_id)
-    return _save(session, Participant(study_id=study_id, **read_participant(values)))
+    fields: dict[str, Any] = dict(read_participant(values))  # Any: checked form text
+    return _save(session, Participant(study_id=study_id, **fields))
 
 
 def update_participant(

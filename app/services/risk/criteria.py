@@ -106,7 +106,7 @@ def _rated_with(scenario: Scenario, category_id: int) -> bool:
 def _use(tree: StudyTree, row: SeverityCategory, form: CategoryForm | None = None,
          errors: dict[str, str] | None = None) -> CategoryUse:
     items = tree.scenario_branches()
-    by_id = {c.id: c for c in tree.categories}
+    by_id = {c.id: c for c in tree.categories if c.id is not None}
     governed = [s for s in items if (g := governing_category(s.scenario, by_id)) and g.id == row.id]
     short = [s for s in governed if s.outcome.result and not s.outcome.result.meets_target]
     return CategoryUse(
@@ -141,7 +141,7 @@ def read_criteria(*, session: Session, study_id: int) -> CriteriaPage:
     return _page(session, study_id)
 
 
-def validate_category(form: CategoryForm) -> tuple[dict[str, object], dict[str, str]]:
+def validate_category(form: CategoryForm) -> tuple[dict[str, Any], dict[str, str]]:
     """The category's values, or the error of each field naming its rule."""
     values: dict[str, object] = {}
     errors: dict[str, str] = {}
@@ -171,12 +171,11 @@ def _get_category(session: Session, study_id: int, category_id: int) -> Severity
 
 
 def _short_and_governed(tree: StudyTree, category_id: int) -> tuple[list[bool], int]:
-    by_id = {c.id: c for c in tree.categories}
+    by_id = {c.id: c for c in tree.categories if c.id is not None}
     rated = [s for s in tree.scenario_branches() if _rated_with(s.scenario, category_id)]
     short = [bool(s.outcome.result and not s.outcome.result.meets_target) for s in rated]
-    governed = sum(
-        1 for s in rated if (g := governing_category(s.scenario, by_id)) and g.id == category_id
-    )
+    governed = len([s for s in rated if (g := governing_category(s.scenario, by_id)) is not None
+                    and g.id == category_id])
     return short, governed
 
 

@@ -1,5 +1,6 @@
 """The proof-test calculator's inputs as typed, read into SifInputs with an error per field."""
 
+from collections.abc import Callable
 from dataclasses import dataclass, fields
 from typing import Any
 
@@ -93,7 +94,8 @@ def _interval_hours(form: ProofTestForm) -> float:
     return number * INTERVAL_UNITS[form.interval_unit]
 
 
-_READERS = {
+# Each reader returns the field's value (a float, or None when a blank means 'not given').
+_READERS: dict[str, Callable[[ProofTestForm], Any]] = {
     "lambda_du": lambda f: _rate(f.lambda_du, "lambda_du", "λDU", blank_is_zero=False),
     "lambda_dd": lambda f: _rate(f.lambda_dd, "lambda_dd", "λDD", blank_is_zero=True),
     "beta": lambda f: _fraction(f.beta, "beta", "β"),

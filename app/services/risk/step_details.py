@@ -8,7 +8,7 @@ from typing import Any
 from sqlmodel import Session, col, select
 from sqlmodel.sql.expression import SelectOfScalar
 
-from app.db.models import Deviation, Scenario, SeverityCategory, Step, Study, text_limit
+from app.db.models import Deviation, Scenario, SeverityCategory, Step, Study, saved_id, text_limit
 from app.db.queries import fetch_rows_of_study
 from app.likelihood.checks import CheckWarning, check_scenario
 from app.likelihood.types import DemandMode, IplType, StepKind
@@ -76,8 +76,8 @@ def step_need(session: Session, place: StepPlace) -> StepNeed | None:
     """The scenario computed without this layer: its demand and the PFD this layer needs."""
     others = [s for s in fetch_steps_of_scenario(session, place.scenario.id or 0)
               if s.id != place.step.id]
-    categories = {c.id: c for c in fetch_rows_of_study(session, SeverityCategory,
-                                                       place.step.study_id)}
+    categories = {saved_id(c.id): c for c in fetch_rows_of_study(session, SeverityCategory,
+                                                                 place.step.study_id)}
     result = compute_outcome(place.scenario, others, categories).result
     if result is None:
         return None

@@ -5,6 +5,7 @@ from dataclasses import dataclass
 from typing import Any
 
 from sqlalchemy import Select
+from sqlalchemy import select as select_columns
 from sqlmodel import Session, col, func, select
 
 from app.db.models import (
@@ -50,8 +51,8 @@ def change_stamp_query(study_id: int) -> Select[Any]:
              .join(Recommendation,
                    col(Recommendation.id) == col(RecommendationScenario.recommendation_id))
              .where(Recommendation.study_id == study_id).scalar_subquery())
-    return select(Study.updated_at, Study.focus_scenario_id, Study.focus_changed_at, links,
-                  *columns).where(Study.id == study_id)
+    head: list[Any] = [Study.updated_at, Study.focus_scenario_id, Study.focus_changed_at, links]
+    return select_columns(*head, *columns).where(col(Study.id) == study_id)
 
 
 def change_stamp(*, session: Session, study_id: int) -> str:

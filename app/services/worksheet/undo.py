@@ -13,7 +13,7 @@ from sqlmodel import Session, col, select
 
 from app.db.models import DeletedItem, Recommendation, RecommendationScenario, utc_now
 from app.likelihood.types import StepKind
-from app.services.study.tree import get_study
+from app.services.study.tree import NotFoundError, get_study
 from app.services.worksheet.structure import KINDS, StructureInputError, get_row, kind_of
 
 CHILDREN: dict[str, tuple[tuple[str, str], ...]] = {
@@ -93,6 +93,8 @@ def _parent_stamp(session: Session, kind: Any, row: Any) -> dict[str, Any] | Non
         return None
     parent_kind = PARENT_KINDS[kind.parent_field]
     parent = session.get(KINDS[parent_kind].model, getattr(row, kind.parent_field))
+    if parent is None:
+        raise NotFoundError(f"The {parent_kind} of this {kind.name} no longer exists.")
     return {"kind": parent_kind, "id": parent.id,
             "created_at": parent.model_dump(mode="json")["created_at"]}
 
