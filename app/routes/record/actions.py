@@ -18,7 +18,7 @@ from app.services.record.action_inputs import (
 )
 from app.services.record.actions_page import ActionForm, order_query, read_actions_page
 
-router = APIRouter()
+router = APIRouter(prefix="/studies/{study_id}")
 TEMPLATE = "record/actions/list.html"
 
 
@@ -74,13 +74,13 @@ def _refused(request: Request, session: SessionDep, study_id: int, view: ListVie
     return _page(request, session, study_id, view, form, status_code=422)
 
 
-@router.get("/studies/{study_id}/actions", name="read_actions")
+@router.get("/actions", name="read_actions")
 def read_actions(request: Request, study_id: int, session: SessionDep, view: ViewDep) -> Response:
     """Every recommendation by due date or in team order, with the gaps they address."""
     return _page(request, session, study_id, view)
 
 
-@router.post("/studies/{study_id}/actions", name="create_action")
+@router.post("/actions", name="create_action")
 def create_action(
     request: Request, study_id: int, session: SessionDep, view: ViewDep, text: TextForm = "",
     owner: TextForm = "", due_date: TextForm = "", expected_rrf: TextForm = "",
@@ -95,7 +95,7 @@ def create_action(
     return _done(request, session, study_id, view)
 
 
-@router.get("/studies/{study_id}/actions/{action_id}/edit", name="edit_action")
+@router.get("/actions/{action_id}/edit", name="edit_action")
 def edit_action(
     request: Request, study_id: int, action_id: int, session: SessionDep, view: ViewDep
 ) -> Response:
@@ -104,7 +104,7 @@ def edit_action(
     return _page(request, session, study_id, view, ActionForm(action_id))
 
 
-@router.post("/studies/{study_id}/actions/{action_id}", name="update_action")
+@router.post("/actions/{action_id}", name="update_action")
 def update_action(
     request: Request, study_id: int, action_id: int, session: SessionDep, view: ViewDep,
     text: TextForm = "", owner: TextForm = "", due_date: TextForm = "", status: TextForm = "open",
@@ -121,7 +121,7 @@ def update_action(
     return _done(request, session, study_id, view)
 
 
-@router.post("/studies/{study_id}/actions/{action_id}/move", name="move_action")
+@router.post("/actions/{action_id}/move", name="move_action")
 def move_action(
     request: Request, study_id: int, action_id: int, session: SessionDep, view: ViewDep,
     direction: TextForm = "",
@@ -136,7 +136,7 @@ def move_action(
     return _done(request, session, study_id, team, focus_id=action_id)
 
 
-@router.get("/studies/{study_id}/actions/{action_id}/delete", name="confirm_delete_action")
+@router.get("/actions/{action_id}/delete", name="confirm_delete_action")
 def confirm_delete_action(
     request: Request, study_id: int, action_id: int, session: SessionDep, view: ViewDep
 ) -> Response:
@@ -146,7 +146,7 @@ def confirm_delete_action(
     return render(request, "record/actions/confirm_delete.html", context)
 
 
-@router.post("/studies/{study_id}/actions/{action_id}/delete", name="delete_action")
+@router.post("/actions/{action_id}/delete", name="delete_action")
 def delete_action(
     request: Request, study_id: int, action_id: int, session: SessionDep, view: ViewDep
 ) -> Response:
@@ -155,7 +155,7 @@ def delete_action(
     return _done(request, session, study_id, view)
 
 
-@router.post("/studies/{study_id}/actions/{action_id}/scenarios", name="link_action_scenario")
+@router.post("/actions/{action_id}/scenarios", name="link_action_scenario")
 def link_action_scenario(
     request: Request, study_id: int, action_id: int, session: SessionDep, view: ViewDep,
     scenario_id: TextForm = "",
@@ -171,7 +171,7 @@ def link_action_scenario(
     return _done(request, session, study_id, view)
 
 
-@router.post("/studies/{study_id}/actions/{action_id}/scenarios/{scenario_id}/delete",
+@router.post("/actions/{action_id}/scenarios/{scenario_id}/delete",
              name="unlink_action_scenario")
 def unlink_action_scenario(
     request: Request, study_id: int, action_id: int, scenario_id: int, session: SessionDep,

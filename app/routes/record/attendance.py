@@ -10,7 +10,7 @@ from app.routes.rendering import is_htmx, render
 from app.services.record import attendance as attendance_service
 from app.services.record.attendance import AttendanceForm, AttendanceInputError
 
-router = APIRouter()
+router = APIRouter(prefix="/studies/{study_id}")
 TEMPLATE = "record/attendance/page.html"
 TextForm = Annotated[str, Form()]
 Marks = Annotated[list[str], Form()]
@@ -38,13 +38,13 @@ def _refused(request: Request, session: SessionDep, study_id: int, kind: str,
     return _page(request, session, study_id, form, status_code=422)
 
 
-@router.get("/studies/{study_id}/attendance", name="read_attendance")
+@router.get("/attendance", name="read_attendance")
 def read_attendance(request: Request, study_id: int, session: SessionDep) -> Response:
     """Session dates, participants and the attendance matrix."""
     return _page(request, session, study_id)
 
 
-@router.post("/studies/{study_id}/attendance/days", name="create_session_day")
+@router.post("/attendance/days", name="create_session_day")
 def create_session_day(request: Request, study_id: int, session: SessionDep,
                        day: TextForm = "", note: TextForm = "") -> Response:
     """Add a session date with a note."""
@@ -55,7 +55,7 @@ def create_session_day(request: Request, study_id: int, session: SessionDep,
     return _done(request, session, study_id)
 
 
-@router.get("/studies/{study_id}/attendance/days/{day_id}/edit", name="edit_session_day")
+@router.get("/attendance/days/{day_id}/edit", name="edit_session_day")
 def edit_session_day(request: Request, study_id: int, day_id: int,
                      session: SessionDep) -> Response:
     """The page with one session date open for editing."""
@@ -63,7 +63,7 @@ def edit_session_day(request: Request, study_id: int, day_id: int,
     return _page(request, session, study_id, AttendanceForm("day", day_id))
 
 
-@router.post("/studies/{study_id}/attendance/days/{day_id}", name="update_session_day")
+@router.post("/attendance/days/{day_id}", name="update_session_day")
 def update_session_day(request: Request, study_id: int, day_id: int, session: SessionDep,
                        day: TextForm = "", note: TextForm = "") -> Response:
     """Save an edited session date."""
@@ -76,7 +76,7 @@ def update_session_day(request: Request, study_id: int, day_id: int, session: Se
     return _done(request, session, study_id)
 
 
-@router.post("/studies/{study_id}/attendance/days/{day_id}/delete", name="delete_session_day")
+@router.post("/attendance/days/{day_id}/delete", name="delete_session_day")
 def delete_session_day(request: Request, study_id: int, day_id: int,
                        session: SessionDep) -> Response:
     """Delete a session date and its attendance marks."""
@@ -84,7 +84,7 @@ def delete_session_day(request: Request, study_id: int, day_id: int,
     return _done(request, session, study_id)
 
 
-@router.post("/studies/{study_id}/attendance/participants", name="create_participant")
+@router.post("/attendance/participants", name="create_participant")
 def create_participant(request: Request, study_id: int, session: SessionDep, name: TextForm = "",
                        role: TextForm = "", discipline: TextForm = "",
                        company: TextForm = "") -> Response:
@@ -97,7 +97,7 @@ def create_participant(request: Request, study_id: int, session: SessionDep, nam
     return _done(request, session, study_id)
 
 
-@router.get("/studies/{study_id}/attendance/participants/{participant_id}/edit",
+@router.get("/attendance/participants/{participant_id}/edit",
             name="edit_participant")
 def edit_participant(request: Request, study_id: int, participant_id: int,
                      session: SessionDep) -> Response:
@@ -107,7 +107,7 @@ def edit_participant(request: Request, study_id: int, participant_id: int,
     return _page(request, session, study_id, AttendanceForm("participant", participant_id))
 
 
-@router.post("/studies/{study_id}/attendance/participants/{participant_id}",
+@router.post("/attendance/participants/{participant_id}",
              name="update_participant")
 def update_participant(request: Request, study_id: int, participant_id: int,
                        session: SessionDep, name: TextForm = "", role: TextForm = "",
@@ -122,7 +122,7 @@ def update_participant(request: Request, study_id: int, participant_id: int,
     return _done(request, session, study_id)
 
 
-@router.post("/studies/{study_id}/attendance/participants/{participant_id}/delete",
+@router.post("/attendance/participants/{participant_id}/delete",
              name="delete_participant")
 def delete_participant(request: Request, study_id: int, participant_id: int,
                        session: SessionDep) -> Response:
@@ -132,7 +132,7 @@ def delete_participant(request: Request, study_id: int, participant_id: int,
     return _done(request, session, study_id)
 
 
-@router.post("/studies/{study_id}/attendance/marks", name="save_attendance")
+@router.post("/attendance/marks", name="save_attendance")
 def save_attendance(request: Request, study_id: int, session: SessionDep,
                     present: Marks = []) -> Response:  # noqa: B006 (FastAPI copies defaults)
     """Make attendance exactly the ticked boxes (the matrix form without JavaScript)."""
@@ -143,7 +143,7 @@ def save_attendance(request: Request, study_id: int, session: SessionDep,
     return _done(request, session, study_id)
 
 
-@router.post("/studies/{study_id}/attendance/marks/{day_id}/{participant_id}",
+@router.post("/attendance/marks/{day_id}/{participant_id}",
              name="update_attendance_mark")
 def update_attendance_mark(request: Request, study_id: int, day_id: int, participant_id: int,
                            session: SessionDep, present: Marks = []) -> Response:  # noqa: B006

@@ -9,10 +9,10 @@ from app.routes.deps import SessionDep
 from app.routes.rendering import is_htmx, render
 from app.services.record import change_log as log_service
 
-router = APIRouter()
+router = APIRouter(prefix="/studies/{study_id}")
 
 
-@router.get("/studies/{study_id}/changes", name="read_change_log")
+@router.get("/changes", name="read_change_log")
 def read_change_log(
     request: Request, study_id: int, session: SessionDep,
     since: Annotated[str, Query(alias="from")] = "",

@@ -10,11 +10,11 @@ from app.routes.rendering import is_htmx, render
 from app.services.record import revisions as revision_service
 from app.services.record.revisions import RevisionInputError
 
-router = APIRouter()
+router = APIRouter(prefix="/studies/{study_id}")
 TextForm = Annotated[str, Form()]
 
 
-@router.get("/studies/{study_id}/revisions", name="read_revisions")
+@router.get("/revisions", name="read_revisions")
 def read_revisions(request: Request, study_id: int, session: SessionDep,
                    author: AuthorDep) -> Response:
     """The study's revisions and the form to freeze a new one."""
@@ -23,7 +23,7 @@ def read_revisions(request: Request, study_id: int, session: SessionDep,
     return render(request, "record/revisions/list.html", {"page": page, "form": form})
 
 
-@router.post("/studies/{study_id}/revisions", name="create_revision")
+@router.post("/revisions", name="create_revision")
 def create_revision(request: Request, study_id: int, session: SessionDep, author: AuthorDep,
                     label: TextForm = "", note: TextForm = "",
                     signed_off_by: TextForm = "") -> Response:
@@ -45,7 +45,7 @@ def create_revision(request: Request, study_id: int, session: SessionDep, author
     return response
 
 
-@router.get("/studies/{study_id}/revisions/compare", name="compare_revisions")
+@router.get("/revisions/compare", name="compare_revisions")
 def compare_revisions(
     request: Request, study_id: int, session: SessionDep,
     typed_from: Annotated[str, Query(alias="from")] = "",
@@ -64,7 +64,7 @@ def compare_revisions(
     return render(request, "record/revisions/compare.html", {"page": page}, status_code=status_code)
 
 
-@router.get("/studies/{study_id}/revisions/{revision_id}", name="read_revision")
+@router.get("/revisions/{revision_id}", name="read_revision")
 def read_revision(request: Request, study_id: int, revision_id: int,
                   session: SessionDep) -> Response:
     """One frozen revision, read-only, with its numbers as they stood."""

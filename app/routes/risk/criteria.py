@@ -7,7 +7,7 @@ from app.routes.deps import SessionDep
 from app.routes.rendering import render
 from app.services.risk import criteria as service
 
-router = APIRouter()
+router = APIRouter(prefix="/studies/{study_id}")
 PAGE = "risk/criteria/edit.html"
 
 
@@ -17,13 +17,13 @@ def _answer(request: Request, page: service.CriteriaPage) -> Response:
     return render(request, PAGE, {"page": page}, status_code=status)
 
 
-@router.get("/studies/{study_id}/criteria", name="read_criteria")
+@router.get("/criteria", name="read_criteria")
 def read_criteria(request: Request, study_id: int, session: SessionDep) -> Response:
     """The categories, how many scenarios each governs, and the criteria basis."""
     return _answer(request, service.read_criteria(session=session, study_id=study_id))
 
 
-@router.post("/studies/{study_id}/criteria/basis", name="update_criteria_basis")
+@router.post("/criteria/basis", name="update_criteria_basis")
 async def update_criteria_basis(request: Request, study_id: int, session: SessionDep) -> Response:
     """Say where the study's criteria come from."""
     text = str((await request.form()).get("criteria_basis", ""))
@@ -31,7 +31,7 @@ async def update_criteria_basis(request: Request, study_id: int, session: Sessio
     return _answer(request, page)
 
 
-@router.post("/studies/{study_id}/criteria/categories", name="create_category")
+@router.post("/criteria/categories", name="create_category")
 async def create_category(request: Request, study_id: int, session: SessionDep) -> Response:
     """Add a severity category."""
     form = service.CategoryForm.from_mapping(await request.form())
@@ -39,7 +39,7 @@ async def create_category(request: Request, study_id: int, session: SessionDep) 
                                                     form=form))
 
 
-@router.post("/studies/{study_id}/criteria/categories/{category_id}", name="update_category")
+@router.post("/criteria/categories/{category_id}", name="update_category")
 async def update_category(
     request: Request, study_id: int, category_id: int, session: SessionDep
 ) -> Response:
@@ -50,7 +50,7 @@ async def update_category(
     return _answer(request, page)
 
 
-@router.post("/studies/{study_id}/criteria/categories/{category_id}/delete",
+@router.post("/criteria/categories/{category_id}/delete",
              name="delete_category")
 def delete_category(
     request: Request, study_id: int, category_id: int, session: SessionDep

@@ -7,10 +7,10 @@ from app.routes.deps import SessionDep
 from app.routes.rendering import render
 from app.services.risk import picture as risk_picture
 
-router = APIRouter()
+router = APIRouter(prefix="/studies/{study_id}")
 
 
-@router.get("/studies/{study_id}/risk", name="read_risk_picture")
+@router.get("/risk", name="read_risk_picture")
 def read_risk_picture(
     request: Request, study_id: int, session: SessionDep, cell: str | None = None
 ) -> Response:

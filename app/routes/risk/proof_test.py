@@ -8,7 +8,7 @@ from app.routes.rendering import is_htmx, render
 from app.services.risk import proof_test as service
 from app.services.risk.proof_test_form import ProofTestForm
 
-router = APIRouter()
+router = APIRouter(prefix="/studies/{study_id}")
 PAGE = "risk/proof_test/calculator.html"
 
 
@@ -17,7 +17,7 @@ def _step_id(raw: object) -> int | None:
     return int(text) if text.isdigit() else None
 
 
-@router.get("/studies/{study_id}/proof-test", name="read_proof_test")
+@router.get("/proof-test", name="read_proof_test")
 def read_proof_test(
     request: Request, study_id: int, session: SessionDep,
     step_id: int | None = None, applied: bool = False,
@@ -29,7 +29,7 @@ def read_proof_test(
     return render(request, PAGE, {"page": page})
 
 
-@router.post("/studies/{study_id}/proof-test", name="calculate_proof_test")
+@router.post("/proof-test", name="calculate_proof_test")
 async def calculate_proof_test(request: Request, study_id: int, session: SessionDep) -> Response:
     """PFDavg and the longest interval for the typed inputs; bad input answers 422 at the field."""
     data = await request.form()
@@ -41,7 +41,7 @@ async def calculate_proof_test(request: Request, study_id: int, session: Session
                   status_code=422 if page.errors else 200)
 
 
-@router.post("/studies/{study_id}/proof-test/apply", name="apply_proof_test")
+@router.post("/proof-test/apply", name="apply_proof_test")
 async def apply_proof_test(request: Request, study_id: int, session: SessionDep) -> Response:
     """Use the computed PFDavg for the attached IPL step, its inputs kept as the basis."""
     data = await request.form()

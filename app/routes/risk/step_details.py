@@ -7,11 +7,11 @@ from app.routes.deps import SessionDep
 from app.routes.rendering import is_htmx, render
 from app.services.risk import step_details as service
 
-router = APIRouter()
+router = APIRouter(prefix="/studies/{study_id}")
 PAGE = "risk/step_details/form.html"
 
 
-@router.get("/studies/{study_id}/steps/{step_id}/details", name="read_step_details")
+@router.get("/steps/{step_id}/details", name="read_step_details")
 def read_step_details(
     request: Request, study_id: int, step_id: int, session: SessionDep
 ) -> Response:
@@ -21,7 +21,7 @@ def read_step_details(
     return render(request, PAGE, {"page": page}, block=block)
 
 
-@router.post("/studies/{study_id}/steps/{step_id}/details", name="update_step_details")
+@router.post("/steps/{step_id}/details", name="update_step_details")
 async def update_step_details(
     request: Request, study_id: int, step_id: int, session: SessionDep
 ) -> Response:

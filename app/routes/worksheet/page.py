@@ -11,7 +11,7 @@ from app.routes.rendering import is_htmx, render
 from app.services.worksheet import page as worksheet_service
 from app.services.worksheet.edits import FieldReply, edit_step_value
 
-router = APIRouter()
+router = APIRouter(prefix="/studies/{study_id}")
 
 
 def worksheet_url(study_id: int, node_id: int, anchor: str = "") -> str:
@@ -48,7 +48,7 @@ def render_field_reply(request: Request, reply: FieldReply) -> Response:
                   status_code=422 if reply.error else 200)
 
 
-@router.get("/studies/{study_id}/nodes/{node_id}", name="read_worksheet")
+@router.get("/nodes/{node_id}", name="read_worksheet")
 def read_worksheet(request: Request, study_id: int, node_id: int, session: SessionDep,
                    focus: str = "") -> Response:
     """One node's worksheet: deviations, scenarios, steps, figures and ladders."""
@@ -56,7 +56,7 @@ def read_worksheet(request: Request, study_id: int, node_id: int, session: Sessi
     return render_worksheet(request, session, study_id, node_id, block=block, focus_id=focus)
 
 
-@router.get("/studies/{study_id}/worksheet", name="read_first_worksheet")
+@router.get("/worksheet", name="read_first_worksheet")
 def read_first_worksheet(study_id: int, session: SessionDep) -> RedirectResponse:
     """Open the worksheet at the study's first node (the overview when it has none)."""
     node_id = worksheet_service.first_node_id(session=session, study_id=study_id)
@@ -64,7 +64,7 @@ def read_first_worksheet(study_id: int, session: SessionDep) -> RedirectResponse
     return RedirectResponse(target, status_code=303)
 
 
-@router.post("/studies/{study_id}/steps/{step_id}/value", name="update_step_value")
+@router.post("/steps/{step_id}/value", name="update_step_value")
 def update_step_value(
     request: Request, study_id: int, step_id: int, session: SessionDep,
     value_text: Annotated[str, Form()] = "", client: Annotated[str, Form(max_length=64)] = "",

@@ -10,10 +10,10 @@ from app.routes.rendering import render
 from app.services.worksheet import room as room_service
 from app.settings import get_settings
 
-router = APIRouter()
+router = APIRouter(prefix="/studies/{study_id}")
 
 
-@router.get("/studies/{study_id}/room", name="read_room")
+@router.get("/room", name="read_room")
 def read_room(request: Request, study_id: int, session: SessionDep) -> Response:
     """Read-only, large-type view of the scenario the scribe is working on."""
     room = room_service.read_room(session=session, study_id=study_id)
@@ -21,7 +21,7 @@ def read_room(request: Request, study_id: int, session: SessionDep) -> Response:
     return render(request, "worksheet/room.html", context)
 
 
-@router.get("/studies/{study_id}/room/live", name="read_room_live")
+@router.get("/room/live", name="read_room_live")
 def read_room_live(request: Request, study_id: int, session: SessionDep,
                    stamp: str = "") -> Response:
     """204 while nothing changed since `stamp`; the room's live region once something did."""
@@ -32,7 +32,7 @@ def read_room_live(request: Request, study_id: int, session: SessionDep,
     return render(request, "worksheet/room.html", context, block="live")
 
 
-@router.post("/studies/{study_id}/focus", name="update_focus")
+@router.post("/focus", name="update_focus")
 def update_focus(study_id: int, scenario_id: Annotated[int, Form()],
                  session: SessionDep) -> Response:
     """The scribe moved to a scenario: the room view follows (no change-log entry)."""

@@ -12,10 +12,10 @@ from app.services.record.action_inputs import ActionInputError
 from app.services.record.actions import create_action
 from app.services.worksheet.structure import get_row, kind_of, node_id_of
 
-router = APIRouter()
+router = APIRouter(prefix="/studies/{study_id}")
 
 
-@router.post("/studies/{study_id}/scenarios/{scenario_id}/recommendations",
+@router.post("/scenarios/{scenario_id}/recommendations",
              name="create_scenario_recommendation")
 def create_scenario_recommendation(
     request: Request, study_id: int, scenario_id: int, session: SessionDep,
