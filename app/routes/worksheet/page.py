@@ -8,15 +8,11 @@ from starlette.routing import NoMatchFound
 
 from app.routes.deps import SessionDep
 from app.routes.rendering import is_htmx, render
+from app.routes.urls import overview_url, worksheet_url
 from app.services.worksheet import page as worksheet_service
 from app.services.worksheet.edits import FieldReply, edit_step_value
 
 router = APIRouter(prefix="/studies/{study_id}")
-
-
-def worksheet_url(study_id: int, node_id: int, anchor: str = "") -> str:
-    """Where a node's worksheet lives, optionally at one element."""
-    return f"/studies/{study_id}/nodes/{node_id}" + (f"#{anchor}" if anchor else "")
 
 
 def route_exists(request: Request, name: str, **params: int) -> bool:
@@ -57,10 +53,12 @@ def read_worksheet(request: Request, study_id: int, node_id: int, session: Sessi
 
 
 @router.get("/worksheet", name="read_first_worksheet")
-def read_first_worksheet(study_id: int, session: SessionDep) -> RedirectResponse:
+def read_first_worksheet(request: Request, study_id: int,
+                         session: SessionDep) -> RedirectResponse:
     """Open the worksheet at the study's first node (the overview when it has none)."""
     node_id = worksheet_service.first_node_id(session=session, study_id=study_id)
-    target = worksheet_url(study_id, node_id) if node_id else f"/studies/{study_id}"
+    target = (worksheet_url(request, study_id, node_id) if node_id
+              else overview_url(request, study_id))
     return RedirectResponse(target, status_code=303)
 
 
@@ -84,5 +82,5 @@ def update_step_value(
         return render_worksheet(request, session, study_id, reply.node_id,
                                 status_code=422, notice=reply.error,
                                 typed={reply.field_id: value_text}, focus_id=reply.field_id)
-    return RedirectResponse(worksheet_url(study_id, reply.node_id, anchor),
+    return RedirectResponse(worksheet_url(request, study_id, reply.node_id, anchor),
                             status_code=303)

@@ -7,7 +7,8 @@ from starlette.responses import RedirectResponse, Response
 
 from app.routes.deps import SessionDep
 from app.routes.rendering import is_htmx
-from app.routes.worksheet.page import render_worksheet, worksheet_url
+from app.routes.urls import worksheet_url
+from app.routes.worksheet.page import render_worksheet
 from app.services.record.action_inputs import ActionInputError
 from app.services.record.actions import create_action
 from app.services.worksheet.structure import get_row, kind_of, node_id_of
@@ -34,5 +35,5 @@ def create_scenario_recommendation(
     if is_htmx(request):
         return render_worksheet(request, session, study_id, node_id, block="worksheet",
                                 focus_id=focus)
-    return RedirectResponse(worksheet_url(study_id, node_id, f"scenario-{scenario_id}"),
+    return RedirectResponse(worksheet_url(request, study_id, node_id, f"scenario-{scenario_id}"),
                             status_code=303)

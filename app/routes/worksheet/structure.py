@@ -11,7 +11,8 @@ from starlette.responses import RedirectResponse, Response
 
 from app.routes.deps import AuthorDep, SessionDep
 from app.routes.rendering import is_htmx, render
-from app.routes.worksheet.page import render_field_reply, render_worksheet, worksheet_url
+from app.routes.urls import overview_url, path_for, worksheet_url
+from app.routes.worksheet.page import render_field_reply, render_worksheet
 from app.services.worksheet import structure
 from app.services.worksheet import undo as structure_undo
 from app.services.worksheet.edits import edit_field, field_id
@@ -50,12 +51,7 @@ def _after_change(request: Request, session: SessionDep, study_id: int, node_id:
         block = "worksheet" if is_htmx(request) else None
         return render_worksheet(request, session, study_id, node_id, block=block,
                                 status_code=status_code, focus_id=focus_id, notice=notice)
-    return RedirectResponse(worksheet_url(study_id, node_id, focus_id), status_code=303)
-
-
-def overview_url(request: Request, study_id: int) -> str:
-    """The study overview's path (where the worksheet goes when the study has no node)."""
-    return str(request.app.url_path_for("read_study", study_id=study_id))
+    return RedirectResponse(worksheet_url(request, study_id, node_id, focus_id), status_code=303)
 
 
 def _go(request: Request, url: str) -> Response:
@@ -77,7 +73,7 @@ async def _create(request: Request, session: SessionDep, study_id: int, kind: st
         return _after_change(request, session, study_id, _int(form.get("node_id")),
                              notice=err.message, status_code=422)
     if kind == "node":
-        return _go(request, f"{worksheet_url(study_id, row.id)}?focus=node-{row.id}-name")
+        return _go(request, f"{worksheet_url(request, study_id, row.id)}?focus=node-{row.id}-name")
     return _after_change(request, session, study_id, node_id_of(session, kind, row),
                          focus_id=field_id(kind, row.id, FIRST_FIELD[kind]))
 
@@ -113,9 +109,9 @@ def _read_delete(request: Request, session: SessionDep, study_id: int, kind: str
     question = structure_undo.question_for(session=session, study_id=study_id,
                                            kind_name=kind, row_id=row_id)
     row = structure.get_row(session, structure.kind_of(kind), study_id, row_id)
-    action = request.app.url_path_for(f"delete_{kind}", study_id=study_id, row_id=row_id)
+    action = path_for(request, f"delete_{kind}", study_id=study_id, row_id=row_id)
     context = {"question": question, "study_id": study_id, "kind": kind, "action": action,
-               "back": worksheet_url(study_id, node_id_of(session, kind, row))}
+               "back": worksheet_url(request, study_id, node_id_of(session, kind, row))}
     return render(request, "worksheet/confirm_delete.html", context)
 
 
@@ -132,7 +128,7 @@ def _delete(request: Request, session: SessionDep, author: str, study_id: int, k
                              status_code=409)
     if kind == "node":
         node_id = first_node_id(session=session, study_id=study_id)
-        return _go(request, worksheet_url(study_id, node_id) if node_id
+        return _go(request, worksheet_url(request, study_id, node_id) if node_id
                    else overview_url(request, study_id))
     return _after_change(request, session, study_id, node_id, focus_id="undo-button")
 
@@ -147,7 +143,7 @@ def undo_delete(request: Request, study_id: int, session: SessionDep) -> Respons
                              status_code=409)
     node_id = node_id_of(session, kind, row)
     if kind == "node":
-        return _go(request, worksheet_url(study_id, node_id))
+        return _go(request, worksheet_url(request, study_id, node_id))
     return _after_change(request, session, study_id, node_id,
                          focus_id=field_id(kind, row.id, FIRST_FIELD[kind]))
 

@@ -10,6 +10,7 @@ from dataclasses import dataclass
 
 from app.likelihood.numbers import format_number
 from app.likelihood.validation import at_least, at_most
+from app.services.study.tree import WorksheetSpot
 
 TOP_DECADE = 0
 """Column for 1 per year and more."""
@@ -190,7 +191,7 @@ class GapBarInput:
 
     label: str
     gap_orders: float
-    href: str
+    spot: WorksheetSpot
 
 
 @dataclass(frozen=True)
@@ -201,7 +202,7 @@ class GapBar:
     value_text: str
     status_text: str
     meets: bool
-    href: str
+    spot: WorksheetSpot
     y: float
     x: float
     width: float
@@ -258,7 +259,7 @@ def build_gap_bars(items: Sequence[GapBarInput]) -> GapBars:
             value_text=f"{item.gap_orders:+.1f}",
             status_text="meets" if meets else "short",
             meets=meets,
-            href=item.href,
+            spot=item.spot,
             y=BAR_TOP + index * BAR_ROW_H,
             x=min(zero_x, end_x),
             width=abs(end_x - zero_x),

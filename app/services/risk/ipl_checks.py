@@ -6,7 +6,7 @@ from dataclasses import dataclass
 from app.db.models import Step
 from app.likelihood.checks import CheckedStep, CheckWarning, check_scenario
 from app.likelihood.types import IplType, StepKind
-from app.services.study.tree import ScenarioBranch, StudyTree
+from app.services.study.tree import ScenarioBranch, StudyTree, WorksheetSpot
 
 
 @dataclass(frozen=True)
@@ -17,7 +17,7 @@ class ScenarioWarnings:
     node_id: int
     node_label: str
     scenario_label: str
-    href: str
+    spot: WorksheetSpot
     warnings: tuple[CheckWarning, ...]
 
 
@@ -56,11 +56,6 @@ def scenario_warnings(scenario_node: ScenarioBranch) -> list[CheckWarning]:
     return check_scenario(checked_steps(scenario_node.steps))
 
 
-def worksheet_href(study_id: int, node_id: int, scenario_id: int) -> str:
-    """Where a scenario sits on its node's worksheet."""
-    return f"/studies/{study_id}/nodes/{node_id}#scenario-{scenario_id}"
-
-
 def study_warnings(tree: StudyTree) -> list[ScenarioWarnings]:
     """Each scenario of the study that raises warnings, in worksheet order."""
     found = []
@@ -76,7 +71,7 @@ def study_warnings(tree: StudyTree) -> list[ScenarioWarnings]:
                 node_id=node.id or 0,
                 node_label=f"{node.number} {node.name}",
                 scenario_label=f"{scenario.cause} → {scenario.consequence}",
-                href=worksheet_href(tree.study.id or 0, node.id or 0, scenario.id or 0),
+                spot=WorksheetSpot(tree.study.id or 0, node.id or 0, scenario.id or 0),
                 warnings=tuple(warnings),
             ))
     return found

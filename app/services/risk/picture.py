@@ -17,9 +17,15 @@ from app.services.risk.charts import (
     cell_key,
     decade_of,
 )
-from app.services.risk.ipl_checks import ScenarioWarnings, study_warnings, worksheet_href
+from app.services.risk.ipl_checks import ScenarioWarnings, study_warnings
 from app.services.study.listing import NodeTotals, totals_of
-from app.services.study.tree import NodeBranch, ScenarioBranch, StudyTree, load_study_tree
+from app.services.study.tree import (
+    NodeBranch,
+    ScenarioBranch,
+    StudyTree,
+    WorksheetSpot,
+    load_study_tree,
+)
 
 
 @dataclass(frozen=True)
@@ -39,7 +45,7 @@ class RankedScenario:
     gap_orders: float
     meets: bool
     sil_label: str
-    href: str
+    spot: WorksheetSpot
     cell: str
 
 
@@ -49,7 +55,7 @@ class UnresolvedScenario:
 
     label: str
     node_label: str
-    href: str
+    spot: WorksheetSpot
     reason: str
 
 
@@ -70,7 +76,7 @@ class NodeSum:
     """A node's scenarios and their summed mitigated frequency."""
 
     label: str
-    href: str
+    spot: WorksheetSpot
     totals: NodeTotals
 
 
@@ -137,7 +143,7 @@ def _ranked(study_id: int, node_branch: NodeBranch, deviation_label: str, item: 
         gap_orders=result.gap_orders,
         meets=result.meets_target,
         sil_label=result.sil_target.label,
-        href=worksheet_href(study_id, node_branch.node.id or 0, scenario.id or 0),
+        spot=WorksheetSpot(study_id, node_branch.node.id or 0, scenario.id or 0),
         cell=cell_key(category.id, decade_of(result.mitigated_frequency)),
     )
 
@@ -157,7 +163,7 @@ def _scenarios(tree: StudyTree) -> tuple[list[RankedScenario], list[UnresolvedSc
                 scenario = item.scenario
                 unresolved.append(UnresolvedScenario(
                     f"{scenario.cause} → {scenario.consequence}", _node_label(node_branch),
-                    worksheet_href(study_id, node_branch.node.id or 0, scenario.id or 0),
+                    WorksheetSpot(study_id, node_branch.node.id or 0, scenario.id or 0),
                     item.outcome.error,
                 ))
     ranked.sort(key=lambda r: -r.gap_orders)  # stable: worksheet order among equal gaps
@@ -234,13 +240,13 @@ def build_risk_picture(tree: StudyTree) -> RiskPicture:
         unresolved=tuple(unresolved),
         category_sums=tuple(_category_sum(c, ranked) for c in _severity_order(tree.categories)),
         node_sums=tuple(
-            NodeSum(_node_label(n), f"/studies/{study_id}/nodes/{n.node.id}",
+            NodeSum(_node_label(n), WorksheetSpot(study_id, n.node.id or 0),
                     totals_of(n.scenario_branches()))
             for n in tree.nodes
         ),
         matrix=_matrix(tree, ranked),
         gap_bars=build_gap_bars(
-            [GapBarInput(f"{r.node_label}: {r.label}", r.gap_orders, r.href) for r in ranked]
+            [GapBarInput(f"{r.node_label}: {r.label}", r.gap_orders, r.spot) for r in ranked]
         ),
         sil_needs=tuple(need for need, _ in needs),
         sil_counts=_sil_counts(needs),

@@ -13,10 +13,10 @@ from app.db.queries import fetch_rows_of_study
 from app.likelihood.checks import CheckWarning, check_scenario
 from app.likelihood.types import DemandMode, IplType, StepKind
 from app.likelihood.typical import TypicalValue, typical_by_key, typical_for_kind
-from app.services.risk.ipl_checks import checked_steps, worksheet_href
+from app.services.risk.ipl_checks import checked_steps
 from app.services.study.errors import length_problem
 from app.services.study.results import compute_outcome
-from app.services.study.tree import NotFoundError, get_study
+from app.services.study.tree import NotFoundError, WorksheetSpot, get_study
 
 IPL_TYPE_LABELS: dict[IplType, str] = {
     IplType.BPCS: "BPCS loop (basic process control system)",
@@ -36,7 +36,7 @@ class StepPlace:
     step: Step
     scenario: Scenario
     node_id: int
-    href: str
+    spot: WorksheetSpot
 
 
 def steps_of_scenario(scenario_id: int) -> SelectOfScalar[Step]:
@@ -59,8 +59,8 @@ def locate_step(session: Session, study_id: int, step_id: int) -> StepPlace:
     deviation = session.get(Deviation, scenario.deviation_id) if scenario else None
     if scenario is None or deviation is None:
         raise NotFoundError(f"Step {step_id} belongs to no scenario.")
-    href = worksheet_href(study_id, deviation.node_id, scenario.id or 0)
-    return StepPlace(step, scenario, deviation.node_id, href)
+    spot = WorksheetSpot(study_id, deviation.node_id, scenario.id or 0)
+    return StepPlace(step, scenario, deviation.node_id, spot)
 
 
 @dataclass(frozen=True)

@@ -25,6 +25,21 @@ class NotFoundError(LookupError):
     """A requested row does not exist (the route answers 404)."""
 
 
+@dataclass(frozen=True)
+class WorksheetSpot:
+    """Where a row sits on the worksheet: templates link to it by route name
+    (`worksheet_path`), so no service writes a web path."""
+
+    study_id: int
+    node_id: int
+    scenario_id: int | None = None
+
+    @property
+    def anchor(self) -> str:
+        """The element id on the worksheet page ("scenario-12"; empty for a whole node)."""
+        return f"scenario-{self.scenario_id}" if self.scenario_id is not None else ""
+
+
 @dataclass
 class ScenarioBranch:
     """One scenario with its steps, safeguards and computed outcome."""
