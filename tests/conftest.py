@@ -29,8 +29,7 @@ from app.db.tracking import AUTHOR_KEY, install_tracking  # noqa: E402
 from app.demo import load_demo_study  # noqa: E402
 from app.main import create_app  # noqa: E402
 from app.routes.deps import AUTHOR_COOKIE  # noqa: E402
-
-TEST_AUTHOR = "Test Scribe"
+from tests.helpers import TEST_AUTHOR  # noqa: E402
 
 
 @pytest.fixture(scope="session")

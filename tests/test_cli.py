@@ -11,7 +11,7 @@ from app.db.models import Study
 from app.services.exchange.exports import study_json_bytes
 from app.services.exchange.study_file import export_study
 from tests.factories import make_scenario_tree, make_study
-from tests.services.export_samples import study_count
+from tests.samples import study_count
 
 
 @pytest.fixture

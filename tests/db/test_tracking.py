@@ -16,8 +16,8 @@ from app.db.models import (
 )
 from app.db.tracking import COALESCE_WINDOW
 from app.likelihood.types import StepKind
-from tests.conftest import TEST_AUTHOR
 from tests.factories import make_scenario_tree, make_step
+from tests.helpers import TEST_AUTHOR
 
 
 def _log(session: Session) -> list[ChangeLogEntry]:

@@ -1,47 +1,11 @@
 """The study list and the study overview, read as a user sees them."""
 
-from html.parser import HTMLParser
-
 from fastapi.testclient import TestClient
 from sqlmodel import Session
 
 from app.db.models import Study
 from tests.factories import make_scenario_tree, make_step
-
-
-class TableRows(HTMLParser):
-    """Collect the text of each <tr> of the table with the given id."""
-
-    def __init__(self, table_id: str) -> None:
-        super().__init__()
-        self.table_id, self.depth, self.rows = table_id, 0, []
-        self.cell: list[str] | None = None
-
-    def handle_starttag(self, tag: str, attrs: list) -> None:  # type: ignore[type-arg]
-        if tag == "table" and ("id", self.table_id) in attrs:
-            self.depth = 1
-        elif self.depth and tag == "tr":
-            self.rows.append([])
-        elif self.depth and tag in ("td", "th"):
-            self.cell = []
-
-    def handle_endtag(self, tag: str) -> None:
-        if self.depth and tag in ("td", "th") and self.cell is not None:
-            self.rows[-1].append(" ".join("".join(self.cell).split()))
-            self.cell = None
-        elif tag == "table":
-            self.depth = 0
-
-    def handle_data(self, data: str) -> None:
-        if self.cell is not None:
-            self.cell.append(data)
-
-
-def table_rows(html: str, table_id: str) -> list[list[str]]:
-    """The table's rows as lists of cell texts."""
-    parser = TableRows(table_id)
-    parser.feed(html)
-    return parser.rows
+from tests.helpers import table_rows
 
 
 def test_the_study_list_shows_each_study_with_its_size(

@@ -13,10 +13,9 @@ from app.db.models import ChangeLogEntry, Deviation, Recommendation, Scenario
 from app.routes.record.actions import today
 from app.services.record.actions import create_action, move_action
 from tests.factories import make_scenario_tree
-from tests.routes.test_studies import table_rows
+from tests.helpers import HX, table_rows
 
 FIXED_TODAY = date(2026, 12, 1)
-HTMX = {"HX-Request": "true"}
 
 
 @pytest.fixture
@@ -63,7 +62,7 @@ def _move(client: TestClient, action: Recommendation, direction: str, *,
           htmx: bool = True) -> Response:
     """Press the row's move button (as htmx does, or as a plain form post)."""
     return client.post(f"/studies/{action.study_id}/actions/{action.id}/move",
-                       data={"direction": direction}, headers=HTMX if htmx else {},
+                       data={"direction": direction}, headers=HX if htmx else {},
                        follow_redirects=False)
 
 

@@ -1,7 +1,5 @@
-"""The node worksheet page, read as the scribe sees it; helpers to read fragments as data."""
+"""The node worksheet page, read as the scribe sees it."""
 # ruff: noqa: RUF001 - the multiplication sign is what the page shows
-
-from html.parser import HTMLParser
 
 from fastapi.testclient import TestClient
 from sqlmodel import Session
@@ -16,92 +14,7 @@ from tests.factories import (
     make_step,
     make_study,
 )
-
-HX = {"HX-Request": "true"}
-VOID = {"input", "br", "img", "meta", "link", "hr", "area", "base", "col", "source", "wbr"}
-
-
-class Elements(HTMLParser):
-    """Each element with an id: its attributes and its text (void elements have none)."""
-
-    def __init__(self) -> None:
-        super().__init__()
-        self.found: dict[str, dict[str, str]] = {}
-        self.texts: dict[str, list[str]] = {}
-        self.open: list[tuple[str, str | None]] = []
-
-    def handle_starttag(self, tag: str, attrs: list) -> None:  # type: ignore[type-arg]
-        values = {k: v or "" for k, v in attrs}
-        element_id = values.get("id")
-        if element_id:
-            self.found[element_id] = {"tag": tag, **values}
-            self.texts.setdefault(element_id, [])
-        if tag not in VOID:
-            self.open.append((tag, element_id))
-
-    def handle_endtag(self, tag: str) -> None:
-        while self.open:
-            if self.open.pop()[0] == tag:
-                break
-
-    def handle_data(self, data: str) -> None:
-        for _, element_id in self.open:
-            if element_id:
-                self.texts[element_id].append(data)
-
-
-def parse(html: str) -> Elements:
-    """Parse a page or fragment."""
-    parser = Elements()
-    parser.feed(html)
-    return parser
-
-
-def text_of(html: str, element_id: str) -> str:
-    """The whitespace-normalised text of the element with this id."""
-    return " ".join(" ".join(parse(html).texts[element_id]).split())
-
-
-def attrs_of(html: str, element_id: str) -> dict[str, str]:
-    """The attributes of the element with this id."""
-    return parse(html).found[element_id]
-
-
-class Figures(HTMLParser):
-    """The data-figure texts inside one element (by id), stopping where it closes."""
-
-    def __init__(self, region_id: str) -> None:
-        super().__init__()
-        self.region_id, self.depth = region_id, 0
-        self.values: dict[str, str] = {}
-        self.current: str | None = None
-
-    def handle_starttag(self, tag: str, attrs: list) -> None:  # type: ignore[type-arg]
-        values = dict(attrs)
-        if values.get("id") == self.region_id:
-            self.depth = 1
-        elif self.depth and tag not in VOID:
-            self.depth += 1
-        if self.depth:
-            self.current = values.get("data-figure") or self.current
-
-    def handle_endtag(self, tag: str) -> None:
-        if self.depth:
-            self.depth -= 1
-            if tag in ("dd", "p"):
-                self.current = None
-
-    def handle_data(self, data: str) -> None:
-        if self.depth and self.current:
-            joined = self.values.get(self.current, "") + data
-            self.values[self.current] = " ".join(joined.split())
-
-
-def figures(html: str, scenario_id: int) -> dict[str, str]:
-    """The scenario's computed figures by name, as shown."""
-    parser = Figures(f"scenario-{scenario_id}-results")
-    parser.feed(html)
-    return parser.values
+from tests.helpers import HX, attrs_of, figures, parse, text_of
 
 
 def test_the_worksheet_shows_each_scenario_with_its_steps_and_figures(

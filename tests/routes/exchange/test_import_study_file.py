@@ -14,7 +14,7 @@ import app.routes.exchange.exports as export_routes
 from app.db.models import Study
 from app.services.exchange import study_import
 from app.services.exchange.study_file import export_study
-from tests.services.export_samples import edit_demo_study, make_hostile_study, study_count
+from tests.samples import edit_demo_study, make_hostile_study, study_count
 
 
 def upload(client: TestClient, content: bytes, name: str = "study.json") -> httpx.Response:

@@ -10,11 +10,8 @@ from sqlmodel import Session, select
 from app.db.models import ChangeLogEntry, Deviation, Revision, Scenario, Study
 from app.services.record.comparison import SEP
 from app.services.record.revisions import freeze_revision
-from tests.conftest import TEST_AUTHOR
 from tests.factories import make_deviation, make_node, make_scenario, make_scenario_tree, make_step
-from tests.routes.test_studies import table_rows
-
-HTMX = {"HX-Request": "true"}
+from tests.helpers import HX, TEST_AUTHOR, table_rows
 
 
 def _freeze(session: Session, study_id: int, label: str = "Rev A") -> Revision:
@@ -69,7 +66,7 @@ def test_a_bad_freeze_is_refused_at_its_field_with_the_typed_text_kept(
 ) -> None:
     study_id = make_scenario_tree(session).study_id
     _freeze(session, study_id, "Rev A")
-    response = client.post(f"/studies/{study_id}/revisions", data=data, headers=HTMX)
+    response = client.post(f"/studies/{study_id}/revisions", data=data, headers=HX)
     assert response.status_code == 422
     assert f'id="{field_id}-error"' in response.text and message in response.text
     assert f'value="{data["signed_off_by"].strip() and data["signed_off_by"]}"' in response.text

@@ -17,7 +17,7 @@ from tests.factories import (
     make_step,
     make_study,
 )
-from tests.routes.test_studies import table_rows
+from tests.helpers import table_rows
 
 
 def three_scenarios(session: Session) -> tuple[Study, SeverityCategory]:

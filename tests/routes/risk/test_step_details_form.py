@@ -10,6 +10,7 @@ from sqlmodel import Session, select
 from app.db.models import Step
 from app.likelihood.types import StepKind
 from tests.factories import make_scenario_tree, make_step
+from tests.helpers import HX
 
 VALID = {"ipl_type": "operator_response", "system_tag": "Control room panel",
          "response_time_minutes": "15", "sil_claimed": "", "typical_key": "operator_response",
@@ -64,7 +65,7 @@ def test_valid_details_are_saved(client: TestClient, session: Session) -> None:
 
 def test_htmx_gets_the_form_fragment_only(client: TestClient, session: Session) -> None:
     step = _ipl(session)
-    response = client.post(_url(step), data=VALID, headers={"HX-Request": "true"})
+    response = client.post(_url(step), data=VALID, headers=HX)
     assert response.status_code == 200
     assert response.text.lstrip().startswith('<section class="panel step-details"')
     assert "<html" not in response.text

@@ -27,7 +27,7 @@ from app.services.exchange.study_import import import_study_text
 from app.services.study.listing import NodeTotals, totals_of
 from app.services.study.totals import study_totals
 from app.services.study.tree import load_node_tree, load_study_tree
-from tests.routes.test_worksheet_page import HX
+from tests.helpers import HX
 
 LARGE = 40
 STEPS_PER_NODE = 7  # 2 + 3 + 2 steps in the three scenarios of every generated node

@@ -7,7 +7,7 @@ from sqlmodel import Session
 
 from app.db.models import Receptor, Scenario, Study
 from tests.factories import make_category, make_scenario_tree
-from tests.routes.test_worksheet_page import HX, attrs_of, figures
+from tests.helpers import HX, attrs_of, figures
 
 
 def _rated_scenario(session: Session) -> tuple[Scenario, int, int]:

@@ -22,13 +22,13 @@ from app.likelihood.proof_test import (
 )
 from app.likelihood.types import StepKind
 from tests.factories import make_scenario_tree, make_step
+from tests.helpers import HX
 
 REFERENCE_1OO1 = {  # lambda = 1e-6 /h total -> lambda_D = 5e-7, DC 0 -> all undetected
     "architecture": "1oo1", "lambda_du": "5e-7", "lambda_dd": "0", "beta": "", "beta_d": "",
     "interval_value": "8760", "interval_unit": "hours", "mttr_hours": "8", "mrt_hours": "8",
     "target_pfd": "",
 }
-HTMX = {"HX-Request": "true"}
 
 
 def _pfd(page: str) -> float:
@@ -50,7 +50,7 @@ def test_the_calculator_page_opens_with_defaults(client: TestClient, session: Se
 def test_1oo1_reference_row_gives_2_19e_3_sil_2(client: TestClient, session: Session) -> None:
     """REFERENCE.md section 2: 1oo1, lambda 1e-6, DC 0 -> PFDavg 2.19e-3 (computed)."""
     study_id = make_scenario_tree(session).study_id
-    response = client.post(f"/studies/{study_id}/proof-test", data=REFERENCE_1OO1, headers=HTMX)
+    response = client.post(f"/studies/{study_id}/proof-test", data=REFERENCE_1OO1, headers=HX)
     assert response.status_code == 200
     expected = pfd_avg(SifInputs(architecture=Architecture.ONE_OO_ONE, lambda_du=5e-7,
                                  lambda_dd=0.0, proof_test_interval_hours=8760.0,
@@ -124,7 +124,7 @@ def test_bad_input_is_answered_422_at_the_field_naming_the_rule(
 ) -> None:
     study_id = make_scenario_tree(session).study_id
     response = client.post(f"/studies/{study_id}/proof-test",
-                           data={**REFERENCE_1OO1, field: typed}, headers=HTMX)
+                           data={**REFERENCE_1OO1, field: typed}, headers=HX)
     assert response.status_code == 422
     slot = "interval_value" if field == "interval_unit" else field
     assert _field_error(response.text, slot).startswith(message)

@@ -12,7 +12,7 @@ from app.db.models import Study
 from app.services.exchange.study_file import export_study
 from app.services.exchange.study_schema import study_json_schema
 from tests.factories import make_scenario_tree, make_step
-from tests.routes.test_studies import table_rows
+from tests.helpers import table_rows
 
 
 @pytest.fixture

@@ -11,10 +11,9 @@ from app.db.models import ActionStatus, Recommendation, RecommendationScenario, 
 from app.routes.record.actions import today
 from app.services.record.actions import create_action
 from tests.factories import make_scenario_tree, make_step
-from tests.routes.test_studies import table_rows
+from tests.helpers import HX, table_rows
 
 FIXED_TODAY = date(2026, 12, 1)
-HTMX = {"HX-Request": "true"}
 
 
 @pytest.fixture
@@ -95,7 +94,7 @@ def test_a_bad_new_action_is_refused_at_its_field_with_the_typed_text_kept(
 ) -> None:
     study_id = make_scenario_tree(session).study_id
     data = {"text": "Fit a check valve", "owner": "Kept Owner", field: typed}
-    response = client.post(f"/studies/{study_id}/actions", data=data, headers=HTMX)
+    response = client.post(f"/studies/{study_id}/actions", data=data, headers=HX)
     assert response.status_code == 422
     field_id = {"text": "text", "due_date": "due", "expected_rrf": "rrf"}[field]
     assert f'id="new-action-{field_id}-error"' in response.text
@@ -110,12 +109,12 @@ def test_rejecting_without_a_reason_is_refused_and_with_one_is_saved(
     study_id = make_scenario_tree(session).study_id
     action = create_action(session=session, study_id=study_id, text="Add a trip")
     form = {"text": "Add a trip", "status": "rejected", "status_reason": ""}
-    refused = client.post(f"/studies/{study_id}/actions/{action.id}", data=form, headers=HTMX)
+    refused = client.post(f"/studies/{study_id}/actions/{action.id}", data=form, headers=HX)
     assert refused.status_code == 422
     assert 'id="edit-action-reason-error"' in refused.text
     assert "a rejected action needs a reason" in refused.text
     form["status_reason"] = "Relief valve already covers it"
-    saved = client.post(f"/studies/{study_id}/actions/{action.id}", data=form, headers=HTMX)
+    saved = client.post(f"/studies/{study_id}/actions/{action.id}", data=form, headers=HX)
     assert saved.status_code == 200
     session.refresh(action)
     assert (action.status, action.status_reason) == (ActionStatus.REJECTED,
@@ -126,7 +125,7 @@ def test_rejecting_without_a_reason_is_refused_and_with_one_is_saved(
 def test_an_unknown_status_is_refused(client: TestClient, session: Session) -> None:
     study_id = make_scenario_tree(session).study_id
     action = create_action(session=session, study_id=study_id, text="Add a trip")
-    response = client.post(f"/studies/{study_id}/actions/{action.id}", headers=HTMX,
+    response = client.post(f"/studies/{study_id}/actions/{action.id}", headers=HX,
                            data={"text": "Add a trip", "status": "parked"})
     assert response.status_code == 422
     assert "the status must be one of open, in_progress, done, rejected" in response.text
@@ -137,7 +136,7 @@ def test_the_edit_form_opens_in_place_and_escape_returns_the_list(
 ) -> None:
     study_id = make_scenario_tree(session).study_id
     action = create_action(session=session, study_id=study_id, text="Add a trip")
-    fragment = client.get(f"/studies/{study_id}/actions/{action.id}/edit", headers=HTMX).text
+    fragment = client.get(f"/studies/{study_id}/actions/{action.id}/edit", headers=HX).text
     assert fragment.lstrip().startswith('<section class="panel record" id="actions-section"')
     assert 'id="edit-action-text"' in fragment and "autofocus" in fragment
     assert "hx-trigger=\"keydown[key=='Escape']\"" in fragment
@@ -181,7 +180,7 @@ def test_linking_nothing_or_a_foreign_scenario_is_refused(
     scenario = make_scenario_tree(session)
     action = create_action(session=session, study_id=scenario.study_id, text="Add a trip")
     response = client.post(f"/studies/{scenario.study_id}/actions/{action.id}/scenarios",
-                           data={"scenario_id": typed}, headers=HTMX)
+                           data={"scenario_id": typed}, headers=HX)
     assert response.status_code == 422
     assert f'id="link-{action.id}-error"' in response.text and message in response.text
 

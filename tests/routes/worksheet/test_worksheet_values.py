@@ -9,7 +9,7 @@ from sqlmodel import Session, select
 from app.db.models import Step
 from app.likelihood.types import StepKind
 from tests.factories import make_scenario_tree, make_step
-from tests.routes.test_worksheet_page import HX, attrs_of, figures, parse, text_of
+from tests.helpers import HX, attrs_of, figures, parse, text_of
 
 
 def post_value(http: TestClient, step: Step, text: str, **extra: object) -> Response:

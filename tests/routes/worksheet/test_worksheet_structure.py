@@ -31,7 +31,7 @@ from tests.factories import (
     make_step,
     make_study,
 )
-from tests.routes.test_worksheet_page import HX, attrs_of, figures, text_of
+from tests.helpers import HX, attrs_of, figures, text_of
 
 
 def rows(session: Session, model: type, **where: int) -> list:  # type: ignore[type-arg]

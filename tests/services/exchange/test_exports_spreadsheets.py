@@ -16,7 +16,7 @@ from app.services.exchange.export_tables import SCENARIO_COLUMNS, spreadsheet_te
 from app.services.exchange.export_xlsx import MAX_CELL_CHARS, cell_text
 from app.services.exchange.exports import ExportFormat, build_export
 from app.services.study.tree import load_study_tree
-from tests.services.export_samples import (
+from tests.samples import (
     FORMULA_TEXTS,
     LONG_TEXT,
     MARKUP,

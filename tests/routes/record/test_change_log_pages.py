@@ -8,11 +8,8 @@ from sqlmodel import Session, select
 
 from app.db.models import ChangeLogEntry, Deviation
 from app.db.tracking import AUTHOR_KEY
-from tests.conftest import TEST_AUTHOR
 from tests.factories import make_scenario, make_scenario_tree, make_step
-from tests.routes.test_studies import table_rows
-
-HTMX = {"HX-Request": "true"}
+from tests.helpers import HX, TEST_AUTHOR, table_rows
 
 
 def _log_rows(html: str) -> list[dict[str, str]]:
@@ -49,7 +46,7 @@ def test_a_value_typed_on_the_worksheet_is_logged_under_this_browsers_name(
     scenario = make_scenario_tree(session)
     step = make_step(session, scenario, value=0.1, description="High level alarm")
     response = client.post(f"/studies/{scenario.study_id}/steps/{step.id}/value",
-                           data={"value_text": "1 in 100"}, headers=HTMX)
+                           data={"value_text": "1 in 100"}, headers=HX)
     assert response.status_code == 200
     rows = _log_rows(client.get(f"/studies/{scenario.study_id}/changes").text)
     assert [(r["Who"], r["Field"], r["Old → new"]) for r in rows[:2]] == [
@@ -64,7 +61,7 @@ def test_values_typed_while_the_field_was_invalid_are_not_logged(
     step = make_step(session, scenario, value=0.1, description="High level alarm")
     url = f"/studies/{scenario.study_id}/steps/{step.id}/value"
     for typed, status in (("1 in", 422), ("1 in 0", 422), ("2", 422), ("1 in 50", 200)):
-        assert client.post(url, data={"value_text": typed}, headers=HTMX).status_code == status
+        assert client.post(url, data={"value_text": typed}, headers=HX).status_code == status
     value_entries = session.exec(
         select(ChangeLogEntry.old_value, ChangeLogEntry.new_value)
         .where(ChangeLogEntry.entity == "step", ChangeLogEntry.field == "value")
@@ -79,7 +76,7 @@ def test_an_invalid_action_value_is_never_logged(client: TestClient, session: Se
     study_id = make_scenario_tree(session).study_id
     before = len(session.exec(select(ChangeLogEntry)).all())
     client.post(f"/studies/{study_id}/actions", data={"text": "Trip", "expected_rrf": "-5"},
-                headers=HTMX)
+                headers=HX)
     assert len(session.exec(select(ChangeLogEntry)).all()) == before
 
 
@@ -135,7 +132,7 @@ def test_an_unreadable_filter_is_a_422_with_the_typed_text_kept(
     client: TestClient, session: Session, params: dict[str, str], field_id: str, message: str
 ) -> None:
     study_id = make_scenario_tree(session).study_id
-    response = client.get(f"/studies/{study_id}/changes", params=params, headers=HTMX)
+    response = client.get(f"/studies/{study_id}/changes", params=params, headers=HX)
     assert response.status_code == 422
     assert f'id="{field_id}-error"' in response.text and message in response.text
     for typed in params.values():

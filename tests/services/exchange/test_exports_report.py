@@ -16,7 +16,7 @@ from app.services.exchange.exports import ExportFormat, build_export
 from app.services.exchange.report import build_report, report_html
 from app.services.exchange.study_file import export_study
 from app.services.study.tree import load_study_tree
-from tests.services.export_samples import FORMULA_TEXTS, SCRIPTS, make_hostile_study
+from tests.samples import FORMULA_TEXTS, SCRIPTS, make_hostile_study
 
 WHEN = datetime(2026, 11, 12, 15, 30, tzinfo=UTC)
 

@@ -3,7 +3,7 @@
 from fastapi.testclient import TestClient
 from sqlmodel import Session
 
-from tests.routes.test_worksheet_page import attrs_of, text_of
+from tests.helpers import attrs_of, text_of
 
 
 def test_a_browser_without_a_name_is_asked_for_one(client: TestClient, session: Session) -> None:

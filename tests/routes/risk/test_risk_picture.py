@@ -12,7 +12,7 @@ from sqlmodel import Session, select
 from app.db.models import Receptor, SeverityCategory, Step, Study
 from app.services.risk.charts import ZONES
 from tests.factories import make_category, make_deviation, make_node, make_scenario, make_step
-from tests.routes.test_studies import table_rows
+from tests.helpers import table_rows
 
 
 def _study(session: Session) -> tuple[Study, SeverityCategory, SeverityCategory]:

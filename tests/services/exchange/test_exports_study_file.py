@@ -13,7 +13,7 @@ from app.services.exchange.exports import ExportFormat, export_filename, study_j
 from app.services.exchange.study_file import StudyFileError, export_study, parse_study_file
 from app.services.exchange.study_import import import_study_text, import_study_upload
 from app.services.exchange.study_schema import StudyFile, study_json_schema
-from tests.services.export_samples import (
+from tests.samples import (
     FORMULA_TEXTS,
     MARKUP,
     SCRIPTS,

@@ -17,7 +17,7 @@ from tests.factories import (
     make_step,
     make_study,
 )
-from tests.routes.test_worksheet_page import HX, attrs_of, text_of
+from tests.helpers import HX, attrs_of, text_of
 
 WCAG_SOURCE = "WCAG 2.1, success criterion 1.4.3 and the definition of relative luminance"
 

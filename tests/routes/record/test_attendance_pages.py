@@ -9,9 +9,7 @@ from sqlmodel import Session, select
 from app.db.models import Attendance, Participant, SessionDay, Study
 from app.services.record.attendance import add_day, add_participant, set_attendance
 from tests.factories import make_study
-from tests.routes.test_studies import table_rows
-
-HTMX = {"HX-Request": "true"}
+from tests.helpers import HX, table_rows
 
 
 def _study_with_two_days_and_two_people(session: Session) -> tuple[Study, list[int], list[int]]:
@@ -57,12 +55,12 @@ def test_ticking_a_box_saves_one_mark_and_answers_the_new_count(
     mark = f"{days[0]}:{people[1]}"
     # htmx sends the whole matrix form: the ticked box's own value and the other ticked boxes.
     response = client.post(f"/studies/{study.id}/attendance/marks/{days[0]}/{people[1]}",
-                           data={"present": [mark, f"{days[1]}:{people[0]}"]}, headers=HTMX)
+                           data={"present": [mark, f"{days[1]}:{people[0]}"]}, headers=HX)
     assert response.status_code == 200
     assert f'<span id="day-count-{days[0]}" hx-swap-oob="true">1</span>' in response.text
     assert session.get(Attendance, (days[0], people[1])) is not None
     client.post(f"/studies/{study.id}/attendance/marks/{days[0]}/{people[1]}",
-                data={"present": [f"{days[1]}:{people[0]}"]}, headers=HTMX)
+                data={"present": [f"{days[1]}:{people[0]}"]}, headers=HX)
     session.expire_all()
     assert session.get(Attendance, (days[0], people[1])) is None
 
@@ -83,7 +81,7 @@ def test_the_matrix_form_without_javascript_saves_exactly_the_ticked_boxes(
 def test_a_forged_matrix_mark_is_refused(client: TestClient, session: Session, mark: str) -> None:
     study, _days, _people = _study_with_two_days_and_two_people(session)
     response = client.post(f"/studies/{study.id}/attendance/marks", data={"present": [mark]},
-                           headers=HTMX)
+                           headers=HX)
     assert response.status_code == 422
     assert 'id="attendance-form-error"' in response.text
     assert len(session.exec(select(Attendance)).all()) == 1
@@ -115,7 +113,7 @@ def test_edit_opens_the_row_as_a_form_with_escape_to_cancel(
 ) -> None:
     study, days, people = _study_with_two_days_and_two_people(session)
     fragment = client.get(f"/studies/{study.id}/attendance/days/{days[0]}/edit",
-                          headers=HTMX).text
+                          headers=HX).text
     assert fragment.lstrip().startswith('<div id="attendance-section"')
     assert 'id="edit-day-date"' in fragment and 'value="2026-11-11"' in fragment
     assert "keydown[key=='Escape']" in fragment
@@ -146,7 +144,7 @@ def test_bad_new_rows_are_refused_at_the_field_with_the_typed_text_kept(
     message: str, kept: str,
 ) -> None:
     study, _days, _people = _study_with_two_days_and_two_people(session)
-    response = client.post(f"/studies/{study.id}/attendance/{path}", data=data, headers=HTMX)
+    response = client.post(f"/studies/{study.id}/attendance/{path}", data=data, headers=HX)
     assert response.status_code == 422
     assert f'id="{field_id}-error"' in response.text
     assert message in response.text
@@ -171,7 +169,7 @@ def test_bad_edits_are_refused_in_the_edit_row(
     study, days, people = _study_with_two_days_and_two_people(session)
     row_id = days[0] if what == "days" else people[0]
     response = client.post(f"/studies/{study.id}/attendance/{what}/{row_id}", data=data,
-                           headers=HTMX)
+                           headers=HX)
     assert response.status_code == 422
     assert f'id="{field_id}-error"' in response.text and message in response.text
     session.expire_all()
