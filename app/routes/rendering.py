@@ -36,7 +36,7 @@ def orders(value: float | None) -> str:
 
 
 @pass_context
-def path_for(context: Mapping[str, Any], name: str, /, **params: Any) -> str:
+def _template_path_for(context: Mapping[str, Any], name: str, /, **params: Any) -> str:
     """app.routes.urls.path_for for templates: a named route's path, without the host."""
     return urls.path_for(context["request"], name, **params)
 
@@ -51,8 +51,8 @@ def worksheet_path(context: Mapping[str, Any], spot: WorksheetSpot) -> str:
 
 
 templates.env.filters.update(sci=sci, one_in=format_one_in, orders=orders)
-templates.env.globals.update(cautions=CAUTIONS, step_kinds=tuple(StepKind), path_for=path_for,
-                             worksheet_path=worksheet_path)
+templates.env.globals.update(cautions=CAUTIONS, step_kinds=tuple(StepKind),
+                             path_for=_template_path_for, worksheet_path=worksheet_path)
 
 
 def is_htmx(request: Request) -> bool:

@@ -23,7 +23,7 @@ def read_change_log(
     typed = log_service.FilterText(since, until, scenario_id)
     status_code = 200
     try:
-        page = log_service.read_change_log(session=session, study_id=study_id, typed=typed)
+        page = log_service.build_change_log_page(session=session, study_id=study_id, typed=typed)
     except log_service.ChangeLogFilterError as error:
         page = log_service.invalid_filter_page(session=session, study_id=study_id, typed=typed,
                                                error=error)

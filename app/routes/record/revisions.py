@@ -54,7 +54,7 @@ def compare_revisions(
     """What changed from one revision to another revision or to the live study."""
     status_code = 200
     try:
-        page = revision_service.compare_revisions(session=session, study_id=study_id,
+        page = revision_service.build_comparison_page(session=session, study_id=study_id,
                                                   typed_from=typed_from, typed_to=typed_to)
     except RevisionInputError as error:
         page = revision_service.invalid_compare_page(

@@ -20,7 +20,7 @@ def _answer(request: Request, page: service.CriteriaPage) -> Response:
 @router.get("/criteria", name="read_criteria")
 def read_criteria(request: Request, study_id: int, session: SessionDep) -> Response:
     """The categories, how many scenarios each governs, and the criteria basis."""
-    return _answer(request, service.read_criteria(session=session, study_id=study_id))
+    return _answer(request, service.build_criteria_page(session=session, study_id=study_id))
 
 
 @router.post("/criteria/basis", name="update_criteria_basis")

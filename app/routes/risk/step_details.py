@@ -16,7 +16,7 @@ def read_step_details(
     request: Request, study_id: int, step_id: int, session: SessionDep
 ) -> Response:
     """The step's details form."""
-    page = service.read_step_details(session=session, study_id=study_id, step_id=step_id)
+    page = service.build_step_details_page(session=session, study_id=study_id, step_id=step_id)
     block = "details" if is_htmx(request) else None
     return render(request, PAGE, {"page": page}, block=block)
 

@@ -28,7 +28,8 @@ def render_worksheet(request: Request, session: SessionDep, study_id: int, node_
                      *, block: str | None = None, status_code: int = 200,
                      **extra: Any) -> Response:
     """The worksheet page, or only its #worksheet region for htmx."""
-    page = worksheet_service.read_worksheet(session=session, study_id=study_id, node_id=node_id)
+    page = worksheet_service.build_worksheet_page(session=session, study_id=study_id,
+                                                  node_id=node_id)
     links = {"step_details": route_exists(request, "read_step_details", study_id=0, step_id=0),
              "proof_test": route_exists(request, "read_proof_test", study_id=0),
              "actions": route_exists(request, "read_actions", study_id=0)}

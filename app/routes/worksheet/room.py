@@ -16,7 +16,7 @@ router = APIRouter(prefix="/studies/{study_id}")
 @router.get("/room", name="read_room")
 def read_room(request: Request, study_id: int, session: SessionDep) -> Response:
     """Read-only, large-type view of the scenario the scribe is working on."""
-    room = room_service.read_room(session=session, study_id=study_id)
+    room = room_service.build_room_view(session=session, study_id=study_id)
     context = {"room": room, "study": room.study, "poll": get_settings().room_poll_seconds}
     return render(request, "worksheet/room.html", context)
 
@@ -27,7 +27,7 @@ def read_room_live(request: Request, study_id: int, session: SessionDep,
     """204 while nothing changed since `stamp`; the room's live region once something did."""
     if room_service.change_stamp(session=session, study_id=study_id) == stamp:
         return Response(status_code=204)
-    room = room_service.read_room(session=session, study_id=study_id)
+    room = room_service.build_room_view(session=session, study_id=study_id)
     context = {"room": room, "study": room.study, "poll": get_settings().room_poll_seconds}
     return render(request, "worksheet/room.html", context, block="live")
 

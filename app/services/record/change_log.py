@@ -131,7 +131,7 @@ def _scenario_label(session: Session, study_id: int, scenario_id: int | None) ->
     return scenario, f"scenario '{scenario.cause or scenario.consequence or scenario_id}'"
 
 
-def read_change_log(*, session: Session, study_id: int, typed: FilterText) -> ChangeLogPage:
+def build_change_log_page(*, session: Session, study_id: int, typed: FilterText) -> ChangeLogPage:
     """The filtered log; a filter that cannot be read raises ChangeLogFilterError."""
     study = get_study(session, study_id)
     chosen = read_filter(typed)

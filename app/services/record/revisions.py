@@ -184,7 +184,7 @@ def _pick(session: Session, study_id: int, field_name: str, typed: str) -> Revis
     return revision
 
 
-def compare_revisions(
+def build_comparison_page(
     *, session: Session, study_id: int, typed_from: str, typed_to: str
 ) -> ComparePage:
     """Compare a revision with another revision or with the live study ('live')."""

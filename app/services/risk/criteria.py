@@ -120,10 +120,10 @@ def _use(tree: StudyTree, row: SeverityCategory, form: CategoryForm | None = Non
 Edited = dict[int, tuple[CategoryForm, dict[str, str]]]
 
 
-def _page(session: Session, study_id: int, *, edited: Edited | None = None,
-          new_form: CategoryForm | None = None, new_errors: dict[str, str] | None = None,
-          basis_text: str | None = None, basis_error: str = "", message: str = "",
-          refusal: str = "", tree: StudyTree | None = None) -> CriteriaPage:
+def _criteria_page(session: Session, study_id: int, *, edited: Edited | None = None,
+                   new_form: CategoryForm | None = None, new_errors: dict[str, str] | None = None,
+                   basis_text: str | None = None, basis_error: str = "", message: str = "",
+                   refusal: str = "", tree: StudyTree | None = None) -> CriteriaPage:
     tree = tree or load_study_tree(session, study_id)
     edited = edited or {}
     uses = tuple(_use(tree, row, *edited.get(row.id or 0, (None, None)))
@@ -136,9 +136,9 @@ def _page(session: Session, study_id: int, *, edited: Edited | None = None,
     )
 
 
-def read_criteria(*, session: Session, study_id: int) -> CriteriaPage:
+def build_criteria_page(*, session: Session, study_id: int) -> CriteriaPage:
     """The study's categories with how many scenarios each governs."""
-    return _page(session, study_id)
+    return _criteria_page(session, study_id)
 
 
 def validate_category(form: CategoryForm) -> tuple[dict[str, Any], dict[str, str]]:
@@ -185,7 +185,7 @@ def update_category(*, session: Session, study_id: int, category_id: int,
     row = _get_category(session, study_id, category_id)
     values, errors = validate_category(form)
     if errors:
-        return _page(session, study_id, edited={category_id: (form, errors)})
+        return _criteria_page(session, study_id, edited={category_id: (form, errors)})
     short_before, governed_before = _short_and_governed(load_study_tree(session, study_id),
                                                         category_id)
     row.sqlmodel_update(values)
@@ -195,10 +195,10 @@ def update_category(*, session: Session, study_id: int, category_id: int,
     short_after, governed_after = _short_and_governed(after, category_id)
     change = ReEvaluation(row.name, len(short_after), sum(short_before), sum(short_after),
                           governed_before, governed_after)
-    return _page(session, study_id, message=change.sentence, tree=after)
+    return _criteria_page(session, study_id, message=change.sentence, tree=after)
 
 
-def _next_position(session: Session, study_id: int) -> int:
+def _next_category_position(session: Session, study_id: int) -> int:
     statement = select(func.max(SeverityCategory.position)).where(
         SeverityCategory.study_id == study_id)
     return (session.exec(statement).one() or 0) + 1
@@ -209,12 +209,12 @@ def create_category(*, session: Session, study_id: int, form: CategoryForm) -> C
     get_study(session, study_id)
     values, errors = validate_category(form)
     if errors:
-        return _page(session, study_id, new_form=form, new_errors=errors)
-    session.add(SeverityCategory(study_id=study_id, position=_next_position(session, study_id),
-                                 **values))
+        return _criteria_page(session, study_id, new_form=form, new_errors=errors)
+    position = _next_category_position(session, study_id)
+    session.add(SeverityCategory(study_id=study_id, position=position, **values))
     session.commit()
-    return _page(session, study_id, message=f"'{form.name}' added. No scenario is rated with "
-                                            f"it yet.")
+    return _criteria_page(session, study_id,
+                          message=f"'{form.name}' added. No scenario is rated with it yet.")
 
 
 def scenarios_rated_with(category_id: int) -> SelectOfScalar[int]:
@@ -232,13 +232,13 @@ def delete_category(*, session: Session, study_id: int, category_id: int) -> Cri
     used = session.exec(scenarios_rated_with(category_id)).one()
     if used:
         noun = "scenario is" if used == 1 else "scenarios are"
-        return _page(session, study_id, refusal=(
+        return _criteria_page(session, study_id, refusal=(
             f"'{row.name}' was not deleted: {used} {noun} rated with it. Rate them with "
             f"another category first."))
     name = row.name
     session.delete(row)
     session.commit()
-    return _page(session, study_id, message=f"'{name}' deleted.")
+    return _criteria_page(session, study_id, message=f"'{name}' deleted.")
 
 
 def update_criteria_basis(*, session: Session, study_id: int, text: str) -> CriteriaPage:
@@ -253,5 +253,5 @@ def update_criteria_basis(*, session: Session, study_id: int, text: str) -> Crit
         study.criteria_basis = typed
         session.add(study)
         session.commit()
-        return _page(session, study_id, message="Criteria basis saved.")
-    return _page(session, study_id, basis_text=text, basis_error=error)
+        return _criteria_page(session, study_id, message="Criteria basis saved.")
+    return _criteria_page(session, study_id, basis_text=text, basis_error=error)

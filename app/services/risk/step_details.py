@@ -131,7 +131,7 @@ class StepDetailsPage:
     saved: bool = False
 
 
-def _page(session: Session, place: StepPlace, form: StepDetailsForm,
+def _details_page(session: Session, place: StepPlace, form: StepDetailsForm,
           errors: dict[str, str], *, saved: bool = False) -> StepDetailsPage:
     kind = place.step.kind
     steps = fetch_steps_of_scenario(session, place.scenario.id or 0)
@@ -143,10 +143,10 @@ def _page(session: Session, place: StepPlace, form: StepDetailsForm,
     )
 
 
-def read_step_details(*, session: Session, study_id: int, step_id: int) -> StepDetailsPage:
+def build_step_details_page(*, session: Session, study_id: int, step_id: int) -> StepDetailsPage:
     """The step's details form filled from what is stored."""
     place = locate_step(session, study_id, step_id)
-    return _page(session, place, StepDetailsForm.from_step(place.step), {})
+    return _details_page(session, place, StepDetailsForm.from_step(place.step), {})
 
 
 def _minutes(text: str) -> float | None:
@@ -169,7 +169,7 @@ def _sil(text: str) -> int | None:
     return int(text)
 
 
-def _ipl_type(text: str) -> str | None:
+def _read_ipl_type(text: str) -> str | None:
     if not text:
         return None
     if text not in tuple(IplType):
@@ -189,7 +189,7 @@ def _typical(text: str, kind: StepKind) -> str | None:
     return text
 
 
-def _text(text: str, limit: int, label: str) -> str:
+def _form_text(text: str, limit: int, label: str) -> str:
     if problem := length_problem(text, limit):
         raise ValueError(f"{label}: {problem}")
     return text
@@ -199,12 +199,12 @@ def _readers(kind: StepKind) -> dict[str, Any]:
     """The fields a step of this kind keeps, each with its reader (raises with the rule)."""
     readers: dict[str, Any] = {
         "typical_key": lambda t: _typical(t, kind),
-        "basis": lambda t: _text(t, BASIS_LIMIT, "Basis"),
+        "basis": lambda t: _form_text(t, BASIS_LIMIT, "Basis"),
     }
     if kind in (StepKind.IPL, StepKind.INITIATING_EVENT):
-        readers["system_tag"] = lambda t: _text(t, SYSTEM_TAG_LIMIT, "System or device")
+        readers["system_tag"] = lambda t: _form_text(t, SYSTEM_TAG_LIMIT, "System or device")
     if kind is StepKind.IPL:
-        readers |= {"ipl_type": _ipl_type, "response_time_minutes": _minutes,
+        readers |= {"ipl_type": _read_ipl_type, "response_time_minutes": _minutes,
                     "sil_claimed": _sil}
     return readers
 
@@ -220,10 +220,10 @@ def update_step_details(*, session: Session, study_id: int, step_id: int,
         except ValueError as err:
             errors[name] = str(err)
     if errors:
-        return _page(session, place, form, errors)
+        return _details_page(session, place, form, errors)
     place.step.sqlmodel_update(values)
     session.add(place.step)
     session.commit()
     session.refresh(place.step)
-    return _page(session, place, StepDetailsForm.from_step(place.step), {}, saved=True)
+    return _details_page(session, place, StepDetailsForm.from_step(place.step), {}, saved=True)
 

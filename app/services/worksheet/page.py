@@ -115,7 +115,7 @@ def _step_rows(steps: list[Step]) -> tuple[StepRow, ...]:
     return tuple(rows)
 
 
-def recommendations_of_node(session: Session, node_id: int
+def recommendations_by_scenario(session: Session, node_id: int
                             ) -> dict[int, tuple[Recommendation, ...]]:
     """The recommendations linked to each scenario of one node, in the actions' order."""
     linked: dict[int, list[Recommendation]] = defaultdict(list)
@@ -162,7 +162,7 @@ def node_delete_question(node_branch: NodeBranch) -> str:
     return delete_question("node", node_branch.node.number, counts)
 
 
-def read_worksheet(*, session: Session, study_id: int, node_id: int) -> WorksheetPage:
+def build_worksheet_page(*, session: Session, study_id: int, node_id: int) -> WorksheetPage:
     """The node's deviations and scenarios, every scenario computed, with node and study totals.
 
     Only this node's rows are loaded as objects; the totals come from plain rows.
@@ -170,7 +170,7 @@ def read_worksheet(*, session: Session, study_id: int, node_id: int) -> Workshee
     tree = load_node_tree(session, study_id, node_id)
     node_branch = tree.node
     number = node_branch.node.number or str(node_id)
-    recommendations = recommendations_of_node(session, node_id)
+    recommendations = recommendations_by_scenario(session, node_id)
     deviations = tuple(_deviation_view(d, f"{number}.{i}", recommendations)
                        for i, d in enumerate(node_branch.deviations, start=1))
     totals = study_totals(session, study_id)
@@ -202,7 +202,7 @@ def located_scenario(*, session: Session, study_id: int, scenario_id: int,
     node_id = node_id_of(session, "scenario", scenario)
     branch = load_node_tree(session, study_id, node_id).node
     item, number = _locate(branch, scenario_id)
-    links = recommendations_of_node(session, node_id).get(scenario_id, ())
+    links = recommendations_by_scenario(session, node_id).get(scenario_id, ())
     return scenario_view(item, number, links, fallback), branch.node
 
 

@@ -76,7 +76,7 @@ def set_focus(*, session: Session, study_id: int, scenario_id: int) -> None:
         session.commit()
 
 
-def read_room(*, session: Session, study_id: int) -> RoomView:
+def build_room_view(*, session: Session, study_id: int) -> RoomView:
     """The scenario in focus, or the study's first scenario until the scribe picks one.
 
     Only the shown scenario's node is loaded; the rest of the study is counted, not read.

@@ -233,7 +233,7 @@ def _read_step_fields(row: Step, changes: Mapping[str, Any]) -> dict[str, Any]:
     return values
 
 
-def read_changes(session: Session, kind: RowKind, row: Any,
+def read_row_changes(session: Session, kind: RowKind, row: Any,
                  changes: Mapping[str, Any]) -> dict[str, Any]:
     """Validate and convert the sent fields of one row; unknown fields are ignored."""
     texts = {k: str(v[-1] if isinstance(v, list | tuple) else v) for k, v in changes.items()
@@ -254,7 +254,7 @@ def update_row(*, session: Session, study_id: int, kind_name: str, row_id: int,
     """Change only the sent fields of one row, after validating all of them."""
     kind = kind_of(kind_name)
     row = get_row(session, kind, study_id, row_id)
-    values = read_changes(session, kind, row, changes)
+    values = read_row_changes(session, kind, row, changes)
     for field, value in values.items():
         if getattr(row, field) != value:
             setattr(row, field, value)
