@@ -68,6 +68,11 @@ STEP_KIND_TERMS: dict[StepKind, StepKindTerms] = {
                                                  "conditional modifier", "Modifier"),
     StepKind.IPL: StepKindTerms("Independent protection layer", "IPL", "IPL", "IPL"),
 }
+def step_kind_words(stored: str) -> str:
+    """A stored kind as words in a sentence ("enabling condition"); unknown text as it is."""
+    return StepKind(stored).words if stored in tuple(StepKind) else stored
+
+
 STEP_KIND_LABELS: dict[StepKind, str] = {kind: terms.label
                                          for kind, terms in STEP_KIND_TERMS.items()}
 

@@ -11,7 +11,7 @@ from starlette.responses import Response
 from starlette.routing import NoMatchFound
 
 from app.likelihood.numbers import format_number, format_one_in
-from app.likelihood.types import StepKind
+from app.likelihood.types import StepKind, step_kind_words
 from app.routes import urls
 from app.services.study.tree import WorksheetSpot
 from app.settings import PROJECT_ROOT
@@ -50,7 +50,8 @@ def worksheet_path(context: Mapping[str, Any], spot: WorksheetSpot) -> str:
     return urls.worksheet_url(request, spot.study_id, spot.node_id, spot.anchor)
 
 
-templates.env.filters.update(sci=sci, one_in=format_one_in, orders=orders)
+templates.env.filters.update(sci=sci, one_in=format_one_in, orders=orders,
+                             kind_words=step_kind_words)
 templates.env.globals.update(cautions=CAUTIONS, step_kinds=tuple(StepKind),
                              path_for=_template_path_for, worksheet_path=worksheet_path)
 

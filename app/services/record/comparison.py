@@ -16,7 +16,7 @@ from typing import Any
 
 from app.likelihood.frequency import compute_scenario
 from app.likelihood.numbers import format_number
-from app.likelihood.types import LikelihoodInputError, StepInput, StepKind
+from app.likelihood.types import LikelihoodInputError, StepInput, StepKind, step_kind_words
 
 Row = dict[str, Any]
 MATCHING_RULE = __doc__.split("\n\n", 1)[1].strip() if __doc__ else ""
@@ -32,10 +32,6 @@ STEP_FIELDS = ("kind", "description", "value", "credited", "basis", "ipl_type", 
 # Joins the parts of a row's place in the study, as in a breadcrumb trail.
 SEP = " \N{SINGLE RIGHT-POINTING ANGLE QUOTATION MARK} "
 
-
-def _kind_words(stored: str) -> str:
-    """A study file's step kind as words ("enabling condition"); unknown text as it is."""
-    return StepKind(stored).words if stored in tuple(StepKind) else stored
 
 
 def normalised(text: Any) -> str:
@@ -262,7 +258,7 @@ class _Differ:
                                              _step_key):
             either = new_step or old_step
             assert either is not None
-            label = f"{where}{SEP}{_kind_words(either['kind'])}" \
+            label = f"{where}{SEP}{step_kind_words(either['kind'])}" \
                     f" '{either.get('description', '')}'"
             if old_step is None or new_step is None:
                 _added_or_removed(self.diff, "Steps", "", old_step, label)
