@@ -19,6 +19,9 @@ from app.db.models import (
     Study,
 )
 
+# Any in this module: the builders serve any table model and return SQLAlchemy statements whose
+# column types the ORM attributes do not carry (the ORM boundary).
+
 Row = TypeVar("Row")
 Ordered = TypeVar("Ordered", bound=GenerativeSelect)
 

@@ -23,6 +23,9 @@ from app.db.models import (
     utc_now,
 )
 
+# Any in this module: session events hand over any tracked table row and its column values (the
+# ORM boundary).
+
 LOGGED_TYPES: dict[type, str] = {
     Study: "study",
     SeverityCategory: "severity category",

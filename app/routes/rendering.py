@@ -16,6 +16,9 @@ from app.routes import urls
 from app.services.study.tree import WorksheetSpot
 from app.settings import PROJECT_ROOT
 
+# Any in this module: template contexts and route parameters are whatever Jinja2 and Starlette
+# take (the template boundary).
+
 CAUTIONS = (
     "Tallyroom is decision support for a competent review team. Its results are only as good "
     "as the inputs the team agrees. Follow your company's standards, local regulations, the "

@@ -26,6 +26,9 @@ from app.db.models import (
 from app.services.exchange.study_schema import FILE_FORMAT, SCHEMA_VERSION, StudyFile
 from app.services.study.tree import get_study
 
+# Any in this module: study-file rows are JSON objects and table rows of several models (the file
+# boundary).
+
 
 class StudyFileError(ValueError):
     """A study file that cannot be imported; the message says where and why."""

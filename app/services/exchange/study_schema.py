@@ -12,6 +12,9 @@ from pydantic import BaseModel, ConfigDict, Field, field_validator, model_valida
 from app.db.models import ActionStatus, Receptor
 from app.likelihood.types import StepKind
 
+# Any in this module: the proof-test inputs, the snapshot and the JSON Schema are JSON objects
+# (the file boundary).
+
 FILE_FORMAT: Final = "tallyroom-study"
 SCHEMA_VERSION: Final = 1
 SCHEMA_PATH = "/schema/study-v1.json"

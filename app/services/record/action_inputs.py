@@ -13,6 +13,8 @@ from typing import Any
 from app.db.models import ActionStatus, Recommendation, text_limit
 from app.services.study.errors import FieldInputError, length_problem
 
+# Any in this module: each reader takes one raw form value (the form boundary).
+
 EDITABLE_FIELDS = ("text", "owner", "due_date", "status", "status_reason", "expected_rrf")
 TEXT_LIMITS = {
     field: text_limit(Recommendation, field) for field in ("text", "owner", "status_reason")

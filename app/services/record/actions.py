@@ -22,6 +22,8 @@ from app.services.record.action_inputs import (
 from app.services.record.change_log import record_link_change
 from app.services.study.tree import NotFoundError, get_study
 
+# Any in this module: form values arrive raw (the form boundary).
+
 STILL_OPEN = (ActionStatus.OPEN, ActionStatus.IN_PROGRESS)
 STATUS_LABELS = {
     ActionStatus.OPEN: "Open",

@@ -14,6 +14,8 @@ from app.db.queries import fetch_rows_of_study
 from app.services.study.errors import FieldInputError, length_problem
 from app.services.study.tree import NotFoundError, get_study
 
+# Any in this module: validated form values become model fields by name (the form boundary).
+
 Saved = TypeVar("Saved", SessionDay, Participant)
 PARTICIPANT_LIMITS = {
     field: text_limit(Participant, field) for field in ("name", "role", "discipline", "company")

@@ -18,6 +18,8 @@ from app.likelihood.frequency import compute_scenario
 from app.likelihood.numbers import format_number
 from app.likelihood.types import LikelihoodInputError, StepInput, StepKind, step_kind_words
 
+# Any in this module: both sides are study-file JSON objects (the file boundary).
+
 Row = dict[str, Any]
 MATCHING_RULE = __doc__.split("\n\n", 1)[1].strip() if __doc__ else ""
 

@@ -20,6 +20,8 @@ from app.services.record.comparison import (
 from app.services.study.errors import FieldInputError, length_problem
 from app.services.study.tree import NotFoundError, get_study
 
+# Any in this module: a revision's snapshot is a study file's JSON (the file boundary).
+
 LIVE = "live"
 LIMITS = {field: text_limit(Revision, field) for field in ("label", "note", "signed_off_by")}
 

@@ -17,6 +17,8 @@ from app.services.study.errors import length_problem
 from app.services.study.results import governing_category
 from app.services.study.tree import NotFoundError, StudyTree, get_study, load_study_tree
 
+# Any in this module: validated form values become model fields by name (the form boundary).
+
 NAME_LIMIT = text_limit(SeverityCategory, "name")
 DESCRIPTION_LIMIT = text_limit(SeverityCategory, "description")
 BASIS_LIMIT = text_limit(Study, "criteria_basis")

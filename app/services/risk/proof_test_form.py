@@ -9,6 +9,8 @@ from app.likelihood.proof_test import Architecture, SifInputs
 from app.likelihood.sil import HOURS_PER_YEAR
 from app.likelihood.types import LikelihoodInputError, input_error
 
+# Any in this module: form readers take raw form values (the form boundary).
+
 INTERVAL_UNITS: dict[str, float] = {
     "hours": 1.0, "days": 24.0, "weeks": 168.0,
     "months": HOURS_PER_YEAR / 12, "years": float(HOURS_PER_YEAR),

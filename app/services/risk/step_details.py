@@ -18,6 +18,8 @@ from app.services.study.errors import length_problem
 from app.services.study.results import compute_outcome
 from app.services.study.tree import NotFoundError, WorksheetSpot, get_study
 
+# Any in this module: form readers take raw form values (the form boundary).
+
 IPL_TYPE_LABELS: dict[IplType, str] = {
     IplType.BPCS: "BPCS loop (basic process control system)",
     IplType.SIF: "Safety instrumented function (SIF)",

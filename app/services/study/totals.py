@@ -23,6 +23,8 @@ from app.likelihood.types import ScenarioResult
 from app.services.study.listing import NodeTotals, totals_of_results
 from app.services.study.results import governing_category, result_of_rows
 
+# Any in this module: plain result rows from SQLAlchemy carry no column types (the ORM boundary).
+
 NO_SCENARIOS = totals_of_results([])
 
 

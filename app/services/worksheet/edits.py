@@ -28,6 +28,9 @@ from app.services.worksheet.structure import (
     update_row,
 )
 
+# Any in this module: a row is one of five table models and form changes are raw values (both
+# boundaries).
+
 FIELD_PREFIX = {"node": "node", "deviation": "dev", "scenario": "sc", "step": "step",
                 "safeguard": "sg"}
 SAVED = "saved"

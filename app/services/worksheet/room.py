@@ -24,6 +24,8 @@ from app.db.queries import fetch_first_scenario_id, fetch_scenario_count
 from app.services.study.tree import NotFoundError, get_study
 from app.services.worksheet.page import ScenarioView, located_scenario
 
+# Any in this module: the stamp query mixes columns of seven table models (the ORM boundary).
+
 WATCHED = (Node, Deviation, Scenario, Step, Safeguard, SeverityCategory, Recommendation)
 
 

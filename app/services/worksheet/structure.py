@@ -16,6 +16,9 @@ from app.likelihood.types import LikelihoodInputError, StepKind
 from app.services.study.errors import FieldInputError, length_problem
 from app.services.study.tree import NotFoundError, get_study
 
+# Any in this module: a worksheet row is one of five table models, chosen at run time by its kind
+# name, and form values are raw text until read here (both boundaries).
+
 # A new step counts as 1: no credit for a layer, one event a year for a cause, until the team
 # agrees a number. Never a guess that would lower the frequency.
 NEW_STEP_VALUE_TEXT = "1"

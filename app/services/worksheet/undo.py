@@ -16,6 +16,9 @@ from app.likelihood.types import StepKind
 from app.services.study.tree import NotFoundError, get_study
 from app.services.worksheet.structure import KINDS, StructureInputError, get_row, kind_of
 
+# Any in this module: a removed subtree mixes five table models and is stored as JSON (both
+# boundaries).
+
 CHILDREN: dict[str, tuple[tuple[str, str], ...]] = {
     "node": (("deviation", "node_id"),),
     "deviation": (("scenario", "deviation_id"),),
