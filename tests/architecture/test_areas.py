@@ -74,7 +74,7 @@ def test_every_named_exception_is_still_used() -> None:
 
 def test_a_cross_area_import_is_caught(tmp_path: Path) -> None:
     probe = tmp_path / "probe.py"
-    probe.write_text("from app.services.record.actions import create_action\n")
+    probe.write_text("from app.services.record.actions import add_action\n")
     assert area_of("app.services.record.actions") == "record"
     assert imported_modules(probe) == {"app.services.record.actions",
-                                       "app.services.record.actions.create_action"}
+                                       "app.services.record.actions.add_action"}

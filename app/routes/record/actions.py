@@ -88,7 +88,7 @@ def create_action(
     """Add an open recommendation."""
     values = {"text": text, "owner": owner, "due_date": due_date, "expected_rrf": expected_rrf}
     try:
-        action_service.create_action(session=session, study_id=study_id, text=text, owner=owner,
+        action_service.add_action(session=session, study_id=study_id, text=text, owner=owner,
                                      due_date=due_date, expected_rrf=expected_rrf)
     except ActionInputError as error:
         return _refused(request, session, study_id, view, error, None, values)
@@ -114,7 +114,7 @@ def update_action(
     values = {"text": text, "owner": owner, "due_date": due_date, "status": status,
               "status_reason": status_reason, "expected_rrf": expected_rrf}
     try:
-        action_service.update_action(session=session, action_id=action_id, changes=values,
+        action_service.save_action(session=session, action_id=action_id, changes=values,
                                      study_id=study_id)
     except ActionInputError as error:
         return _refused(request, session, study_id, view, error, action_id, values)
@@ -129,7 +129,7 @@ def move_action(
     """Move an action up or down the team order; the page answers in team order, on that row."""
     team = replace(view, order=ActionOrder.TEAM)
     try:
-        action_service.move_action(session=session, action_id=action_id, study_id=study_id,
+        action_service.shift_action(session=session, action_id=action_id, study_id=study_id,
                                    direction=direction)
     except ActionInputError as error:
         return _refused(request, session, study_id, team, error, None, {"direction": direction})
@@ -151,7 +151,7 @@ def delete_action(
     request: Request, study_id: int, action_id: int, session: SessionDep, view: ViewDep
 ) -> Response:
     """Delete an action and its links."""
-    action_service.delete_action(session=session, action_id=action_id, study_id=study_id)
+    action_service.remove_action(session=session, action_id=action_id, study_id=study_id)
     return _done(request, session, study_id, view)
 
 

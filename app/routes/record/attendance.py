@@ -115,7 +115,7 @@ def update_participant(request: Request, study_id: int, participant_id: int,
     """Save an edited participant."""
     values = {"name": name, "role": role, "discipline": discipline, "company": company}
     try:
-        attendance_service.update_participant(session=session, study_id=study_id,
+        attendance_service.save_participant(session=session, study_id=study_id,
                                               participant_id=participant_id, values=values)
     except AttendanceInputError as error:
         return _refused(request, session, study_id, "participant", participant_id, values, error)
@@ -127,7 +127,7 @@ def update_participant(request: Request, study_id: int, participant_id: int,
 def delete_participant(request: Request, study_id: int, participant_id: int,
                        session: SessionDep) -> Response:
     """Delete a participant and their attendance marks."""
-    attendance_service.delete_participant(session=session, study_id=study_id,
+    attendance_service.remove_participant(session=session, study_id=study_id,
                                           participant_id=participant_id)
     return _done(request, session, study_id)
 
@@ -137,7 +137,7 @@ def save_attendance(request: Request, study_id: int, session: SessionDep,
                     present: Marks = []) -> Response:  # noqa: B006 (FastAPI copies defaults)
     """Make attendance exactly the ticked boxes (the matrix form without JavaScript)."""
     try:
-        attendance_service.save_attendance(session=session, study_id=study_id, typed=present)
+        attendance_service.record_attendance(session=session, study_id=study_id, typed=present)
     except AttendanceInputError as error:
         return _refused(request, session, study_id, "matrix", None, {}, error)
     return _done(request, session, study_id)

@@ -27,7 +27,7 @@ def read_criteria(request: Request, study_id: int, session: SessionDep) -> Respo
 async def update_criteria_basis(request: Request, study_id: int, session: SessionDep) -> Response:
     """Say where the study's criteria come from."""
     text = str((await request.form()).get("criteria_basis", ""))
-    page = service.update_criteria_basis(session=session, study_id=study_id, text=text)
+    page = service.save_criteria_basis(session=session, study_id=study_id, text=text)
     return _answer(request, page)
 
 
@@ -35,7 +35,7 @@ async def update_criteria_basis(request: Request, study_id: int, session: Sessio
 async def create_category(request: Request, study_id: int, session: SessionDep) -> Response:
     """Add a severity category."""
     form = service.CategoryForm.from_mapping(await request.form())
-    return _answer(request, service.create_category(session=session, study_id=study_id,
+    return _answer(request, service.add_category(session=session, study_id=study_id,
                                                     form=form))
 
 
@@ -45,7 +45,7 @@ async def update_category(
 ) -> Response:
     """Change a category and re-evaluate every scenario rated with it."""
     form = service.CategoryForm.from_mapping(await request.form())
-    page = service.update_category(session=session, study_id=study_id,
+    page = service.save_category(session=session, study_id=study_id,
                                    category_id=category_id, form=form)
     return _answer(request, page)
 
@@ -56,5 +56,5 @@ def delete_category(
     request: Request, study_id: int, category_id: int, session: SessionDep
 ) -> Response:
     """Delete a category no scenario is rated with; otherwise refuse with the reason."""
-    page = service.delete_category(session=session, study_id=study_id, category_id=category_id)
+    page = service.remove_category(session=session, study_id=study_id, category_id=category_id)
     return _answer(request, page)

@@ -27,7 +27,7 @@ async def update_step_details(
 ) -> Response:
     """Save the step's details; invalid fields answer 422 with the typed text kept."""
     form = service.StepDetailsForm.from_mapping(await request.form())
-    page = service.update_step_details(
+    page = service.save_step_details(
         session=session, study_id=study_id, step_id=step_id, form=form
     )
     block = "details" if is_htmx(request) else None

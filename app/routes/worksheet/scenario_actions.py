@@ -10,7 +10,7 @@ from app.routes.rendering import is_htmx
 from app.routes.urls import worksheet_url
 from app.routes.worksheet.page import render_worksheet
 from app.services.record.action_inputs import ActionInputError
-from app.services.record.actions import create_action
+from app.services.record.actions import add_action
 from app.services.worksheet.structure import get_row, kind_of, node_id_of
 
 router = APIRouter(prefix="/studies/{study_id}")
@@ -27,7 +27,7 @@ def create_scenario_recommendation(
     node_id = node_id_of(session, "scenario", scenario)
     focus = f"add-rec-{scenario_id}"
     try:
-        create_action(session=session, study_id=study_id, text=text, scenario_ids=[scenario_id])
+        add_action(session=session, study_id=study_id, text=text, scenario_ids=[scenario_id])
     except ActionInputError as err:
         block = "worksheet" if is_htmx(request) else None
         return render_worksheet(request, session, study_id, node_id, block=block,

@@ -50,10 +50,10 @@ def _size(count: int) -> str:
 
 def import_study_text(session: Session, raw: str | bytes) -> Study:
     """Validate and import a JSON study file; nothing is written when it is invalid."""
-    return import_study(session, parse_study_file(raw))
+    return import_study_file(session, parse_study_file(raw))
 
 
-def import_study(session: Session, data: StudyFile) -> Study:
+def import_study_file(session: Session, data: StudyFile) -> Study:
     """Write a whole study from a validated file and commit once; on any failure write nothing."""
     session.info[SUPPRESS_LOG_KEY] = True
     try:

@@ -50,7 +50,7 @@ def _scenario_of_study(session: Session, study_id: int, scenario_id: int) -> Sce
     return scenario
 
 
-def create_action(
+def add_action(
     *, session: Session, study_id: int, text: str, owner: str = "", due_date: Any = None,
     scenario_ids: Iterable[int] = (), expected_rrf: Any = None,
 ) -> Recommendation:
@@ -79,7 +79,7 @@ def _next_position(session: Session, study_id: int) -> int:
     return max(positions, default=-1) + 1
 
 
-def update_action(
+def save_action(
     *, session: Session, action_id: int, changes: Mapping[str, Any],
     study_id: int | None = None,
 ) -> Recommendation:
@@ -95,7 +95,7 @@ def update_action(
     return action
 
 
-def delete_action(*, session: Session, action_id: int, study_id: int | None = None) -> None:
+def remove_action(*, session: Session, action_id: int, study_id: int | None = None) -> None:
     """Delete a recommendation and its links to scenarios."""
     action = get_action(session=session, action_id=action_id, study_id=study_id)
     for link in _links(session, [action_id]):
@@ -105,7 +105,7 @@ def delete_action(*, session: Session, action_id: int, study_id: int | None = No
     session.commit()
 
 
-def move_action(
+def shift_action(
     *, session: Session, action_id: int, study_id: int, direction: str
 ) -> Recommendation:
     """Swap the action with its neighbour in the team order ('up' or 'down'); ends stay put."""

@@ -130,7 +130,7 @@ def add_participant(*, session: Session, study_id: int, values: dict[str, str]) 
     return _save(session, Participant(study_id=study_id, **fields))
 
 
-def update_participant(
+def save_participant(
     *, session: Session, study_id: int, participant_id: int, values: dict[str, str]
 ) -> Participant:
     """Change a participant's name, role, discipline or company."""
@@ -139,7 +139,7 @@ def update_participant(
     return _save(session, row)
 
 
-def delete_participant(*, session: Session, study_id: int, participant_id: int) -> None:
+def remove_participant(*, session: Session, study_id: int, participant_id: int) -> None:
     """Delete a participant and their attendance."""
     row = _row(session, Participant, participant_id, study_id, "participant")
     _delete_with_marks(session, row, col(Attendance.participant_id) == participant_id)
@@ -170,7 +170,7 @@ def read_marks(typed: list[str]) -> set[tuple[int, int]]:
     return marks
 
 
-def save_attendance(*, session: Session, study_id: int, typed: list[str]) -> None:
+def record_attendance(*, session: Session, study_id: int, typed: list[str]) -> None:
     """Make the study's attendance exactly the ticked marks (the form without JavaScript)."""
     page = read_attendance_page(session=session, study_id=study_id)
     wanted = read_marks(typed)

@@ -181,7 +181,7 @@ def _short_and_governed(tree: StudyTree, category_id: int) -> tuple[list[bool], 
     return short, governed
 
 
-def update_category(*, session: Session, study_id: int, category_id: int,
+def save_category(*, session: Session, study_id: int, category_id: int,
                     form: CategoryForm) -> CriteriaPage:
     """Save one category and re-evaluate the scenarios rated with it; errors save nothing."""
     row = _get_category(session, study_id, category_id)
@@ -206,7 +206,7 @@ def _next_category_position(session: Session, study_id: int) -> int:
     return (session.exec(statement).one() or 0) + 1
 
 
-def create_category(*, session: Session, study_id: int, form: CategoryForm) -> CriteriaPage:
+def add_category(*, session: Session, study_id: int, form: CategoryForm) -> CriteriaPage:
     """Add a category at the end; errors save nothing and keep the typed text."""
     get_study(session, study_id)
     values, errors = validate_category(form)
@@ -228,7 +228,7 @@ def scenarios_rated_with(category_id: int) -> SelectOfScalar[int]:
     ))
 
 
-def delete_category(*, session: Session, study_id: int, category_id: int) -> CriteriaPage:
+def remove_category(*, session: Session, study_id: int, category_id: int) -> CriteriaPage:
     """Delete a category no scenario uses; otherwise refuse and say why."""
     row = _get_category(session, study_id, category_id)
     used = session.exec(scenarios_rated_with(category_id)).one()
@@ -243,7 +243,7 @@ def delete_category(*, session: Session, study_id: int, category_id: int) -> Cri
     return _criteria_page(session, study_id, message=f"'{name}' deleted.")
 
 
-def update_criteria_basis(*, session: Session, study_id: int, text: str) -> CriteriaPage:
+def save_criteria_basis(*, session: Session, study_id: int, text: str) -> CriteriaPage:
     """Say where the criteria come from; errors save nothing and keep the typed text."""
     study = get_study(session, study_id)
     typed = text.strip()

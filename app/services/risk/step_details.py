@@ -211,7 +211,7 @@ def _readers(kind: StepKind) -> dict[str, Any]:
     return readers
 
 
-def update_step_details(*, session: Session, study_id: int, step_id: int,
+def save_step_details(*, session: Session, study_id: int, step_id: int,
                         form: StepDetailsForm) -> StepDetailsPage:
     """Save the details if every field is valid; otherwise save nothing, errors at the fields."""
     place = locate_step(session, study_id, step_id)

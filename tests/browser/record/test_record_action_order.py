@@ -6,7 +6,7 @@ from playwright.sync_api import Page, expect
 from sqlmodel import Session, col, select
 
 from app.db.models import Recommendation
-from app.services.record.actions import create_action
+from app.services.record.actions import add_action
 from tests.factories import make_scenario_tree
 
 
@@ -22,7 +22,7 @@ def test_alt_arrows_move_the_focused_row_through_the_team_order(
 ) -> None:
     study_id = make_scenario_tree(session).study_id
     first, second, third = (
-        create_action(session=session, study_id=study_id, text=text).id
+        add_action(session=session, study_id=study_id, text=text).id
         for text in ("Fit a high-level trip", "Add a bund alarm", "Retrain operators")
     )
     page.goto(f"{live_server}/studies/{study_id}/actions?order=team")

@@ -6,13 +6,13 @@ from playwright.sync_api import Page, expect
 from sqlmodel import Session
 
 from app.db.models import Study
-from app.services.record.actions import create_action
+from app.services.record.actions import add_action
 
 
 def test_an_edit_appears_in_the_change_log_under_the_masthead_name(
     page: Page, live_server: str, demo_study: Study, session: Session, artifacts: Path
 ) -> None:
-    create_action(session=session, study_id=demo_study.id, text="Check the relief valve sizing",
+    add_action(session=session, study_id=demo_study.id, text="Check the relief valve sizing",
                   owner="A. Okafor")
     page.goto(f"{live_server}/studies/{demo_study.id}/actions")
     page.get_by_label("Name for the change log").fill("Wren Halvorsen-Pike")

@@ -11,7 +11,7 @@ from sqlmodel import Session, col, select
 
 from app.db.models import ChangeLogEntry, Deviation, Recommendation, Scenario
 from app.routes.record.actions import today
-from app.services.record.actions import create_action, move_action
+from app.services.record.actions import add_action, shift_action
 from tests.factories import make_scenario_tree
 from tests.helpers import HX, table_rows
 
@@ -36,7 +36,7 @@ def scenario(session: Session) -> Scenario:
 def actions(session: Session, scenario: Scenario) -> list[Recommendation]:
     """Three actions added in the order A, B, C; their due dates run the other way."""
     return [
-        create_action(session=session, study_id=scenario.study_id, text=text, due_date=due,
+        add_action(session=session, study_id=scenario.study_id, text=text, due_date=due,
                       scenario_ids=[scenario.id])
         for text, due in [("A: fit a high-level trip", "2027-03-01"),
                           ("B: add a bund alarm", "2027-02-01"),
@@ -219,6 +219,6 @@ def test_tied_positions_are_renumbered_so_the_move_still_happens(
         action.position = 0
         session.add(action)
     session.commit()
-    move_action(session=session, action_id=actions[0].id, study_id=actions[0].study_id,
+    shift_action(session=session, action_id=actions[0].id, study_id=actions[0].study_id,
                 direction="down")
     assert _team_order(session, actions[0].study_id) == ["B", "A", "C"]

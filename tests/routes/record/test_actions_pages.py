@@ -9,7 +9,7 @@ from sqlmodel import Session, select
 
 from app.db.models import ActionStatus, Recommendation, RecommendationScenario, Scenario
 from app.routes.record.actions import today
-from app.services.record.actions import create_action
+from app.services.record.actions import add_action
 from tests.factories import make_scenario_tree, make_step
 from tests.helpers import HX, table_rows
 
@@ -39,10 +39,10 @@ def test_actions_are_listed_by_due_date_with_overdue_ones_labelled(
     client: TestClient, session: Session, fixed_day: date
 ) -> None:
     study_id = make_scenario_tree(session).study_id
-    create_action(session=session, study_id=study_id, text="Undated check")
-    create_action(session=session, study_id=study_id, text="Late trip", due_date="2026-11-30",
+    add_action(session=session, study_id=study_id, text="Undated check")
+    add_action(session=session, study_id=study_id, text="Late trip", due_date="2026-11-30",
                   owner="D. Achterberg")
-    create_action(session=session, study_id=study_id, text="Future gauge", due_date="2027-01-15")
+    add_action(session=session, study_id=study_id, text="Future gauge", due_date="2027-01-15")
     rows = _rows(client.get(f"/studies/{study_id}/actions").text)
     assert [(r["Due"], r["Action"], r["Owner"], r["Status"]) for r in rows] == [
         ("2026-11-30 ⚠ Overdue", "Late trip", "D. Achterberg", "Open"),
@@ -55,9 +55,9 @@ def test_the_expected_rrf_is_judged_against_each_addressed_scenarios_gap(
     client: TestClient, session: Session, fixed_day: date
 ) -> None:
     scenario = _scenario_short_by_two_orders(session)
-    create_action(session=session, study_id=scenario.study_id, text="Add a SIL 2 trip",
+    add_action(session=session, study_id=scenario.study_id, text="Add a SIL 2 trip",
                   expected_rrf=300, scenario_ids=[scenario.id])
-    create_action(session=session, study_id=scenario.study_id, text="Add a BPCS alarm",
+    add_action(session=session, study_id=scenario.study_id, text="Add a BPCS alarm",
                   expected_rrf=10, scenario_ids=[scenario.id])
     rows = _rows(client.get(f"/studies/{scenario.study_id}/actions").text)
     by_text = {r["Action"]: r for r in rows}
@@ -107,7 +107,7 @@ def test_rejecting_without_a_reason_is_refused_and_with_one_is_saved(
     client: TestClient, session: Session
 ) -> None:
     study_id = make_scenario_tree(session).study_id
-    action = create_action(session=session, study_id=study_id, text="Add a trip")
+    action = add_action(session=session, study_id=study_id, text="Add a trip")
     form = {"text": "Add a trip", "status": "rejected", "status_reason": ""}
     refused = client.post(f"/studies/{study_id}/actions/{action.id}", data=form, headers=HX)
     assert refused.status_code == 422
@@ -124,7 +124,7 @@ def test_rejecting_without_a_reason_is_refused_and_with_one_is_saved(
 
 def test_an_unknown_status_is_refused(client: TestClient, session: Session) -> None:
     study_id = make_scenario_tree(session).study_id
-    action = create_action(session=session, study_id=study_id, text="Add a trip")
+    action = add_action(session=session, study_id=study_id, text="Add a trip")
     response = client.post(f"/studies/{study_id}/actions/{action.id}", headers=HX,
                            data={"text": "Add a trip", "status": "parked"})
     assert response.status_code == 422
@@ -135,7 +135,7 @@ def test_the_edit_form_opens_in_place_and_escape_returns_the_list(
     client: TestClient, session: Session
 ) -> None:
     study_id = make_scenario_tree(session).study_id
-    action = create_action(session=session, study_id=study_id, text="Add a trip")
+    action = add_action(session=session, study_id=study_id, text="Add a trip")
     fragment = client.get(f"/studies/{study_id}/actions/{action.id}/edit", headers=HX).text
     assert fragment.lstrip().startswith('<section class="panel record" id="actions-section"')
     assert 'id="edit-action-text"' in fragment and "autofocus" in fragment
@@ -147,7 +147,7 @@ def test_the_edit_form_opens_in_place_and_escape_returns_the_list(
 
 def test_delete_asks_first_then_deletes(client: TestClient, session: Session) -> None:
     study_id = make_scenario_tree(session).study_id
-    action = create_action(session=session, study_id=study_id, text="Add a trip")
+    action = add_action(session=session, study_id=study_id, text="Add a trip")
     page = client.get(f"/studies/{study_id}/actions").text
     assert 'hx-confirm="Delete the action &quot;Add a trip&quot;?"' in page
     confirm = client.get(f"/studies/{study_id}/actions/{action.id}/delete")
@@ -163,7 +163,7 @@ def test_scenarios_are_linked_and_unlinked_from_the_row(
     client: TestClient, session: Session
 ) -> None:
     scenario = make_scenario_tree(session)
-    action = create_action(session=session, study_id=scenario.study_id, text="Add a trip")
+    action = add_action(session=session, study_id=scenario.study_id, text="Add a trip")
     base = f"/studies/{scenario.study_id}/actions/{action.id}/scenarios"
     client.post(base, data={"scenario_id": str(scenario.id)})
     assert session.exec(select(RecommendationScenario)).all() == [
@@ -178,7 +178,7 @@ def test_linking_nothing_or_a_foreign_scenario_is_refused(
     client: TestClient, session: Session, typed: str, message: str
 ) -> None:
     scenario = make_scenario_tree(session)
-    action = create_action(session=session, study_id=scenario.study_id, text="Add a trip")
+    action = add_action(session=session, study_id=scenario.study_id, text="Add a trip")
     response = client.post(f"/studies/{scenario.study_id}/actions/{action.id}/scenarios",
                            data={"scenario_id": typed}, headers=HX)
     assert response.status_code == 422
@@ -188,6 +188,6 @@ def test_linking_nothing_or_a_foreign_scenario_is_refused(
 def test_an_action_of_another_study_is_a_404(client: TestClient, session: Session) -> None:
     first = make_scenario_tree(session).study_id
     other = make_scenario_tree(session).study_id
-    action = create_action(session=session, study_id=other, text="Elsewhere")
+    action = add_action(session=session, study_id=other, text="Elsewhere")
     assert client.get(f"/studies/{first}/actions/{action.id}/edit").status_code == 404
     assert client.post(f"/studies/{first}/actions/{action.id}/delete").status_code == 404

@@ -20,7 +20,7 @@ from app.db.models import (
     Study,
 )
 from app.likelihood.types import StepKind
-from app.services.record.actions import create_action
+from app.services.record.actions import add_action
 from tests.factories import (
     make_category,
     make_deviation,
@@ -311,7 +311,7 @@ def test_deleting_a_scenario_and_undoing_it_brings_everything_back(
 ) -> None:
     make_step(session, scenario, value=0.01, value_text="1 in 100", basis="Trip test")
     make_safeguard(session, scenario, description="Gauge")
-    action = create_action(session=session, study_id=scenario.study_id, text="Add a trip",
+    action = add_action(session=session, study_id=scenario.study_id, text="Add a trip",
                            scenario_ids=[scenario.id or 0])
     study_id, cause, category = scenario.study_id, scenario.cause, scenario.severity_category_id
     response = client.post(f"/studies/{study_id}/scenarios/{scenario.id}/delete", headers=HX)

@@ -9,12 +9,12 @@ from app.db.models import ActionStatus, ChangeLogEntry, RecommendationScenario, 
 from app.services.record.actions import (
     ActionInputError,
     actions_of_scenario,
-    create_action,
-    delete_action,
+    add_action,
     link_scenario,
     list_actions,
+    remove_action,
+    save_action,
     unlink_scenario,
-    update_action,
 )
 from app.services.study.tree import NotFoundError
 from tests.factories import make_deviation, make_node, make_scenario, make_scenario_tree
@@ -24,7 +24,7 @@ TODAY = date(2026, 12, 1)
 
 def test_an_action_is_created_open_and_linked_to_its_scenarios(session: Session) -> None:
     scenario = make_scenario_tree(session)
-    action = create_action(session=session, study_id=scenario.study_id, text=" Add a trip ",
+    action = add_action(session=session, study_id=scenario.study_id, text=" Add a trip ",
                            owner="D. Achterberg", due_date="2027-03-31",
                            scenario_ids=[scenario.id], expected_rrf="1,000")
     assert (action.text, action.status, action.due_date, action.expected_rrf) == (
@@ -53,9 +53,9 @@ def test_bad_changes_are_refused_naming_the_rule_and_nothing_is_saved(
     session: Session, changes: dict, field: str, rule: str  # type: ignore[type-arg]
 ) -> None:
     scenario = make_scenario_tree(session)
-    action = create_action(session=session, study_id=scenario.study_id, text="Add a trip")
+    action = add_action(session=session, study_id=scenario.study_id, text="Add a trip")
     with pytest.raises(ActionInputError) as raised:
-        update_action(session=session, action_id=action.id, changes=changes)
+        save_action(session=session, action_id=action.id, changes=changes)
     assert raised.value.field == field
     assert rule in raised.value.message
     session.refresh(action)
@@ -64,8 +64,8 @@ def test_bad_changes_are_refused_naming_the_rule_and_nothing_is_saved(
 
 def test_a_rejected_action_with_a_reason_is_saved(session: Session) -> None:
     scenario = make_scenario_tree(session)
-    action = create_action(session=session, study_id=scenario.study_id, text="Add a trip")
-    update_action(session=session, action_id=action.id,
+    action = add_action(session=session, study_id=scenario.study_id, text="Add a trip")
+    save_action(session=session, action_id=action.id,
                   changes={"status": "rejected", "status_reason": "Relief valve is enough"})
     assert (action.status, action.status_reason) == (ActionStatus.REJECTED,
                                                      "Relief valve is enough")
@@ -83,8 +83,8 @@ def test_the_list_is_sorted_by_due_date_with_undated_last_and_overdue_marked(
         ("late, in progress", "2026-11-01", "in_progress"),
         ("late but rejected", "2026-09-01", "rejected"),
     ]:
-        action = create_action(session=session, study_id=study_id, text=text, due_date=due)
-        update_action(session=session, action_id=action.id,
+        action = add_action(session=session, study_id=study_id, text=text, due_date=due)
+        save_action(session=session, action_id=action.id,
                       changes={"status": status, "status_reason": "not needed"})
     listed = list_actions(session=session, study_id=study_id, today=TODAY)
     assert [(e.action.text, e.overdue) for e in listed.entries] == [
@@ -101,7 +101,7 @@ def test_the_list_is_sorted_by_due_date_with_undated_last_and_overdue_marked(
 def test_links_are_logged_and_refuse_a_scenario_of_another_study(session: Session) -> None:
     scenario = make_scenario_tree(session)
     other = make_scenario_tree(session)
-    action = create_action(session=session, study_id=scenario.study_id, text="Add a trip")
+    action = add_action(session=session, study_id=scenario.study_id, text="Add a trip")
     link_scenario(session=session, action_id=action.id, scenario_id=scenario.id)
     link_scenario(session=session, action_id=action.id, scenario_id=scenario.id)
     with pytest.raises(ActionInputError, match="not in this study"):
@@ -119,9 +119,9 @@ def test_deleting_an_action_removes_its_links(session: Session) -> None:
     scenario = make_scenario_tree(session)
     study = session.get(Study, scenario.study_id)
     second = make_scenario(session, make_deviation(session, make_node(session, study)))
-    action = create_action(session=session, study_id=scenario.study_id, text="Add a trip",
+    action = add_action(session=session, study_id=scenario.study_id, text="Add a trip",
                            scenario_ids=[scenario.id, second.id])
-    delete_action(session=session, action_id=action.id)
+    remove_action(session=session, action_id=action.id)
     assert session.exec(select(RecommendationScenario)).all() == []
     with pytest.raises(NotFoundError):
-        delete_action(session=session, action_id=action.id)
+        remove_action(session=session, action_id=action.id)
