@@ -77,7 +77,9 @@ def _check(agreement: Agreement) -> None:
         )
     for dissent in agreement.dissents:
         if not dissent.person.strip():
-            raise input_error("dissent_person", "a dissent needs the person's name.", label="Dissent")
+            raise input_error(
+                "dissent_person", "a dissent needs the person's name.", label="Dissent"
+            )
 
 
 def _range_words(stats: RoundStats) -> str:
@@ -93,7 +95,8 @@ def _method_words(agreement: Agreement, value: float) -> str:
         return f"geometric mean {format_number(value)}"
     if agreement.method == AgreementMethod.MEDIAN:
         return f"median {format_number(value)}"
-    return f"typed value {format_number(value)} (geometric mean {format_number(stats.geometric_mean)})"
+    pooled = format_number(stats.geometric_mean)
+    return f"typed value {format_number(value)} (geometric mean {pooled})"
 
 
 def _dissent_words(dissent: Dissent) -> str:

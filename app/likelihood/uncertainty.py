@@ -34,7 +34,9 @@ class ErrorFactorSource(StrEnum):
 ERROR_FACTOR_SOURCE_LABELS: dict[ErrorFactorSource, str] = {
     ErrorFactorSource.TYPED: "typed by the team",
     ErrorFactorSource.ESTIMATE_ROUND: "spread of the last estimate round",
-    ErrorFactorSource.TYPICAL_RANGE: "range of the typical-value row, read as 5th to 95th percentile",
+    ErrorFactorSource.TYPICAL_RANGE: (
+        "range of the typical-value row, read as 5th to 95th percentile"
+    ),
     ErrorFactorSource.STUDY_DEFAULT: "the study's default for this kind of step",
     ErrorFactorSource.NONE: "none: the value is taken as exact",
 }
@@ -147,7 +149,9 @@ class VerdictConfidence(StrEnum):
 
 VERDICT_CONFIDENCE_LABELS: dict[VerdictConfidence, str] = {
     VerdictConfidence.MEETS: "meets the target with at least 95 % probability",
-    VerdictConfidence.UNCERTAIN: "uncertain: between 5 % and 95 % probability of meeting the target",
+    VerdictConfidence.UNCERTAIN: (
+        "uncertain: between 5 % and 95 % probability of meeting the target"
+    ),
     VerdictConfidence.MISSES: "misses the target with at least 95 % probability",
 }
 UNCERTAIN_BELOW = 0.95
@@ -205,8 +209,7 @@ def _probability_at_most(mu: float, sigma: float, tolerable: float, meets: bool)
 def _with_shares(parts: Sequence[StepSpread]) -> tuple[StepSpread, ...]:
     total = math.fsum(part.sigma**2 for part in parts)
     return tuple(
-        replace(part, variance_share=part.sigma**2 / total if total > 0 else 0.0)
-        for part in parts
+        replace(part, variance_share=part.sigma**2 / total if total > 0 else 0.0) for part in parts
     )
 
 
@@ -244,7 +247,8 @@ def scenario_distribution(
     """
     result = compute_scenario([item.step for item in steps], tolerable_frequency)
     counted = [item for item in steps if item.step.credited or item.step.kind != StepKind.IPL]
-    mu = math.fsum(math.log(item.step.value) for item in counted)  # no underflow, unlike the product
+    # Summed logs: no underflow, unlike the product of the medians.
+    mu = math.fsum(math.log(item.step.value) for item in counted)
     parts = [_spread_of(item) for item in counted]
     return _distribution(
         result.mitigated_frequency, mu, parts, result.tolerable_frequency, result.meets_target

@@ -88,7 +88,8 @@ def _check_word(word: str, unit: EstimateUnit, seen: set[str]) -> None:
         raise input_error("word_required", "an adopted word must not be empty.", label="Word scale")
     if said in seen:
         raise input_error(
-            "word_unique", f"'{word}' is adopted twice (case and spaces ignored).",
+            "word_unique",
+            f"'{word}' is adopted twice (case and spaces ignored).",
             label="Word scale",
         )
     if re.search(r"\d", said) or _reads_as_number(said, unit):
