@@ -114,7 +114,7 @@ def test_the_axis_covers_the_estimates_in_whole_decades(values, unit, axis):
 def test_positions_on_the_axis_are_log_scaled_by_hand():
     figures = round_stats([1e-3, 1e-2, 1e-1, 3e-2], PER_YEAR)
     assert figures.axis == LogAxis(-3, -1)
-    # By hand: (log10(3e-2) - (-3)) / 2 = (−1.522879 + 3) / 2 = 0.738561
+    # By hand: (log10(3e-2) - (-3)) / 2 = (-1.522879 + 3) / 2 = 0.738561
     assert figures.positions == pytest.approx([0.0, 0.5, 1.0, 0.7385606273598312], rel=1e-12)
     assert figures.axis.ticks() == pytest.approx([1e-3, 1e-2, 1e-1])
 
