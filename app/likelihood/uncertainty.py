@@ -15,7 +15,7 @@ from enum import StrEnum
 
 from app.likelihood.frequency import compute_scenario
 from app.likelihood.types import StepInput, StepKind, input_error
-from app.likelihood.validation import at_most, validate_probability
+from app.likelihood.validation import at_least, at_most, validate_probability
 
 Z95 = statistics.NormalDist().inv_cdf(0.95)
 """The standard normal 95th percentile, 1.6448536269514722: ln(EF) = Z95 * sigma."""
@@ -159,10 +159,14 @@ UNCERTAIN_ABOVE = 0.05
 
 
 def classify_verdict(probability_meets: float) -> VerdictConfidence:
-    """Uncertain when 5 % < P(meets) < 95 %; the edges themselves count as sure."""
-    if probability_meets >= UNCERTAIN_BELOW:
+    """Uncertain when 5 % < P(meets) < 95 %; the edges themselves count as sure.
+
+    The edges get the band tolerance: a target exactly at the 95th percentile computes a hair
+    below 0.95.
+    """
+    if at_least(probability_meets, UNCERTAIN_BELOW):
         return VerdictConfidence.MEETS
-    if probability_meets <= UNCERTAIN_ABOVE:
+    if at_most(probability_meets, UNCERTAIN_ABOVE):
         return VerdictConfidence.MISSES
     return VerdictConfidence.UNCERTAIN
 
