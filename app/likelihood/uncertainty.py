@@ -80,6 +80,13 @@ def error_factor_from_estimates(estimates: Sequence[float]) -> float | None:
 
     None for fewer than two estimates or identical ones: no spread to read.
     """
+    for number, value in enumerate(estimates, start=1):
+        if not (math.isfinite(value) and value > 0):
+            raise input_error(
+                "estimate_positive",
+                f"an estimate must be a finite number above 0 (got {value:g}).",
+                label=f"Estimate {number}",
+            )
     if len(estimates) < 2 or min(estimates) == max(estimates):
         return None
     return error_factor_from_sigma(statistics.stdev(math.log(value) for value in estimates))

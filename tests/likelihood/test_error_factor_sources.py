@@ -44,6 +44,15 @@ def test_a_round_without_spread_gives_no_error_factor(estimates):
     assert error_factor_from_estimates(estimates) is None
 
 
+def test_a_round_with_a_value_that_is_not_positive_is_refused():
+    with pytest.raises(LikelihoodInputError) as raised:
+        choose_error_factor(kind=IE, last_round=[1e-3, 0.0])
+    assert (raised.value.rule, raised.value.message) == (
+        "estimate_positive",
+        "Estimate 2: an estimate must be a finite number above 0 (got 0).",
+    )
+
+
 def test_a_range_read_as_5th_to_95th_percentile_by_hand():
     # By hand: sqrt(1 / 1e-2) = 10; sqrt(1e-1 / 1e-5) = 100.
     assert error_factor_from_range(1e-2, 1.0) == pytest.approx(10.0, rel=1e-15)
