@@ -56,6 +56,8 @@ class LogAxis:
 
     def position(self, value: float) -> float:
         """Where a positive value sits on the axis, 0 at the low end and 1 at the high end."""
+        if not value > 0:
+            return 0.0
         span = self.high_decade - self.low_decade
         where = (math.log10(value) - self.low_decade) / span
         return min(1.0, max(0.0, where))
@@ -87,7 +89,8 @@ def log_axis_for(values: Sequence[float], unit: EstimateUnit) -> LogAxis:
 
     A probability axis never goes above 10**0 = 1: it grows downwards instead.
     """
-    low, high = _decade_floor(min(values)), _decade_ceiling(max(values))
+    checked = _validated(values, unit)
+    low, high = _decade_floor(min(checked)), _decade_ceiling(max(checked))
     if low == high:
         low, high = low - 1, high + 1
     if unit == EstimateUnit.PROBABILITY and high > 0:

@@ -121,7 +121,13 @@ def test_positions_on_the_axis_are_log_scaled_by_hand():
 
 def test_a_value_off_the_axis_is_drawn_at_its_end():
     axis = LogAxis(-3, -1)
-    assert (axis.position(1e-5), axis.position(1.0)) == (0.0, 1.0)
+    assert (axis.position(1e-5), axis.position(1.0), axis.position(0.0)) == (0.0, 1.0, 0.0)
+
+
+def test_an_axis_for_no_values_is_refused():
+    with pytest.raises(LikelihoodInputError) as raised:
+        log_axis_for([], PER_YEAR)
+    assert raised.value.rule == "estimates_required"
 
 
 @pytest.mark.parametrize(
