@@ -9,8 +9,8 @@ import math
 import re
 from dataclasses import dataclass
 
-from app.likelihood.sil import HOURS_PER_YEAR
 from app.likelihood.types import LikelihoodInputError, input_error
+from app.likelihood.units import per_year
 from app.likelihood.validation import validate_frequency, validate_probability
 
 
@@ -31,13 +31,13 @@ _DECIMAL = r"[+-]?(?:\d{1,3}(?:,\d{3})+|\d+)(?:\.\d*)?|[+-]?\.\d+"
 _POWER = r"\s*[x*]\s*10\s*\^\s*[+-]?\d+"
 _N = rf"((?:{_DECIMAL})(?:e[+-]?\d+|{_POWER})?|10\s*\^\s*[+-]?\d+|{'|'.join(_WORDS)})"
 
-# Events per unit of time, turned to events per year (a year of 8760 h, 365 d, 52 weeks).
+# Events per unit of time, turned to events per year by the spans defined once in units.py.
 _UNITS: dict[str, tuple[str, float]] = {
-    **dict.fromkeys(("years", "year", "yrs", "yr", "y", "annum"), ("year", 1.0)),
-    **dict.fromkeys(("months", "month", "mo"), ("month", 12.0)),
-    **dict.fromkeys(("weeks", "week", "wks", "wk"), ("week", 52.0)),
-    **dict.fromkeys(("days", "day", "d"), ("day", 365.0)),
-    **dict.fromkeys(("hours", "hour", "hrs", "hr", "h"), ("hour", float(HOURS_PER_YEAR))),
+    **dict.fromkeys(("years", "year", "yrs", "yr", "y", "annum"), ("year", per_year("year"))),
+    **dict.fromkeys(("months", "month", "mo"), ("month", per_year("month"))),
+    **dict.fromkeys(("weeks", "week", "wks", "wk"), ("week", per_year("week"))),
+    **dict.fromkeys(("days", "day", "d"), ("day", per_year("day"))),
+    **dict.fromkeys(("hours", "hour", "hrs", "hr", "h"), ("hour", per_year("hour"))),
 }
 _UNIT = rf"({'|'.join(sorted(_UNITS, key=len, reverse=True))})"
 _TIMES = r"(?:\s+times?)?"
@@ -80,7 +80,14 @@ def _say_rounded(x: float) -> str:
 
 def format_one_in(p: float) -> str:
     """A probability as "1 in N", N to two significant figures: 0.001 -> "1 in 1,000"."""
-    return f"1 in {_say_rounded(1 / validate_probability(p, 'Probability'))}"
+    # A computed probability may lie below the 1e-9 input floor; only (0, 1] is required here.
+    if not (math.isfinite(p) and 0 < p <= 1):
+        raise input_error(
+            "probability_range",
+            f"a probability must be above 0 and at most 1 to write as 1 in N (got {p:g}).",
+            label="Probability",
+        )
+    return f"1 in {_say_rounded(1 / p)}"
 
 
 def _normalise(text: str) -> str:

@@ -6,10 +6,8 @@ import math
 
 from app.likelihood.exact import exact_ratio, to_float
 from app.likelihood.types import DemandMode, SilStatus, SilTarget, input_error
+from app.likelihood.units import HOURS_PER_YEAR  # also re-exported: services import it from here
 from app.likelihood.validation import at_least, at_most, validate_frequency
-
-HOURS_PER_YEAR = 8760
-"""365 days of 24 hours, the year used throughout (leap days ignored)."""
 
 # IEC 61511-1:2016 (same numbers in IEC 61508-1:2010, 7.6.2): values secondary.
 SIL_PFD_RANGES: dict[int, tuple[float, float]] = {
