@@ -114,6 +114,20 @@ def _divide(numerator: str, divisor: str, label: str) -> float:
     return _number(numerator) / bottom
 
 
+# "0,001" or "0,010" read with the comma as a thousands separator would give 1 or 10: a leading
+# group of zeros, or a comma not followed by exactly three digits, is a decimal comma.
+_DECIMAL_COMMA = re.compile(r"(?<![\d.,])0+,\d|\d,(?!\d{3}(?!\d))")
+
+
+def _refuse_decimal_comma(said: str, typed: str, label: str) -> None:
+    if _DECIMAL_COMMA.search(said):
+        raise input_error(
+            "decimal_comma",
+            f"use a dot for decimals: write 0.001, not 0,001 (got '{typed}').",
+            label=label,
+        )
+
+
 def _required(label: str, forms: str) -> LikelihoodInputError:
     return input_error("required", f"a value is required: {forms}.", label=label)
 
@@ -137,7 +151,9 @@ def parse_probability(text: str, label: str = "") -> ParsedNumber:
     typed = text.strip()
     if not typed:
         raise _required(label, _PROBABILITY_FORMS)
-    value = _probability_value(_normalise(typed), label)
+    said = _normalise(typed)
+    _refuse_decimal_comma(said, typed, label)
+    value = _probability_value(said, label)
     if value is None:
         raise _not_a_number(typed, label, _PROBABILITY_FORMS)
     value = validate_probability(value, label)
@@ -183,7 +199,9 @@ def parse_frequency(text: str, label: str = "") -> ParsedNumber:
     typed = text.strip()
     if not typed:
         raise _required(label, _FREQUENCY_FORMS)
-    found = _frequency_value(_normalise(typed), label)
+    said = _normalise(typed)
+    _refuse_decimal_comma(said, typed, label)
+    found = _frequency_value(said, label)
     if found is None:
         raise _not_a_number(typed, label, _FREQUENCY_FORMS)
     value = validate_frequency(found[0], label)

@@ -50,7 +50,8 @@ def test_accepted_probability_forms(text, value, plain):
         ("", "required", f"Ignition: a value is required: {PROBABILITY_FORMS}."),
         ("   ", "required", f"Ignition: a value is required: {PROBABILITY_FORMS}."),
         ("abc", "not_a_number", f"Ignition: not a number: {PROBABILITY_FORMS} (got 'abc')."),
-        ("0,01", "not_a_number", f"Ignition: not a number: {PROBABILITY_FORMS} (got '0,01')."),
+        ("0,01", "decimal_comma",
+         "Ignition: use a dot for decimals: write 0.001, not 0,001 (got '0,01')."),
         ("1e", "not_a_number", f"Ignition: not a number: {PROBABILITY_FORMS} (got '1e')."),
         ("nan", "not_a_number", f"Ignition: not a number: {PROBABILITY_FORMS} (got 'nan')."),
         ("inf", "not_a_number", f"Ignition: not a number: {PROBABILITY_FORMS} (got 'inf')."),
@@ -215,3 +216,21 @@ def test_one_in_n_reads_back_to_two_significant_figures(p):
 @given(st.floats(min_value=1e-9, max_value=1e3))
 def test_a_frequency_written_as_its_repr_reads_back_exactly(rate):
     assert parse_frequency(repr(rate)).value == rate
+
+
+@pytest.mark.parametrize(
+    "text", ["0,001", "0,010", "0,1", "1,5", "00,001", "1,5e-3", "2,5 per year", "1 in 1,0"]
+)
+@pytest.mark.parametrize("parse", [parse_probability, parse_frequency], ids=["p", "f"])
+def test_a_decimal_comma_is_refused_not_read_as_thousands(text, parse):
+    # Issue 9, item 6: "0,001" was read as 1 and "0,010" as 10. Refused, naming the rule.
+    with pytest.raises(LikelihoodInputError) as raised:
+        parse(text, "Ignition")
+    assert raised.value.rule == "decimal_comma"
+    assert "use a dot for decimals" in raised.value.message
+
+
+@pytest.mark.parametrize(("text", "value"), [("1,000", 1000.0), ("1 in 10,000", 1e-4), ("1 in 1,000,000", 1e-6)])
+def test_thousands_separators_still_read(text, value):
+    parse = parse_frequency if value > 1 else parse_probability
+    assert parse(text).value == value
