@@ -31,26 +31,29 @@ overflows to infinity, so no page takes log(0) or writes "inf" (common practice,
 
 def validate_probability(value: float, label: str = "", *, kind: StepKind | None = None) -> float:
     """Return value as a float if it is a probability from 1e-9 to 1; else raise."""
-    if not (math.isfinite(value) and PROBABILITY_MIN <= value <= PROBABILITY_MAX):
-        raise input_error(
-            "probability_range",
-            f"a probability or PFD must be from {PROBABILITY_MIN:g} to 1 (got {value:g}).",
-            label=label,
-            kind=kind,
+    if not (math.isfinite(value) and 0 < value <= PROBABILITY_MAX):
+        sentence = f"a probability must be greater than 0 and at most 1 (got {value:g})."
+        raise input_error("probability_range", sentence, label=label, kind=kind)
+    if value < PROBABILITY_MIN:
+        sentence = (
+            f"a probability or PFD must be at least {PROBABILITY_MIN:g}; a smaller one is "
+            f"beyond what LOPA can mean (got {value:g})."
         )
+        raise input_error("probability_range", sentence, label=label, kind=kind)
     return float(value)
 
 
 def validate_frequency(value: float, label: str = "", *, kind: StepKind | None = None) -> float:
     """Return value as a float if it is a frequency from 1e-9 to 1e4 per year; else raise."""
-    if not (math.isfinite(value) and FREQUENCY_MIN_PER_YEAR <= value <= FREQUENCY_MAX_PER_YEAR):
-        raise input_error(
-            "frequency_range",
-            f"a frequency must be from {FREQUENCY_MIN_PER_YEAR:g} to {FREQUENCY_MAX_PER_YEAR:g} "
-            f"events per year (got {value:g}).",
-            label=label,
-            kind=kind,
+    if not (math.isfinite(value) and value > 0):
+        sentence = f"a frequency must be a finite number of events per year above 0 (got {value:g})."
+        raise input_error("frequency_positive", sentence, label=label, kind=kind)
+    if not FREQUENCY_MIN_PER_YEAR <= value <= FREQUENCY_MAX_PER_YEAR:
+        sentence = (
+            f"a frequency must be from {FREQUENCY_MIN_PER_YEAR:g} to "
+            f"{FREQUENCY_MAX_PER_YEAR:g} events per year (got {value:g})."
         )
+        raise input_error("frequency_range", sentence, label=label, kind=kind)
     return float(value)
 
 

@@ -85,7 +85,7 @@ def test_time_at_risk_is_hours_over_8760():
         (lambda: events_per_year(0, 30), "events_positive", "Events"),
         (lambda: events_per_year(3, 0), "years_positive", "Years"),
         (lambda: events_per_year(3, math.inf), "years_positive", "Years"),
-        (lambda: probability_of_at_least_one(-0.1), "frequency_range", "Frequency"),
+        (lambda: probability_of_at_least_one(-0.1), "frequency_positive", "Frequency"),
         (lambda: probability_of_at_least_one(0.1, -1), "years_positive", "Years"),
         (lambda: frequency_from_probability(1.0), "probability_below_one", "Probability"),
         (lambda: frequency_from_probability(0.0), "probability_range", "Probability"),

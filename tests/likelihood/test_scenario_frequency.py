@@ -112,33 +112,33 @@ def test_a_relief_valve_at_pfd_0_01_reduces_the_frequency_a_hundredfold():
         ),
         (
             [StepInput(IE, 0.0, "Seal leak")],
-            "frequency_range", "Seal leak",
-            "Initiating event 'Seal leak': a frequency must be from 1e-09 to 10000 events per "
-            "year (got 0).",
+            "frequency_positive", "Seal leak",
+            "Initiating event 'Seal leak': a frequency must be a finite number of events per "
+            "year above 0 (got 0).",
         ),
         (
             [StepInput(IE, math.inf, "Seal leak")],
-            "frequency_range", "Seal leak",
-            "Initiating event 'Seal leak': a frequency must be from 1e-09 to 10000 events per "
-            "year (got inf).",
+            "frequency_positive", "Seal leak",
+            "Initiating event 'Seal leak': a frequency must be a finite number of events per "
+            "year above 0 (got inf).",
         ),
         (
             [StepInput(IE, 0.1), StepInput(EC, 1.5, "Tank filling")],
             "probability_range", "Tank filling",
-            "Enabling condition 'Tank filling': a probability or PFD must be from "
-            "1e-09 to 1 (got 1.5).",
+            "Enabling condition 'Tank filling': a probability must be greater than 0 and at "
+            "most 1 (got 1.5).",
         ),
         (
             [StepInput(IE, 0.1), StepInput(CM, 0.0, "Ignition")],
             "probability_range", "Ignition",
-            "Conditional modifier 'Ignition': a probability or PFD must be from "
-            "1e-09 to 1 (got 0).",
+            "Conditional modifier 'Ignition': a probability must be greater than 0 and at "
+            "most 1 (got 0).",
         ),
         (
             [StepInput(IE, 0.1), StepInput(IPL, math.nan, "Trip", credited=False)],
             "probability_range", "Trip",
-            "Independent protection layer 'Trip': a probability or PFD must be from "
-            "1e-09 to 1 (got nan).",
+            "Independent protection layer 'Trip': a probability must be greater than 0 and at "
+            "most 1 (got nan).",
         ),
         (
             [StepInput(IE, 0.1), StepInput("safeguard", 0.1, "Trip")],  # type: ignore[arg-type]
@@ -160,7 +160,7 @@ def test_each_input_rule_names_itself_and_the_step(steps, rule, step, message):
 def test_the_tolerable_frequency_must_be_finite_and_above_zero(tolerable):
     with pytest.raises(LikelihoodInputError) as raised:
         compute_scenario([StepInput(IE, 0.1)], tolerable)
-    assert (raised.value.rule, raised.value.step) == ("frequency_range", "Tolerable frequency")
+    assert (raised.value.rule, raised.value.step) == ("frequency_positive", "Tolerable frequency")
     assert raised.value.message.startswith("Tolerable frequency: a frequency must be")
 
 
@@ -176,12 +176,13 @@ def test_the_validators_return_floats_and_accept_the_edges():
     ("call", "rule"),
     [
         (lambda: validate_frequency(1e-300, "Tiny"), "frequency_range"),
+        (lambda: validate_probability(2.0, "Two"), "probability_range"),
         (lambda: validate_frequency(5e-324, "Tiny"), "frequency_range"),
         (lambda: validate_frequency(1.0001e4, "Often"), "frequency_range"),
         (lambda: validate_probability(1e-300, "Tiny"), "probability_range"),
         (lambda: validate_probability(9.9e-10, "Tiny"), "probability_range"),
     ],
-    ids=["f-1e-300", "f-denormal", "f-over-1e4", "p-1e-300", "p-below-1e-9"],
+    ids=["f-1e-300", "p-two", "f-denormal", "f-over-1e4", "p-1e-300", "p-below-1e-9"],
 )
 def test_inputs_outside_what_lopa_can_mean_are_refused_naming_the_rule(call, rule):
     # Issue 9, item 6: a frequency 1e-9..1e4 per year, a probability or PFD 1e-9..1
@@ -189,7 +190,7 @@ def test_inputs_outside_what_lopa_can_mean_are_refused_naming_the_rule(call, rul
     with pytest.raises(LikelihoodInputError) as raised:
         call()
     assert raised.value.rule == rule
-    assert "1e-09" in raised.value.message
+    assert "1e-09" in raised.value.message or "at most 1" in raised.value.message
 
 
 frequencies = st.floats(min_value=1e-6, max_value=100.0)

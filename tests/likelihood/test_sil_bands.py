@@ -178,7 +178,8 @@ def test_an_rrf_must_be_above_zero(rrf):
 
 @pytest.mark.parametrize(
     ("mitigated", "tolerable", "rule"),
-    [(-1e-3, 1e-4, "frequency_positive"), (1e-3, 0.0, "frequency_range")],
+    [(-1e-3, 1e-4, "frequency_positive"), (1e-3, 0.0, "frequency_positive"),
+     (1e-3, 1e-300, "frequency_range")],
 )
 def test_sil_target_rejects_negative_or_zero_frequencies(mitigated, tolerable, rule):
     with pytest.raises(LikelihoodInputError) as raised:
