@@ -19,6 +19,11 @@ class TypicalValue:
     example: float
     source: str
     ipl_type: IplType | None = None
+    citation: str = ""
+    verify_against_copy: bool = False
+    """citation: document, edition and table, with no status inside it; verify_against_copy:
+    the value was not checked against the published text (source keeps the older one-string
+    form for current pages)."""
 
 
 CCPS_2001_TABLE_5_1 = "CCPS, Layer of Protection Analysis (2001), Table 5.1 (seen in a scan)"
