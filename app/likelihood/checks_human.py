@@ -72,7 +72,7 @@ def _per_opportunity(step: CheckedStep) -> CheckWarning | None:
     if at_most(abs(step.value - product), _PRODUCT_REL_TOL * product):
         return None
     return warn("per_opportunity_product", step,
-                f"{chance:g} per opportunity × {step.opportunities_per_year:g} opportunities a "
+                f"{chance:g} per opportunity x {step.opportunities_per_year:g} opportunities a "
                 f"year is {product:.3g} per year, but {step.value:g} per year is entered.",
                 sources.HSE_PSLG_2009_APP_2)
 

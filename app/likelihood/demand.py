@@ -82,7 +82,7 @@ def _formula(demand: float, mode: DemandMode, target: SilTarget, after: float) -
         return f"{head}: RRF = mitigated ÷ tolerable = {format_number(target.required_rrf)}"
     head = f"High demand ({format_number(demand)}/yr > {limit}/yr)"
     pfh = "" if target.required_pfh is None else f" = {format_number(target.required_pfh)}/h"
-    return f"{head}: PFH = tolerable ÷ ({HOURS_PER_YEAR} h × {format_number(after)}){pfh}"
+    return f"{head}: PFH = tolerable ÷ ({HOURS_PER_YEAR} h x {format_number(after)}){pfh}"
 
 
 def sif_demand(

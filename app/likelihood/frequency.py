@@ -10,8 +10,8 @@ import math
 from collections.abc import Sequence
 from fractions import Fraction
 
-from app.likelihood.exact import as_decimal, exact_product, exact_ratio, log10_exact, to_float
 from app.likelihood.demand import sif_demand
+from app.likelihood.exact import as_decimal, exact_product, exact_ratio, log10_exact, to_float
 from app.likelihood.types import (
     LadderPoint,
     ScenarioResult,

@@ -6,7 +6,7 @@ import math
 
 from app.likelihood.exact import exact_ratio, to_float
 from app.likelihood.types import DemandMode, SilStatus, SilTarget, input_error
-from app.likelihood.units import HOURS_PER_YEAR  # also re-exported: services import it from here
+from app.likelihood.units import HOURS_PER_YEAR as HOURS_PER_YEAR  # services import it here
 from app.likelihood.validation import at_least, at_most, validate_frequency
 
 # IEC 61511-1:2016 (same numbers in IEC 61508-1:2010, 7.6.2): values secondary.

@@ -46,7 +46,9 @@ def validate_probability(value: float, label: str = "", *, kind: StepKind | None
 def validate_frequency(value: float, label: str = "", *, kind: StepKind | None = None) -> float:
     """Return value as a float if it is a frequency from 1e-9 to 1e4 per year; else raise."""
     if not (math.isfinite(value) and value > 0):
-        sentence = f"a frequency must be a finite number of events per year above 0 (got {value:g})."
+        sentence = (
+            f"a frequency must be a finite number of events per year above 0 (got {value:g})."
+        )
         raise input_error("frequency_positive", sentence, label=label, kind=kind)
     if not FREQUENCY_MIN_PER_YEAR <= value <= FREQUENCY_MAX_PER_YEAR:
         sentence = (

@@ -71,9 +71,11 @@ def test_accepted_probability_forms(text, value, plain):
         ("1e-400", "probability_range",
          "Ignition: a probability must be greater than 0 and at most 1 (got 0)."),
         ("1e-300", "probability_range",
-         "Ignition: a probability or PFD must be at least 1e-09; a smaller one is beyond what LOPA can mean (got 1e-300)."),
+         "Ignition: a probability or PFD must be at least 1e-09; a smaller one is beyond what "
+         "LOPA can mean (got 1e-300)."),
         ("1e-10", "probability_range",
-         "Ignition: a probability or PFD must be at least 1e-09; a smaller one is beyond what LOPA can mean (got 1e-10)."),
+         "Ignition: a probability or PFD must be at least 1e-09; a smaller one is beyond what "
+         "LOPA can mean (got 1e-10)."),
         ("1 in 0", "zero_divisor", "Ignition: the number after 'in' or '/' must not be 0."),
     ],
 )
@@ -230,7 +232,9 @@ def test_a_decimal_comma_is_refused_not_read_as_thousands(text, parse):
     assert "use a dot for decimals" in raised.value.message
 
 
-@pytest.mark.parametrize(("text", "value"), [("1,000", 1000.0), ("1 in 10,000", 1e-4), ("1 in 1,000,000", 1e-6)])
+@pytest.mark.parametrize(
+    ("text", "value"), [("1,000", 1000.0), ("1 in 10,000", 1e-4), ("1 in 1,000,000", 1e-6)]
+)
 def test_thousands_separators_still_read(text, value):
     parse = parse_frequency if value > 1 else parse_probability
     assert parse(text).value == value

@@ -40,7 +40,7 @@ def test_the_issue_case_is_high_demand_and_needs_a_pfh_in_the_sil_2_band():
     assert result.sil_target.required_pfh == pytest.approx(1e-5 / (8760 * 0.01), rel=1e-12)
     assert (result.sil_target.status, result.sil_target.sil) == (SilStatus.SIL, 2)
     assert result.demand.formula == (
-        "High demand (5.0e0/yr > 1/yr): PFH = tolerable ÷ (8760 h × 1.0e-2) = 1.1e-7/h"
+        "High demand (5.0e0/yr > 1/yr): PFH = tolerable ÷ (8760 h x 1.0e-2) = 1.1e-7/h"
     )
 
 

@@ -40,7 +40,7 @@ SENSORS, LOGIC, FINAL = (SubsystemRole.SENSORS, SubsystemRole.LOGIC_SOLVER,
 
 
 def annex(arch: Architecture, lam: float, dc: float, beta: float | None = None) -> SifInputs:
-    """REFERENCE section 2 setup: lambda_D = lambda/2, beta_D = beta/2, MTTR = MRT = 8 h, T1 1 yr."""
+    """REFERENCE section 2 setup: lambda_D = lambda/2, beta_D = beta/2, MTTR = MRT = 8 h, T1 1 y."""
     return SifInputs(architecture=arch, lambda_du=lam / 2 * (1 - dc), lambda_dd=lam / 2 * dc,
                      beta=beta, proof_test_interval_hours=8760)
 
@@ -138,7 +138,8 @@ def test_hft_caps_the_sil_the_pfd_would_support():
     assert low.pfd_avg == pytest.approx(2.23e-5 + 2.59e-6 + 2.23e-4, rel=1e-2)
     assert (low.sil_by_pfd, low.sil_by_hft, low.sil_supported) == (3, 2, 2)
     assert low.governed_by_hft
-    assert low.hft_citation == "IEC 61511-1:2016, clause 11.4, Table 6 (minimum hardware fault tolerance)"
+    assert low.hft_citation == (
+        "IEC 61511-1:2016, clause 11.4, Table 6 (minimum hardware fault tolerance)")
     assert low.hft_verify_against_copy
     assert verify_sif(parts, DemandMode.HIGH).sil_supported == 1
 
