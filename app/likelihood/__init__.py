@@ -1,7 +1,8 @@
 """Pure LOPA likelihood arithmetic: standard library only, frozen dataclasses in and out.
 
 The names most callers need are re-exported here; the submodules hold the rest (conversions,
-proof_test, sif_verification, typical, checks_*). Nothing in this package touches the web, the database or templates.
+proof_test, sif_verification, typical, checks_*). Nothing in this package touches the web,
+the database or templates.
 """
 
 from app.likelihood.check_base import CauseType
@@ -67,15 +68,15 @@ __all__ = [
     "check_scenario",
     "compare_credits",
     "compute_scenario",
-    "modifier_receptors",
-    "sif_demand",
-    "withdraw_flagged_credits",
     "format_number",
     "format_one_in",
+    "modifier_receptors",
     "parse_frequency",
     "parse_probability",
+    "sif_demand",
     "sil_for_rrf",
     "sil_target",
     "validate_frequency",
     "validate_probability",
+    "withdraw_flagged_credits",
 ]
