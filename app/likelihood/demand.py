@@ -74,15 +74,18 @@ def _demand_factors(steps: Sequence[StepInput]) -> list[float]:
     return [*before, *_credited_layers(steps, after=False)]
 
 
-def _formula(demand: float, mode: DemandMode, target: SilTarget, after: float) -> str:
+def _formula(demand: float, target: SilTarget, mitigated: float, tolerable: float,
+             after: float) -> str:
     """One line a reader can redo by hand: the mode, why, and the target's arithmetic."""
     limit = f"{LOW_DEMAND_LIMIT_PER_YEAR:g}"
-    if mode is DemandMode.LOW:
+    if target.demand_mode is DemandMode.LOW:
         head = f"Low demand ({format_number(demand)}/yr ≤ {limit}/yr)"
-        return f"{head}: RRF = mitigated ÷ tolerable = {format_number(target.required_rrf)}"
+        return (f"{head}: RRF = {format_number(mitigated)} ÷ {format_number(tolerable)} "
+                f"= {format_number(target.required_rrf)}")
     head = f"High demand ({format_number(demand)}/yr > {limit}/yr)"
     pfh = "" if target.required_pfh is None else f" = {format_number(target.required_pfh)}/h"
-    return f"{head}: PFH = tolerable ÷ ({HOURS_PER_YEAR} h x {format_number(after)}){pfh}"
+    return (f"{head}: PFH = {format_number(tolerable)} ÷ ({HOURS_PER_YEAR} h x "
+            f"{format_number(after)}){pfh}")
 
 
 def sif_demand(
@@ -114,5 +117,5 @@ def sif_demand(
         required_rrf=target.required_rrf,
         required_pfh=target.required_pfh,
         sil_target=target,
-        formula=_formula(demand, target.demand_mode, target, after),
+        formula=_formula(demand, target, mitigated, float(tolerable_frequency), after),
     )

@@ -40,7 +40,7 @@ def test_the_issue_case_is_high_demand_and_needs_a_pfh_in_the_sil_2_band():
     assert result.sil_target.required_pfh == pytest.approx(1e-5 / (8760 * 0.01), rel=1e-12)
     assert (result.sil_target.status, result.sil_target.sil) == (SilStatus.SIL, 2)
     assert result.demand.formula == (
-        "High demand (5.0e0/yr > 1/yr): PFH = tolerable ÷ (8760 h x 1.0e-2) = 1.1e-7/h"
+        "High demand (5.0e0/yr > 1/yr): PFH = 1.0e-5 ÷ (8760 h x 1.0e-2) = 1.1e-7/h"
     )
 
 
@@ -65,7 +65,7 @@ def test_a_layer_acting_before_the_sif_lowers_the_demand_and_one_after_does_not(
     assert demand.demand_mode is DemandMode.LOW
     assert demand.required_rrf == pytest.approx(250.0, rel=1e-12)
     assert demand.sil_target.sil == 2
-    assert demand.formula == "Low demand (2.5e-1/yr ≤ 1/yr): RRF = mitigated ÷ tolerable = 2.5e2"
+    assert demand.formula == "Low demand (2.5e-1/yr ≤ 1/yr): RRF = 2.5e-3 ÷ 1.0e-5 = 2.5e2"
 
 
 def test_in_high_demand_a_layer_acting_after_the_sif_relaxes_the_pfh():
