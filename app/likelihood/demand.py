@@ -11,7 +11,7 @@ modifiers x PFD of layers acting after the function) per hour.
 
 from __future__ import annotations
 
-from collections.abc import Iterable, Sequence
+from collections.abc import Sequence
 from dataclasses import dataclass
 
 from app.likelihood.exact import exact_product, to_float
@@ -44,10 +44,6 @@ class SifDemand:
     required_pfh: float | None
     sil_target: SilTarget
     formula: str
-
-
-def _product(values: Iterable[float]) -> float:
-    return to_float(exact_product(values))
 
 
 def _credited_layers(steps: Sequence[StepInput], *, after: bool) -> list[float]:
@@ -97,13 +93,13 @@ def sif_demand(
     conditional modifier, as the whole-scenario figures do.
     """
     # Each product is exact over the numbers as typed and rounded once (see exact.py).
-    before = _demand_factors(steps)
-    modifier_values = [s.value for s in modifiers_for(steps, receptor)]
-    after_values = _credited_layers(steps, after=True)
-    demand = _product(before)
-    modifiers, after_layers = _product(modifier_values), _product(after_values)
-    mitigated = _product([*before, *modifier_values, *after_values])
-    after = _product([*modifier_values, *after_values])
+    demand_exact = exact_product(_demand_factors(steps))
+    modifiers_exact = exact_product(s.value for s in modifiers_for(steps, receptor))
+    after_layers_exact = exact_product(_credited_layers(steps, after=True))
+    demand, modifiers = to_float(demand_exact), to_float(modifiers_exact)
+    after_layers = to_float(after_layers_exact)
+    mitigated = to_float(demand_exact * modifiers_exact * after_layers_exact)
+    after = to_float(modifiers_exact * after_layers_exact)
     target = sil_target(
         mitigated, tolerable_frequency, demand_rate_per_year=demand, mitigation_after_demand=after
     )

@@ -81,8 +81,8 @@ def compute_scenario(steps: Sequence[StepInput], tolerable_frequency: float) -> 
     initiating = _the_initiating_event(steps)
     tolerable = validate_frequency(tolerable_frequency, "Tolerable frequency")
     ordered = _in_ladder_order(steps)  # sorted() is stable: given order kept within a kind
-    mitigated = to_float(exact_product(step.value for step in ordered))
     demand = sif_demand(ordered, tolerable)  # mode from the demand rate, not the mitigated one
+    mitigated = demand.mitigated_frequency  # the exact product of every counted step
     target = demand.sil_target
     ratio = exact_ratio(mitigated, tolerable)  # the same ratio sil_target classified
     return ScenarioResult(

@@ -175,3 +175,11 @@ def test_demand_times_what_acts_after_is_the_mitigated_frequency(steps):
     product = demand.demand_rate_per_year * demand.modifier_product * demand.after_layers_product
     assert demand.mitigated_frequency == pytest.approx(product, rel=1e-12)
     assert demand.mitigated_frequency <= demand.demand_rate_per_year
+
+
+@given(receptor_scenarios(), probabilities)
+def test_a_modifier_never_changes_the_demand_on_the_added_function(steps, p):
+    # Conditional modifiers act after the release (CCPS 2001 concept; from memory).
+    with_modifier = [*steps, StepInput(CM, p, "added modifier")]
+    assert (sif_demand(with_modifier, 1e-5).demand_rate_per_year
+            == sif_demand(steps, 1e-5).demand_rate_per_year)
