@@ -20,6 +20,7 @@ from app.likelihood.sil import LOW_DEMAND_LIMIT_PER_YEAR, sil_target
 from app.likelihood.types import (
     DemandMode,
     Receptor,
+    SilStatus,
     SilTarget,
     StepInput,
     StepKind,
@@ -74,11 +75,15 @@ def _formula(demand: float, target: SilTarget, mitigated: float, tolerable: floa
              after: float) -> str:
     """One line a reader can redo by hand: the mode, why, and the target's arithmetic."""
     limit = f"{LOW_DEMAND_LIMIT_PER_YEAR:g}"
-    if target.demand_mode is DemandMode.LOW:
-        head = f"Low demand ({format_number(demand)}/yr ≤ {limit}/yr)"
+    low = target.demand_mode is DemandMode.LOW
+    sign = "≤" if low else ">"
+    head = f"{'Low' if low else 'High'} demand ({format_number(demand)}/yr {sign} {limit}/yr)"
+    if target.status is SilStatus.NONE_NEEDED:
+        return (f"{head}: mitigated {format_number(mitigated)} ≤ tolerable "
+                f"{format_number(tolerable)}, no added function needed")
+    if low:
         return (f"{head}: RRF = {format_number(mitigated)} ÷ {format_number(tolerable)} "
                 f"= {format_number(target.required_rrf)}")
-    head = f"High demand ({format_number(demand)}/yr > {limit}/yr)"
     pfh = "" if target.required_pfh is None else f" = {format_number(target.required_pfh)}/h"
     return (f"{head}: PFH = {format_number(tolerable)} ÷ ({HOURS_PER_YEAR} h x "
             f"{format_number(after)}){pfh}")

@@ -183,3 +183,14 @@ def test_a_modifier_never_changes_the_demand_on_the_added_function(steps, p):
     with_modifier = [*steps, StepInput(CM, p, "added modifier")]
     assert (sif_demand(with_modifier, 1e-5).demand_rate_per_year
             == sif_demand(steps, 1e-5).demand_rate_per_year)
+
+
+def test_the_formula_says_when_no_function_is_needed():
+    # By hand: 5/yr x relief 0.01 (after) x ignition 0.01 = 5e-4 against 1e-3: met.
+    steps = [StepInput(IE, 5.0, "cause"), StepInput(CM, 0.01, "Ignition"),
+             StepInput(IPL, 0.01, "Relief valve", acts_after_sif=True)]
+    demand = sif_demand(steps, 1e-3)
+    assert demand.sil_target.status is SilStatus.NONE_NEEDED
+    assert demand.formula == (
+        "High demand (5.0e0/yr > 1/yr): mitigated 5.0e-4 ≤ tolerable 1.0e-3, "
+        "no added function needed")
