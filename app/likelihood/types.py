@@ -4,6 +4,10 @@ from __future__ import annotations
 
 from dataclasses import dataclass
 from enum import StrEnum
+from typing import TYPE_CHECKING
+
+if TYPE_CHECKING:  # demand.py builds on these types; the name is needed for the annotation only
+    from app.likelihood.demand import SifDemand
 
 
 class StepKind(StrEnum):
@@ -88,6 +92,35 @@ class IplType(StrEnum):
     OTHER = "other"
 
 
+class Receptor(StrEnum):
+    """Who or what a consequence harms; each rated receptor has its own tolerable frequency."""
+
+    PEOPLE = "people"
+    ENVIRONMENT = "environment"
+    ASSET = "asset"
+
+
+class ModifierKind(StrEnum):
+    """What a conditional modifier stands for; it decides the receptors it applies to by default."""
+
+    IGNITION = "ignition"
+    PRESENCE = "presence"
+    VULNERABILITY = "vulnerability"
+    OTHER = "other"
+
+
+ALL_RECEPTORS: frozenset[Receptor] = frozenset(Receptor)
+
+DEFAULT_MODIFIER_RECEPTORS: dict[ModifierKind, frozenset[Receptor]] = {
+    ModifierKind.IGNITION: ALL_RECEPTORS,
+    ModifierKind.PRESENCE: frozenset({Receptor.PEOPLE}),
+    ModifierKind.VULNERABILITY: frozenset({Receptor.PEOPLE}),
+    ModifierKind.OTHER: ALL_RECEPTORS,
+}
+"""Presence of people and their vulnerability (probability of injury or fatality) say nothing
+about harm to the environment or an asset; an ignition does (CCPS 2013 concept; from memory)."""
+
+
 class LikelihoodInputError(ValueError):
     """Bad input: `rule` names the broken rule, `step` the step or field, `message` says it."""
 
@@ -118,12 +151,32 @@ def input_error(
 
 @dataclass(frozen=True)
 class StepInput:
-    """One factor of a scenario: frequency per year for the initiating event, else a probability."""
+    """One factor of a scenario: frequency per year for the initiating event, else a probability.
+
+    acts_after_sif: an IPL that acts after an added SIF would (a bund, a blast wall, a relief
+    device downstream of the trip); it does not reduce the demand on that SIF.
+    modifier_kind / receptors: for a conditional modifier, what it stands for and the receptors
+    it applies to; receptors None means the default of its kind (see modifier_receptors).
+    """
 
     kind: StepKind
     value: float
     label: str = ""
     credited: bool = True
+    acts_after_sif: bool = False
+    modifier_kind: ModifierKind | None = None
+    receptors: frozenset[Receptor] | None = None
+
+
+def modifier_receptors(step: StepInput) -> frozenset[Receptor]:
+    """The receptors a conditional modifier reduces: as given, else its kind's default.
+
+    A modifier of no stated kind applies to every receptor, as it did before kinds existed;
+    the team should say what it stands for.
+    """
+    if step.receptors is not None:
+        return frozenset(step.receptors)
+    return DEFAULT_MODIFIER_RECEPTORS[step.modifier_kind or ModifierKind.OTHER]
 
 
 @dataclass(frozen=True)
@@ -181,3 +234,5 @@ class ScenarioResult:
     meets_target: bool
     sil_target: SilTarget
     ladder: tuple[LadderPoint, ...]
+    demand: SifDemand | None = None
+    """Demand rate, mode and formula behind sil_target (always set by compute_scenario)."""
