@@ -65,7 +65,7 @@ TARGETS = [
     Target("rss_exports_mb", "server memory after the exports", "MB", up_to(250.0)),
     Target("freeze_s", "freeze a revision", "s", up_to(1.0)),
     Target("export_json_frozen_mb", "JSON export with one revision", "MB", report_only),
-    Target("json_reimport_ok", "that JSON export imports back (1 = yes)", "", always(1.0),
+    Target("json_reimport_ok", "that JSON export imports back", "", always(1.0),
            yes_no=True),
     Target("pdf_s", "PDF report", "s", up_to(30.0, 1_000)),
     Target("rss_pdf_mb", "server memory after the PDF", "MB", up_to(500.0, 1_000)),
@@ -135,14 +135,51 @@ def as_table(rows: list[Row]) -> str:
     lines = ["| size | measure | figure | target | ratio | result |",
              "|---|---|---|---|---|---|"]
     for row in rows:
-        unit = f" {row.unit}" if row.unit else ""
-        figure = _number(row.figure) + (unit if row.figure is not None else "")
-        target = (f"≤ {_number(row.target)}{unit}") if row.target is not None else "—"
+        figure, target = _figure(row), _target(row)
         ratio = f"{row.ratio:.2f}" if row.ratio is not None else "—"
         note = f" ({row.note})" if row.note else ""
         lines.append(f"| {row.size} | {row.label} | {figure} | {target} | {ratio} | "
                      f"{row.result}{note} |")
     return "\n".join(lines)
+
+
+def as_pivot(rows: list[Row]) -> str:
+    """One line per measure, one column per size: figure and result (the README's table)."""
+    sizes = list(dict.fromkeys(row.size for row in rows if row.key != "edit_flatness"))
+    cells: dict[str, dict[str, str]] = {}
+    targets: dict[str, dict[str, str]] = {}
+    for row in rows:
+        flat = row.key == "edit_flatness"
+        label = f"{row.label}, {row.size}" if flat else row.label
+        column = sizes[-1] if flat and sizes else row.size
+        verdict = {"info": "", "SKIP": "skipped"}.get(row.result, row.result)
+        cells.setdefault(label, {})[column] = f"{_figure(row)} {verdict}".strip()
+        targets.setdefault(label, {})[column] = _target(row)
+    lines = ["| measure | target | " + " | ".join(sizes) + " |",
+             "|---|---|" + "---|" * len(sizes)]
+    for label, by_size in cells.items():
+        shown = [by_size.get(size, "") for size in sizes]
+        limits = list(dict.fromkeys(targets[label].values()))
+        target = limits[0] if len(limits) == 1 else " / ".join(
+            targets[label].get(size, "—") for size in sizes)
+        lines.append(f"| {label} | {target} | " + " | ".join(shown) + " |")
+    return "\n".join(lines)
+
+
+def _figure(row: Row) -> str:
+    if row.figure is None:
+        return "—"
+    if BY_KEY.get(row.key) and BY_KEY[row.key].yes_no:
+        return "yes" if row.figure == 1 else "no"
+    return _number(row.figure) + (f" {row.unit}" if row.unit else "")
+
+
+def _target(row: Row) -> str:
+    if row.target is None:
+        return "—"
+    if BY_KEY.get(row.key) and BY_KEY[row.key].yes_no:
+        return "yes"
+    return f"≤ {_number(row.target)}" + (f" {row.unit}" if row.unit else "")
 
 
 def as_json_rows(rows: list[Row]) -> list[dict[str, object]]:
