@@ -337,8 +337,8 @@ def write_results(rows: list[Row], table: str, summary: str, seconds: float) -> 
         "measured_at": time.strftime("%Y-%m-%dT%H:%M:%SZ", time.gmtime()),
         "commit": git_commit(), "cpus": os.cpu_count(), "python": platform.python_version(),
         "seconds": round(seconds, 1),
-        "load_average_at_end": [round(x, 2) for x in os.getloadavg()], "rows": as_json_rows(rows), "table": table,
-        "summary": summary,
+        "load_average_at_end": [round(x, 2) for x in os.getloadavg()],
+        "rows": as_json_rows(rows), "table": table, "summary": summary,
     }, indent=2, ensure_ascii=False) + "\n", encoding="utf-8")
     print(f"wrote {out}")
 
