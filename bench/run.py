@@ -91,10 +91,10 @@ class SizeRun:
         self.rows: list[Row] = []
         self.edit_p99: float | None = None
 
-    def add(self, key: str, figure: float | None, note: str = "") -> None:
+    def add(self, key: str, figure: float | None, note: str = "", failed: bool = False) -> None:
         """Judge one figure and keep its row."""
-        self.rows.append(judge(self.size, key, figure, note))
-        shown = "skipped" if figure is None else f"{figure:.4g}"
+        self.rows.append(judge(self.size, key, figure, note, failed))
+        shown = ("failed" if failed else "skipped") if figure is None else f"{figure:.4g}"
         print(f"  {key:<24} {shown} {note}", flush=True)
 
     def prepare(self) -> tuple[Path, int] | None:
@@ -105,7 +105,7 @@ class SizeRun:
         migrate(database, self.work / "migrate.log")
         done = import_study(database, study_file, self.work / f"import-{self.size}.log")
         self.add("import_s", done.seconds if done.returncode == 0 else None,
-                 "" if done.returncode == 0 else refusal(done))
+                 "" if done.returncode == 0 else refusal(done), failed=done.returncode != 0)
         if done.returncode == 0:
             self.add("import_peak_mb", done.peak_mb)
         else:

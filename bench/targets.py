@@ -89,12 +89,15 @@ class Row:
     note: str = ""
 
 
-def judge(size: int, key: str, figure: float | None, note: str = "") -> Row:
-    """A figure against its target: PASS when at most the target, FAIL above it."""
+def judge(size: int, key: str, figure: float | None, note: str = "",
+          failed: bool = False) -> Row:
+    """A figure against its target: PASS when at most the target, FAIL above it; no figure is
+    SKIP, or FAIL when the app refused the work (`failed`)."""
     target = BY_KEY[key]
     limit = target.limit(size)
     if figure is None:
-        return Row(f"{size:,}", key, target.label, None, target.unit, limit, None, "SKIP", note)
+        return Row(f"{size:,}", key, target.label, None, target.unit, limit, None,
+                   "FAIL" if failed else "SKIP", note)
     if limit is None:
         return Row(f"{size:,}", key, target.label, figure, target.unit, None, None, "info", note)
     if target.yes_no:
