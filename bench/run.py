@@ -89,7 +89,6 @@ class SizeRun:
     def __init__(self, size: int, budget: Budget, work: Path) -> None:
         self.size, self.budget, self.work = size, budget, work
         self.rows: list[Row] = []
-        self.edit_p99: float | None = None
 
     def add(self, key: str, figure: float | None, note: str = "", failed: bool = False) -> None:
         """Judge one figure and keep its row."""
@@ -152,12 +151,12 @@ class SizeRun:
         failed = sum(edit.status != 200 for edit in edits)
         note = f"n={len(edits)}" + (f", {failed} answered other than 200" if failed else "")
         seconds = [edit.seconds for edit in edits]
-        self.edit_p99 = ms(seconds, 0.99)
+        edit_p99 = ms(seconds, 0.99)
         for key, value in (("trivial_p50_ms", ms(trivial, 0.5)), ("trivial_p99_ms",
                            ms(trivial, 0.99)), ("edit_p50_ms", ms(seconds, 0.5)),
-                           ("edit_p99_ms", self.edit_p99)):
+                           ("edit_p99_ms", edit_p99)):
             self.add(key, value, note)
-        self.add("edit_vs_trivial_p99", self.edit_p99 / ms(trivial, 0.99))
+        self.add("edit_vs_trivial_p99", edit_p99 / ms(trivial, 0.99))
         self.add("edit_vs_trivial_p50", ms(seconds, 0.5) / ms(trivial, 0.5))
 
     def measure_pages(self, client: BrowserClient, study: str, marks: Landmarks) -> None:
@@ -310,15 +309,12 @@ def main() -> int:
     budget = Budget(float(os.environ.get("BENCH_BUDGET_SECONDS", "570")))
     started = time.monotonic()
     rows: list[Row] = []
-    edit_p99: dict[int, float] = {}
     with tempfile.TemporaryDirectory(prefix="tallyroom-bench-") as folder:
         for size in sizes or DEFAULT_SIZES:
             print(f"{size:,} scenarios", flush=True)
             run = run_size(size, budget, Path(folder))
             rows += run.rows
-            if run.edit_p99 is not None:
-                edit_p99[size] = run.edit_p99
-    rows += flatness(edit_p99)
+    rows += flatness(rows)
     table, summary = as_table(rows), as_pivot(rows)
     print(table, summary, sep="\n\n")
     failed = sum(row.result == "FAIL" for row in rows)
