@@ -32,6 +32,7 @@ from bench.server import (
     import_study,
     import_without_size_limit,
     migrate,
+    stored_value_text,
 )
 from bench.targets import Row, as_json_rows, as_pivot, as_table, flatness, judge
 
@@ -89,6 +90,7 @@ class SizeRun:
     def __init__(self, size: int, budget: Budget, work: Path) -> None:
         self.size, self.budget, self.work = size, budget, work
         self.rows: list[Row] = []
+        self.database = work / f"bench-{size}.db"
 
     def add(self, key: str, figure: float | None, note: str = "", failed: bool = False) -> None:
         """Judge one figure and keep its row."""
@@ -100,7 +102,7 @@ class SizeRun:
         """Generate, migrate and import; the database and the study id, or None if skipped."""
         study_file = self.work / f"study-{self.size}.json"
         study_file.write_text(generate.study_text(self.size), encoding="utf-8")
-        database = self.work / f"bench-{self.size}.db"
+        database = self.database
         migrate(database, self.work / "migrate.log")
         done = import_study(database, study_file, self.work / f"import-{self.size}.log")
         self.add("import_s", done.seconds if done.returncode == 0 else None,
@@ -150,6 +152,8 @@ class SizeRun:
         sample(one_pair, most, 25.0, self.budget, least=5)
         failed = sum(edit.status != 200 for edit in edits)
         note = f"n={len(edits)}" + (f", {failed} answered other than 200" if failed else "")
+        if stored_value_text(self.database, marks.edit_step) != f"1 in {100 + len(edits)}":
+            note += ", the last edit is not in the database"
         seconds = [edit.seconds for edit in edits]
         edit_p99 = ms(seconds, 0.99)
         for key, value in (("trivial_p50_ms", ms(trivial, 0.5)), ("trivial_p99_ms",

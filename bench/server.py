@@ -156,3 +156,10 @@ def find_landmarks(database: Path, study_id: int, typical: str, large: str) -> L
             " WHERE deviation.node_id = ? AND step.kind = 'ipl' ORDER BY step.id LIMIT 1",
             (typical_id,)).fetchone()
         return Landmarks(typical_id, node_id(large), int(step[0]), int(step[1]))
+
+
+def stored_value_text(database: Path, step_id: int) -> str | None:
+    """A step's value as typed, as committed in the database (proof an edit was written)."""
+    with sqlite3.connect(database) as db:
+        row = db.execute("SELECT value_text FROM step WHERE id = ?", (step_id,)).fetchone()
+    return None if row is None else str(row[0])
