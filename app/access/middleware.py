@@ -1,16 +1,17 @@
 """ASGI layers around the whole app: security headers, the Host allow-list, signed sessions."""
 
+import html
 from collections.abc import Callable
 
 import itsdangerous
 from starlette.concurrency import run_in_threadpool
 from starlette.datastructures import Headers, MutableHeaders
 from starlette.middleware.sessions import SessionMiddleware
-from starlette.responses import PlainTextResponse
+from starlette.responses import HTMLResponse, PlainTextResponse
 from starlette.types import ASGIApp, Message, Receive, Scope, Send
 
 from app.access.network import host_of
-from app.access.redirects import same_site_location
+from app.access.redirects import same_site_location, same_site_path
 
 # No inline script anywhere (static files only), nothing from other sites, never in a frame.
 CONTENT_SECURITY_POLICY = (
@@ -69,6 +70,30 @@ class HostAllowList:
                     status_code=400)
                 await response(scope, receive, send)
                 return
+        await self.app(scope, receive, send)
+
+
+class CrossSiteArrival:
+    """A link followed from another site arrives without the SameSite=Strict cookie; answering
+    it would start a new session over the browser's own (name lost, open tabs' tokens void).
+    Instead it gets a page that reloads the same address from this site, cookie included."""
+
+    def __init__(self, app: ASGIApp) -> None:
+        self.app = app
+
+    async def __call__(self, scope: Scope, receive: Receive, send: Send) -> None:
+        headers = Headers(scope=scope) if scope["type"] == "http" else Headers()
+        if (scope["type"] == "http" and scope["method"] in ("GET", "HEAD")
+                and headers.get("sec-fetch-site") == "cross-site"
+                and headers.get("sec-fetch-mode") == "navigate"):
+            path = scope.get("raw_path", b"/").decode("latin-1")
+            query = scope.get("query_string", b"").decode("latin-1")
+            target = html.escape(same_site_path(path + (f"?{query}" if query else "")))
+            page = (f'<!doctype html><meta charset="utf-8"><meta http-equiv="refresh" '
+                    f'content="0;url={target}"><title>Tallyroom</title>'
+                    f'<p><a href="{target}">Continue to Tallyroom</a></p>')
+            await HTMLResponse(page)(scope, receive, send)
+            return
         await self.app(scope, receive, send)
 
 

@@ -12,7 +12,12 @@ from starlette.types import ASGIApp
 
 from app.access.csrf import FIELD, HEADER, csrf_token
 from app.access.guard import SignInNeeded, check_role, current_access, refuse_cross_site_writes
-from app.access.middleware import HostAllowList, KeyedSessionMiddleware, SecurityHeaders
+from app.access.middleware import (
+    CrossSiteArrival,
+    HostAllowList,
+    KeyedSessionMiddleware,
+    SecurityHeaders,
+)
 from app.access.network import host_names
 from app.access.ratelimit import FailureLimiter
 from app.access.redirects import same_site_path
@@ -38,6 +43,7 @@ def install_access(application: FastAPI, settings: Settings) -> None:
     application.add_middleware(KeyedSessionMiddleware, read_key=_signing_key,  # type: ignore[arg-type]
                                session_cookie=COOKIE, max_age=MAX_AGE_SECONDS,
                                same_site="strict")
+    application.add_middleware(CrossSiteArrival)
     application.add_middleware(HostAllowList, allowed=host_names(settings))
     application.add_exception_handler(SignInNeeded, _sign_in_needed)
     application.include_router(router)

@@ -107,3 +107,17 @@ def test_a_crafted_next_never_leaves_the_site(client: TestClient, session: Sessi
     response = client.post("/author", data={"name": "X", "next": "/\\evil.example"},
                            follow_redirects=False)
     assert response.headers["location"] == "/"
+
+
+def test_a_link_followed_from_another_site_reloads_from_this_site_keeping_the_session(
+    client: TestClient, demo_study: Study
+) -> None:
+    before = dict(client.cookies)
+    arrival = client.get(f"/studies/{demo_study.id}?tab=1",
+                         headers={"Sec-Fetch-Site": "cross-site", "Sec-Fetch-Mode": "navigate"})
+    assert arrival.status_code == 200
+    assert f'content="0;url=/studies/{demo_study.id}?tab=1"' in arrival.text
+    assert demo_study.title not in arrival.text
+    assert "set-cookie" not in arrival.headers
+    assert dict(client.cookies) == before
+    assert_security_headers(arrival.headers)
