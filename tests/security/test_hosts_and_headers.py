@@ -121,3 +121,15 @@ def test_a_link_followed_from_another_site_reloads_from_this_site_keeping_the_se
     assert "set-cookie" not in arrival.headers
     assert dict(client.cookies) == before
     assert_security_headers(arrival.headers)
+
+
+def test_the_session_cookie_is_signed_http_only_and_same_site_strict(
+    client: TestClient,
+) -> None:
+    client.cookies.clear()
+    set_cookie = client.get("/").headers["set-cookie"]
+    assert set_cookie.startswith("tallyroom_session=")
+    assert "httponly" in set_cookie and "samesite=strict" in set_cookie
+    value = set_cookie.split(";")[0].split("=", 1)[1]
+    client.cookies.set("tallyroom_session", value[:-2] + ("AA" if value[-2:] != "AA" else "BB"))
+    assert client.get("/").headers["set-cookie"] != set_cookie  # a tampered cookie is ignored

@@ -186,3 +186,26 @@ def test_a_loopback_server_refuses_other_machines(session: Session, demo_study: 
         response = other.get(f"/studies/{demo_study.id}")
     assert response.status_code == 403
     assert "serves only the computer it runs on" in response.text
+
+
+@pytest.mark.parametrize("role", ["facilitator", "scribe", "FACILITATOR", "4"])
+def test_the_join_code_never_grants_an_editing_role(
+    lan_device: NewDevice, session: Session, layer: Step, role: str
+) -> None:
+    device = lan_device()
+    assert join(device, session, role=role) == 422
+    assert device.get(f"/studies/{layer.study_id}/room").status_code == 303
+
+
+def test_a_participant_session_lasts_the_day_it_joined_and_an_editor_session_longer() -> None:
+    from datetime import date
+
+    from app.access.roles import Role
+    from app.access.sessions import _network_role  # the rule itself, dates chosen
+
+    joined = {"role": "participant", "net": True, "day": "2026-12-02"}
+    assert _network_role(joined, date(2026, 12, 2)) is Role.PARTICIPANT
+    assert _network_role(joined, date(2026, 12, 3)) is None
+    signed_in = {**joined, "role": "scribe"}
+    assert _network_role(signed_in, date(2026, 12, 3)) is Role.SCRIBE
+    assert _network_role({**signed_in, "net": False}, date(2026, 12, 2)) is None
