@@ -24,7 +24,6 @@ SECURITY_HEADERS = {
     "X-Content-Type-Options": "nosniff",
     "Referrer-Policy": "same-origin",
     "X-Frame-Options": "DENY",  # frame-ancestors for browsers that predate it
-    "Cross-Origin-Opener-Policy": "same-origin",
 }
 
 
