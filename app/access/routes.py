@@ -11,7 +11,7 @@ from app.access.network import join_address
 from app.access.ratelimit import FailureLimiter
 from app.access.redirects import same_site_path
 from app.access.roles import Role, allow
-from app.access.sessions import restamp, start_session
+from app.access.sessions import clean_name, restamp, start_session
 from app.routes.deps import SessionDep
 from app.routes.rendering import render
 from app.services import studies as study_service
@@ -77,7 +77,7 @@ def join_room(request: Request, session: SessionDep, code: Annotated[str, Form(m
     chosen = Role.from_label(role)
     if chosen not in JOIN_ROLES or chosen is None:
         return _form_page(request, "access/join.html", form, "Choose participant or viewer.", 422)
-    if chosen is Role.PARTICIPANT and not name.strip():
+    if chosen is Role.PARTICIPANT and not clean_name(name):
         return _form_page(request, "access/join.html", form,
                           "A participant gives a name: it shows beside their answers.", 422)
     if not access_state.code_matches(session, code):
@@ -109,7 +109,7 @@ def sign_in(request: Request, session: SessionDep,
     if refused:
         return refused
     chosen = Role.from_label(role)
-    if chosen not in SIGN_IN_ROLES or chosen is None or not name.strip():
+    if chosen not in SIGN_IN_ROLES or chosen is None or not clean_name(name):
         return _form_page(request, "access/sign_in.html", form,
                           "Give your name and choose facilitator or scribe.", 422)
     if not access_state.passphrase_matches(session, passphrase):

@@ -7,6 +7,7 @@ generation it was stamped with; raising the generation ends it).
 """
 
 import secrets
+import unicodedata
 from datetime import date
 
 from starlette.requests import Request
@@ -19,6 +20,12 @@ from app.settings import Settings
 COOKIE = "tallyroom_session"
 MAX_AGE_SECONDS = 30 * 24 * 3600
 NAME_LIMIT = 120
+
+
+def clean_name(typed: str) -> str:
+    """A name as the change log shows it: control characters (NUL included) dropped, trimmed."""
+    kept = "".join(ch for ch in typed if unicodedata.category(ch) != "Cc")
+    return " ".join(kept.split())[:NAME_LIMIT]
 
 
 def ensure_session(request: Request) -> dict[str, object]:
@@ -64,14 +71,14 @@ def start_session(request: Request, *, role: Role, name: str, state: AccessState
     data = request.session
     data.clear()
     data.update(csrf=secrets.token_urlsafe(32), sid=secrets.token_urlsafe(16),
-                name=name.strip()[:NAME_LIMIT], role=role.label, net=on_network,
+                name=clean_name(name), role=role.label, net=on_network,
                 day=date.today().isoformat(), gen=state.session_generation)
 
 
 def remember_name(request: Request, name: str, state: AccessState) -> None:
     """The name this session writes into the change log."""
     data = ensure_session(request)
-    data["name"] = name.strip()[:NAME_LIMIT]
+    data["name"] = clean_name(name)
     data["gen"] = state.session_generation
 
 

@@ -209,3 +209,19 @@ def test_a_participant_session_lasts_the_day_it_joined_and_an_editor_session_lon
     signed_in = {**joined, "role": "scribe"}
     assert _network_role(signed_in, date(2026, 12, 3)) is Role.SCRIBE
     assert _network_role({**signed_in, "net": False}, date(2026, 12, 2)) is None
+
+
+@pytest.mark.parametrize(("typed", "logged"), [
+    ("Łukasz Wróbel-Nakamura", "Łukasz Wróbel-Nakamura"),
+    ("王芳", "王芳"),
+    ("محمد الأحمد", "محمد الأحمد"),
+    ("  R.\x00 Okoye\t\n ", "R. Okoye"),
+])
+def test_any_script_is_a_name_and_control_characters_are_dropped(
+    client: TestClient, session: Session, layer: Step, typed: str, logged: str
+) -> None:
+    assert client.post("/author", data={"name": typed}, follow_redirects=False).status_code == 303
+    assert value_post(client, layer, "1 in 1000") == 200
+    authors = session.exec(select(ChangeLogEntry.author).where(
+        ChangeLogEntry.entity == "step", ChangeLogEntry.field == "value_text")).all()
+    assert authors == [logged]
