@@ -1,6 +1,8 @@
 """The `tallyroom` command: set up the database, load the demo, serve, export, import."""
 
 import argparse
+import getpass
+import os
 import sys
 from collections.abc import Callable, Sequence
 from pathlib import Path
@@ -10,7 +12,7 @@ from alembic.config import Config
 from sqlmodel import Session
 
 from app.db.session import get_db_engine
-from app.settings import PROJECT_ROOT, get_settings
+from app.settings import LOOPBACK_HOSTS, PROJECT_ROOT, Settings, get_settings
 
 COMMANDS: dict[str, Callable[[argparse.Namespace], int]] = {}
 
@@ -44,13 +46,57 @@ def cmd_load_demo(_args: argparse.Namespace) -> int:
 
 
 def cmd_serve(args: argparse.Namespace) -> int:
-    """Serve the app with uvicorn."""
+    """Serve the app with uvicorn (on the meeting-room network only with a passphrase)."""
     import uvicorn
 
+    from app.access.launch import prepare_network
+
+    if args.lan:
+        lan_settings(get_settings())
     settings = get_settings()
-    print(f"Tallyroom is serving on http://{settings.host}:{settings.port}", flush=True)
+    if settings.serves_network:
+        with Session(get_db_engine()) as session:
+            lines = prepare_network(session, settings)
+        if lines is None:
+            print("tallyroom serve: refusing to serve the network without a facilitator "
+                  "passphrase; set one with `tallyroom passphrase` first.", file=sys.stderr)
+            return 2
+        print("\n".join(lines), flush=True)
+    else:
+        print(f"Tallyroom is serving on http://{settings.host}:{settings.port}", flush=True)
     uvicorn.run("app.main:create_app", factory=True, host=settings.host, port=settings.port,
                 log_level="warning")
+    return 0
+
+
+def lan_settings(settings: Settings) -> None:
+    """Switch this process to LAN mode (all interfaces unless a LAN address is configured)."""
+    os.environ["TALLYROOM_LAN"] = "1"
+    if settings.host in LOOPBACK_HOSTS:
+        os.environ["TALLYROOM_HOST"] = "0.0.0.0"
+    get_settings.cache_clear()
+
+
+def cmd_passphrase(args: argparse.Namespace) -> int:
+    """Set the facilitator passphrase (asked twice, or one line from standard input)."""
+    from app.access.passphrase import PassphraseError
+    from app.access.state import set_passphrase
+
+    if args.stdin:
+        first = second = sys.stdin.readline().rstrip("\n")
+    else:
+        first = getpass.getpass("New facilitator passphrase: ")
+        second = getpass.getpass("The same again: ")
+    if first != second:
+        print("tallyroom passphrase: the two entries differ; nothing changed.", file=sys.stderr)
+        return 2
+    with Session(get_db_engine()) as session:
+        try:
+            set_passphrase(session, first)
+        except PassphraseError as err:
+            print(f"tallyroom passphrase: {err} Nothing changed.", file=sys.stderr)
+            return 2
+    print("facilitator passphrase set (stored as a salted scrypt hash)")
     return 0
 
 
@@ -113,7 +159,12 @@ def build_parser() -> argparse.ArgumentParser:
     sub = parser.add_subparsers(dest="command", required=True)
     sub.add_parser("migrate", help="upgrade the database to the newest migration")
     sub.add_parser("load-demo", help="load the invented demo study into an empty database")
-    sub.add_parser("serve", help="serve on the configured host and port")
+    serve = sub.add_parser("serve", help="serve on the configured host and port")
+    serve.add_argument("--lan", action="store_true",
+                       help="serve the meeting-room network (needs a facilitator passphrase)")
+    passphrase = sub.add_parser("passphrase", help="set the facilitator passphrase")
+    passphrase.add_argument("--stdin", action="store_true",
+                            help="read it from one line of standard input instead of asking")
     for extend in PARSER_EXTENSIONS:
         extend(sub)
     return parser
@@ -124,7 +175,7 @@ PARSER_EXTENSIONS: list[Callable[[argparse._SubParsersAction], None]] = [  # typ
     _add_file_commands,
 ]
 COMMANDS.update({"migrate": cmd_migrate, "load-demo": cmd_load_demo, "serve": cmd_serve,
-                 "export": cmd_export, "import": cmd_import})
+                 "passphrase": cmd_passphrase, "export": cmd_export, "import": cmd_import})
 
 
 def main(argv: Sequence[str] | None = None) -> int:

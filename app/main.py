@@ -9,10 +9,11 @@ from starlette.exceptions import HTTPException as StarletteHTTPException
 from starlette.responses import Response
 
 import app.routes
+from app.access.setup import install_access
 from app.db.tracking import install_tracking
 from app.routes.rendering import render
 from app.services.study.tree import NotFoundError
-from app.settings import PROJECT_ROOT
+from app.settings import PROJECT_ROOT, Settings, get_settings
 
 
 def discover_routers() -> list[APIRouter]:
@@ -26,10 +27,12 @@ def discover_routers() -> list[APIRouter]:
     return routers
 
 
-def create_app() -> FastAPI:
+def create_app(settings: Settings | None = None) -> FastAPI:
     """Build the app; the database must already be migrated (`make run` does it)."""
     install_tracking()
-    application = FastAPI(title="Tallyroom", docs_url="/api/docs", redoc_url=None)
+    # No docs page: it would load its scripts from a CDN. /openapi.json stays.
+    application = FastAPI(title="Tallyroom", docs_url=None, redoc_url=None)
+    install_access(application, settings or get_settings())
     application.mount("/static", StaticFiles(directory=PROJECT_ROOT / "static"), name="static")
     for router in discover_routers():
         application.include_router(router)

@@ -19,6 +19,10 @@ class Settings(BaseSettings):
     host: str = "127.0.0.1"
     port: int = 8000
     room_poll_seconds: float = 0.5
+    # Serve the meeting-room network: sign-in with the passphrase or the day's join code.
+    lan: bool = False
+    # Other names this server answers to (a DNS name for the LAN address; the test client).
+    extra_hosts: list[str] = []
 
     @field_validator("database_url")
     @classmethod
@@ -27,6 +31,14 @@ class Settings(BaseSettings):
         if not url.startswith(("sqlite", "postgresql")):
             raise ValueError("TALLYROOM_DATABASE_URL must be an sqlite:// or postgresql:// URL")
         return url
+
+    @property
+    def serves_network(self) -> bool:
+        """True when other machines can reach the server: LAN mode or a non-loopback bind."""
+        return self.lan or self.host not in LOOPBACK_HOSTS
+
+
+LOOPBACK_HOSTS = frozenset({"127.0.0.1", "localhost", "::1"})
 
 
 @lru_cache

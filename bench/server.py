@@ -68,7 +68,7 @@ import sys
 from sqlmodel import Session
 from app.db.session import get_db_engine
 from app.db.tracking import install_tracking
-from app.services.study_import import import_study_text
+from app.services.exchange.study_import import import_study_text
 install_tracking()
 with Session(get_db_engine()) as session:
     print(import_study_text(session, open(sys.argv[1], 'rb').read()).id)

@@ -308,3 +308,18 @@ class DeletedItem(SQLModel, table=True):
     entity: str = Field(max_length=40)
     label: str = Field(default="", max_length=300)
     payload: str = Field(sa_column=Column(Text, nullable=False))
+
+
+class AccessState(SQLModel, table=True):
+    """Who may use a served Tallyroom: one row, never part of a study, an export or the log."""
+
+    __tablename__ = "access_state"
+    id: int | None = Field(default=None, primary_key=True)
+    # Signs the session cookies; made on first use so each installation has its own.
+    secret_key: str = Field(max_length=100)
+    # "scrypt$n$r$p$salt$hash" (app/access/passphrase.py); empty until a passphrase is set.
+    passphrase_hash: str = Field(default="", max_length=300)
+    join_code: str = Field(default="", max_length=20)
+    join_code_day: date | None = None
+    # Sessions stamped with an older generation are ended (the settings page's "end sessions").
+    session_generation: int = 0

@@ -6,15 +6,15 @@ from typing import Annotated
 from fastapi import Depends, Request
 from sqlmodel import Session
 
+from app.access.guard import current_access
 from app.db.session import get_db_engine
 from app.db.tracking import AUTHOR_KEY
 
-AUTHOR_COOKIE = "tallyroom_author"
-
 
 def author_name(request: Request) -> str:
-    """The name this browser gave for the change log ('' until it is given)."""
-    return request.cookies.get(AUTHOR_COOKIE, "").strip()[:120]
+    """The name this session signs the change log with ('' until it is given)."""
+    access = current_access(request)
+    return access.name if access else ""
 
 
 def get_session(request: Request) -> Iterator[Session]:

@@ -154,7 +154,7 @@ def test_the_initiating_event_is_estimated_per_year_everything_else_as_a_probabi
     assert {unit_for_kind(kind) for kind in others} == {PROBABILITY}
 
 
-positive = st.floats(min_value=1e-12, max_value=1.0, allow_nan=False, allow_infinity=False)
+positive = st.floats(min_value=1e-9, max_value=1.0, allow_nan=False, allow_infinity=False)
 
 
 @given(st.lists(positive, min_size=1, max_size=12))

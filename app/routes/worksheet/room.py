@@ -5,6 +5,7 @@ from typing import Annotated
 from fastapi import APIRouter, Form, Request
 from starlette.responses import Response
 
+from app.access.roles import Role, allow
 from app.routes.deps import SessionDep
 from app.routes.rendering import render
 from app.services.worksheet import room as room_service
@@ -14,6 +15,7 @@ router = APIRouter(prefix="/studies/{study_id}")
 
 
 @router.get("/room", name="read_room")
+@allow(Role.VIEWER)
 def read_room(request: Request, study_id: int, session: SessionDep) -> Response:
     """Read-only, large-type view of the scenario the scribe is working on."""
     room = room_service.build_room_view(session=session, study_id=study_id)
@@ -22,6 +24,7 @@ def read_room(request: Request, study_id: int, session: SessionDep) -> Response:
 
 
 @router.get("/room/live", name="read_room_live")
+@allow(Role.VIEWER)
 def read_room_live(request: Request, study_id: int, session: SessionDep,
                    stamp: str = "") -> Response:
     """204 while nothing changed since `stamp`; the room's live region once something did."""

@@ -116,7 +116,7 @@ def test_edit_opens_the_row_as_a_form_with_escape_to_cancel(
                           headers=HX).text
     assert fragment.lstrip().startswith('<div id="attendance-section"')
     assert 'id="edit-day-date"' in fragment and 'value="2026-11-11"' in fragment
-    assert "keydown[key=='Escape']" in fragment
+    assert 'hx-trigger="tallyroom-escape"' in fragment  # static/app.js fires it on Escape
     person_page = client.get(f"/studies/{study.id}/attendance/participants/{people[1]}/edit")
     assert 'id="edit-person-name"' in person_page.text and 'value="A. Okafor"' in person_page.text
 
