@@ -292,3 +292,16 @@ class DeletedItem(SQLModel, table=True):
     entity: str = Field(max_length=40)
     label: str = Field(default="", max_length=300)
     payload: str = Field(sa_column=Column(Text, nullable=False))
+
+
+def _never_reuse_ids() -> None:
+    # SQLite hands out the highest id + 1 unless the table says AUTOINCREMENT, so a deleted
+    # row's id comes back and a page still pointing at it would touch someone else's new row.
+    # PostgreSQL sequences never go back and ignore this option.
+    for table in SQLModel.metadata.tables.values():
+        key = [column.name for column in table.primary_key.columns]
+        if key == ["id"]:
+            table.dialect_kwargs["sqlite_autoincrement"] = True
+
+
+_never_reuse_ids()
