@@ -5,29 +5,23 @@ import sys
 from collections.abc import Callable, Sequence
 from pathlib import Path
 
-from alembic import command
-from alembic.config import Config
 from sqlmodel import Session
 
+from app.cli_data import DATA_COMMANDS, add_data_commands
+from app.db.migrate import alembic_config, upgrade_database
 from app.db.session import get_db_engine
-from app.settings import PROJECT_ROOT, get_settings
+from app.settings import get_settings
+
+__all__ = ["alembic_config", "main", "upgrade_database"]
 
 COMMANDS: dict[str, Callable[[argparse.Namespace], int]] = {}
 
 
-def alembic_config() -> Config:
-    """Alembic configured from pyproject.toml's [tool.alembic]."""
-    return Config(toml_file=str(PROJECT_ROOT / "pyproject.toml"))
-
-
-def upgrade_database() -> None:
-    """Bring the configured database to the newest migration."""
-    command.upgrade(alembic_config(), "head")
-
-
 def cmd_migrate(_args: argparse.Namespace) -> int:
-    """Run `alembic upgrade head` on the configured database."""
-    upgrade_database()
+    """Run `alembic upgrade head` on the configured database (after a backup when behind)."""
+    backup = upgrade_database()
+    if backup is not None:
+        print(f"backed up the database to {backup} before migrating")
     print("database is at the newest migration")
     return 0
 
@@ -44,13 +38,22 @@ def cmd_load_demo(_args: argparse.Namespace) -> int:
 
 
 def cmd_serve(args: argparse.Namespace) -> int:
-    """Serve the app with uvicorn."""
+    """Serve the app with uvicorn until Ctrl-C or SIGTERM, then stop cleanly (exit 0)."""
+    import signal
+
     import uvicorn
 
     settings = get_settings()
+    # uvicorn shuts down gracefully on either signal (the app's lifespan checkpoints and backs
+    # up), then raises it again; these handlers let that second raise end the command normally.
+    stopped_by: list[int] = []
+    for stop_signal in (signal.SIGINT, signal.SIGTERM):
+        signal.signal(stop_signal, lambda number, _frame: stopped_by.append(number))
     print(f"Tallyroom is serving on http://{settings.host}:{settings.port}", flush=True)
     uvicorn.run("app.main:create_app", factory=True, host=settings.host, port=settings.port,
                 log_level="warning")
+    if stopped_by:
+        print(f"Tallyroom stopped cleanly ({signal.Signals(stopped_by[0]).name})", flush=True)
     return 0
 
 
@@ -122,9 +125,10 @@ def build_parser() -> argparse.ArgumentParser:
 # Other modules add sub-commands here (for example export and import).
 PARSER_EXTENSIONS: list[Callable[[argparse._SubParsersAction], None]] = [  # type: ignore[type-arg]
     _add_file_commands,
+    add_data_commands,
 ]
 COMMANDS.update({"migrate": cmd_migrate, "load-demo": cmd_load_demo, "serve": cmd_serve,
-                 "export": cmd_export, "import": cmd_import})
+                 "export": cmd_export, "import": cmd_import, **DATA_COMMANDS})
 
 
 def main(argv: Sequence[str] | None = None) -> int:

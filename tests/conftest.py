@@ -17,6 +17,9 @@ TEST_DATABASE_URL = os.environ.get(
 )
 # Set before the app reads its settings, so every engine in the process is the test one.
 os.environ["TALLYROOM_DATABASE_URL"] = TEST_DATABASE_URL
+# No rolling copies of the test database on every app shutdown; tests/db/test_backups.py and
+# tests/test_server_process.py turn them on where they are the subject.
+os.environ["TALLYROOM_BACKUP_KEEP"] = "0"
 
 from fastapi.testclient import TestClient  # noqa: E402
 from sqlalchemy import Engine  # noqa: E402
