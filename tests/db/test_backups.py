@@ -36,7 +36,7 @@ def _edits_database(path: Path) -> Engine:
     db_engine = build_db_engine(sqlite_url(path))
     with db_engine.begin() as connection:
         connection.execute(text(
-            "CREATE TABLE edit (id INTEGER PRIMARY KEY AUTOINCREMENT, writer INT, n INT, half INT)"))
+            "CREATE TABLE edit (id INTEGER PRIMARY KEY, writer INT, n INT, half INT)"))
     return db_engine
 
 
