@@ -65,7 +65,12 @@ def test_restore_changes_nothing_unless_the_answer_is_yes(
     assert main(["backup", "--out", str(copy)]) == 0
     _add_study(database, "After the backup")
     questions: list[str] = []
-    monkeypatch.setattr("builtins.input", lambda question: questions.append(question) or answer)
+
+    def ask(question: str) -> str:
+        questions.append(question)
+        return answer
+
+    monkeypatch.setattr("builtins.input", ask)
     assert main(["restore", str(copy)]) == 1
     assert _titles(database) == ["Before the backup", "After the backup"]
     assert questions == [f"Replace the database {database} with {copy}? The current database "

@@ -57,7 +57,7 @@ def test_a_backup_taken_while_edits_run_holds_every_edit_acknowledged_before_it(
 ) -> None:
     live, copy, restored = tmp_path / "live.db", tmp_path / "copy.db", tmp_path / "restored.db"
     db_engine = _edits_database(live)
-    stop, acknowledged = threading.Event(), []
+    stop, acknowledged = threading.Event(), list[tuple[int, int]]()
     writers = [threading.Thread(target=_write_until, args=(db_engine, w, stop, acknowledged))
                for w in range(WRITERS)]
     for thread in writers:

@@ -7,6 +7,7 @@ TALLYROOM_TEST_DATABASE_URL points at one).
 import threading
 from collections.abc import Callable
 from concurrent.futures import ThreadPoolExecutor
+from typing import TypeVar
 
 import pytest
 from sqlalchemy import Engine
@@ -18,6 +19,7 @@ from app.db.tracking import AUTHOR_KEY
 from tests.factories import make_scenario_tree, make_step
 
 ROUNDS = 10
+Result = TypeVar("Result")
 
 
 @pytest.fixture
@@ -28,7 +30,7 @@ def step(session: Session) -> Step:
     return made
 
 
-def _in_threads(count: int, work: Callable[[int], object]) -> list[object]:
+def _in_threads(count: int, work: Callable[[int], Result]) -> list[Result]:
     with ThreadPoolExecutor(max_workers=count) as pool:
         return list(pool.map(work, range(count)))
 

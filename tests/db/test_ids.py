@@ -29,7 +29,7 @@ def test_every_table_keyed_by_id_says_autoincrement_on_sqlite(db_engine: Engine)
     if db_engine.dialect.name != "sqlite":
         pytest.skip("PostgreSQL sequences never reuse a value; the option is SQLite's")
     with db_engine.connect() as connection:
-        schema = dict(connection.exec_driver_sql(
+        schema: dict[str, str] = dict(connection.exec_driver_sql(
             "SELECT name, sql FROM sqlite_master WHERE type = 'table'").fetchall())
     keyed_by_id = [t.name for t in SQLModel.metadata.sorted_tables
                    if [c.name for c in t.primary_key.columns] == ["id"]]
