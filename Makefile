@@ -4,7 +4,7 @@ VENV := .venv
 BIN := $(VENV)/bin
 PIP_FLAGS := --quiet --disable-pip-version-check
 
-.PHONY: run test test-fast lint migrate demo clean bench
+.PHONY: run test test-fast test-postgres lint migrate demo clean bench
 
 $(BIN)/python:
 	$(PYTHON) -m venv $(VENV)
@@ -33,6 +33,11 @@ test: $(VENV)/.installed-test
 test-fast: $(VENV)/.installed-test
 	PYTEST_DISABLE_PLUGIN_AUTOLOAD=1 $(BIN)/pytest -p hypothesis tests/likelihood
 
+## test-postgres: every layer but the browser one, on a throwaway PostgreSQL cluster (needs
+## Debian's postgresql package; the cluster is removed at the end, also on failure)
+test-postgres: $(VENV)/.installed-test
+	.ci/throwaway-postgres $(BIN)/pytest -q --ignore=tests/browser
+
 lint: $(VENV)/.installed-test
 	$(BIN)/ruff check app tests migrations bench
 
@@ -41,5 +46,7 @@ lint: $(VENV)/.installed-test
 bench: $(VENV)/.installed-test
 	$(BIN)/python -m bench.run
 
+## clean: remove the virtual environment and test output; never the data/ folder, which holds
+## the database and its backups
 clean:
-	rm -rf $(VENV) data test-artifacts
+	rm -rf $(VENV) test-artifacts

@@ -7,29 +7,23 @@ import sys
 from collections.abc import Callable, Sequence
 from pathlib import Path
 
-from alembic import command
-from alembic.config import Config
 from sqlmodel import Session
 
+from app.cli_data import DATA_COMMANDS, add_data_commands
+from app.db.migrate import alembic_config, upgrade_database
 from app.db.session import get_db_engine
-from app.settings import LOOPBACK_HOSTS, PROJECT_ROOT, Settings, get_settings
+from app.settings import LOOPBACK_HOSTS, Settings, get_settings
+
+__all__ = ["alembic_config", "main", "upgrade_database"]
 
 COMMANDS: dict[str, Callable[[argparse.Namespace], int]] = {}
 
 
-def alembic_config() -> Config:
-    """Alembic configured from pyproject.toml's [tool.alembic]."""
-    return Config(toml_file=str(PROJECT_ROOT / "pyproject.toml"))
-
-
-def upgrade_database() -> None:
-    """Bring the configured database to the newest migration."""
-    command.upgrade(alembic_config(), "head")
-
-
 def cmd_migrate(_args: argparse.Namespace) -> int:
-    """Run `alembic upgrade head` on the configured database."""
-    upgrade_database()
+    """Run `alembic upgrade head` on the configured database (after a backup when behind)."""
+    backup = upgrade_database()
+    if backup is not None:
+        print(f"backed up the database to {backup} before migrating")
     print("database is at the newest migration")
     return 0
 
@@ -46,7 +40,12 @@ def cmd_load_demo(_args: argparse.Namespace) -> int:
 
 
 def cmd_serve(args: argparse.Namespace) -> int:
-    """Serve the app with uvicorn (on the meeting-room network only with a passphrase)."""
+    """Serve the app with uvicorn until Ctrl-C or SIGTERM, then stop cleanly (exit 0).
+
+    On the meeting-room network only with a passphrase.
+    """
+    import signal
+
     import uvicorn
 
     from app.access.launch import prepare_network
@@ -62,10 +61,17 @@ def cmd_serve(args: argparse.Namespace) -> int:
                   "passphrase; set one with `tallyroom passphrase` first.", file=sys.stderr)
             return 2
         print("\n".join(lines), flush=True)
-    else:
+    # uvicorn shuts down gracefully on either signal (the app's lifespan checkpoints and backs
+    # up), then raises it again; these handlers let that second raise end the command normally.
+    stopped_by: list[int] = []
+    for stop_signal in (signal.SIGINT, signal.SIGTERM):
+        signal.signal(stop_signal, lambda number, _frame: stopped_by.append(number))
+    if not settings.serves_network:
         print(f"Tallyroom is serving on http://{settings.host}:{settings.port}", flush=True)
     uvicorn.run("app.main:create_app", factory=True, host=settings.host, port=settings.port,
                 log_level="warning")
+    if stopped_by:
+        print(f"Tallyroom stopped cleanly ({signal.Signals(stopped_by[0]).name})", flush=True)
     return 0
 
 
@@ -173,9 +179,11 @@ def build_parser() -> argparse.ArgumentParser:
 # Other modules add sub-commands here (for example export and import).
 PARSER_EXTENSIONS: list[Callable[[argparse._SubParsersAction], None]] = [  # type: ignore[type-arg]
     _add_file_commands,
+    add_data_commands,
 ]
 COMMANDS.update({"migrate": cmd_migrate, "load-demo": cmd_load_demo, "serve": cmd_serve,
-                 "passphrase": cmd_passphrase, "export": cmd_export, "import": cmd_import})
+                 "passphrase": cmd_passphrase, "export": cmd_export, "import": cmd_import,
+                 **DATA_COMMANDS})
 
 
 def main(argv: Sequence[str] | None = None) -> int:

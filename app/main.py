@@ -11,6 +11,7 @@ from starlette.responses import Response
 import app.routes
 from app.access.setup import install_access
 from app.db.tracking import install_tracking
+from app.lifecycle import server_lifespan
 from app.routes.rendering import render
 from app.services.study.tree import NotFoundError
 from app.settings import PROJECT_ROOT, Settings, get_settings
@@ -31,7 +32,8 @@ def create_app(settings: Settings | None = None) -> FastAPI:
     """Build the app; the database must already be migrated (`make run` does it)."""
     install_tracking()
     # No docs page: it would load its scripts from a CDN. /openapi.json stays.
-    application = FastAPI(title="Tallyroom", docs_url=None, redoc_url=None)
+    application = FastAPI(title="Tallyroom", docs_url=None, redoc_url=None,
+                          lifespan=server_lifespan)
     install_access(application, settings or get_settings())
     application.mount("/static", StaticFiles(directory=PROJECT_ROOT / "static"), name="static")
     for router in discover_routers():

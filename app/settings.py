@@ -3,7 +3,7 @@
 from functools import lru_cache
 from pathlib import Path
 
-from pydantic import field_validator
+from pydantic import Field, field_validator
 from pydantic_settings import BaseSettings, SettingsConfigDict
 
 PROJECT_ROOT = Path(__file__).resolve().parent.parent
@@ -23,6 +23,10 @@ class Settings(BaseSettings):
     lan: bool = False
     # Other names this server answers to (a DNS name for the LAN address; the test client).
     extra_hosts: list[str] = []
+    # Rolling copies of an SQLite database kept in backups/ beside it (0 turns them off) and
+    # how often the server looks for edits to copy.
+    backup_keep: int = Field(default=20, ge=0)
+    backup_interval_seconds: float = Field(default=300.0, gt=0)
 
     @field_validator("database_url")
     @classmethod

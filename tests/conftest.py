@@ -19,6 +19,9 @@ TEST_DATABASE_URL = os.environ.get(
 os.environ["TALLYROOM_DATABASE_URL"] = TEST_DATABASE_URL
 # The test client's host name (http://testserver), besides the loopback names.
 os.environ["TALLYROOM_EXTRA_HOSTS"] = '["testserver"]'
+# No rolling copies of the test database on every app shutdown; tests/db/test_backups.py and
+# tests/test_server_process.py turn them on where they are the subject.
+os.environ["TALLYROOM_BACKUP_KEEP"] = "0"
 
 from fastapi.testclient import TestClient  # noqa: E402
 from sqlalchemy import Engine  # noqa: E402

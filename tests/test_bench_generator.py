@@ -8,8 +8,8 @@ import json
 from collections import Counter
 
 import pytest
-from app.services.exchange.study_schema import StudyFile
 
+from app.services.exchange.study_schema import StudyFile
 from bench.generate import LARGE_NODE_NUMBER, build_study, study_text
 
 

@@ -323,3 +323,16 @@ class AccessState(SQLModel, table=True):
     join_code_day: date | None = None
     # Sessions stamped with an older generation are ended (the settings page's "end sessions").
     session_generation: int = 0
+
+
+def _never_reuse_ids() -> None:
+    # SQLite hands out the highest id + 1 unless the table says AUTOINCREMENT, so a deleted
+    # row's id comes back and a page still pointing at it would touch someone else's new row.
+    # PostgreSQL sequences never go back and ignore this option.
+    for table in SQLModel.metadata.tables.values():
+        key = [column.name for column in table.primary_key.columns]
+        if key == ["id"]:
+            table.dialect_kwargs["sqlite_autoincrement"] = True
+
+
+_never_reuse_ids()

@@ -5,7 +5,7 @@ passphrase's salted scrypt hash, the day's join code and the session generation 
 (raising it ends every session). It belongs to no study and is never exported or logged.
 
 Revision ID: 5e1a9c3d7b20
-Revises: 0c15478a5dc4
+Revises: 5e1a0c7d2b94
 Create Date: 2026-12-02 06:15:00
 """
 from collections.abc import Sequence
@@ -15,7 +15,7 @@ import sqlmodel
 from alembic import op
 
 revision: str = '5e1a9c3d7b20'
-down_revision: str | None = '0c15478a5dc4'
+down_revision: str | None = '5e1a0c7d2b94'
 branch_labels: str | Sequence[str] | None = None
 depends_on: str | Sequence[str] | None = None
 
@@ -31,6 +31,7 @@ def upgrade() -> None:
         sa.Column('join_code_day', sa.Date(), nullable=True),
         sa.Column('session_generation', sa.Integer(), nullable=False),
         sa.PrimaryKeyConstraint('id', name=op.f('pk_access_state')),
+        sqlite_autoincrement=True,  # ids are never reused (revision 5e1a0c7d2b94)
     )
 
 
