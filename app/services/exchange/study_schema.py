@@ -10,14 +10,17 @@ from typing import Any, Final, Literal
 from pydantic import BaseModel, ConfigDict, Field, field_validator, model_validator
 
 from app.db.models import ActionStatus, Receptor
-from app.likelihood.types import StepKind
+from app.likelihood.check_base import CauseType
+from app.likelihood.types import ModifierKind, StepKind
 
 # Any in this module: the proof-test inputs, the snapshot and the JSON Schema are JSON objects
 # (the file boundary).
 
 FILE_FORMAT: Final = "tallyroom-study"
-SCHEMA_VERSION: Final = 1
-SCHEMA_PATH = "/schema/study-v1.json"
+SCHEMA_VERSION: Final = 2
+SCHEMA_PATH = "/schema/study-v2.json"
+READABLE_VERSIONS: Final = (1, 2)
+"""Version 1 files are upgraded on reading (study_file.upgrade_study_data)."""
 
 
 class FileRow(BaseModel):
@@ -62,6 +65,21 @@ class StepRow(FileRow):
     sil_claimed: int | None = Field(default=None, ge=1, le=4)
     typical_key: str | None = Field(default=None, max_length=60)
     proof_test: dict[str, Any] | None = None
+    # Schema version 2 (issue 9): what the method and the IPL checks need per step.
+    acts_after_sif: bool = False
+    modifier_kind: ModifierKind | None = None
+    receptors: list[Receptor] | None = Field(
+        default=None, description="receptors a modifier applies to; null: its kind's default")
+    cause_type: CauseType | None = None
+    final_element_tag: str = Field(default="", max_length=80)
+    alarm_on_bpcs: bool | None = None
+    crew: str = Field(default="", max_length=80)
+    per_opportunity_probability: float | None = Field(default=None, gt=0, le=1,
+                                                      allow_inf_nan=False)
+    opportunities_per_year: float | None = Field(default=None, gt=0, allow_inf_nan=False)
+    time_available_minutes: float | None = Field(default=None, ge=0, allow_inf_nan=False)
+    time_to_detect_and_act_minutes: float | None = Field(default=None, ge=0,
+                                                         allow_inf_nan=False)
 
     @model_validator(mode="after")
     def probability_at_most_one(self) -> "StepRow":
@@ -88,6 +106,7 @@ class ScenarioRow(FileRow):
     severity: str = Field(description="ref of a people/general severity category")
     environment_severity: str | None = None
     asset_severity: str | None = None
+    people_not_rated: bool = False
     steps: list[StepRow]
     safeguards: list[SafeguardRow] = []
 
@@ -190,10 +209,10 @@ class RevisionRow(FileRow):
 class StudyFile(FileRow):
     """One whole Tallyroom study: content, attendance, change log and revisions."""
 
-    model_config = ConfigDict(extra="forbid", title="Tallyroom study file, schema version 1")
+    model_config = ConfigDict(extra="forbid", title="Tallyroom study file, schema version 2")
 
     format: Literal["tallyroom-study"] = FILE_FORMAT
-    schema_version: Literal[1] = SCHEMA_VERSION
+    schema_version: Literal[2] = SCHEMA_VERSION
     invented: bool = Field(default=False, description="true for made-up demo data")
     study: StudyHeader
     severity_categories: list[CategoryRow] = Field(min_length=1)
