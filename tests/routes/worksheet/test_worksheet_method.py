@@ -1,6 +1,6 @@
 """Issue 9 on the worksheet and the overview: demand on an added SIF, a line per receptor,
 figures with flagged credits withdrawn, and bounded inputs refused with the rule named."""
-# ruff: noqa: RUF001 - the multiplication sign is what the page shows
+# ruff: noqa: RUF001, RUF002 - the multiplication sign is what the page shows
 
 import re
 from html import unescape
