@@ -88,9 +88,9 @@ def scenario_ratings_of_study(study_id: int) -> Any:
 
 
 def category_targets_of_study(study_id: int) -> Any:
-    """Each severity category's id, name and tolerable frequency, as plain rows."""
+    """Each severity category's id, name, tolerable frequency and receptor, as plain rows."""
     return select(SeverityCategory.id, SeverityCategory.name,
-                  SeverityCategory.tolerable_frequency).where(
+                  SeverityCategory.tolerable_frequency, SeverityCategory.receptor).where(
         SeverityCategory.study_id == study_id)
 
 

@@ -108,6 +108,20 @@ class ScenarioOutcome:
     governing_category: SeverityCategory | None
     error: str = ""
     assessment: Assessment | None = None
+    rated: tuple[tuple[Receptor, SeverityCategory], ...] = ()
+    """Each rated receptor's severity category, in receptor order."""
+
+    def figures(self, *, withdrawn: bool) -> Figures | None:
+        """The figures as credited, or with flagged credits withdrawn where a check flags one."""
+        if self.assessment is None:
+            return None
+        if withdrawn and self.assessment.withdrawn is not None:
+            return self.assessment.withdrawn
+        return self.assessment.as_credited
+
+    def category_of(self, receptor: Receptor) -> SeverityCategory | None:
+        """The severity category a rated receptor is judged against."""
+        return dict(self.rated).get(receptor)
 
 
 def governing_category(
@@ -130,12 +144,30 @@ def governing_category(
 def receptor_categories(
     scenario: RatedScenario, categories: Mapping[int, Category], *, people_not_rated: bool
 ) -> dict[Receptor, Category]:
-    """Each rated receptor's category: people from the severity rating (unless not rated)."""
-    ids = {Receptor.PEOPLE: None if people_not_rated else scenario.severity_category_id,
-           Receptor.ENVIRONMENT: scenario.environment_category_id,
-           Receptor.ASSET: scenario.asset_category_id}
-    return {receptor: categories[i] for receptor, i in ids.items()
-            if i is not None and i in categories}
+    """Each rated receptor's category.
+
+    The main severity rating counts for the receptor its category names (people unless the
+    category says environment or asset), and not at all when people are not rated; the
+    environment and asset ratings count for theirs. Two ratings of one receptor: the stricter.
+    """
+    slots = [(None if people_not_rated else scenario.severity_category_id, None),
+             (scenario.environment_category_id, Receptor.ENVIRONMENT),
+             (scenario.asset_category_id, Receptor.ASSET)]
+    rated: dict[Receptor, Category] = {}
+    for category_id, slot_receptor in slots:
+        category = categories.get(category_id) if category_id is not None else None
+        if category is None:
+            continue
+        receptor = slot_receptor or _receptor_of(category)
+        held = rated.get(receptor)
+        if held is None or category.tolerable_frequency < held.tolerable_frequency:
+            rated[receptor] = category
+    return rated
+
+
+def _receptor_of(category: RatedCategory) -> Receptor:
+    stored = str(getattr(category, "receptor", "") or "")
+    return Receptor(stored) if stored in tuple(Receptor) else Receptor.PEOPLE
 
 
 def _ordered(steps: Iterable[StoredStep]) -> list[StoredStep]:
@@ -279,4 +311,6 @@ def compute_outcome(
         assessed=assessment_of)
     if assessment is None:
         return ScenarioOutcome(None, None, error)
-    return ScenarioOutcome(assessment.as_credited.result, category, "", assessment)
+    rated = receptor_categories(scenario, categories, people_not_rated=scenario.people_not_rated)
+    return ScenarioOutcome(assessment.as_credited.result, category, "", assessment,
+                           tuple((r, rated[r]) for r in Receptor if r in rated))
