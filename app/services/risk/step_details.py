@@ -10,8 +10,8 @@ from sqlmodel.sql.expression import SelectOfScalar
 
 from app.db.models import Deviation, Scenario, SeverityCategory, Step, Study, saved_id, text_limit
 from app.db.queries import fetch_rows_of_study
-from app.likelihood.checks import CheckWarning, check_scenario
 from app.likelihood.check_base import CauseType
+from app.likelihood.checks import CheckWarning, check_scenario
 from app.likelihood.numbers import parse_frequency, parse_probability
 from app.likelihood.types import (
     DemandMode,
@@ -109,7 +109,7 @@ def step_need(session: Session, place: StepPlace) -> StepNeed | None:
         return None
     target = result.sil_target
     needed = 1 / result.ratio if result.ratio > 1 else None  # at most 1: met without the layer
-    # The demand on this layer: what reaches it (initiating × enabling × layers before it).
+    # The demand on this layer: what reaches it (initiating x enabling x layers before it).
     demand = result.demand.demand_rate_per_year if result.demand else result.mitigated_frequency
     return StepNeed(demand, needed, target.demand_mode is DemandMode.HIGH)
 
