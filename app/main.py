@@ -3,13 +3,14 @@
 import importlib
 import pkgutil
 
-from fastapi import APIRouter, FastAPI, Request
+from fastapi import APIRouter, Depends, FastAPI, Request
 from fastapi.staticfiles import StaticFiles
 from starlette.exceptions import HTTPException as StarletteHTTPException
 from starlette.responses import Response
 
 import app.routes
 from app.db.tracking import install_tracking
+from app.routes.deps import check_path_ids
 from app.routes.rendering import render
 from app.services.study_tree import NotFoundError
 from app.settings import PROJECT_ROOT
@@ -28,7 +29,8 @@ def discover_routers() -> list[APIRouter]:
 def create_app() -> FastAPI:
     """Build the app; the database must already be migrated (`make run` does it)."""
     install_tracking()
-    application = FastAPI(title="Tallyroom", docs_url="/api/docs", redoc_url=None)
+    application = FastAPI(title="Tallyroom", docs_url="/api/docs", redoc_url=None,
+                          dependencies=[Depends(check_path_ids)])
     application.mount("/static", StaticFiles(directory=PROJECT_ROOT / "static"), name="static")
     for router in discover_routers():
         application.include_router(router)

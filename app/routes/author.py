@@ -6,7 +6,7 @@ from urllib.parse import urlparse
 from fastapi import APIRouter, Form
 from starlette.responses import RedirectResponse
 
-from app.routes.deps import AUTHOR_COOKIE
+from app.routes.deps import AUTHOR_COOKIE, author_cookie_value
 
 router = APIRouter()
 ONE_YEAR_SECONDS = 365 * 24 * 3600
@@ -20,5 +20,6 @@ def update_author(
     # Only same-site paths: a crafted form must not bounce the user elsewhere.
     target = next if next.startswith("/") and not urlparse(next).netloc else "/"
     response = RedirectResponse(target, status_code=303)
-    response.set_cookie(AUTHOR_COOKIE, name.strip(), max_age=ONE_YEAR_SECONDS, samesite="lax")
+    response.set_cookie(AUTHOR_COOKIE, author_cookie_value(name), max_age=ONE_YEAR_SECONDS,
+                        samesite="lax")
     return response

@@ -9,6 +9,7 @@ from starlette.responses import Response
 from starlette.routing import NoMatchFound
 
 from app.likelihood.numbers import format_number, format_one_in
+from app.routes.deps import author_name
 from app.settings import PROJECT_ROOT
 
 CAUTIONS = (
@@ -31,7 +32,7 @@ def orders(value: float | None) -> str:
 
 
 templates.env.filters.update(sci=sci, one_in=format_one_in, orders=orders)
-templates.env.globals.update(cautions=CAUTIONS)
+templates.env.globals.update(cautions=CAUTIONS, author_name=author_name)
 
 
 def is_htmx(request: Request) -> bool:

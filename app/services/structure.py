@@ -10,6 +10,7 @@ from typing import Any
 
 from sqlmodel import Session, col, select
 
+from app.db.ids import read_row_id
 from app.db.models import (
     Deviation,
     Node,
@@ -220,7 +221,8 @@ def _read_text_fields(kind: RowKind, changes: Mapping[str, str], *,
 def _read_category(session: Session, study_id: int, field: str, text: str) -> int | None:
     if not text.strip() and field != "severity_category_id":
         return None
-    category = session.get(SeverityCategory, int(text)) if text.strip().isdigit() else None
+    category_id = read_row_id(text)
+    category = session.get(SeverityCategory, category_id) if category_id else None
     if category is None or category.study_id != study_id:
         raise StructureInputError(field, f"choose one of the study's severity categories "
                                   f"(got '{text}').")
