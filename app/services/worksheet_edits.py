@@ -152,6 +152,6 @@ def edit_field(*, session: Session, study_id: int, kind_name: str, row_id: int,
         session.rollback()
         return FieldReply(field_id(kind_name, row_id, err.field), "", err.message,
                           _reply_for(session, kind_name, row))
-    said = plain_value(row) if sent == "value_text" else SAVED
+    said = plain_value(row) if (kind_name, sent) == ("step", "value_text") else SAVED
     return FieldReply(field_id(kind_name, row_id, sent), said, "",
                       _reply_for(session, kind_name, row))
