@@ -11,7 +11,13 @@ class FieldInputError(ValueError):
 
 
 def length_problem(text: str, limit: int) -> str | None:
-    """The message of the length rule when `text` is over its column's `limit`, else None."""
+    """The message of the rule typed text breaks, else None: every text field's one check.
+
+    Text must fit its column's `limit` and hold no NUL character (PostgreSQL refuses NUL in
+    text, and no one types it on purpose).
+    """
+    if "\x00" in text:
+        return "must not contain the NUL control character (\\x00)."
     if len(text) <= limit:
         return None
     return f"at most {limit} characters (got {len(text)})."
