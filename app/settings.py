@@ -19,6 +19,10 @@ class Settings(BaseSettings):
     host: str = "127.0.0.1"
     port: int = 8000
     room_poll_seconds: float = 0.5
+    # Study-file limits (README "Importing a study file"): a node's worksheet shows every one of
+    # its scenarios at once, so a node is bounded; the study as a whole is bounded too.
+    max_import_scenarios: int = 50_000
+    max_import_scenarios_per_node: int = 2_000
 
     @field_validator("database_url")
     @classmethod
