@@ -94,11 +94,11 @@ def _check_size(data: dict[str, Any]) -> None:
         enumerate(_items(data, "revisions"))]
     for where, study in studies:
         total = 0
-        for number, node in enumerate(_items(study, "nodes")):
+        for node in _items(study, "nodes"):
             count = sum(len(_items(d, "scenarios")) for d in _items(node, "deviations"))
             if count > settings.max_import_scenarios_per_node:
                 raise StudyFileError(
-                    f"{where}: node {number} has {count:,} scenarios; a node may have at most "
+                    f"{where}: node {node.get('number')!r} has {count:,} scenarios; a node may have at most "
                     f"{settings.max_import_scenarios_per_node:,} (split it into smaller nodes)")
             total += count
         if total > settings.max_import_scenarios:
