@@ -3,6 +3,7 @@
 from typing import Any, TypeVar
 
 from sqlalchemy import Row as ResultRow
+from sqlalchemy import update
 from sqlmodel import Session, col, func, select
 from sqlmodel.sql.expression import SelectOfScalar
 
@@ -160,3 +161,15 @@ def studies_with_counts() -> Any:
 def fetch_studies_with_counts(session: Session) -> list[tuple[Study, int, int]]:
     """Run studies_with_counts."""
     return [tuple(row) for row in session.exec(studies_with_counts()).all()]  # type: ignore[misc]
+
+
+def lock_study_order(session: Session, study_id: int) -> None:
+    """Make this transaction the study's only reorderer until it commits.
+
+    A reorder reads the siblings' positions and writes new ones; two at once would each write
+    from a stale read and leave tied positions. A no-op UPDATE of the study row as the
+    transaction's first statement takes the row lock on PostgreSQL and the write lock on
+    SQLite, so the next reorder waits and then reads the committed order.
+    """
+    table: Any = Study.__table__
+    session.execute(update(table).where(table.c.id == study_id).values(id=table.c.id))

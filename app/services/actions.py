@@ -17,6 +17,7 @@ from app.db.models import (
     RecommendationScenario,
     Scenario,
 )
+from app.db.queries import lock_study_order
 from app.services.action_inputs import (
     ActionInputError,
     ActionOrder,
@@ -111,6 +112,7 @@ def move_action(
     *, session: Session, action_id: int, study_id: int, direction: str
 ) -> Recommendation:
     """Swap the action with its neighbour in the team order ('up' or 'down'); ends stay put."""
+    lock_study_order(session, study_id)
     action = get_action(session=session, action_id=action_id, study_id=study_id)
     step = read_direction(direction)
     ordered = _in_team_order(session, study_id)

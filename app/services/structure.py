@@ -21,6 +21,7 @@ from app.db.models import (
     StepKindValue,
     text_limit,
 )
+from app.db.queries import lock_study_order
 from app.likelihood.numbers import ParsedNumber, parse_frequency, parse_probability
 from app.likelihood.types import STEP_KIND_LABELS, LikelihoodInputError, StepKind
 from app.services.errors import FieldInputError, length_problem
@@ -278,6 +279,7 @@ def update_row(*, session: Session, study_id: int, kind_name: str, row_id: int,
 def move_row(*, session: Session, study_id: int, kind_name: str, row_id: int,
              offset: int) -> Any:
     """Move a row up (offset -1) or down (+1) among its siblings; at an end it stays put."""
+    lock_study_order(session, study_id)
     kind = kind_of(kind_name)
     row = get_row(session, kind, study_id, row_id)
     ordered = siblings(session, kind, row)

@@ -97,9 +97,10 @@ def _check_size(data: dict[str, Any]) -> None:
         for node in _items(study, "nodes"):
             count = sum(len(_items(d, "scenarios")) for d in _items(node, "deviations"))
             if count > settings.max_import_scenarios_per_node:
+                limit = settings.max_import_scenarios_per_node
                 raise StudyFileError(
-                    f"{where}: node {node.get('number')!r} has {count:,} scenarios; a node may have at most "
-                    f"{settings.max_import_scenarios_per_node:,} (split it into smaller nodes)")
+                    f"{where}: node {node.get('number')!r} has {count:,} scenarios; a node "
+                    f"may have at most {limit:,} (split it into smaller nodes)")
             total += count
         if total > settings.max_import_scenarios:
             raise StudyFileError(f"{where} has {total:,} scenarios; a study file may have at "

@@ -21,12 +21,13 @@ from app.services.proof_test_inputs import ProofTestForm
 from app.settings import PROJECT_ROOT
 
 NASTY_TEXT = [
-    "", " ", "\x00", "a\x00b", "\u202ereversed\u202c", "\u2067isolate\u2069", "١٢", "²",
+    "", " ", "\x00", "a\x00b", "\u202ereversed\u202c", "\u2067isolate\u2069",
+    "\u0661\u0662", "\u00b2",
     str(MAX_ROW_ID), str(MAX_ROW_ID + 1), "-1", "0", "1e308", "1e-400", "nan", "inf", "-inf",
     "1 in 0", "0%", "yes", "9" * 400, "x" * 6000, "Ŝtefan 李 Ωμέγα", "<script>", "=1+1",
-    "2024-02-30", "0001-01-01", "9999-12-31", "1:2", "1:١", f"{MAX_ROW_ID + 1}:1",
+    "2024-02-30", "0001-01-01", "9999-12-31", "1:2", "1:\u0661", f"{MAX_ROW_ID + 1}:1",
 ]
-ID_TEXT = ["0", "-1", "١", "²", str(MAX_ROW_ID), str(MAX_ROW_ID + 1), "abc", "1.0"]
+ID_TEXT = ["0", "-1", "\u0661", "\u00b2", str(MAX_ROW_ID), str(MAX_ROW_ID + 1), "abc", "1.0"]
 
 
 def _field_names() -> list[str]:
@@ -48,7 +49,6 @@ def _post_routes(app: FastAPI) -> list[str]:
                   if "post" in operations)
 
 
-STATS: dict[int, int] = {}
 POST_ROUTES = _post_routes(create_app())
 FIELD_NAMES = _field_names()
 texts = st.one_of(st.sampled_from(NASTY_TEXT), st.text(max_size=40),
@@ -77,8 +77,6 @@ def test_random_form_posts_never_get_a_server_error(
         url, form, htmx = request
         headers = {"HX-Request": "true"} if htmx else {}
         response = fuzz_client.post(url, data=form, headers=headers, follow_redirects=False)
-        STATS[response.status_code] = STATS.get(response.status_code, 0) + 1
         assert response.status_code < 500, (url, form, response.status_code)
 
     post_one()
-    print(STATS)
