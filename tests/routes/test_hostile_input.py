@@ -131,3 +131,15 @@ def test_bidirectional_controls_are_isolated_where_text_is_shown(
     # First-strong isolate, the text with its override closed (PDF), pop isolate.
     assert "\u2068\u202eevil\u202c\u2069" in page
     assert "\u202eevil\u202c\u2069" not in page.replace("\u2068\u202eevil\u202c\u2069", "")
+
+
+@pytest.mark.parametrize("name", ["李小龍", "أمينة", "😀 Kai"])
+def test_participant_names_in_any_script_are_kept_and_exported(
+    client: TestClient, session: Session, scenario: Scenario, name: str
+) -> None:
+    study = scenario.study_id
+    response = client.post(f"/studies/{study}/attendance/participants", data={"name": name},
+                           follow_redirects=False)
+    assert response.status_code == 303
+    assert name in client.get(f"/studies/{study}/attendance").text
+    assert name in client.get(f"/studies/{study}/export.json").content.decode("utf-8")
