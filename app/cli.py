@@ -1,33 +1,29 @@
 """The `tallyroom` command: set up the database, load the demo, serve, export, import."""
 
 import argparse
+import getpass
+import os
 import sys
 from collections.abc import Callable, Sequence
 from pathlib import Path
 
-from alembic import command
-from alembic.config import Config
 from sqlmodel import Session
 
+from app.cli_data import DATA_COMMANDS, add_data_commands
+from app.db.migrate import alembic_config, upgrade_database
 from app.db.session import get_db_engine
-from app.settings import PROJECT_ROOT, get_settings
+from app.settings import LOOPBACK_HOSTS, Settings, get_settings
+
+__all__ = ["alembic_config", "main", "upgrade_database"]
 
 COMMANDS: dict[str, Callable[[argparse.Namespace], int]] = {}
 
 
-def alembic_config() -> Config:
-    """Alembic configured from pyproject.toml's [tool.alembic]."""
-    return Config(toml_file=str(PROJECT_ROOT / "pyproject.toml"))
-
-
-def upgrade_database() -> None:
-    """Bring the configured database to the newest migration."""
-    command.upgrade(alembic_config(), "head")
-
-
 def cmd_migrate(_args: argparse.Namespace) -> int:
-    """Run `alembic upgrade head` on the configured database."""
-    upgrade_database()
+    """Run `alembic upgrade head` on the configured database (after a backup when behind)."""
+    backup = upgrade_database()
+    if backup is not None:
+        print(f"backed up the database to {backup} before migrating")
     print("database is at the newest migration")
     return 0
 
@@ -44,21 +40,77 @@ def cmd_load_demo(_args: argparse.Namespace) -> int:
 
 
 def cmd_serve(args: argparse.Namespace) -> int:
-    """Serve the app with uvicorn."""
+    """Serve the app with uvicorn until Ctrl-C or SIGTERM, then stop cleanly (exit 0).
+
+    On the meeting-room network only with a passphrase.
+    """
+    import signal
+
     import uvicorn
 
+    from app.access.launch import prepare_network
+
+    if args.lan:
+        lan_settings(get_settings())
     settings = get_settings()
-    print(f"Tallyroom is serving on http://{settings.host}:{settings.port}", flush=True)
+    if settings.serves_network:
+        with Session(get_db_engine()) as session:
+            lines = prepare_network(session, settings)
+        if lines is None:
+            print("tallyroom serve: refusing to serve the network without a facilitator "
+                  "passphrase; set one with `tallyroom passphrase` first.", file=sys.stderr)
+            return 2
+        print("\n".join(lines), flush=True)
+    # uvicorn shuts down gracefully on either signal (the app's lifespan checkpoints and backs
+    # up), then raises it again; these handlers let that second raise end the command normally.
+    stopped_by: list[int] = []
+    for stop_signal in (signal.SIGINT, signal.SIGTERM):
+        signal.signal(stop_signal, lambda number, _frame: stopped_by.append(number))
+    if not settings.serves_network:
+        print(f"Tallyroom is serving on http://{settings.host}:{settings.port}", flush=True)
     uvicorn.run("app.main:create_app", factory=True, host=settings.host, port=settings.port,
                 log_level="warning")
+    if stopped_by:
+        print(f"Tallyroom stopped cleanly ({signal.Signals(stopped_by[0]).name})", flush=True)
+    return 0
+
+
+def lan_settings(settings: Settings) -> None:
+    """Switch this process to LAN mode (all interfaces unless a LAN address is configured)."""
+    os.environ["TALLYROOM_LAN"] = "1"
+    if settings.host in LOOPBACK_HOSTS:
+        os.environ["TALLYROOM_HOST"] = "0.0.0.0"
+    get_settings.cache_clear()
+
+
+def cmd_passphrase(args: argparse.Namespace) -> int:
+    """Set the facilitator passphrase (asked twice, or one line from standard input)."""
+    from app.access.passphrase import PassphraseError
+    from app.access.state import set_passphrase
+
+    if args.stdin:
+        first = second = sys.stdin.readline().rstrip("\n")
+    else:
+        first = getpass.getpass("New facilitator passphrase: ")
+        second = getpass.getpass("The same again: ")
+    if first != second:
+        print("tallyroom passphrase: the two entries differ; nothing changed.", file=sys.stderr)
+        return 2
+    with Session(get_db_engine()) as session:
+        try:
+            set_passphrase(session, first)
+        except PassphraseError as err:
+            print(f"tallyroom passphrase: {err} Nothing changed.", file=sys.stderr)
+            return 2
+    print("facilitator passphrase set (stored as a salted scrypt hash)")
     return 0
 
 
 def cmd_export(args: argparse.Namespace) -> int:
     """Write one study to a file in the chosen format."""
     from app.routes.rendering import templates
-    from app.services.exports import ExportFormat, build_export, find_study
-    from app.services.study_tree import NotFoundError
+    from app.services.exchange.exports import ExportFormat, build_export, find_study
+    from app.services.study.tree import NotFoundError
 
     with Session(get_db_engine()) as session:
         try:
@@ -78,8 +130,8 @@ def cmd_export(args: argparse.Namespace) -> int:
 def cmd_import(args: argparse.Namespace) -> int:
     """Create a new study from a study file; print its id."""
     from app.db.tracking import install_tracking
-    from app.services.study_import import import_study_upload
-    from app.services.study_io import StudyFileError
+    from app.services.exchange.study_file import StudyFileError
+    from app.services.exchange.study_import import import_study_upload
 
     path = Path(args.file)
     try:
@@ -100,9 +152,9 @@ def cmd_import(args: argparse.Namespace) -> int:
 
 def cmd_delete_study(args: argparse.Namespace) -> int:
     """Delete one study and everything it holds, only when --yes confirms it."""
-    from app.services.exports import find_study
-    from app.services.studies import delete_study, list_studies
-    from app.services.study_tree import NotFoundError
+    from app.services.exchange.exports import find_study
+    from app.services.study.listing import delete_study, list_studies
+    from app.services.study.tree import NotFoundError
 
     with Session(get_db_engine()) as session:
         try:
@@ -142,7 +194,12 @@ def build_parser() -> argparse.ArgumentParser:
     sub = parser.add_subparsers(dest="command", required=True)
     sub.add_parser("migrate", help="upgrade the database to the newest migration")
     sub.add_parser("load-demo", help="load the invented demo study into an empty database")
-    sub.add_parser("serve", help="serve on the configured host and port")
+    serve = sub.add_parser("serve", help="serve on the configured host and port")
+    serve.add_argument("--lan", action="store_true",
+                       help="serve the meeting-room network (needs a facilitator passphrase)")
+    passphrase = sub.add_parser("passphrase", help="set the facilitator passphrase")
+    passphrase.add_argument("--stdin", action="store_true",
+                            help="read it from one line of standard input instead of asking")
     for extend in PARSER_EXTENSIONS:
         extend(sub)
     return parser
@@ -151,10 +208,11 @@ def build_parser() -> argparse.ArgumentParser:
 # Other modules add sub-commands here (for example export and import).
 PARSER_EXTENSIONS: list[Callable[[argparse._SubParsersAction], None]] = [  # type: ignore[type-arg]
     _add_file_commands,
+    add_data_commands,
 ]
 COMMANDS.update({"migrate": cmd_migrate, "load-demo": cmd_load_demo, "serve": cmd_serve,
-                 "export": cmd_export, "import": cmd_import,
-                 "delete-study": cmd_delete_study})
+                 "passphrase": cmd_passphrase, "export": cmd_export, "import": cmd_import,
+                 "delete-study": cmd_delete_study, **DATA_COMMANDS})
 
 
 def main(argv: Sequence[str] | None = None) -> int:

@@ -5,7 +5,7 @@ from pathlib import Path
 from sqlmodel import Session, select
 
 from app.db.models import Study
-from app.services.study_import import import_study_text
+from app.services.exchange.study_import import import_study_text
 from app.settings import PROJECT_ROOT
 
 DEMO_STUDY_PATH = PROJECT_ROOT / "sample_data" / "demo_study.json"

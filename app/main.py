@@ -9,28 +9,35 @@ from starlette.exceptions import HTTPException as StarletteHTTPException
 from starlette.responses import Response
 
 import app.routes
+from app.access.setup import install_access
 from app.db.tracking import install_tracking
+from app.lifecycle import server_lifespan
 from app.routes.deps import check_path_ids
 from app.routes.rendering import render
-from app.services.study_tree import NotFoundError
-from app.settings import PROJECT_ROOT
+from app.services.study.tree import NotFoundError
+from app.settings import PROJECT_ROOT, Settings, get_settings
 
 
 def discover_routers() -> list[APIRouter]:
-    """Every `router` defined by a module of app.routes, so an area adds itself by existing."""
+    """Every `router` defined by a module of app.routes or its area packages, in name order."""
     routers = []
-    for module_info in sorted(pkgutil.iter_modules(app.routes.__path__), key=lambda m: m.name):
-        module = importlib.import_module(f"app.routes.{module_info.name}")
+    found = pkgutil.walk_packages(app.routes.__path__, prefix="app.routes.")
+    for module_info in sorted(found, key=lambda m: m.name):
+        module = importlib.import_module(module_info.name)
         if isinstance(getattr(module, "router", None), APIRouter):
             routers.append(module.router)
     return routers
 
 
-def create_app() -> FastAPI:
+def create_app(settings: Settings | None = None) -> FastAPI:
     """Build the app; the database must already be migrated (`make run` does it)."""
     install_tracking()
-    application = FastAPI(title="Tallyroom", docs_url="/api/docs", redoc_url=None,
-                          dependencies=[Depends(check_path_ids)])
+    # No docs page: it would load its scripts from a CDN. /openapi.json stays.
+    application = FastAPI(title="Tallyroom", docs_url=None, redoc_url=None,
+                          lifespan=server_lifespan)
+    install_access(application, settings or get_settings())
+    # After the access checks: who may ask is settled before the path's ids are read.
+    application.router.dependencies.append(Depends(check_path_ids))
     application.mount("/static", StaticFiles(directory=PROJECT_ROOT / "static"), name="static")
     for router in discover_routers():
         application.include_router(router)

@@ -3,7 +3,7 @@
 from functools import lru_cache
 from pathlib import Path
 
-from pydantic import field_validator
+from pydantic import Field, field_validator
 from pydantic_settings import BaseSettings, SettingsConfigDict
 
 PROJECT_ROOT = Path(__file__).resolve().parent.parent
@@ -25,6 +25,14 @@ class Settings(BaseSettings):
     # whole study too (an import of 10,000 scenarios takes ~10 s here).
     max_import_scenarios: int = 20_000
     max_import_scenarios_per_node: int = 500
+    # Serve the meeting-room network: sign-in with the passphrase or the day's join code.
+    lan: bool = False
+    # Other names this server answers to (a DNS name for the LAN address; the test client).
+    extra_hosts: list[str] = []
+    # Rolling copies of an SQLite database kept in backups/ beside it (0 turns them off) and
+    # how often the server looks for edits to copy.
+    backup_keep: int = Field(default=20, ge=0)
+    backup_interval_seconds: float = Field(default=300.0, gt=0)
 
     @field_validator("database_url")
     @classmethod
@@ -33,6 +41,14 @@ class Settings(BaseSettings):
         if not url.startswith(("sqlite", "postgresql")):
             raise ValueError("TALLYROOM_DATABASE_URL must be an sqlite:// or postgresql:// URL")
         return url
+
+    @property
+    def serves_network(self) -> bool:
+        """True when other machines can reach the server: LAN mode or a non-loopback bind."""
+        return self.lan or self.host not in LOOPBACK_HOSTS
+
+
+LOOPBACK_HOSTS = frozenset({"127.0.0.1", "localhost", "::1"})
 
 
 @lru_cache

@@ -1,6 +1,7 @@
 """Alembic environment: the URL comes from the app's settings, the schema from its models."""
 
 from alembic import context
+from sqlalchemy import Connection
 from sqlmodel import SQLModel
 
 import app.db.models  # noqa: F401  (registers every table on the metadata)
@@ -23,26 +24,46 @@ def run_migrations_offline() -> None:
 
 
 def run_migrations_online() -> None:
-    """Run migrations on a live connection (an existing one when the tests pass it in)."""
-    connection = context.config.attributes.get("connection")
-    if connection is not None:
-        _run_on(connection)
-        return
+    """Run migrations on a fresh connection to the configured database."""
     db_engine = build_db_engine(get_settings().database_url)
     with db_engine.connect() as fresh:
         _run_on(fresh)
     db_engine.dispose()
 
 
-def _run_on(connection: object) -> None:
+def _run_on(connection: Connection) -> None:
     context.configure(
-        connection=connection,  # type: ignore[arg-type]
+        connection=connection,
         target_metadata=target_metadata,
         render_as_batch=True,
         compare_type=True,
     )
-    with context.begin_transaction():
-        context.run_migrations()
+    on_sqlite = connection.dialect.name == "sqlite"
+    if on_sqlite:
+        _sqlite_foreign_keys(connection, enabled=False)
+    try:
+        with context.begin_transaction():
+            context.run_migrations()
+            if on_sqlite:
+                _check_sqlite_foreign_keys(connection)
+    finally:
+        if on_sqlite:
+            _sqlite_foreign_keys(connection, enabled=True)
+
+
+def _sqlite_foreign_keys(connection: Connection, *, enabled: bool) -> None:
+    # SQLite's procedure for rebuilding a table (sqlite.org/lang_altertable.html, "other kinds
+    # of table schema changes"): foreign keys off outside the transaction, so dropping a parent
+    # table during a batch rebuild cascades nowhere; checked before commit instead.
+    # The pragma is ignored inside a transaction, hence the commit of the empty one.
+    connection.exec_driver_sql(f"PRAGMA foreign_keys={'ON' if enabled else 'OFF'}")
+    connection.commit()
+
+
+def _check_sqlite_foreign_keys(connection: Connection) -> None:
+    broken = connection.exec_driver_sql("PRAGMA foreign_key_check").fetchall()
+    if broken:
+        raise RuntimeError(f"migration left rows pointing at missing parents: {broken[:5]}")
 
 
 if context.is_offline_mode():

@@ -16,6 +16,15 @@
 
   window.Tallyroom = { client: client, nextSeq: nextSeq };
 
+  // The client id and sequence number go with each value edit (no hx-vals "js:": the
+  // Content-Security-Policy allows no eval).
+  document.addEventListener("htmx:configRequest", function (event) {
+    const field = event.detail.elt;
+    if (!field || !field.matches || !field.matches("[data-value-field]")) return;
+    event.detail.parameters.client = client;
+    event.detail.parameters.seq = nextSeq(field);
+  });
+
   // A reply carries the sequence number it answers; drop it if the field has moved on.
   document.addEventListener("htmx:beforeSwap", function (event) {
     const field = event.detail.requestConfig && event.detail.requestConfig.elt;
@@ -47,7 +56,10 @@
     clearTimeout(focusTimer);
     focusTimer = setTimeout(function () {
       const body = new URLSearchParams({ scenario_id: scenarioId });
-      fetch("/studies/" + sheet.dataset.study + "/focus", { method: "POST", body: body });
+      const headers = {};
+      headers[TallyroomCsrf.header] = TallyroomCsrf.token();
+      fetch("/studies/" + sheet.dataset.study + "/focus",
+            { method: "POST", body: body, headers: headers });
     }, 100);
   }
 

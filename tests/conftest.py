@@ -17,6 +17,11 @@ TEST_DATABASE_URL = os.environ.get(
 )
 # Set before the app reads its settings, so every engine in the process is the test one.
 os.environ["TALLYROOM_DATABASE_URL"] = TEST_DATABASE_URL
+# The test client's host name (http://testserver), besides the loopback names.
+os.environ["TALLYROOM_EXTRA_HOSTS"] = '["testserver"]'
+# No rolling copies of the test database on every app shutdown; tests/db/test_backups.py and
+# tests/test_server_process.py turn them on where they are the subject.
+os.environ["TALLYROOM_BACKUP_KEEP"] = "0"
 
 from fastapi.testclient import TestClient  # noqa: E402
 from sqlalchemy import Engine  # noqa: E402
@@ -28,9 +33,10 @@ from app.db.session import get_db_engine  # noqa: E402
 from app.db.tracking import AUTHOR_KEY, install_tracking  # noqa: E402
 from app.demo import load_demo_study  # noqa: E402
 from app.main import create_app  # noqa: E402
-from app.routes.deps import AUTHOR_COOKIE  # noqa: E402
+from tests.helpers import TEST_AUTHOR  # noqa: E402
+from tests.security.sessions import install_local_session  # noqa: E402
 
-TEST_AUTHOR = "Test Scribe"
+LOOPBACK_CLIENT = ("127.0.0.1", 50000)
 
 
 @pytest.fixture(scope="session")
@@ -59,9 +65,11 @@ def session(db_engine: Engine) -> Iterator[Session]:
 
 @pytest.fixture
 def client(session: Session) -> Iterator[TestClient]:
-    """An httpx client on the app, with this browser's change-log name set."""
-    with TestClient(create_app()) as test_client:
-        test_client.cookies.set(AUTHOR_COOKIE, TEST_AUTHOR)
+    """An httpx client on the app as the person at this computer (loopback, facilitator):
+    its session carries the change-log name, and every request sends the session's CSRF
+    token in the header, as the pages' htmx does."""
+    with TestClient(create_app(), client=LOOPBACK_CLIENT) as test_client:
+        install_local_session(test_client, TEST_AUTHOR)
         yield test_client
 
 

@@ -4,16 +4,8 @@ from typing import Any
 
 from sqlmodel import Session
 
-from app.db.models import (
-    Deviation,
-    Node,
-    Safeguard,
-    Scenario,
-    SeverityCategory,
-    Step,
-    StepKindValue,
-    Study,
-)
+from app.db.models import Deviation, Node, Safeguard, Scenario, SeverityCategory, Step, Study
+from app.likelihood.types import StepKind
 
 
 def _save(session: Session, row: Any) -> Any:
@@ -66,14 +58,14 @@ def make_scenario(
                 "severity_category_id": first_category(session, study).id}
     scenario = _save(session, Scenario(study_id=deviation.study_id, deviation_id=deviation.id,
                                        **{**defaults, **values}))
-    make_step(session, scenario, kind=StepKindValue.INITIATING_EVENT,
+    make_step(session, scenario, kind=StepKind.INITIATING_EVENT,
               value=initiating_frequency, description="Control loop failure", position=0)
     return scenario
 
 
 def make_step(session: Session, scenario: Scenario, **values: Any) -> Step:
     """A step of `scenario` (an IPL at PFD 0.1 unless told otherwise)."""
-    defaults = {"kind": StepKindValue.IPL, "value": 0.1, "description": "High level alarm",
+    defaults = {"kind": StepKind.IPL, "value": 0.1, "description": "High level alarm",
                 "position": 10}
     return _save(session, Step(study_id=scenario.study_id, scenario_id=scenario.id,
                                **{**defaults, **values}))

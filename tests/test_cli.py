@@ -8,10 +8,10 @@ from sqlmodel import Session, select
 
 from app.cli import main
 from app.db.models import Study
-from app.services.exports import study_json_bytes
-from app.services.study_io import export_study
+from app.services.exchange.exports import study_json_bytes
+from app.services.exchange.study_file import export_study
 from tests.factories import make_scenario_tree, make_study
-from tests.services.export_samples import study_count
+from tests.samples import study_count
 
 
 @pytest.fixture
@@ -136,7 +136,7 @@ def test_delete_study_with_yes_removes_the_study_and_everything_it_holds(
     session: Session, demo_study: Study, study: Study, capsys: pytest.CaptureFixture[str]
 ) -> None:
     from app.db.models import ChangeLogEntry, Revision, Scenario, Step
-    from app.services.revisions import freeze_revision
+    from app.services.record.revisions import freeze_revision
 
     doomed, kept = demo_study.id, study.id
     freeze_revision(session=session, study_id=doomed or 0, frozen_by="T",

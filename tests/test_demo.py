@@ -7,7 +7,7 @@ from sqlmodel import Session, func, select
 from app.db.models import Study
 from app.demo import DEMO_STUDY_PATH, load_demo_if_empty
 from app.likelihood.types import StepKind
-from app.services.study_tree import load_study_tree
+from app.services.study.tree import load_study_tree
 
 
 def test_the_demo_file_says_it_is_invented() -> None:
@@ -21,19 +21,20 @@ def test_the_demo_study_has_the_promised_size(session: Session, demo_study: Stud
     deviations = [d for n in tree.nodes for d in n.deviations]
     assert len(tree.nodes) >= 3
     assert len(deviations) >= 8
-    assert len(tree.scenario_nodes()) >= 15
+    assert len(tree.scenario_branches()) >= 15
 
 
 def test_the_demo_uses_every_step_kind(session: Session, demo_study: Study) -> None:
     tree = load_study_tree(session, demo_study.id)
-    kinds = {str(step.kind) for s in tree.scenario_nodes() for step in s.steps}
+    kinds = {str(step.kind) for s in tree.scenario_branches() for step in s.steps}
     assert kinds == {str(kind) for kind in StepKind}
 
 
 def test_some_demo_scenarios_meet_their_target_and_some_fall_short(
     session: Session, demo_study: Study
 ) -> None:
-    results = [s.outcome.result for s in load_study_tree(session, demo_study.id).scenario_nodes()]
+    tree = load_study_tree(session, demo_study.id)
+    results = [s.outcome.result for s in tree.scenario_branches()]
     assert all(result is not None for result in results)
     verdicts = {result.meets_target for result in results if result is not None}
     assert verdicts == {True, False}
@@ -48,7 +49,7 @@ def test_the_demo_loads_only_into_an_empty_database(session: Session) -> None:
 def test_the_demo_study_is_flagged_invented_and_stays_so_on_export(
     session: Session, demo_study: Study
 ) -> None:
-    from app.services.study_io import export_study
+    from app.services.exchange.study_file import export_study
 
     assert demo_study.invented is True
     assert export_study(session, demo_study.id)["invented"] is True

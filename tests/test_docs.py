@@ -40,3 +40,16 @@ def test_the_readme_carries_the_cautions_the_app_shows() -> None:
     assert "decision support for a competent review team" in README
     assert "only as good as the" in README and "inputs the team agrees" in README
     assert "decision support for a competent review team" in CAUTIONS
+
+
+def test_make_clean_never_deletes_the_database_or_its_backups() -> None:
+    from app.db.backups import backups_folder, sqlite_file
+    from app.settings import DEFAULT_DATABASE_URL
+
+    database = sqlite_file(DEFAULT_DATABASE_URL)
+    assert database is not None and backups_folder(database) == PROJECT_ROOT / "data" / "backups"
+    recipe = re.search(r"^clean:.*\n((?:\t.*\n)+)", MAKEFILE, re.M)
+    assert recipe is not None
+    removed = recipe.group(1).split()
+    assert not any(word.rstrip("/") in ("data", "data/backups", "*", ".") for word in removed)
+    assert "data/backups/" in README and "`make clean`" in README

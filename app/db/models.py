@@ -2,9 +2,13 @@
 
 from datetime import UTC, date, datetime
 from enum import StrEnum
+from typing import Any
 
-from sqlalchemy import Column, Index, MetaData, Text, false, text
+from sqlalchemy import Column, Dialect, Index, MetaData, Text, false, text
+from sqlalchemy.types import TypeDecorator
 from sqlmodel import AutoString, Field, SQLModel
+
+from app.likelihood.types import StepKind
 
 # Constraint names are fixed so Alembic migrations are stable on SQLite and PostgreSQL alike.
 SQLModel.metadata = MetaData(
@@ -16,6 +20,13 @@ SQLModel.metadata = MetaData(
         "pk": "pk_%(table_name)s",
     }
 )
+
+
+def saved_id(row_id: int | None) -> int:
+    """The id of a row that has been flushed (only a row never flushed has none)."""
+    if row_id is None:
+        raise ValueError("the row has no id until it is flushed")
+    return row_id
 
 
 def utc_now() -> datetime:
@@ -31,13 +42,18 @@ def text_limit(model: type[SQLModel], field: str) -> int:
     return int(length)
 
 
-class StepKindValue(StrEnum):
-    """Stored step kinds; the same strings as app.likelihood.StepKind."""
+class StepKindText(TypeDecorator[StepKind]):
+    """A step kind stored as plain text (not a database enum, so a new kind needs no migration
+    on PostgreSQL) and read back as app.likelihood's StepKind, the one vocabulary of kinds."""
 
-    INITIATING_EVENT = "initiating_event"
-    ENABLING_CONDITION = "enabling_condition"
-    CONDITIONAL_MODIFIER = "conditional_modifier"
-    IPL = "ipl"
+    impl = AutoString(length=30)
+    cache_ok = True
+
+    def process_bind_param(self, value: str | None, dialect: Dialect) -> str | None:
+        return None if value is None else StepKind(value).value
+
+    def process_result_value(self, value: str | None, dialect: Dialect) -> StepKind | None:
+        return None if value is None else StepKind(value)
 
 
 class Receptor(StrEnum):
@@ -65,7 +81,7 @@ class TrackedRow(SQLModel):
     updated_at: datetime = Field(default_factory=utc_now, nullable=False)
 
 
-def _study_fk() -> int:
+def _study_fk() -> Any:  # Any: SQLModel's Field() is typed to fit any annotation
     return Field(foreign_key="study.id", ondelete="CASCADE", index=True)
 
 
@@ -151,7 +167,7 @@ class Scenario(ScenarioBase, TrackedRow, table=True):
 
 
 class StepBase(SQLModel):
-    kind: StepKindValue = Field(sa_type=AutoString(length=30))  # plain text, not a DB enum
+    kind: StepKind = Field(sa_type=StepKindText)
     description: str = Field(default="", max_length=1000)
     value: float = Field(gt=0)
     # The scribe's own words for the last valid value, e.g. "1 in 100" or "3 in 30 years".
@@ -292,3 +308,31 @@ class DeletedItem(SQLModel, table=True):
     entity: str = Field(max_length=40)
     label: str = Field(default="", max_length=300)
     payload: str = Field(sa_column=Column(Text, nullable=False))
+
+
+class AccessState(SQLModel, table=True):
+    """Who may use a served Tallyroom: one row, never part of a study, an export or the log."""
+
+    __tablename__ = "access_state"
+    id: int | None = Field(default=None, primary_key=True)
+    # Signs the session cookies; made on first use so each installation has its own.
+    secret_key: str = Field(max_length=100)
+    # "scrypt$n$r$p$salt$hash" (app/access/passphrase.py); empty until a passphrase is set.
+    passphrase_hash: str = Field(default="", max_length=300)
+    join_code: str = Field(default="", max_length=20)
+    join_code_day: date | None = None
+    # Sessions stamped with an older generation are ended (the settings page's "end sessions").
+    session_generation: int = 0
+
+
+def _never_reuse_ids() -> None:
+    # SQLite hands out the highest id + 1 unless the table says AUTOINCREMENT, so a deleted
+    # row's id comes back and a page still pointing at it would touch someone else's new row.
+    # PostgreSQL sequences never go back and ignore this option.
+    for table in SQLModel.metadata.tables.values():
+        key = [column.name for column in table.primary_key.columns]
+        if key == ["id"]:
+            table.dialect_kwargs["sqlite_autoincrement"] = True
+
+
+_never_reuse_ids()

@@ -3,7 +3,9 @@
 from typing import Any, TypeVar
 
 from sqlalchemy import Row as ResultRow
+from sqlalchemy import select as select_columns
 from sqlalchemy import update
+from sqlalchemy.sql.selectable import GenerativeSelect
 from sqlmodel import Session, col, func, select
 from sqlmodel.sql.expression import SelectOfScalar
 
@@ -18,10 +20,14 @@ from app.db.models import (
     Study,
 )
 
+# Any in this module: the builders serve any table model and return SQLAlchemy statements whose
+# column types the ORM attributes do not carry (the ORM boundary).
+
 Row = TypeVar("Row")
+Ordered = TypeVar("Ordered", bound=GenerativeSelect)
 
 
-def _in_display_order(statement: Any, model: type[Any]) -> Any:
+def _in_display_order(statement: Ordered, model: type[Any]) -> Ordered:
     """Order rows as the worksheet shows them: by position where the model has one, then id."""
     table: Any = model
     if hasattr(model, "position"):
@@ -43,7 +49,7 @@ def fetch_rows_of_study(session: Session, model: type[Row], study_id: int) -> li
 def rows_of_node(model: type[Row], node_id: int) -> SelectOfScalar[Row]:
     """Every deviation, scenario, step or safeguard under one node, in display order."""
     table: Any = model
-    statement: Any = select(model)
+    statement = select(model)
     if model is not Deviation:
         if model is not Scenario:
             statement = statement.join(Scenario, col(Scenario.id) == table.scenario_id)
@@ -58,17 +64,19 @@ def fetch_rows_of_node(session: Session, model: type[Row], node_id: int) -> list
 
 def step_figures_of_study(study_id: int) -> Any:
     """The columns of a study's steps that the arithmetic reads, as plain rows."""
-    return select(Step.scenario_id, Step.id, Step.position, Step.kind, Step.value,
-                  Step.credited, Step.description).where(Step.study_id == study_id)
+    columns: list[Any] = [Step.scenario_id, Step.id, Step.position, Step.kind, Step.value,
+                          Step.credited, Step.description]  # Any: ORM attributes as columns
+    return select_columns(*columns).where(col(Step.study_id) == study_id)
 
 
 def scenario_ratings_of_study(study_id: int) -> Any:
     """Each scenario of a study with its node and its three severity ratings, as plain rows."""
-    return (select(Scenario.id, Scenario.deviation_id, Deviation.node_id,
-                   Scenario.severity_category_id, Scenario.environment_category_id,
-                   Scenario.asset_category_id)
+    columns: list[Any] = [Scenario.id, Scenario.deviation_id, Deviation.node_id,
+                          Scenario.severity_category_id, Scenario.environment_category_id,
+                          Scenario.asset_category_id]  # Any: ORM attributes as columns
+    return (select_columns(*columns)
             .join(Deviation, col(Deviation.id) == col(Scenario.deviation_id))
-            .where(Scenario.study_id == study_id))
+            .where(col(Scenario.study_id) == study_id))
 
 
 def category_targets_of_study(study_id: int) -> Any:
@@ -93,7 +101,8 @@ def fetch_plain_rows(session: Session, statement: Any) -> list[ResultRow[Any]]:
 
 def node_links_of_study(study_id: int) -> Any:
     """Each node's id, number and name in display order (for the node switcher)."""
-    statement = select(Node.id, Node.number, Node.name).where(Node.study_id == study_id)
+    statement = (select_columns(col(Node.id), col(Node.number), col(Node.name))
+                 .where(col(Node.study_id) == study_id))
     return _in_display_order(statement, Node)
 
 
@@ -160,7 +169,7 @@ def studies_with_counts() -> Any:
 
 def fetch_studies_with_counts(session: Session) -> list[tuple[Study, int, int]]:
     """Run studies_with_counts."""
-    return [tuple(row) for row in session.exec(studies_with_counts()).all()]  # type: ignore[misc]
+    return [tuple(row) for row in session.exec(studies_with_counts()).all()]
 
 
 def lock_study_order(session: Session, study_id: int) -> None:
@@ -171,5 +180,5 @@ def lock_study_order(session: Session, study_id: int) -> None:
     transaction's first statement takes the row lock on PostgreSQL and the write lock on
     SQLite, so the next reorder waits and then reads the committed order.
     """
-    table: Any = Study.__table__
+    table = Study.__table__  # type: ignore[attr-defined]
     session.execute(update(table).where(table.c.id == study_id).values(id=table.c.id))

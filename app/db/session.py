@@ -12,6 +12,8 @@ from sqlmodel import Session, create_engine
 
 from app.settings import get_settings
 
+# Any in this module: SQLAlchemy's connection and pragma hooks are untyped (the driver boundary).
+
 
 def _set_sqlite_pragmas(dbapi_connection: Any, _record: Any) -> None:
     # SQLite leaves foreign keys off by default; cascades and integrity rely on them.

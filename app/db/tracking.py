@@ -23,6 +23,9 @@ from app.db.models import (
     utc_now,
 )
 
+# Any in this module: session events hand over any tracked table row and its column values (the
+# ORM boundary).
+
 LOGGED_TYPES: dict[type, str] = {
     Study: "study",
     SeverityCategory: "severity category",
@@ -41,6 +44,8 @@ COALESCE_WINDOW = timedelta(seconds=60)
 
 AUTHOR_KEY = "author"
 SUPPRESS_LOG_KEY = "suppress_change_log"
+# Rows (model, id) whose version a compare-and-set has just raised in this session.
+CLAIMED_KEY = "claimed_rows"
 
 
 def describe(row: Any) -> str:
@@ -70,9 +75,15 @@ def _study_of(row: Any) -> int | None:
 
 def _bump_versions(session: OrmSession, _flush: UOWTransaction, _instances: Any) -> None:
     now = utc_now()
+    claimed = session.info.get(CLAIMED_KEY, set())
     for row in session.dirty:
         if isinstance(row, TrackedRow) and _has_tracked_change(row):
-            row.version = (row.version or 0) + 1
+            if (type(row), row.id) in claimed:  # type: ignore[attr-defined]
+                continue  # compare_and_set has bumped it already, in its guarded UPDATE
+            # `version = version + 1` in the UPDATE itself: the database adds one to the value
+            # it holds when the write happens, so two sessions that loaded the same version
+            # and commit one after the other end two higher, never one.
+            row.version = type(row).__table__.c.version + 1  # type: ignore[attr-defined]
             row.updated_at = now
 
 

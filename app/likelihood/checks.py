@@ -3,14 +3,27 @@
 from __future__ import annotations
 
 from collections.abc import Callable, Sequence
-from dataclasses import dataclass
+from dataclasses import replace
 
+from app.likelihood import sources
+from app.likelihood.check_base import (
+    CauseType,
+    CheckedStep,
+    CheckWarning,
+    credited_ipls,
+    same_tag,
+    warn,
+)
+from app.likelihood.checks_credit import CREDIT_RULES
+from app.likelihood.checks_human import HUMAN_RULES
+from app.likelihood.checks_independence import INDEPENDENCE_RULES
 from app.likelihood.sil import SIL_PFD_RANGES
-from app.likelihood.types import IplType, StepInput, StepKind, describe_step
+from app.likelihood.sources import Citation
+from app.likelihood.types import IplType, StepKind
 from app.likelihood.typical import typical_by_key
 from app.likelihood.validation import at_least, at_most
 
-__all__ = ["CheckWarning", "CheckedStep", "IplType", "check_scenario"]
+__all__ = ["CauseType", "CheckWarning", "CheckedStep", "IplType", "check_scenario"]
 
 BPCS_PFD_FLOOR = 0.1
 OPERATOR_PFD_FLOOR = 0.1
@@ -22,53 +35,21 @@ OPERATOR_SOURCE = "CCPS, Layer of Protection Analysis (2001), ch. 6 (from memory
 SIL_BAND_SOURCE = "IEC 61511-1:2016, Table 4, low demand (values secondary; table from memory)"
 
 
-@dataclass(frozen=True)
-class CheckedStep:
-    """A step with what the checks need to know about the layer or cause behind it."""
-
-    kind: StepKind
-    value: float
-    label: str = ""
-    credited: bool = True
-    ipl_type: IplType | None = None
-    system_tag: str = ""
-    response_time_minutes: float | None = None
-    sil_claimed: int | None = None
-    typical_key: str | None = None
-    cause_system_tag: str = ""
-
-    def to_step_input(self) -> StepInput:
-        """The part of this step that the frequency arithmetic uses."""
-        return StepInput(self.kind, self.value, self.label, self.credited)
-
-
-@dataclass(frozen=True)
-class CheckWarning:
-    """One warning: the rule, the step it is about, a sentence saying why, and its source."""
-
-    rule: str
-    step_label: str
-    message: str
-    source: str
-
-
-def _warn(rule: str, step: CheckedStep, sentence: str, source: str) -> CheckWarning:
-    """A warning whose message starts with the step it is about."""
-    subject = describe_step(step.kind, step.label)
-    return CheckWarning(rule, step.label, f"{subject}: {sentence}", source)
+def _warn(
+    rule: str, step: CheckedStep, sentence: str, source: str, cite: Citation
+) -> CheckWarning:
+    """A warning for an older rule: its one-string source kept, the citation beside it."""
+    return warn(rule, step, sentence, cite, source)
 
 
 def _same_tag(a: str, b: str) -> bool:
-    return a.strip().casefold() == b.strip().casefold()
+    return same_tag(a, b)
 
 
 def _credited_ipls(
     steps: Sequence[CheckedStep], ipl_type: IplType | None = None
 ) -> list[CheckedStep]:
-    return [
-        s for s in steps
-        if s.kind == StepKind.IPL and s.credited and ipl_type in (None, s.ipl_type)
-    ]
+    return credited_ipls(steps, ipl_type)
 
 
 def _bpcs_pfd_floor(steps: Sequence[CheckedStep]) -> list[CheckWarning]:
@@ -76,7 +57,7 @@ def _bpcs_pfd_floor(steps: Sequence[CheckedStep]) -> list[CheckWarning]:
         _warn("bpcs_pfd_floor", s,
               f"a BPCS layer is credited with PFD {s.value:g}, a risk reduction over 10; that "
               f"needs a BPCS designed and managed to IEC 61511. Take 0.1 or use a SIF.",
-              BPCS_SOURCE)
+              BPCS_SOURCE, sources.IEC_61511_2016_BPCS_LAYER)
         for s in _credited_ipls(steps, IplType.BPCS)
         if not at_least(s.value, BPCS_PFD_FLOOR)
     ]
@@ -89,7 +70,7 @@ def _cause_is_layer(steps: Sequence[CheckedStep]) -> list[CheckWarning]:
         _warn("cause_is_layer", s,
               f"runs on '{s.system_tag.strip()}', the system whose failure is the initiating "
               f"event; a layer must be independent of the cause. Do not credit it.",
-              INDEPENDENCE_SOURCE)
+              INDEPENDENCE_SOURCE, sources.CCPS_2001_CH6)
         for s in _credited_ipls(steps)
         if any(_same_tag(s.system_tag, cause) for cause in causes)
     ]
@@ -108,19 +89,21 @@ def _shared_bpcs(steps: Sequence[CheckedStep]) -> list[CheckWarning]:
             "shared_bpcs", s,
             f"shares {where} with '{first_on[tag].label}'; two layers on one BPCS are not "
             f"independent. Credit only one of them.",
-            BPCS_SOURCE,
+            BPCS_SOURCE, sources.IEC_61511_2016_BPCS_LAYER,
         ))
     return warnings
 
 
 def _operator_time(step: CheckedStep) -> CheckWarning | None:
+    if step.time_available_minutes is not None:
+        return None  # judged by the time-available rules in checks_human
     minutes = step.response_time_minutes
     if minutes is not None and minutes >= OPERATOR_MINUTES_FLOOR:
         return None
     given = "not given" if minutes is None else f"{minutes:g} min"
     return _warn("operator_time", step,
                  f"an operator response needs at least 10 minutes to act (time {given}).",
-                 OPERATOR_SOURCE)
+                 OPERATOR_SOURCE, sources.CCPS_2001_CH6)
 
 
 def _operator_pfd_floor(step: CheckedStep) -> CheckWarning | None:
@@ -129,7 +112,7 @@ def _operator_pfd_floor(step: CheckedStep) -> CheckWarning | None:
     return _warn("operator_pfd_floor", step,
                  f"an operator response is credited with PFD {step.value:g}; 0.1 is the best "
                  f"usually allowed.",
-                 OPERATOR_SOURCE)
+                 OPERATOR_SOURCE, sources.CCPS_2001_CH6)
 
 
 def _operator_checks(steps: Sequence[CheckedStep]) -> list[CheckWarning]:
@@ -156,7 +139,7 @@ def _sil_claim_problem(step: CheckedStep) -> str | None:
 def _sil_claim_mismatch(steps: Sequence[CheckedStep]) -> list[CheckWarning]:
     found = [(s, _sil_claim_problem(s)) for s in _credited_ipls(steps)]
     return [
-        _warn("sil_claim_mismatch", s, problem, SIL_BAND_SOURCE)
+        _warn("sil_claim_mismatch", s, problem, SIL_BAND_SOURCE, sources.IEC_61511_2016_TABLE_4)
         for s, problem in found
         if problem is not None
     ]
@@ -170,7 +153,7 @@ def _outside_typical(step: CheckedStep) -> CheckWarning | None:
     return _warn("outside_typical_range", step,
                  f"{step.value:g} is outside the typical value for '{row.label}' ({published}); "
                  f"say why in the notes.",
-                 row.source)
+                 row.source, Citation(row.citation, row.verify_against_copy))
 
 
 def _outside_typical_range(steps: Sequence[CheckedStep]) -> list[CheckWarning]:
@@ -185,9 +168,17 @@ _RULES: tuple[Callable[[Sequence[CheckedStep]], list[CheckWarning]], ...] = (
     _operator_checks,
     _sil_claim_mismatch,
     _outside_typical_range,
+    *INDEPENDENCE_RULES,
+    *CREDIT_RULES,
+    *HUMAN_RULES,
 )
+
+
+def _with_index(warning: CheckWarning, steps: Sequence[CheckedStep]) -> CheckWarning:
+    index = next((i for i, s in enumerate(steps) if s is warning.step), None)
+    return replace(warning, step_index=index)
 
 
 def check_scenario(steps: Sequence[CheckedStep]) -> list[CheckWarning]:
     """Every warning the IPL checks raise for a scenario, grouped by rule in a fixed order."""
-    return [warning for rule in _RULES for warning in rule(steps)]
+    return [_with_index(warning, steps) for rule in _RULES for warning in rule(steps)]

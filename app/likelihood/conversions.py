@@ -7,8 +7,8 @@ from __future__ import annotations
 
 import math
 
-from app.likelihood.sil import HOURS_PER_YEAR
 from app.likelihood.types import input_error
+from app.likelihood.units import HOURS_PER_YEAR
 from app.likelihood.validation import validate_frequency, validate_probability, validate_years
 
 

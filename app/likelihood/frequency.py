@@ -10,8 +10,8 @@ import math
 from collections.abc import Sequence
 from fractions import Fraction
 
+from app.likelihood.demand import sif_demand
 from app.likelihood.exact import as_decimal, exact_product, exact_ratio, log10_exact, to_float
-from app.likelihood.sil import sil_target
 from app.likelihood.types import (
     LadderPoint,
     ScenarioResult,
@@ -81,8 +81,9 @@ def compute_scenario(steps: Sequence[StepInput], tolerable_frequency: float) -> 
     initiating = _the_initiating_event(steps)
     tolerable = validate_frequency(tolerable_frequency, "Tolerable frequency")
     ordered = _in_ladder_order(steps)  # sorted() is stable: given order kept within a kind
-    mitigated = to_float(exact_product(step.value for step in ordered))
-    target = sil_target(mitigated, tolerable)
+    demand = sif_demand(ordered, tolerable)  # mode from the demand rate, not the mitigated one
+    mitigated = demand.mitigated_frequency  # the exact product of every counted step
+    target = demand.sil_target
     ratio = exact_ratio(mitigated, tolerable)  # the same ratio sil_target classified
     return ScenarioResult(
         initiating_frequency=float(initiating.value),
@@ -97,4 +98,5 @@ def compute_scenario(steps: Sequence[StepInput], tolerable_frequency: float) -> 
         meets_target=target.status is SilStatus.NONE_NEEDED,
         sil_target=target,
         ladder=_ladder(ordered),
+        demand=demand,
     )

@@ -9,8 +9,8 @@ import math
 import re
 from dataclasses import dataclass
 
-from app.likelihood.sil import HOURS_PER_YEAR
 from app.likelihood.types import LikelihoodInputError, input_error
+from app.likelihood.units import per_year
 from app.likelihood.validation import validate_frequency, validate_probability
 
 
@@ -31,13 +31,13 @@ _DECIMAL = r"[+-]?(?:\d{1,3}(?:,\d{3})+|\d+)(?:\.\d*)?|[+-]?\.\d+"
 _POWER = r"\s*[x*]\s*10\s*\^\s*[+-]?\d+"
 _N = rf"((?:{_DECIMAL})(?:e[+-]?\d+|{_POWER})?|10\s*\^\s*[+-]?\d+|{'|'.join(_WORDS)})"
 
-# Events per unit of time, turned to events per year (a year of 8760 h, 365 d, 52 weeks).
+# Events per unit of time, turned to events per year by the spans defined once in units.py.
 _UNITS: dict[str, tuple[str, float]] = {
-    **dict.fromkeys(("years", "year", "yrs", "yr", "y", "annum"), ("year", 1.0)),
-    **dict.fromkeys(("months", "month", "mo"), ("month", 12.0)),
-    **dict.fromkeys(("weeks", "week", "wks", "wk"), ("week", 52.0)),
-    **dict.fromkeys(("days", "day", "d"), ("day", 365.0)),
-    **dict.fromkeys(("hours", "hour", "hrs", "hr", "h"), ("hour", float(HOURS_PER_YEAR))),
+    **dict.fromkeys(("years", "year", "yrs", "yr", "y", "annum"), ("year", per_year("year"))),
+    **dict.fromkeys(("months", "month", "mo"), ("month", per_year("month"))),
+    **dict.fromkeys(("weeks", "week", "wks", "wk"), ("week", per_year("week"))),
+    **dict.fromkeys(("days", "day", "d"), ("day", per_year("day"))),
+    **dict.fromkeys(("hours", "hour", "hrs", "hr", "h"), ("hour", per_year("hour"))),
 }
 _UNIT = rf"({'|'.join(sorted(_UNITS, key=len, reverse=True))})"
 _TIMES = r"(?:\s+times?)?"
@@ -80,7 +80,14 @@ def _say_rounded(x: float) -> str:
 
 def format_one_in(p: float) -> str:
     """A probability as "1 in N", N to two significant figures: 0.001 -> "1 in 1,000"."""
-    return f"1 in {_say_rounded(1 / validate_probability(p, 'Probability'))}"
+    # A computed probability may lie below the 1e-9 input floor; only (0, 1] is required here.
+    if not (math.isfinite(p) and 0 < p <= 1):
+        raise input_error(
+            "probability_range",
+            f"a probability must be above 0 and at most 1 to write as 1 in N (got {p:g}).",
+            label="Probability",
+        )
+    return f"1 in {_say_rounded(1 / p)}"
 
 
 def _normalise(text: str) -> str:
@@ -107,6 +114,20 @@ def _divide(numerator: str, divisor: str, label: str) -> float:
     return _number(numerator) / bottom
 
 
+# "0,001" or "0,010" read with the comma as a thousands separator would give 1 or 10: a leading
+# group of zeros, or a comma not followed by exactly three digits, is a decimal comma.
+_DECIMAL_COMMA = re.compile(r"(?<![\d.,])0+,\d|\d,(?!\d{3}(?!\d))")
+
+
+def _refuse_decimal_comma(said: str, typed: str, label: str) -> None:
+    if _DECIMAL_COMMA.search(said):
+        raise input_error(
+            "decimal_comma",
+            f"use a dot for decimals: write 0.001, not 0,001 (got '{typed}').",
+            label=label,
+        )
+
+
 def _required(label: str, forms: str) -> LikelihoodInputError:
     return input_error("required", f"a value is required: {forms}.", label=label)
 
@@ -130,7 +151,9 @@ def parse_probability(text: str, label: str = "") -> ParsedNumber:
     typed = text.strip()
     if not typed:
         raise _required(label, _PROBABILITY_FORMS)
-    value = _probability_value(_normalise(typed), label)
+    said = _normalise(typed)
+    _refuse_decimal_comma(said, typed, label)
+    value = _probability_value(said, label)
     if value is None:
         raise _not_a_number(typed, label, _PROBABILITY_FORMS)
     value = validate_probability(value, label)
@@ -176,7 +199,9 @@ def parse_frequency(text: str, label: str = "") -> ParsedNumber:
     typed = text.strip()
     if not typed:
         raise _required(label, _FREQUENCY_FORMS)
-    found = _frequency_value(_normalise(typed), label)
+    said = _normalise(typed)
+    _refuse_decimal_comma(said, typed, label)
+    found = _frequency_value(said, label)
     if found is None:
         raise _not_a_number(typed, label, _FREQUENCY_FORMS)
     value = validate_frequency(found[0], label)

@@ -10,8 +10,8 @@ import math
 from dataclasses import dataclass, replace
 from enum import StrEnum
 
-from app.likelihood.sil import HOURS_PER_YEAR
 from app.likelihood.types import input_error
+from app.likelihood.units import HOURS_PER_YEAR
 from app.likelihood.validation import validate_probability
 
 PROOF_TEST_INTERVAL_CAP_HOURS = 100.0 * HOURS_PER_YEAR
@@ -67,6 +67,10 @@ class SifInputs:
     beta_d: float | None = None
     mttr_hours: float = 8.0
     mrt_hours: float | None = None
+    proof_test_coverage: float = 1.0
+    mission_time_hours: float | None = None
+    """proof_test_coverage: the fraction of lambda_DU a proof test reveals; the rest is found only
+    at the end of the mission time, when the equipment is renewed or overhauled."""
 
     def __post_init__(self) -> None:
         known = ", ".join(Architecture)
@@ -75,6 +79,19 @@ class SifInputs:
         self._check_rates()
         self._check_times()
         self._check_common_cause()
+        self._check_coverage()
+
+    def _check_coverage(self) -> None:
+        _require(_fraction_ok(self.proof_test_coverage), "coverage_range", "proof_test_coverage",
+                 f"proof-test coverage must be from 0 to 1 (got {self.proof_test_coverage}).")
+        if self.proof_test_coverage >= 1:
+            return
+        mission = self.mission_time_hours
+        _require(mission is not None and math.isfinite(mission)
+                 and mission >= self.proof_test_interval_hours,
+                 "mission_time_required", "mission_time_hours",
+                 "with proof-test coverage below 1, give a mission time in hours, at least the "
+                 f"proof-test interval (got {mission}).")
 
     def _check_rates(self) -> None:
         for field, rate in (("lambda_du", self.lambda_du), ("lambda_dd", self.lambda_dd)):
@@ -117,32 +134,91 @@ class SifInputs:
         return self.mttr_hours if self.mrt_hours is None else self.mrt_hours
 
 
-def _down_times(s: SifInputs, t1: float) -> tuple[float, float]:
+def _down_times(s: SifInputs, du: float, dd: float, t1: float) -> tuple[float, float]:
     """Channel (tCE) and group (tGE) equivalent mean down times in hours."""
-    undetected, detected = s.lambda_du / s.lambda_d, s.lambda_dd / s.lambda_d
+    undetected, detected = du / (du + dd), dd / (du + dd)
     t_ce = undetected * (t1 / 2 + s.effective_mrt_hours) + detected * s.mttr_hours
     t_ge = undetected * (t1 / 3 + s.effective_mrt_hours) + detected * s.mttr_hours
     return t_ce, t_ge
 
 
-def _pfd_at(s: SifInputs, t1: float) -> float:
-    t_ce, t_ge = _down_times(s, t1)
+def _annex_pfd(s: SifInputs, du: float, dd: float, t1: float) -> float:
+    """The Annex B equation of s's architecture at these rates and interval."""
+    if du + dd <= 0:
+        return 0.0
+    t_ce, t_ge = _down_times(s, du, dd, t1)
     if s.architecture == Architecture.ONE_OO_ONE:
-        return s.lambda_d * t_ce
+        return (du + dd) * t_ce
     if s.architecture == Architecture.TWO_OO_TWO:
-        return 2 * s.lambda_d * t_ce
+        return 2 * (du + dd) * t_ce
     beta, beta_d = s.effective_beta, s.effective_beta_d
-    independent = (1 - beta_d) * s.lambda_dd + (1 - beta) * s.lambda_du
-    common_cause = (
-        beta_d * s.lambda_dd * s.mttr_hours
-        + beta * s.lambda_du * (t1 / 2 + s.effective_mrt_hours)
-    )
+    independent = (1 - beta_d) * dd + (1 - beta) * du
+    common_cause = beta_d * dd * s.mttr_hours + beta * du * (t1 / 2 + s.effective_mrt_hours)
     return _PAIR_FACTOR[s.architecture] * independent**2 * t_ce * t_ge + common_cause
 
 
+def _pfd_at(s: SifInputs, t1: float) -> float:
+    """PFDavg at interval t1; with coverage below 1 the untested share of lambda_DU is summed
+    as a second part tested only at the mission time (cross terms between the parts left out:
+    an approximation, exact for 1oo1 as in REFERENCE section 2's coverage form)."""
+    coverage = s.proof_test_coverage
+    tested = _annex_pfd(s, coverage * s.lambda_du, s.lambda_dd, t1)
+    if coverage >= 1 or s.mission_time_hours is None:
+        return tested
+    return tested + _annex_pfd(s, (1 - coverage) * s.lambda_du, 0.0, s.mission_time_hours)
+
+
 def pfd_avg(inputs: SifInputs) -> float:
-    """Average probability of failure on demand by the IEC 61508-6 Annex B equations."""
+    """Average probability of failure on demand by the IEC 61508-6 Annex B equations.
+
+    May exceed 1 where the simplified equations do not hold (see simplified_check); use
+    storable_pfd for a value to keep.
+    """
     return _pfd_at(inputs, inputs.proof_test_interval_hours)
+
+
+SIMPLIFIED_LIMIT = 0.1
+"""The simplified equations assume lambda_DU x T1 small compared with 1; above 0.1 the linear
+approximation is off by more than about 3 % (common practice, no source)."""
+
+
+@dataclass(frozen=True)
+class SimplifiedCheck:
+    """Whether the simplified equations hold: lambda_DU x T (T1, or the mission time for the
+    untested share) against SIMPLIFIED_LIMIT, and a sentence saying so when they do not."""
+
+    lambda_du_t: float
+    holds: bool
+    message: str
+
+
+def simplified_check(inputs: SifInputs) -> SimplifiedCheck:
+    """Warn when lambda_DU x T is not small compared with 1."""
+    coverage, mission = inputs.proof_test_coverage, inputs.mission_time_hours
+    exposure = coverage * inputs.lambda_du * inputs.proof_test_interval_hours
+    if coverage < 1 and mission is not None:
+        exposure = max(exposure, (1 - coverage) * inputs.lambda_du * mission)
+    if exposure <= SIMPLIFIED_LIMIT:
+        return SimplifiedCheck(exposure, True, "")
+    return SimplifiedCheck(
+        exposure, False,
+        f"lambda_DU x T is {exposure:.3g}, not small compared with 1 (above "
+        f"{SIMPLIFIED_LIMIT:g}): the simplified equations overstate PFDavg here; use an exact "
+        f"or Markov model.",
+    )
+
+
+def storable_pfd(inputs: SifInputs) -> float:
+    """The PFDavg as a value to credit; a result above 1 (or below 1e-9) is refused."""
+    pfd = pfd_avg(inputs)
+    if pfd > 1:
+        raise input_error(
+            "pfd_above_one",
+            f"the simplified equations give PFDavg {pfd:.3g}, above 1: they do not hold for "
+            f"these inputs (lambda_DU x T1 too large). Shorten the interval or check the rates.",
+            label="PFDavg",
+        )
+    return validate_probability(pfd, "PFDavg")
 
 
 def longest_proof_test_interval(inputs: SifInputs, target_pfd: float) -> float | None:

@@ -6,10 +6,8 @@ import math
 
 from app.likelihood.exact import exact_ratio, to_float
 from app.likelihood.types import DemandMode, SilStatus, SilTarget, input_error
+from app.likelihood.units import HOURS_PER_YEAR as HOURS_PER_YEAR  # services import it here
 from app.likelihood.validation import at_least, at_most, validate_frequency
-
-HOURS_PER_YEAR = 8760
-"""365 days of 24 hours, the year used throughout (leap days ignored)."""
 
 # IEC 61511-1:2016 (same numbers in IEC 61508-1:2010, 7.6.2): values secondary.
 SIL_PFD_RANGES: dict[int, tuple[float, float]] = {
@@ -104,9 +102,7 @@ def demand_mode_for(demand_rate_per_year: float) -> DemandMode:
     return DemandMode.HIGH
 
 
-def sil_target(mitigated_frequency: float, tolerable_frequency: float) -> SilTarget:
-    """SIL target for a function added to close the gap from mitigated to tolerable frequency."""
-    tolerable = validate_frequency(tolerable_frequency, "Tolerable frequency")
+def _checked_mitigated(mitigated_frequency: float) -> float:
     if not (math.isfinite(mitigated_frequency) and mitigated_frequency >= 0):
         raise input_error(
             "frequency_positive",
@@ -114,12 +110,33 @@ def sil_target(mitigated_frequency: float, tolerable_frequency: float) -> SilTar
             f"(got {mitigated_frequency:g}).",
             label="Mitigated frequency",
         )
-    ratio = to_float(exact_ratio(mitigated_frequency, tolerable))
-    # The mitigated frequency is the demand rate the added function would see.
-    mode = demand_mode_for(mitigated_frequency)
+    return mitigated_frequency
+
+
+def sil_target(
+    mitigated_frequency: float,
+    tolerable_frequency: float,
+    *,
+    demand_rate_per_year: float | None = None,
+    mitigation_after_demand: float = 1.0,
+) -> SilTarget:
+    """SIL target for a function added to close the gap from mitigated to tolerable frequency.
+
+    demand_rate_per_year: how often the process reaches the condition the function acts on
+    (initiating frequency x enabling conditions x PFD of layers acting before it); the mode
+    follows from it (IEC 61511-1:2016 mode definitions). mitigation_after_demand: the product
+    of the conditional modifiers and the PFDs of layers acting after the function; in high
+    demand the required PFH is tolerable / (8760 x mitigation_after_demand) per hour.
+    Without a demand rate the mitigated frequency stands in for it (the older reading).
+    """
+    tolerable = validate_frequency(tolerable_frequency, "Tolerable frequency")
+    mitigated = _checked_mitigated(mitigated_frequency)
+    ratio = to_float(exact_ratio(mitigated, tolerable))
+    demand = mitigated if demand_rate_per_year is None else demand_rate_per_year
+    mode = demand_mode_for(demand)
     if at_most(ratio, 1.0):
         return _none_needed(ratio, mode)
     if mode is DemandMode.LOW:
         return sil_for_rrf(ratio)
-    # In high demand every dangerous failure meets a demand at once: PFH must match the target.
-    return _high_demand_target(ratio, tolerable / HOURS_PER_YEAR)
+    # In high demand a dangerous failure meets a demand at once: only what acts after it helps.
+    return _high_demand_target(ratio, tolerable / (HOURS_PER_YEAR * mitigation_after_demand))

@@ -4,6 +4,8 @@ from __future__ import annotations
 
 from dataclasses import dataclass
 
+from app.likelihood import sources
+from app.likelihood.sources import Citation
 from app.likelihood.types import IplType, StepKind
 
 
@@ -19,6 +21,11 @@ class TypicalValue:
     example: float
     source: str
     ipl_type: IplType | None = None
+    citation: str = ""
+    verify_against_copy: bool = False
+    """citation: document, edition and table, with no status inside it; verify_against_copy:
+    the value was not checked against the published text (source keeps the older one-string
+    form for current pages)."""
 
 
 CCPS_2001_TABLE_5_1 = "CCPS, Layer of Protection Analysis (2001), Table 5.1 (seen in a scan)"
@@ -26,7 +33,7 @@ CCPS_2001_TABLE_5_1_MEMORY = "CCPS, Layer of Protection Analysis (2001), Table 5
 CCPS_2001_CH6 = "CCPS, Layer of Protection Analysis (2001), ch. 6 (from memory)"
 IEC_61511_BANDS = (
     "IEC 61511-1:2016, low-demand SIL bands (values secondary; table number from memory); "
-    "example at the band's best end, common practice, no source"
+    "example value at the band's conservative end unless a verified PFDavg is entered"
 )
 COX_LEES_ANG_1990 = (
     "Cox, Lees & Ang, Classification of Hazardous Locations (IChemE, 1990) (from memory)"
@@ -39,21 +46,31 @@ _CM = StepKind.CONDITIONAL_MODIFIER
 _EC = StepKind.ENABLING_CONDITION
 
 
+def _row(key: str, label: str, kind: StepKind, values: tuple[float, float, float], source: str,
+         cite: Citation, ipl_type: IplType | None = None) -> TypicalValue:
+    low, high, example = values
+    return TypicalValue(key, label, kind, low, high, example, source, ipl_type,
+                        cite.text, cite.verify_against_copy)
+
+
 def _initiating(key: str, label: str, low: float, high: float, example: float) -> TypicalValue:
-    return TypicalValue(key, label, _IE, low, high, example, CCPS_2001_TABLE_5_1)
+    return _row(key, label, _IE, (low, high, example), CCPS_2001_TABLE_5_1,
+                sources.CCPS_2001_TABLE_5_1)
 
 
 def _ipl(key: str, label: str, band: tuple[float, float], example: float,
          ipl_type: IplType, source: str = CCPS_2001_CH6) -> TypicalValue:
-    return TypicalValue(key, label, _IPL, band[0], band[1], example, source, ipl_type)
+    cite = sources.IEC_61511_2016_TABLE_4 if ipl_type is IplType.SIF else sources.CCPS_2001_CH6
+    return _row(key, label, _IPL, (band[0], band[1], example), source, cite, ipl_type)
 
 
 def _ignition(key: str, label: str, value: float) -> TypicalValue:
-    return TypicalValue(key, label, _CM, value, value, value, COX_LEES_ANG_1990)
+    return _row(key, label, _CM, (value, value, value), COX_LEES_ANG_1990,
+                sources.COX_LEES_ANG_1990)
 
 
 def _enabling(key: str, label: str, low: float, high: float, example: float) -> TypicalValue:
-    return TypicalValue(key, label, _EC, low, high, example, NO_SOURCE)
+    return _row(key, label, _EC, (low, high, example), NO_SOURCE, sources.NO_SOURCE)
 
 
 _INITIATING_EVENTS = (
@@ -70,10 +87,11 @@ _INITIATING_EVENTS = (
     _initiating("piping_leak_100m", "Piping leak (10 % section), per 100 m", 1e-4, 1e-3, 1e-3),
     _initiating("piping_breach_100m", "Piping full breach, per 100 m", 1e-6, 1e-5, 1e-5),
     _initiating("vessel_residual_failure", "Pressure vessel residual failure", 1e-7, 1e-5, 1e-6),
-    TypicalValue(
+    _row(
         "operator_routine_error",
         "Operator fails a routine procedure (per opportunity: multiply by tasks per year)",
-        _IE, 1e-3, 1e-1, 1e-2, CCPS_2001_TABLE_5_1_MEMORY,
+        _IE, (1e-3, 1e-1, 1e-2), CCPS_2001_TABLE_5_1_MEMORY,
+        Citation(sources.CCPS_2001_TABLE_5_1.text, verify_against_copy=True),
     ),
 )
 
@@ -87,9 +105,13 @@ _IPLS = (
     _ipl("bpcs_layer", "BPCS loop, independent of the cause", (1e-2, 1e-1), 1e-1, IplType.BPCS),
     _ipl("operator_response", "Operator response to an alarm, at least 10 min to act",
          (1e-1, 1.0), 1e-1, IplType.OPERATOR_RESPONSE),
-    _ipl("sif_sil1", "SIF, SIL 1", (1e-2, 1e-1), 1e-2, IplType.SIF, IEC_61511_BANDS),
-    _ipl("sif_sil2", "SIF, SIL 2", (1e-3, 1e-2), 1e-3, IplType.SIF, IEC_61511_BANDS),
-    _ipl("sif_sil3", "SIF, SIL 3", (1e-4, 1e-3), 1e-4, IplType.SIF, IEC_61511_BANDS),
+    # Example values at the conservative end of each band: a SIL claim alone supports no more.
+    _ipl("sif_sil1", "SIF, SIL 1 (example value 0.1 unless a verified PFDavg is entered)",
+         (1e-2, 1e-1), 1e-1, IplType.SIF, IEC_61511_BANDS),
+    _ipl("sif_sil2", "SIF, SIL 2 (example value 0.01 unless a verified PFDavg is entered)",
+         (1e-3, 1e-2), 1e-2, IplType.SIF, IEC_61511_BANDS),
+    _ipl("sif_sil3", "SIF, SIL 3 (example value 0.001 unless a verified PFDavg is entered)",
+         (1e-4, 1e-3), 1e-3, IplType.SIF, IEC_61511_BANDS),
 )
 
 _MODIFIERS = (

@@ -2,33 +2,22 @@
 
 from collections.abc import Iterator
 from typing import Annotated
-from urllib.parse import quote, unquote
 
 from fastapi import Depends, Request
 from fastapi.exceptions import RequestValidationError
 from sqlmodel import Session
 
+from app.access.guard import current_access
 from app.db.ids import MAX_ROW_ID, read_row_id
 from app.db.session import get_db_engine
 from app.db.tracking import AUTHOR_KEY
-from app.services.study_tree import NotFoundError
-
-AUTHOR_COOKIE = "tallyroom_author"
-AUTHOR_LIMIT = 120  # ChangeLogEntry.author
-
-
-def author_cookie_value(name: str) -> str:
-    """The name as a cookie value: percent-encoded UTF-8, since a header carries only Latin-1."""
-    return quote(name.strip(), safe="")
+from app.services.study.tree import NotFoundError
 
 
 def author_name(request: Request) -> str:
-    """The name this browser gave for the change log ('' until it is given), in any script.
-
-    Control characters (NUL among them, which PostgreSQL refuses in text) are dropped.
-    """
-    typed = unquote(request.cookies.get(AUTHOR_COOKIE, ""), errors="replace")
-    return "".join(ch for ch in typed if ch.isprintable()).strip()[:AUTHOR_LIMIT]
+    """The name this session signs the change log with ('' until it is given)."""
+    access = current_access(request)
+    return access.name if access else ""
 
 
 def check_path_ids(request: Request) -> None:

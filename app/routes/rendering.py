@@ -2,17 +2,24 @@
 
 import math
 import re
+from collections.abc import Mapping
 from typing import Any
 
 from fastapi import Request
+from jinja2 import pass_context
 from jinja2_fragments.fastapi import Jinja2Blocks
 from markupsafe import Markup
 from starlette.responses import Response
 from starlette.routing import NoMatchFound
 
 from app.likelihood.numbers import format_number, format_one_in
-from app.routes.deps import author_name
+from app.likelihood.types import StepKind, step_kind_words
+from app.routes import urls
+from app.services.study.tree import WorksheetSpot
 from app.settings import PROJECT_ROOT
+
+# Any in this module: template contexts and route parameters are whatever Jinja2 and Starlette
+# take (the template boundary).
 
 CAUTIONS = (
     "Tallyroom is decision support for a competent review team. Its results are only as good "
@@ -62,8 +69,25 @@ def orders(value: float | None) -> str:
     return "—" if value is None or not math.isfinite(value) else f"{value:+.1f}"
 
 
-templates.env.filters.update(sci=sci, one_in=format_one_in, orders=orders)
-templates.env.globals.update(cautions=CAUTIONS, author_name=author_name)
+@pass_context
+def _template_path_for(context: Mapping[str, Any], name: str, /, **params: Any) -> str:
+    """app.routes.urls.path_for for templates: a named route's path, without the host."""
+    return urls.path_for(context["request"], name, **params)
+
+
+@pass_context
+def worksheet_path(context: Mapping[str, Any], spot: WorksheetSpot) -> str:
+    """A link to a row on the worksheet; inside the PDF (no request, no site) only its anchor."""
+    request = context.get("request")
+    if request is None:
+        return f"#{spot.anchor}"
+    return urls.worksheet_url(request, spot.study_id, spot.node_id, spot.anchor)
+
+
+templates.env.filters.update(sci=sci, one_in=format_one_in, orders=orders,
+                             kind_words=step_kind_words)
+templates.env.globals.update(cautions=CAUTIONS, step_kinds=tuple(StepKind),
+                             path_for=_template_path_for, worksheet_path=worksheet_path)
 
 
 def is_htmx(request: Request) -> bool:

@@ -62,10 +62,15 @@ def browser_context_args(browser_context_args: dict[str, Any]) -> dict[str, Any]
 @pytest.fixture(scope="session")
 def live_server(db_engine: Engine) -> Iterator[str]:
     """The real app under uvicorn in a thread, on a free port; yields its base URL."""
+    yield from serve_in_thread(create_app())
+
+
+def serve_in_thread(app: Any) -> Iterator[str]:
+    """Serve `app` under uvicorn on a free loopback port until the generator closes."""
     sock = socket.socket()
     sock.bind(("127.0.0.1", 0))
     port = sock.getsockname()[1]
-    server = uvicorn.Server(uvicorn.Config(create_app(), log_level="warning"))
+    server = uvicorn.Server(uvicorn.Config(app, log_level="warning"))
     thread = threading.Thread(target=server.run, kwargs={"sockets": [sock]}, daemon=True)
     thread.start()
     deadline = time.monotonic() + 15

@@ -11,13 +11,13 @@ from app.db.models import (
     Revision,
     Scenario,
     Step,
-    StepKindValue,
     Study,
     text_limit,
 )
 from app.db.tracking import COALESCE_WINDOW
-from tests.conftest import TEST_AUTHOR
+from app.likelihood.types import StepKind
 from tests.factories import make_scenario_tree, make_step
+from tests.helpers import TEST_AUTHOR
 
 
 def _log(session: Session) -> list[ChangeLogEntry]:
@@ -89,7 +89,7 @@ def test_deleting_a_node_cascades_to_its_whole_subtree(session: Session) -> None
 def test_the_database_refuses_a_second_initiating_event(session: Session) -> None:
     scenario = make_scenario_tree(session)
     with pytest.raises(IntegrityError):
-        make_step(session, scenario, kind=StepKindValue.INITIATING_EVENT, value=1.0)
+        make_step(session, scenario, kind=StepKind.INITIATING_EVENT, value=1.0)
 
 
 def test_text_limits_come_from_the_columns_the_database_enforces() -> None:

@@ -1,7 +1,9 @@
 """Fixtures of the fuzzing layer: one demo study shared by every generated request of a module.
 
 Hypothesis runs many examples inside one test function, so the study and the client are
-module-scoped (a function-scoped fixture would not be reset between examples anyway).
+module-scoped (a function-scoped fixture would not be reset between examples anyway). The
+client is the person at this computer (loopback, facilitator) with the session's CSRF token on
+every request, so generated requests reach the routes instead of stopping at the access layer.
 """
 
 from collections.abc import Iterator
@@ -15,8 +17,9 @@ from sqlmodel import Session
 from app.db.tracking import AUTHOR_KEY
 from app.demo import load_demo_study
 from app.main import create_app
-from app.routes.deps import AUTHOR_COOKIE, author_cookie_value
-from tests.conftest import TEST_AUTHOR, empty_database
+from tests.conftest import LOOPBACK_CLIENT, empty_database
+from tests.helpers import TEST_AUTHOR
+from tests.security.sessions import install_local_session
 
 
 @pytest.fixture(scope="module")
@@ -39,7 +42,8 @@ def fuzz_app(fuzz_study_id: int) -> FastAPI:
 
 @pytest.fixture(scope="module")
 def fuzz_client(fuzz_app: FastAPI) -> Iterator[TestClient]:
-    """A client that raises the server's own exception, so a crash names its cause."""
-    with TestClient(fuzz_app) as client:
-        client.cookies.set(AUTHOR_COOKIE, author_cookie_value(TEST_AUTHOR))
+    """The loopback facilitator with a token, raising the server's own exception on a crash so
+    the failure names its cause."""
+    with TestClient(fuzz_app, client=LOOPBACK_CLIENT) as client:
+        install_local_session(client, TEST_AUTHOR)
         yield client

@@ -53,7 +53,7 @@ FIRES = [
      [("operator_pfd_floor", "Operator stops feed")], OPERATOR_SOURCE),
     ("sil1-claims-pfd-0.001", [CAUSE, sif(1, 0.001)],
      [("sil_claim_mismatch", "High level trip")], SIL_BAND_SOURCE),
-    ("sil5", [CAUSE, sif(5, 1e-6)], [("sil_claim_mismatch", "High level trip")], SIL_BAND_SOURCE),
+    ("sil5", [CAUSE, sif(5, 1e-4)], [("sil_claim_mismatch", "High level trip")], SIL_BAND_SOURCE),
     ("ie-outside-table",
      [CheckedStep(IE, 1.0, "Seal leaks", typical_key="pump_seal_failure")],
      [("outside_typical_range", "Seal leaks")], CCPS_TABLE_5_1),
@@ -114,7 +114,8 @@ def test_an_uncredited_layer_is_still_checked_against_its_typical_range():
 
 
 def test_warnings_say_what_is_wrong_and_cite_the_source():
-    [warning] = check_scenario([CAUSE, bpcs("Level control", 0.01)])
+    steps = [CAUSE, bpcs("Level control", 0.01)]
+    [warning] = check_scenario(steps)
     assert warning == CheckWarning(
         "bpcs_pfd_floor",
         "Level control",
@@ -122,7 +123,12 @@ def test_warnings_say_what_is_wrong_and_cite_the_source():
         "a risk reduction over 10; that needs a BPCS designed and managed to IEC 61511. "
         "Take 0.1 or use a SIF.",
         BPCS_SOURCE,
+        citation="IEC 61511-1:2016, clause 9.3",
+        verify_against_copy=True,
+        step_index=1,
+        withdraws_credit=True,
     )
+    assert warning.step is steps[1]
 
 
 def test_one_layer_can_break_several_rules_at_once():

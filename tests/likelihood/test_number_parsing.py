@@ -50,7 +50,8 @@ def test_accepted_probability_forms(text, value, plain):
         ("", "required", f"Ignition: a value is required: {PROBABILITY_FORMS}."),
         ("   ", "required", f"Ignition: a value is required: {PROBABILITY_FORMS}."),
         ("abc", "not_a_number", f"Ignition: not a number: {PROBABILITY_FORMS} (got 'abc')."),
-        ("0,01", "not_a_number", f"Ignition: not a number: {PROBABILITY_FORMS} (got '0,01')."),
+        ("0,01", "decimal_comma",
+         "Ignition: use a dot for decimals: write 0.001, not 0,001 (got '0,01')."),
         ("1e", "not_a_number", f"Ignition: not a number: {PROBABILITY_FORMS} (got '1e')."),
         ("nan", "not_a_number", f"Ignition: not a number: {PROBABILITY_FORMS} (got 'nan')."),
         ("inf", "not_a_number", f"Ignition: not a number: {PROBABILITY_FORMS} (got 'inf')."),
@@ -69,6 +70,12 @@ def test_accepted_probability_forms(text, value, plain):
          "Ignition: a probability must be greater than 0 and at most 1 (got -0.1)."),
         ("1e-400", "probability_range",
          "Ignition: a probability must be greater than 0 and at most 1 (got 0)."),
+        ("1e-300", "probability_range",
+         "Ignition: a probability or PFD must be at least 1e-09; a smaller one is beyond what "
+         "LOPA can mean (got 1e-300)."),
+        ("1e-10", "probability_range",
+         "Ignition: a probability or PFD must be at least 1e-09; a smaller one is beyond what "
+         "LOPA can mean (got 1e-10)."),
         ("1 in 0", "zero_divisor", "Ignition: the number after 'in' or '/' must not be 0."),
     ],
 )
@@ -112,7 +119,7 @@ def test_without_a_label_the_message_starts_with_the_rule():
         ("1e-5/h", 0.0876, "1.0e-5 per hour · 8.8e-2 per year", "x 8760 h a year"),
         ("once a month", 12.0, "once a month · 1.2e1 per year", "x 12"),
         ("2 per month", 24.0, "2 per month · 2.4e1 per year", "x 12"),
-        ("1 per week", 52.0, "once a week · 5.2e1 per year", "x 52"),
+        ("1 per week", 8760 / 168, "once a week · 5.2e1 per year", "x 8760 h / 168 h"),
         ("once a day", 365.0, "once a day · 3.6e2 per year", "x 365"),
     ],
 )
@@ -134,6 +141,9 @@ def test_accepted_frequency_forms(text, per_year, plain, how):
         ("0 per year", "frequency_positive"),
         ("-1 per year", "frequency_positive"),
         ("1e400", "frequency_positive"),
+        ("1e-300", "frequency_range"),  # issue 9: bounded to 1e-9..1e4 a year
+        ("1e-10 per year", "frequency_range"),
+        ("2 per hour", "frequency_range"),  # 17,520 a year, above 1e4
         ("1 in 0 years", "zero_divisor"),
         ("1/0", "zero_divisor"),
     ],
@@ -194,7 +204,7 @@ def test_format_one_in_refuses_a_value_that_is_not_a_probability():
     assert raised.value.rule == "probability_range"
 
 
-@given(st.floats(min_value=1e-12, max_value=1.0))
+@given(st.floats(min_value=1e-9, max_value=1.0))
 def test_a_probability_written_as_its_repr_reads_back_exactly(p):
     assert parse_probability(repr(p)).value == p
 
@@ -208,3 +218,23 @@ def test_one_in_n_reads_back_to_two_significant_figures(p):
 @given(st.floats(min_value=1e-9, max_value=1e3))
 def test_a_frequency_written_as_its_repr_reads_back_exactly(rate):
     assert parse_frequency(repr(rate)).value == rate
+
+
+@pytest.mark.parametrize(
+    "text", ["0,001", "0,010", "0,1", "1,5", "00,001", "1,5e-3", "2,5 per year", "1 in 1,0"]
+)
+@pytest.mark.parametrize("parse", [parse_probability, parse_frequency], ids=["p", "f"])
+def test_a_decimal_comma_is_refused_not_read_as_thousands(text, parse):
+    # Issue 9, item 6: "0,001" was read as 1 and "0,010" as 10. Refused, naming the rule.
+    with pytest.raises(LikelihoodInputError) as raised:
+        parse(text, "Ignition")
+    assert raised.value.rule == "decimal_comma"
+    assert "use a dot for decimals" in raised.value.message
+
+
+@pytest.mark.parametrize(
+    ("text", "value"), [("1,000", 1000.0), ("1 in 10,000", 1e-4), ("1 in 1,000,000", 1e-6)]
+)
+def test_thousands_separators_still_read(text, value):
+    parse = parse_frequency if value > 1 else parse_probability
+    assert parse(text).value == value

@@ -3,7 +3,7 @@
 import math
 
 import pytest
-from hypothesis import given
+from hypothesis import assume, given
 from hypothesis import strategies as st
 
 from app.likelihood.frequency import compute_scenario, validate_frequency, validate_probability
@@ -167,7 +167,30 @@ def test_the_tolerable_frequency_must_be_finite_and_above_zero(tolerable):
 def test_the_validators_return_floats_and_accept_the_edges():
     assert validate_probability(1, "Always") == 1.0
     assert type(validate_probability(1, "Always")) is float
-    assert validate_frequency(5e-324, "Tiny") == 5e-324
+    assert validate_frequency(1e-9, "Tiny") == 1e-9
+    assert validate_frequency(1e4, "Often") == 1e4
+    assert validate_probability(1e-9, "Tiny") == 1e-9
+
+
+@pytest.mark.parametrize(
+    ("call", "rule"),
+    [
+        (lambda: validate_frequency(1e-300, "Tiny"), "frequency_range"),
+        (lambda: validate_probability(2.0, "Two"), "probability_range"),
+        (lambda: validate_frequency(5e-324, "Tiny"), "frequency_range"),
+        (lambda: validate_frequency(1.0001e4, "Often"), "frequency_range"),
+        (lambda: validate_probability(1e-300, "Tiny"), "probability_range"),
+        (lambda: validate_probability(9.9e-10, "Tiny"), "probability_range"),
+    ],
+    ids=["f-1e-300", "p-two", "f-denormal", "f-over-1e4", "p-1e-300", "p-below-1e-9"],
+)
+def test_inputs_outside_what_lopa_can_mean_are_refused_naming_the_rule(call, rule):
+    # Issue 9, item 6: a frequency 1e-9..1e4 per year, a probability or PFD 1e-9..1
+    # (common practice, no source). The message names the bounds.
+    with pytest.raises(LikelihoodInputError) as raised:
+        call()
+    assert raised.value.rule == rule
+    assert "1e-09" in raised.value.message or "at most 1" in raised.value.message
 
 
 frequencies = st.floats(min_value=1e-6, max_value=100.0)
@@ -191,6 +214,7 @@ def test_a_credited_layer_never_raises_the_frequency(steps, pfd):
 
 @given(scenarios(), st.floats(min_value=1e-3, max_value=1e3))
 def test_the_frequency_scales_linearly_with_the_initiating_frequency(steps, k):
+    assume(1e-9 <= steps[0].value * k <= 1e4)  # the scaled frequency must stay an allowed input
     scaled = [StepInput(IE, steps[0].value * k, "cause"), *steps[1:]]
     base = compute_scenario(steps, 1e-4).mitigated_frequency
     scaled_result = compute_scenario(scaled, 1e-4).mitigated_frequency

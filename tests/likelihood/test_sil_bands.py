@@ -176,11 +176,15 @@ def test_an_rrf_must_be_above_zero(rrf):
     assert raised.value.rule == "rrf_positive"
 
 
-@pytest.mark.parametrize(("mitigated", "tolerable"), [(-1e-3, 1e-4), (1e-3, 0.0)])
-def test_sil_target_rejects_negative_or_zero_frequencies(mitigated, tolerable):
+@pytest.mark.parametrize(
+    ("mitigated", "tolerable", "rule"),
+    [(-1e-3, 1e-4, "frequency_positive"), (1e-3, 0.0, "frequency_positive"),
+     (1e-3, 1e-300, "frequency_range")],
+)
+def test_sil_target_rejects_negative_or_zero_frequencies(mitigated, tolerable, rule):
     with pytest.raises(LikelihoodInputError) as raised:
         sil_target(mitigated, tolerable)
-    assert raised.value.rule == "frequency_positive"
+    assert raised.value.rule == rule
 
 
 def _near_an_edge(pfd: float) -> bool:

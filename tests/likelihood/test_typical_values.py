@@ -76,3 +76,25 @@ def test_unsourced_enabling_conditions_say_so():
 
 def test_an_unknown_key_finds_nothing():
     assert typical_by_key("no_such_row") is None
+
+
+@pytest.mark.parametrize(("sil", "example"), [(1, 0.1), (2, 0.01), (3, 0.001)])
+def test_sif_rows_take_the_conservative_end_of_their_band_as_an_example_value(sil, example):
+    # Issue 9, item 4: a SIL claim alone supports no better than the band's upper PFD edge
+    # (IEC 61511-1:2016 Table 4 bands; values secondary). Worded "example value", not "usually".
+    row = typical_by_key(f"sif_sil{sil}")
+    assert row is not None and row.example == example == row.high
+    assert "example value" in row.label and "usually" not in row.label
+
+
+def test_citations_name_document_and_table_without_a_status_inside():
+    # Issue 9, item 7: status moves to the separate verify_against_copy flag.
+    for row in TYPICAL_VALUES:
+        assert row.citation, row.key
+        assert "from memory" not in row.citation and "secondary" not in row.citation, row.key
+    seal = typical_by_key("pump_seal_failure")
+    assert seal is not None
+    assert (seal.citation, seal.verify_against_copy) == (
+        "CCPS, Layer of Protection Analysis (AIChE, 2001), Table 5.1", False)  # seen in a scan
+    relief = typical_by_key("relief_valve")
+    assert relief is not None and relief.verify_against_copy  # CCPS ch. 6 values from memory

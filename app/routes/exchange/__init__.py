@@ -1,0 +1,1 @@
+"""Exports and the study-file import."""

@@ -1,0 +1,78 @@
+"""Study files in and out: the export page, each download, the file format's schema, import."""
+
+from typing import Annotated
+
+from fastapi import APIRouter, File, Request, UploadFile
+from fastapi.responses import JSONResponse
+from starlette.responses import RedirectResponse, Response
+
+from app.routes.deps import SessionDep
+from app.routes.rendering import render, templates
+from app.services.exchange.exports import ExportFormat, build_export, read_export_page
+from app.services.exchange.study_file import StudyFileError
+from app.services.exchange.study_import import MAX_FILE_BYTES, import_study_upload
+from app.services.exchange.study_schema import SCHEMA_PATH, study_json_schema
+from app.services.study import listing as study_service
+
+router = APIRouter()
+
+
+@router.get("/studies/{study_id}/export", name="read_exports")
+def read_exports(request: Request, study_id: int, session: SessionDep) -> Response:
+    """The formats a study exports to, with download links and the command-line equivalent."""
+    page = read_export_page(session=session, study_id=study_id)
+    return render(request, "exchange/exports/index.html", {"page": page, "study": page.study})
+
+
+def _download(session: SessionDep, study_id: int, export_format: ExportFormat) -> Response:
+    export = build_export(session=session, study_id=study_id, export_format=export_format,
+                          env=templates.env)
+    disposition = f'attachment; filename="{export.filename}"'
+    return Response(export.content, media_type=export.media_type,
+                    headers={"Content-Disposition": disposition})
+
+
+@router.get("/studies/{study_id}/export.xlsx", name="export_xlsx")
+def export_xlsx(study_id: int, session: SessionDep) -> Response:
+    """The study as an Excel workbook."""
+    return _download(session, study_id, ExportFormat.XLSX)
+
+
+@router.get("/studies/{study_id}/export.csv", name="export_csv")
+def export_csv(study_id: int, session: SessionDep) -> Response:
+    """The scenario table as UTF-8 CSV."""
+    return _download(session, study_id, ExportFormat.CSV)
+
+
+@router.get("/studies/{study_id}/export.json", name="export_json")
+def export_json(study_id: int, session: SessionDep) -> Response:
+    """The whole study as a versioned JSON study file."""
+    return _download(session, study_id, ExportFormat.JSON)
+
+
+@router.get("/studies/{study_id}/export.pdf", name="export_pdf")
+def export_pdf(study_id: int, session: SessionDep) -> Response:
+    """The printable study report."""
+    return _download(session, study_id, ExportFormat.PDF)
+
+
+@router.get(SCHEMA_PATH, name="read_study_schema")
+def read_study_schema() -> JSONResponse:
+    """The JSON Schema of the study file, schema version 1."""
+    return JSONResponse(study_json_schema(), media_type="application/schema+json")
+
+
+@router.post("/studies/import", name="import_study")
+def import_study(
+    request: Request, session: SessionDep,
+    study_file: Annotated[UploadFile | None, File()] = None,
+) -> Response:
+    """Create a study from an uploaded study file; refuse a bad file and write nothing."""
+    raw = study_file.file.read(MAX_FILE_BYTES + 1) if study_file else b""
+    try:
+        study = import_study_upload(session=session, raw=raw)
+    except StudyFileError as err:
+        listing = study_service.list_studies(session=session)
+        context = {"studies": listing, "import_error": f"Not imported: {err}"}
+        return render(request, "study/list.html", context, status_code=422)
+    return RedirectResponse(request.url_for("read_study", study_id=study.id), status_code=303)

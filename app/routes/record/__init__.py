@@ -1,0 +1,1 @@
+"""Actions, attendance, change log, revisions."""

@@ -1,0 +1,1 @@
+"""Criteria, step details, proof test, risk picture."""

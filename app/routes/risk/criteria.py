@@ -1,0 +1,60 @@
+"""Risk criteria: the study's severity categories, their tolerable frequencies and basis."""
+
+from fastapi import APIRouter, Request
+from starlette.responses import Response
+
+from app.routes.deps import SessionDep
+from app.routes.rendering import render
+from app.services.risk import criteria as service
+
+router = APIRouter(prefix="/studies/{study_id}")
+PAGE = "risk/criteria/edit.html"
+
+
+def _answer(request: Request, page: service.CriteriaPage) -> Response:
+    has_errors = page.new_errors or page.basis_error or any(u.errors for u in page.categories)
+    status = 422 if has_errors else 409 if page.refusal else 200
+    return render(request, PAGE, {"page": page}, status_code=status)
+
+
+@router.get("/criteria", name="read_criteria")
+def read_criteria(request: Request, study_id: int, session: SessionDep) -> Response:
+    """The categories, how many scenarios each governs, and the criteria basis."""
+    return _answer(request, service.build_criteria_page(session=session, study_id=study_id))
+
+
+@router.post("/criteria/basis", name="update_criteria_basis")
+async def update_criteria_basis(request: Request, study_id: int, session: SessionDep) -> Response:
+    """Say where the study's criteria come from."""
+    text = str((await request.form()).get("criteria_basis", ""))
+    page = service.save_criteria_basis(session=session, study_id=study_id, text=text)
+    return _answer(request, page)
+
+
+@router.post("/criteria/categories", name="create_category")
+async def create_category(request: Request, study_id: int, session: SessionDep) -> Response:
+    """Add a severity category."""
+    form = service.CategoryForm.from_mapping(await request.form())
+    return _answer(request, service.add_category(session=session, study_id=study_id,
+                                                    form=form))
+
+
+@router.post("/criteria/categories/{category_id}", name="update_category")
+async def update_category(
+    request: Request, study_id: int, category_id: int, session: SessionDep
+) -> Response:
+    """Change a category and re-evaluate every scenario rated with it."""
+    form = service.CategoryForm.from_mapping(await request.form())
+    page = service.save_category(session=session, study_id=study_id,
+                                   category_id=category_id, form=form)
+    return _answer(request, page)
+
+
+@router.post("/criteria/categories/{category_id}/delete",
+             name="delete_category")
+def delete_category(
+    request: Request, study_id: int, category_id: int, session: SessionDep
+) -> Response:
+    """Delete a category no scenario is rated with; otherwise refuse with the reason."""
+    page = service.remove_category(session=session, study_id=study_id, category_id=category_id)
+    return _answer(request, page)

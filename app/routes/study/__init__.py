@@ -1,0 +1,1 @@
+"""Study list and overview."""

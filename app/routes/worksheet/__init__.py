@@ -1,0 +1,1 @@
+"""Worksheet, structure edits, undo, the room view and the keys page."""

@@ -1,0 +1,87 @@
+"""The node worksheet and its live value edits."""
+
+from typing import Annotated, Any
+
+from fastapi import APIRouter, Form, Request
+from starlette.responses import RedirectResponse, Response
+from starlette.routing import NoMatchFound
+
+from app.routes.deps import SessionDep
+from app.routes.rendering import is_htmx, render
+from app.routes.urls import overview_url, worksheet_url
+from app.services.worksheet import page as worksheet_service
+from app.services.worksheet.edits import FieldReply, edit_step_value
+
+router = APIRouter(prefix="/studies/{study_id}")
+
+
+def route_exists(request: Request, name: str, **params: int) -> bool:
+    """True when another area has registered the route (so a link to it can show)."""
+    try:
+        request.app.url_path_for(name, **params)
+    except NoMatchFound:
+        return False
+    return True
+
+
+def render_worksheet(request: Request, session: SessionDep, study_id: int, node_id: int,
+                     *, block: str | None = None, status_code: int = 200,
+                     **extra: Any) -> Response:
+    """The worksheet page, or only its #worksheet region for htmx."""
+    page = worksheet_service.build_worksheet_page(session=session, study_id=study_id,
+                                                  node_id=node_id)
+    links = {"step_details": route_exists(request, "read_step_details", study_id=0, step_id=0),
+             "proof_test": route_exists(request, "read_proof_test", study_id=0),
+             "actions": route_exists(request, "read_actions", study_id=0)}
+    context = {"page": page, "study": page.study, "focus_id": "", "notice": "", "typed": {},
+               "links": links, **extra}
+    return render(request, "worksheet/page.html", context, block=block,
+                  status_code=status_code)
+
+
+def render_field_reply(request: Request, reply: FieldReply) -> Response:
+    """Results region (main swap) with the field's line and the totals out of band."""
+    return render(request, "worksheet/field_reply.html", {"edit": reply},
+                  status_code=422 if reply.error else 200)
+
+
+@router.get("/nodes/{node_id}", name="read_worksheet")
+def read_worksheet(request: Request, study_id: int, node_id: int, session: SessionDep,
+                   focus: str = "") -> Response:
+    """One node's worksheet: deviations, scenarios, steps, figures and ladders."""
+    block = "worksheet" if is_htmx(request) else None
+    return render_worksheet(request, session, study_id, node_id, block=block, focus_id=focus)
+
+
+@router.get("/worksheet", name="read_first_worksheet")
+def read_first_worksheet(request: Request, study_id: int,
+                         session: SessionDep) -> RedirectResponse:
+    """Open the worksheet at the study's first node (the overview when it has none)."""
+    node_id = worksheet_service.first_node_id(session=session, study_id=study_id)
+    target = (worksheet_url(request, study_id, node_id) if node_id
+              else overview_url(request, study_id))
+    return RedirectResponse(target, status_code=303)
+
+
+@router.post("/steps/{step_id}/value", name="update_step_value")
+def update_step_value(
+    request: Request, study_id: int, step_id: int, session: SessionDep,
+    value_text: Annotated[str, Form()] = "", client: Annotated[str, Form(max_length=64)] = "",
+    seq: Annotated[int | None, Form()] = None,
+) -> Response:
+    """Parse, validate and save a step's value as typed; answer with the recomputed scenario."""
+    reply = edit_step_value(session=session, study_id=study_id, step_id=step_id, text=value_text,
+                            client=client, seq=seq)
+    if reply is None:  # a newer edit of this field already arrived: drop this one
+        return Response(status_code=204, headers={"X-Tallyroom-Stale": "1"})
+    if is_htmx(request):
+        response = render_field_reply(request, reply)
+        response.headers["X-Tallyroom-Seq"] = str(seq if seq is not None else "")
+        return response
+    anchor = f"scenario-{reply.scenario.item.scenario.id}" if reply.scenario else ""
+    if reply.error:
+        return render_worksheet(request, session, study_id, reply.node_id,
+                                status_code=422, notice=reply.error,
+                                typed={reply.field_id: value_text}, focus_id=reply.field_id)
+    return RedirectResponse(worksheet_url(request, study_id, reply.node_id, anchor),
+                            status_code=303)

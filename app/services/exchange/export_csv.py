@@ -1,0 +1,34 @@
+"""The scenario table as CSV: UTF-8 with a byte-order mark so spreadsheet programs read it right.
+
+The byte-order mark is common practice (no standard asks for it): without it Excel reads a
+UTF-8 file in the local code page and garbles every non-Latin letter.
+"""
+
+import csv
+import io
+from datetime import date
+
+from app.services.exchange.export_tables import Cell, Table, spreadsheet_text
+
+BYTE_ORDER_MARK = "\ufeff"
+
+
+def table_csv(table: Table) -> bytes:
+    """The table as CSV bytes: a header row, then one row per table row, CRLF line ends."""
+    buffer = io.StringIO()
+    writer = csv.writer(buffer, lineterminator="\r\n")
+    writer.writerow([spreadsheet_text(column.header) for column in table.columns])
+    for row in table.rows:
+        writer.writerow([csv_cell(value) for value in row])
+    return (BYTE_ORDER_MARK + buffer.getvalue()).encode("utf-8")
+
+
+def csv_cell(value: Cell) -> str:
+    """One cell as CSV text: numbers in full precision, text formula-safe, nothing as ''."""
+    if value is None:
+        return ""
+    if isinstance(value, str):
+        return spreadsheet_text(value)
+    if isinstance(value, date):
+        return value.isoformat()
+    return repr(value)

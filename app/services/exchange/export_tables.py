@@ -1,0 +1,220 @@
+"""The tables every spreadsheet-like export shares, built from a loaded study.
+
+Cells keep their types (text, number, date) so writers can format numbers as numbers; text is
+made spreadsheet-safe by the writers, not here, so the PDF shows it exactly as typed.
+
+Tables other than scenarios and steps read the exported study file as a plain dict (`StudyData`),
+not a validated StudyFile: an export must never fail because stored text is longer than the file
+format allows on import.
+"""
+
+from collections.abc import Sequence
+from dataclasses import dataclass
+from datetime import UTC, date, datetime
+from typing import Any
+
+from app.likelihood.types import DemandMode, StepKind
+from app.services.exchange.study_file import scenario_ref
+from app.services.study.tree import DeviationBranch, NodeBranch, ScenarioBranch, StudyTree
+
+Cell = str | float | int | date | datetime | None
+StudyData = dict[str, Any]
+
+SCIENTIFIC = "0.00E+00"
+SIGNED = "+0.00;-0.00;0.00"
+WHOLE = "0"
+RRF = "#,##0.0"
+DAY = "yyyy-mm-dd"
+MOMENT = "yyyy-mm-dd hh:mm:ss"
+
+# Spreadsheet programs run a cell typed with one of these first characters as a formula
+# (OWASP, CSV Injection; common practice: prefix such text with a single quote).
+FORMULA_STARTS = ("=", "+", "-", "@", "\t", "\r")
+
+DEMAND_LABELS = {DemandMode.LOW: "low demand", DemandMode.HIGH: "high demand / continuous"}
+
+
+@dataclass(frozen=True)
+class Column:
+    """A column: its header and, for numbers and dates, the spreadsheet number format."""
+
+    header: str
+    number_format: str | None = None
+
+
+@dataclass(frozen=True)
+class Table:
+    """A titled table of typed cells, one list per row, in column order."""
+
+    title: str
+    columns: tuple[Column, ...]
+    rows: list[list[Cell]]
+
+
+def spreadsheet_text(text: str) -> str:
+    """Text that a spreadsheet shows as text: a formula-like start gets a leading quote."""
+    return "'" + text if text.startswith(FORMULA_STARTS) else text
+
+
+SCENARIO_COLUMNS = (
+    Column("Scenario"), Column("Node"), Column("Deviation"), Column("Cause"),
+    Column("Consequence"), Column("Governing severity"),
+    Column("Tolerable frequency (/yr)", SCIENTIFIC), Column("Initiating event"),
+    Column("Initiating frequency (/yr)", SCIENTIFIC), Column("Enabling product", SCIENTIFIC),
+    Column("Modifier product", SCIENTIFIC), Column("Credited IPLs", WHOLE),
+    Column("IPL product (PFD)", SCIENTIFIC), Column("Mitigated frequency (/yr)", SCIENTIFIC),
+    Column("Ratio mitigated / tolerable", SCIENTIFIC),
+    Column("Gap (orders of magnitude)", SIGNED), Column("Required RRF", RRF),
+    Column("SIL target"), Column("Demand mode"), Column("Status"),
+)  # fmt: skip
+
+
+def scenario_refs(tree: StudyTree) -> dict[int, str]:
+    """Scenario id -> the ref the study file gives it (S1, S2, ... in worksheet order)."""
+    return {s.scenario.id: scenario_ref(i) for i, s in enumerate(tree.scenario_branches())
+            if s.scenario.id is not None}
+
+
+def node_label(node_branch: NodeBranch) -> str:
+    """'1 · Feed drum'."""
+    return f"{node_branch.node.number} · {node_branch.node.name}"
+
+
+def deviation_label(deviation_branch: DeviationBranch) -> str:
+    """'More Level'."""
+    return f"{deviation_branch.deviation.guideword} {deviation_branch.deviation.parameter}"
+
+
+def scenario_table(tree: StudyTree) -> Table:
+    """One row per scenario: what it is, its numbers and what it asks for."""
+    refs = scenario_refs(tree)
+    rows = [
+        _scenario_row(refs[item.scenario.id or 0], node_branch, deviation_branch, item)
+        for node_branch in tree.nodes
+        for deviation_branch in node_branch.deviations
+        for item in deviation_branch.scenarios
+    ]
+    return Table("Scenarios", SCENARIO_COLUMNS, rows)
+
+
+def _scenario_row(
+    ref: str, node_branch: NodeBranch, deviation_branch: DeviationBranch, item: ScenarioBranch
+) -> list[Cell]:
+    scenario, outcome, result = item.scenario, item.outcome, item.outcome.result
+    category = outcome.governing_category
+    initiating = next((s for s in item.steps if s.kind == StepKind.INITIATING_EVENT), None)
+    credited = [s for s in item.steps if s.kind == StepKind.IPL and s.credited]
+    head: list[Cell] = [
+        ref, node_label(node_branch), deviation_label(deviation_branch), scenario.cause,
+        scenario.consequence, category.name if category else "",
+        category.tolerable_frequency if category else None,
+        initiating.description if initiating else "",
+        initiating.value if initiating else None,
+    ]
+    if result is None:
+        return [*head, None, None, len(credited), None, None, None, None, None, "", "",
+                f"not computed: {outcome.error}"]
+    target = result.sil_target
+    return [
+        *head, result.enabling_product, result.modifier_product, len(credited),
+        result.ipl_product, result.mitigated_frequency, result.ratio, result.gap_orders,
+        result.required_rrf, target.label, DEMAND_LABELS[target.demand_mode],
+        "meets target" if result.meets_target else "short of target",
+    ]
+
+
+STEP_COLUMNS = (
+    Column("Scenario"), Column("Node"), Column("Step"), Column("Kind"), Column("Description"),
+    Column("Value", SCIENTIFIC), Column("As written"), Column("Credited"), Column("IPL type"),
+    Column("System tag"), Column("SIL claimed", WHOLE), Column("Response time (min)", "0.#"),
+    Column("Basis"),
+)  # fmt: skip
+
+
+def step_table(tree: StudyTree) -> Table:
+    """One row per step of every scenario, with the scenario's ref."""
+    refs = scenario_refs(tree)
+    rows: list[list[Cell]] = []
+    for node_branch in tree.nodes:
+        for item in node_branch.scenario_branches():
+            for number, step in enumerate(item.steps, 1):
+                rows.append([
+                    refs[item.scenario.id or 0], node_label(node_branch), number,
+                    step.kind.label, step.description, step.value,
+                    step.value_text, "yes" if step.credited else "no", step.ipl_type or "",
+                    step.system_tag, step.sil_claimed, step.response_time_minutes, step.basis,
+                ])
+    return Table("Steps", STEP_COLUMNS, rows)
+
+
+ACTION_COLUMNS = (
+    Column("No."), Column("Action"), Column("Owner"), Column("Due", DAY), Column("Status"),
+    Column("Status reason"), Column("Expected RRF", RRF), Column("Scenarios"),
+)  # fmt: skip
+
+
+def action_table(data: StudyData) -> Table:
+    """The recommendations with the scenarios they address."""
+    rows: list[list[Cell]] = [
+        [f"A{number}", a["text"], a["owner"], _day(a["due_date"]),
+         a["status"].replace("_", " "), a["status_reason"], a["expected_rrf"],
+         ", ".join(a["scenarios"])]
+        for number, a in enumerate(data["recommendations"], 1)
+    ]
+    return Table("Actions", ACTION_COLUMNS, rows)
+
+
+def criteria_table(data: StudyData) -> Table:
+    """The severity categories and their tolerable frequencies."""
+    columns = (Column("Category"), Column("Receptor"),
+               Column("Tolerable frequency (/yr)", SCIENTIFIC), Column("Description"))
+    rows: list[list[Cell]] = [
+        [c["name"], c["receptor"], c["tolerable_frequency"], c["description"]]
+        for c in data["severity_categories"]
+    ]
+    return Table("Criteria", columns, rows)
+
+
+def attendance_table(data: StudyData) -> Table:
+    """Participants down, session dates across; 'present' where they attended."""
+    days = data["session_days"]
+    columns = (Column("Participant"), Column("Role"), Column("Discipline"), Column("Company"),
+               *(Column(day["day"]) for day in days))
+    rows: list[list[Cell]] = [
+        [p["name"], p["role"], p["discipline"], p["company"],
+         *("present" if p["ref"] in day["attendees"] else "" for day in days)]
+        for p in data["participants"]
+    ]
+    return Table("Attendance", columns, rows)
+
+
+LOG_COLUMNS = (
+    Column("When (UTC)", MOMENT), Column("Author"), Column("Action"), Column("Item"),
+    Column("Field"), Column("Old value"), Column("New value"), Column("Summary"),
+    Column("Scenario"),
+)  # fmt: skip
+
+
+def change_log_table(data: StudyData) -> Table:
+    """Every recorded change, oldest first."""
+    rows: list[list[Cell]] = [
+        [utc_naive(datetime.fromisoformat(e["at"])), e["author"], e["action"], e["entity"],
+         e["field"], e["old_value"], e["new_value"], e["summary"], e["scenario"] or ""]
+        for e in data.get("change_log", [])
+    ]
+    return Table("Change log", LOG_COLUMNS, rows)
+
+
+def utc_naive(moment: datetime) -> datetime:
+    """A timestamp in UTC without its zone (spreadsheets have no time zones)."""
+    return moment.astimezone(UTC).replace(tzinfo=None) if moment.tzinfo else moment
+
+
+def _day(text: str | None) -> date | None:
+    return date.fromisoformat(text) if text else None
+
+
+def all_tables(tree: StudyTree, data: StudyData) -> Sequence[Table]:
+    """Every table of the workbook after the cover, in sheet order."""
+    return (scenario_table(tree), step_table(tree), action_table(data), criteria_table(data),
+            attendance_table(data), change_log_table(data))

@@ -1,0 +1,142 @@
+"""Export a study as a workbook, CSV, the JSON study file or a PDF report.
+
+Rendering the PDF needs the app's template environment (its filters and the cautions); callers
+pass it in, so this service never imports the web layer.
+"""
+
+import json
+import re
+import unicodedata
+from dataclasses import dataclass
+from datetime import UTC, datetime
+from enum import StrEnum
+from typing import Any
+
+from jinja2 import Environment
+from sqlmodel import Session, col, select
+from sqlmodel.sql.expression import SelectOfScalar
+
+from app.db.ids import read_row_id
+from app.db.models import Study
+from app.services.exchange.export_csv import table_csv
+from app.services.exchange.export_tables import all_tables, scenario_table
+from app.services.exchange.export_xlsx import workbook_bytes
+from app.services.exchange.report import report_pdf
+from app.services.exchange.study_file import export_study
+from app.services.study.tree import NotFoundError, get_study, load_study_tree
+
+
+class ExportFormat(StrEnum):
+    """The file formats a study exports to."""
+
+    XLSX = "xlsx"
+    CSV = "csv"
+    JSON = "json"
+    PDF = "pdf"
+
+
+@dataclass(frozen=True)
+class FormatInfo:
+    """How a format is offered: its name, media type and what the file holds."""
+
+    format: ExportFormat
+    label: str
+    media_type: str
+    description: str
+
+
+FORMATS = (
+    FormatInfo(ExportFormat.XLSX, "Workbook (.xlsx)",
+               "application/vnd.openxmlformats-officedocument.spreadsheetml.sheet",
+               "A cover sheet, then scenarios, steps, actions, criteria, attendance and the "
+               "change log, each on its own sheet. Numbers are real numbers."),
+    FormatInfo(ExportFormat.CSV, "Scenario table (.csv)", "text/csv; charset=utf-8",
+               "One row per scenario with the same columns as the workbook's Scenarios sheet. "
+               "UTF-8 with a byte-order mark, so spreadsheet programs read every script."),
+    FormatInfo(ExportFormat.JSON, "Study file (.json)", "application/json",
+               "The whole study, its change log and revisions in the versioned study-file "
+               "format. Import it back from the study list or with `tallyroom import`."),
+    FormatInfo(ExportFormat.PDF, "Report (.pdf)", "application/pdf",
+               "A printable report: cover, scope and criteria, attendance, every node's "
+               "scenarios with their ladders, the risk picture and the actions."),
+)  # fmt: skip
+FORMAT_INFO = {info.format: info for info in FORMATS}
+
+
+@dataclass(frozen=True)
+class ExportFile:
+    """A finished export: the name to save it under, its media type and its bytes."""
+
+    filename: str
+    media_type: str
+    content: bytes
+
+
+@dataclass(frozen=True)
+class ExportPage:
+    """The export page: the study and the formats on offer."""
+
+    study: Study
+    formats: tuple[FormatInfo, ...]
+    filenames: dict[str, str]
+
+
+def read_export_page(*, session: Session, study_id: int) -> ExportPage:
+    """The study and, for each format, the file name a download gets."""
+    study = get_study(session, study_id)
+    names = {str(info.format): export_filename(study, info.format) for info in FORMATS}
+    return ExportPage(study, FORMATS, names)
+
+
+def export_filename(study: Study, export_format: ExportFormat) -> str:
+    """A safe ASCII file name: 'tallyroom-7-unit-40-solvent-recovery.xlsx'."""
+    ascii_title = unicodedata.normalize("NFKD", study.title).encode("ascii", "ignore").decode()
+    slug = re.sub(r"[^a-z0-9]+", "-", ascii_title.lower()).strip("-")[:60].rstrip("-")
+    return f"tallyroom-{study.id}{'-' + slug if slug else ''}.{export_format}"
+
+
+def study_json_bytes(data: dict[str, Any]) -> bytes:
+    """A study file as UTF-8 JSON text: every character as itself, indented for diffs."""
+    return (json.dumps(data, ensure_ascii=False, indent=2) + "\n").encode("utf-8")
+
+
+def build_export(
+    *, session: Session, study_id: int, export_format: ExportFormat, env: Environment
+) -> ExportFile:
+    """Export one study in one format; NotFoundError when there is no such study."""
+    info = FORMAT_INFO[export_format]
+    name = export_filename(get_study(session, study_id), export_format)
+    # Each format loads only what it writes: the file needs no computed tree, the CSV no history.
+    if export_format is ExportFormat.JSON:
+        return ExportFile(name, info.media_type, study_json_bytes(export_study(session, study_id)))
+    tree = load_study_tree(session, study_id)
+    if export_format is ExportFormat.CSV:
+        return ExportFile(name, info.media_type, table_csv(scenario_table(tree)))
+    data = export_study(session, study_id)
+    now = datetime.now(UTC).replace(microsecond=0)
+    if export_format is ExportFormat.XLSX:
+        content = workbook_bytes(all_tables(tree, data), data,
+                                 cautions=env.globals["cautions"],  # type: ignore[arg-type]
+                                 exported_at=now.replace(tzinfo=None))
+        return ExportFile(name, info.media_type, content)
+    return ExportFile(name, info.media_type, report_pdf(tree, data, env=env, when=now))
+
+
+def studies_titled(title: str) -> SelectOfScalar[Study]:
+    """Studies whose title is exactly `title`, oldest first."""
+    return select(Study).where(Study.title == title).order_by(col(Study.id))
+
+
+def find_study(*, session: Session, key: str) -> Study:
+    """The study with this id, else the one study with exactly this title, else NotFoundError."""
+    study_id = read_row_id(key)
+    if study_id is not None and (study := session.get(Study, study_id)) is not None:
+        return study
+    matches = list(session.exec(studies_titled(key)).all())
+    if len(matches) == 1:
+        return matches[0]
+    if matches:
+        ids = ", ".join(str(s.id) for s in matches)
+        raise NotFoundError(f"{len(matches)} studies are titled '{key}' (ids {ids}); "
+                            f"give the id instead.")
+    raise NotFoundError(f"There is no study with id or exact title '{key}'.")

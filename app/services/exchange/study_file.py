@@ -1,0 +1,323 @@
+"""Whole-study export to and import from the versioned JSON file format."""
+
+import json
+from collections import defaultdict
+from typing import Any
+
+from pydantic import ValidationError
+from sqlmodel import Session, col, select
+
+from app.db.models import (
+    Attendance,
+    ChangeLogEntry,
+    Deviation,
+    Node,
+    Participant,
+    Recommendation,
+    RecommendationScenario,
+    Revision,
+    Safeguard,
+    Scenario,
+    SessionDay,
+    SeverityCategory,
+    Step,
+    saved_id,
+)
+from app.services.exchange.study_schema import FILE_FORMAT, SCHEMA_VERSION, StudyFile
+from app.services.study.tree import get_study
+from app.settings import get_settings
+
+# Any in this module: study-file rows are JSON objects and table rows of several models (the file
+# boundary).
+
+# The format itself nests 18 levels at most (a revision snapshot's proof-test inputs).
+MAX_NESTING = 40
+
+
+class StudyFileError(ValueError):
+    """A study file that cannot be imported; the message says where and why."""
+
+
+def parse_study_file(raw: str | bytes) -> StudyFile:
+    """Validate a JSON study file, turning every problem into one readable message.
+
+    Every check is linear in the file's size; the file is read strictly (no "1" for a number,
+    no "yes" for a boolean), and its size is checked before the rows are validated.
+    """
+    text = _decoded(raw)
+    try:
+        data = json.loads(text)
+    except json.JSONDecodeError as err:
+        raise StudyFileError(f"not a JSON file: {err}") from err
+    except RecursionError:
+        data = None  # deeper than the parser goes: said by the nesting rule below
+    if data is None or _nesting(data) > MAX_NESTING:
+        raise StudyFileError(f"the file nests more than {MAX_NESTING} levels deep; a study "
+                             f"file nests far less")
+    _check_format_and_version(data)
+    _check_size(data)
+    try:
+        return StudyFile.model_validate_json(text, strict=True)
+    except ValidationError as err:
+        raise StudyFileError(_describe_validation(err)) from err
+
+
+def _decoded(raw: str | bytes) -> str:
+    if isinstance(raw, str):
+        return raw
+    try:
+        return raw.decode("utf-8-sig")
+    except UnicodeDecodeError as err:
+        raise StudyFileError(f"not a JSON file: the text is not UTF-8 ({err})") from err
+
+
+def _nesting(data: Any) -> int:
+    """How deep arrays and objects nest (without recursion, so any depth is measured)."""
+    deepest, stack = 0, [(data, 1)]
+    while stack:
+        value, depth = stack.pop()
+        children = value.values() if isinstance(value, dict) else value
+        if isinstance(value, dict | list):
+            deepest = max(deepest, depth)
+            stack.extend((child, depth + 1) for child in children
+                         if isinstance(child, dict | list))
+    return deepest
+
+
+def _items(value: Any, key: str) -> list[Any]:
+    """`value[key]` when it is a list of objects (shape errors are left to validation)."""
+    found = value.get(key) if isinstance(value, dict) else None
+    return [item for item in found if isinstance(item, dict)] if isinstance(found, list) else []
+
+
+def _check_size(data: dict[str, Any]) -> None:
+    """Refuse a study, or any revision snapshot in it, over the scenario limits (settings)."""
+    settings = get_settings()
+    studies = [("the study", data)] + [
+        (f"revision {i}'s snapshot", rev.get("snapshot")) for i, rev in
+        enumerate(_items(data, "revisions"))]
+    for where, study in studies:
+        total = 0
+        for node in _items(study, "nodes"):
+            count = sum(len(_items(d, "scenarios")) for d in _items(node, "deviations"))
+            if count > settings.max_import_scenarios_per_node:
+                limit = settings.max_import_scenarios_per_node
+                raise StudyFileError(
+                    f"{where}: node {node.get('number')!r} has {count:,} scenarios; a node "
+                    f"may have at most {limit:,} (split it into smaller nodes)")
+            total += count
+        if total > settings.max_import_scenarios:
+            raise StudyFileError(f"{where} has {total:,} scenarios; a study file may have at "
+                                 f"most {settings.max_import_scenarios:,}")
+
+
+def _check_format_and_version(data: Any) -> None:
+    # Said plainly before field-level validation, which would bury it in a list of problems.
+    if not isinstance(data, dict) or data.get("format") != FILE_FORMAT:
+        raise StudyFileError(
+            f"not a Tallyroom study file: the top level must be a JSON object with "
+            f"\"format\": \"{FILE_FORMAT}\""
+        )
+    version = data.get("schema_version")
+    if version != SCHEMA_VERSION:
+        raise StudyFileError(
+            f"schema_version {version!r} is not supported: this Tallyroom reads study files "
+            f"of schema version {SCHEMA_VERSION}"
+        )
+
+
+def _describe_validation(err: ValidationError) -> str:
+    lines = []
+    for problem in err.errors()[:10]:
+        where = ".".join(str(part) for part in problem["loc"]) or "file"
+        lines.append(f"{where}: {problem['msg']}")
+    more = err.error_count() - len(lines)
+    return "; ".join(lines) + (f"; and {more} more problems" if more > 0 else "")
+
+
+# Fixed key orders: a loaded row's attribute order varies, and the file must not.
+HEADER_FIELDS = ("title", "facility", "scope", "revision_label", "frequency_unit",
+                 "criteria_basis")
+STEP_FIELDS = ("description", "value", "value_text", "basis", "credited", "ipl_type",
+               "system_tag", "response_time_minutes", "sil_claimed", "typical_key")
+
+
+def _fields(row: Any, names: tuple[str, ...]) -> dict[str, Any]:
+    return {name: getattr(row, name) for name in names}
+
+
+def scenario_ref(index: int) -> str:
+    """The file ref of the study's index-th scenario (0-based) in worksheet order: S1, S2, ..."""
+    return f"S{index + 1}"
+
+
+def _by_parent(rows: list[Any], parent: str) -> dict[int, list[Any]]:
+    grouped: dict[int, list[Any]] = defaultdict(list)
+    for row in rows:
+        grouped[getattr(row, parent)].append(row)
+    return grouped
+
+
+def _ordered(session: Session, model: Any, study_id: int) -> list[Any]:
+    statement = select(model).where(model.study_id == study_id)
+    if hasattr(model, "position"):
+        statement = statement.order_by(model.position, model.id)
+    else:
+        statement = statement.order_by(model.id)
+    return list(session.exec(statement).all())
+
+
+def export_study(session: Session, study_id: int, *, with_history: bool = True) -> dict[str, Any]:
+    """The whole study as a plain dict in the file format (see study_schema)."""
+    study = get_study(session, study_id)
+    categories = _ordered(session, SeverityCategory, study_id)
+    category_refs = {c.id: f"C{i}" for i, c in enumerate(categories, 1)}
+    nodes_out, scenario_refs = _export_nodes(session, study_id, category_refs)
+    participants = _ordered(session, Participant, study_id)
+    people_refs = {p.id: f"P{i}" for i, p in enumerate(participants, 1)}
+    data: dict[str, Any] = {
+        "format": "tallyroom-study",
+        "schema_version": 1,
+        "invented": study.invented,
+        "study": _fields(study, HEADER_FIELDS),
+        "severity_categories": [
+            {"ref": category_refs[c.id], "name": c.name, "description": c.description,
+             "tolerable_frequency": c.tolerable_frequency, "receptor": str(c.receptor)}
+            for c in categories
+        ],
+        "nodes": nodes_out,
+        "recommendations": _export_actions(session, study_id, scenario_refs),
+        "participants": [
+            {"ref": people_refs[p.id], "name": p.name, "role": p.role,
+             "discipline": p.discipline, "company": p.company}
+            for p in participants
+        ],
+        "session_days": _export_days(session, study_id, people_refs),
+    }
+    if with_history:
+        data["change_log"] = _export_log(session, study_id, scenario_refs)
+        data["revisions"] = _export_revisions(session, study_id)
+    return data
+
+
+def _export_nodes(
+    session: Session, study_id: int, category_refs: dict[int | None, str]
+) -> tuple[list[dict[str, Any]], dict[int, str]]:
+    deviations = _by_parent(_ordered(session, Deviation, study_id), "node_id")
+    scenarios = _by_parent(_ordered(session, Scenario, study_id), "deviation_id")
+    steps = _by_parent(_ordered(session, Step, study_id), "scenario_id")
+    safeguards = _by_parent(_ordered(session, Safeguard, study_id), "scenario_id")
+    scenario_refs: dict[int, str] = {}
+    nodes_out = []
+    for node in _ordered(session, Node, study_id):
+        deviations_out = []
+        for deviation in deviations[node.id]:
+            scenarios_out = []
+            for scenario in scenarios[deviation.id]:
+                scenario_refs[scenario.id] = scenario_ref(len(scenario_refs))
+                scenarios_out.append(
+                    _export_scenario(scenario, scenario_refs[scenario.id], category_refs,
+                                     steps[scenario.id], safeguards[scenario.id])
+                )
+            deviations_out.append(
+                {"guideword": deviation.guideword, "parameter": deviation.parameter,
+                 "description": deviation.description, "scenarios": scenarios_out}
+            )
+        nodes_out.append(
+            {"number": node.number, "name": node.name, "design_intent": node.design_intent,
+             "drawing_reference": node.drawing_reference, "deviations": deviations_out}
+        )
+    return nodes_out, scenario_refs
+
+
+def _export_scenario(
+    scenario: Scenario, ref: str, category_refs: dict[int | None, str],
+    steps: list[Step], safeguards: list[Safeguard],
+) -> dict[str, Any]:
+    return {
+        "ref": ref,
+        "cause": scenario.cause,
+        "consequence": scenario.consequence,
+        "notes": scenario.notes,
+        "severity": category_refs[scenario.severity_category_id],
+        "environment_severity": category_refs.get(scenario.environment_category_id),
+        "asset_severity": category_refs.get(scenario.asset_category_id),
+        "steps": [_export_step(step) for step in steps],
+        "safeguards": [{"description": s.description, "note": s.note} for s in safeguards],
+    }
+
+
+def _export_step(step: Step) -> dict[str, Any]:
+    row = {"kind": step.kind.value, **_fields(step, STEP_FIELDS)}
+    row["proof_test"] = json.loads(step.proof_test) if step.proof_test else None
+    return row
+
+
+def _export_actions(
+    session: Session, study_id: int, scenario_refs: dict[int, str]
+) -> list[dict[str, Any]]:
+    actions = _ordered(session, Recommendation, study_id)
+    links = session.exec(
+        select(RecommendationScenario).where(
+            col(RecommendationScenario.recommendation_id).in_([a.id for a in actions])
+        )
+    ).all()
+    # Worksheet order, not id order, so a re-imported study (new ids) lists them the same way.
+    order = {scenario_id: index for index, scenario_id in enumerate(scenario_refs)}
+    addressed = _by_parent(sorted(links, key=lambda link: order[link.scenario_id]),
+                           "recommendation_id")
+    return [
+        {"text": a.text, "owner": a.owner,
+         "due_date": a.due_date.isoformat() if a.due_date else None,
+         "status": str(a.status), "status_reason": a.status_reason,
+         "expected_rrf": a.expected_rrf,
+         "scenarios": [scenario_refs[link.scenario_id] for link in addressed[a.id]]}
+        for a in actions
+    ]
+
+
+def _export_days(
+    session: Session, study_id: int, people_refs: dict[int | None, str]
+) -> list[dict[str, Any]]:
+    days = session.exec(
+        select(SessionDay).where(SessionDay.study_id == study_id).order_by(
+            col(SessionDay.day), col(SessionDay.id))
+    ).all()
+    present = session.exec(
+        select(Attendance).where(col(Attendance.session_day_id).in_([d.id for d in days]))
+    ).all()
+    by_day = _by_parent(sorted(present, key=lambda a: a.participant_id), "session_day_id")
+    return [
+        {"day": d.day.isoformat(), "note": d.note,
+         "attendees": [people_refs[a.participant_id] for a in by_day[saved_id(d.id)]]}
+        for d in days
+    ]
+
+
+def _export_log(
+    session: Session, study_id: int, scenario_refs: dict[int, str]
+) -> list[dict[str, Any]]:
+    entries = session.exec(
+        select(ChangeLogEntry).where(ChangeLogEntry.study_id == study_id).order_by(
+            col(ChangeLogEntry.id))
+    ).all()
+    return [
+        {"at": e.at.isoformat(), "author": e.author, "action": e.action, "entity": e.entity,
+         "field": e.field, "old_value": e.old_value, "new_value": e.new_value,
+         "summary": e.summary,
+         "scenario": scenario_refs.get(e.scenario_id) if e.scenario_id else None}
+        for e in entries
+    ]
+
+
+def _export_revisions(session: Session, study_id: int) -> list[dict[str, Any]]:
+    revisions = session.exec(
+        select(Revision).where(Revision.study_id == study_id).order_by(col(Revision.id))
+    ).all()
+    return [
+        {"label": r.label, "note": r.note, "frozen_at": r.frozen_at.isoformat(),
+         "frozen_by": r.frozen_by, "signed_off_by": r.signed_off_by,
+         "signed_off_at": r.signed_off_at.isoformat() if r.signed_off_at else None,
+         "snapshot": json.loads(r.snapshot)}
+        for r in revisions
+    ]

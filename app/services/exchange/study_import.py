@@ -1,0 +1,234 @@
+"""Create a study from a validated study file, all in one transaction."""
+
+import json
+from typing import Any
+
+from sqlalchemy import insert
+from sqlalchemy.exc import SQLAlchemyError
+from sqlmodel import Session, SQLModel
+
+from app.db.models import (
+    Attendance,
+    ChangeLogEntry,
+    Deviation,
+    Node,
+    Participant,
+    Recommendation,
+    RecommendationScenario,
+    Revision,
+    Safeguard,
+    Scenario,
+    SessionDay,
+    SeverityCategory,
+    Step,
+    Study,
+    saved_id,
+)
+from app.db.queries import fetch_plain_rows, placed_rows_of_study
+from app.db.tracking import SUPPRESS_LOG_KEY
+from app.services.exchange.study_file import StudyFileError, parse_study_file
+from app.services.exchange.study_schema import StudyFile
+
+# Far above any real study (the invented demo is under 100 kB); refuses runaway uploads early.
+MAX_FILE_BYTES = 20 * 1024 * 1024
+
+
+def import_study_upload(*, session: Session, raw: bytes) -> Study:
+    """Import an uploaded study file, refusing an empty or oversized one with a clear message."""
+    if not raw.strip():
+        raise StudyFileError("the file is empty: choose a Tallyroom study file (.json)")
+    if len(raw) > MAX_FILE_BYTES:
+        raise StudyFileError(
+            f"the file is larger than {_size(MAX_FILE_BYTES)}, the most a study file may be"
+        )
+    return import_study_text(session, raw)
+
+
+def _size(count: int) -> str:
+    return f"{count / 2**20:g} MB" if count >= 2**20 else f"{count:,} bytes"
+
+
+def import_study_text(session: Session, raw: str | bytes) -> Study:
+    """Validate and import a JSON study file; nothing is written when it is invalid."""
+    return import_study_file(session, parse_study_file(raw))
+
+
+def import_study_file(session: Session, data: StudyFile) -> Study:
+    """Write a whole study from a validated file and commit once; on any failure write nothing."""
+    session.info[SUPPRESS_LOG_KEY] = True
+    try:
+        study = Study(**data.study.model_dump(), invented=data.invented)
+        session.add(study)
+        session.flush()
+        assert study.id is not None
+        categories = _import_categories(session, study.id, data)
+        scenarios = _import_nodes(session, study.id, data, categories)
+        _import_actions(session, study.id, data, scenarios)
+        _import_attendance(session, study.id, data)
+        _import_history(session, study.id, data, scenarios)
+        session.commit()
+    except SQLAlchemyError as err:
+        session.rollback()
+        raise StudyFileError(
+            f"the database refused the file, so nothing was imported: {_first_line(err)}"
+        ) from err
+    except Exception:
+        session.rollback()
+        raise
+    finally:
+        session.info.pop(SUPPRESS_LOG_KEY, None)
+    session.refresh(study)
+    return study
+
+
+def _first_line(err: SQLAlchemyError) -> str:
+    return str(getattr(err, "orig", None) or err).splitlines()[0]
+
+
+def _import_categories(session: Session, study_id: int, data: StudyFile) -> dict[str, int]:
+    rows = {
+        c.ref: SeverityCategory(study_id=study_id, position=i, **c.model_dump(exclude={"ref"}))
+        for i, c in enumerate(data.severity_categories)
+    }
+    session.add_all(rows.values())
+    session.flush()
+    return {ref: row.id for ref, row in rows.items() if row.id is not None}
+
+
+# (parent id, position among its siblings, the file's row)
+Placed = tuple[int, int, Any]
+
+
+def _import_nodes(
+    session: Session, study_id: int, data: StudyFile, categories: dict[str, int]
+) -> dict[str, int]:
+    """Write the worksheet a level at a time, each level one bulk insert without ORM objects.
+
+    Building tens of thousands of model objects (and flushing them one scenario at a time)
+    was most of the time a 10,000-scenario import took; plain rows keep it to seconds.
+    """
+    study = {"study_id": study_id}
+    node_ids = _insert_placed(session, Node, "study_id", [
+        {**study, "position": position, **row.model_dump(exclude={"deviations"})}
+        for position, row in enumerate(data.nodes)])
+    deviations = _placed(node_ids, data.nodes, "deviations")
+    deviation_ids = _insert_placed(session, Deviation, "node_id", [
+        {**study, "node_id": node_id, "position": position,
+         **row.model_dump(exclude={"scenarios"})} for node_id, position, row in deviations])
+    scenarios = _placed(deviation_ids, [row for _, _, row in deviations], "scenarios")
+    scenario_ids = _insert_placed(session, Scenario, "deviation_id", [
+        _scenario_values(study_id, placed, categories) for placed in scenarios])
+    scenario_rows = [row for _, _, row in scenarios]
+    _insert_all(session, Step, [_step_values(study_id, placed)
+                                for placed in _placed(scenario_ids, scenario_rows, "steps")])
+    _insert_all(session, Safeguard, [
+        {**study, "scenario_id": scenario_id, "position": position, **row.model_dump()}
+        for scenario_id, position, row in _placed(scenario_ids, scenario_rows, "safeguards")])
+    return {row.ref: scenario_id
+            for row, scenario_id in zip(scenario_rows, scenario_ids, strict=True)}
+
+
+def _placed(parent_ids: list[int], parent_rows: list[Any], children: str) -> list[Placed]:
+    """Each child row of each parent with its parent's new id and its position."""
+    return [(parent_id, position, row)
+            for parent_id, parent_row in zip(parent_ids, parent_rows, strict=True)
+            for position, row in enumerate(getattr(parent_row, children))]
+
+
+def _scenario_values(study_id: int, placed: Placed, categories: dict[str, int]
+                     ) -> dict[str, Any]:
+    deviation_id, position, row = placed
+    return {
+        "study_id": study_id, "deviation_id": deviation_id, "position": position,
+        "cause": row.cause, "consequence": row.consequence, "notes": row.notes,
+        "severity_category_id": categories[row.severity],
+        "environment_category_id": categories.get(row.environment_severity or ""),
+        "asset_category_id": categories.get(row.asset_severity or ""),
+    }
+
+
+def _step_values(study_id: int, placed: Placed) -> dict[str, Any]:
+    scenario_id, position, step = placed
+    # Key order as the calculator writes it, so exporting again gives the same file.
+    proof_test = (json.dumps(step.proof_test.model_dump(mode="json"), ensure_ascii=False)
+                  if step.proof_test else None)
+    return {"study_id": study_id, "scenario_id": scenario_id, "position": position,
+            "proof_test": proof_test, **step.model_dump(exclude={"proof_test"})}
+
+
+def _with_defaults(model: type[SQLModel], rows: list[dict[str, Any]]) -> list[dict[str, Any]]:
+    """Rows completed with the model's field defaults (a bulk insert builds no objects)."""
+    defaults = {name: field.get_default(call_default_factory=True)
+                for name, field in model.model_fields.items()
+                if name != "id" and not field.is_required()}
+    return [{**defaults, **row} for row in rows]
+
+
+def _insert_placed(session: Session, model: type[SQLModel], parent_field: str,
+                   rows: list[dict[str, Any]]) -> list[int]:
+    """Insert rows in bulk and return their new ids in the rows' order.
+
+    (parent, position) is unique within a freshly imported study, so the ids are read back by
+    it: SQLite cannot return ids of a multi-row insert in a guaranteed order.
+    """
+    if not rows:
+        return []
+    _insert_all(session, model, rows)
+    study_id = rows[0]["study_id"]
+    placed = fetch_plain_rows(session, placed_rows_of_study(model, parent_field, study_id))
+    new_ids = {(row[1], row[2]): row[0] for row in map(tuple, placed)}  # (id, parent id, position)
+    return [new_ids[(row[parent_field], row["position"])] for row in rows]
+
+
+def _insert_all(session: Session, model: type[SQLModel], rows: list[dict[str, Any]]) -> None:
+    """Insert rows in one executemany."""
+    if rows:
+        # render_nulls: every row sends the same columns, so they go as one batch instead of
+        # one statement per pattern of empty optional fields.
+        statement = insert(model).execution_options(render_nulls=True)
+        session.execute(statement, _with_defaults(model, rows))
+
+
+def _flush_all(session: Session, rows: list[Any]) -> None:
+    session.add_all(rows)
+    session.flush()
+
+
+def _import_actions(
+    session: Session, study_id: int, data: StudyFile, scenarios: dict[str, int]
+) -> None:
+    actions = [Recommendation(study_id=study_id, position=position,
+                              **row.model_dump(exclude={"scenarios"}))
+               for position, row in enumerate(data.recommendations)]
+    _flush_all(session, actions)
+    session.add_all(RecommendationScenario(recommendation_id=saved_id(action.id),
+                                           scenario_id=scenarios[ref])
+                    for action, row in zip(actions, data.recommendations, strict=True)
+                    for ref in row.scenarios)
+
+
+def _import_attendance(session: Session, study_id: int, data: StudyFile) -> None:
+    people = {p.ref: Participant(study_id=study_id, **p.model_dump(exclude={"ref"}))
+              for p in data.participants}
+    _flush_all(session, list(people.values()))
+    days = [SessionDay(study_id=study_id, day=row.day, note=row.note)
+            for row in data.session_days]
+    _flush_all(session, days)
+    session.add_all(Attendance(session_day_id=saved_id(day.id),
+                               participant_id=saved_id(people[ref].id))
+                    for day, row in zip(days, data.session_days, strict=True)
+                    for ref in row.attendees)
+
+
+def _import_history(
+    session: Session, study_id: int, data: StudyFile, scenarios: dict[str, int]
+) -> None:
+    for entry in data.change_log:
+        session.add(ChangeLogEntry(
+            study_id=study_id, scenario_id=scenarios.get(entry.scenario or ""),
+            **entry.model_dump(exclude={"scenario"}),
+        ))
+    for revision in data.revisions:
+        snapshot = json.dumps(revision.snapshot.model_dump(mode="json"))
+        session.add(Revision(study_id=study_id, snapshot=snapshot,
+                             **revision.model_dump(exclude={"snapshot"})))

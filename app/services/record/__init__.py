@@ -1,0 +1,1 @@
+"""The session record: actions, attendance, the change log, revisions and their comparison."""

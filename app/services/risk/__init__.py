@@ -1,0 +1,1 @@
+"""Risk judgement: criteria, step details, proof test, IPL checks, the risk picture."""

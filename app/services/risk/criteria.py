@@ -1,0 +1,259 @@
+"""A study's risk criteria: severity categories with tolerable frequencies, and their basis.
+
+Changing a category re-evaluates every scenario rated with it at once (the study is computed
+again from the stored rows), and the change reports how the scenarios' status moved.
+"""
+
+from dataclasses import dataclass, fields
+from typing import Any
+
+from sqlmodel import Session, col, func, or_, select
+from sqlmodel.sql.expression import SelectOfScalar
+
+from app.db.models import Receptor, Scenario, SeverityCategory, Study, text_limit
+from app.likelihood.numbers import parse_frequency
+from app.likelihood.types import LikelihoodInputError
+from app.services.study.errors import length_problem
+from app.services.study.results import governing_category
+from app.services.study.tree import NotFoundError, StudyTree, get_study, load_study_tree
+
+# Any in this module: validated form values become model fields by name (the form boundary).
+
+NAME_LIMIT = text_limit(SeverityCategory, "name")
+DESCRIPTION_LIMIT = text_limit(SeverityCategory, "description")
+BASIS_LIMIT = text_limit(Study, "criteria_basis")
+RECEPTOR_LABELS = {Receptor.PEOPLE: "people", Receptor.ENVIRONMENT: "environment",
+                   Receptor.ASSET: "asset"}
+
+
+def shortest_text(value: float) -> str:
+    """The shortest text that reads back as exactly this number: 3.33e-05 -> '3.33e-5'."""
+    mantissa, _, exponent = repr(value).partition("e")
+    return f"{mantissa}e{int(exponent)}" if exponent else mantissa
+
+
+@dataclass(frozen=True)
+class CategoryForm:
+    """One category as typed."""
+
+    name: str = ""
+    description: str = ""
+    tolerable_frequency: str = ""
+    receptor: str = "people"
+
+    @classmethod
+    def from_mapping(cls, data: Any) -> "CategoryForm":
+        """Pick the fields out of submitted form data."""
+        return cls(**{f.name: str(data.get(f.name, "") or "").strip() for f in fields(cls)})
+
+    @classmethod
+    def from_row(cls, row: SeverityCategory) -> "CategoryForm":
+        """A stored category as form text."""
+        return cls(row.name, row.description, shortest_text(row.tolerable_frequency),
+                   str(row.receptor))
+
+
+@dataclass(frozen=True)
+class CategoryUse:
+    """A category with how the study uses it."""
+
+    category: SeverityCategory
+    form: CategoryForm
+    plain: str
+    rated_count: int
+    governed_count: int
+    short_count: int
+    errors: dict[str, str]
+
+
+@dataclass(frozen=True)
+class ReEvaluation:
+    """What a change to a category did to the scenarios rated with it."""
+
+    category_name: str
+    scenario_count: int
+    short_before: int
+    short_after: int
+    governed_before: int
+    governed_after: int
+
+    @property
+    def sentence(self) -> str:
+        """'14 scenarios re-evaluated: 5 short of target (was 3).'"""
+        noun = "scenario" if self.scenario_count == 1 else "scenarios"
+        return (f"'{self.category_name}' saved. {self.scenario_count} {noun} re-evaluated: "
+                f"{self.short_after} short of target (was {self.short_before}); "
+                f"{self.governed_after} governed by this category (was {self.governed_before}).")
+
+
+@dataclass(frozen=True)
+class CriteriaPage:
+    """Display-ready data for the criteria page."""
+
+    study: Study
+    categories: tuple[CategoryUse, ...]
+    new_form: CategoryForm
+    new_errors: dict[str, str]
+    basis_text: str
+    basis_error: str
+    message: str = ""
+    refusal: str = ""
+
+
+def _rated_with(scenario: Scenario, category_id: int) -> bool:
+    return category_id in (scenario.severity_category_id, scenario.environment_category_id,
+                           scenario.asset_category_id)
+
+
+def _use(tree: StudyTree, row: SeverityCategory, form: CategoryForm | None = None,
+         errors: dict[str, str] | None = None) -> CategoryUse:
+    items = tree.scenario_branches()
+    by_id = {c.id: c for c in tree.categories if c.id is not None}
+    governed = [s for s in items if (g := governing_category(s.scenario, by_id)) and g.id == row.id]
+    short = [s for s in governed if s.outcome.result and not s.outcome.result.meets_target]
+    return CategoryUse(
+        category=row, form=form or CategoryForm.from_row(row),
+        plain=parse_frequency(repr(row.tolerable_frequency)).plain,
+        rated_count=sum(_rated_with(s.scenario, row.id or 0) for s in items),
+        governed_count=len(governed), short_count=len(short), errors=errors or {},
+    )
+
+
+Edited = dict[int, tuple[CategoryForm, dict[str, str]]]
+
+
+def _criteria_page(session: Session, study_id: int, *, edited: Edited | None = None,
+                   new_form: CategoryForm | None = None, new_errors: dict[str, str] | None = None,
+                   basis_text: str | None = None, basis_error: str = "", message: str = "",
+                   refusal: str = "", tree: StudyTree | None = None) -> CriteriaPage:
+    tree = tree or load_study_tree(session, study_id)
+    edited = edited or {}
+    uses = tuple(_use(tree, row, *edited.get(row.id or 0, (None, None)))
+                 for row in tree.categories)
+    return CriteriaPage(
+        study=tree.study, categories=uses, new_form=new_form or CategoryForm(),
+        new_errors=new_errors or {},
+        basis_text=tree.study.criteria_basis if basis_text is None else basis_text,
+        basis_error=basis_error, message=message, refusal=refusal,
+    )
+
+
+def build_criteria_page(*, session: Session, study_id: int) -> CriteriaPage:
+    """The study's categories with how many scenarios each governs."""
+    return _criteria_page(session, study_id)
+
+
+def validate_category(form: CategoryForm) -> tuple[dict[str, Any], dict[str, str]]:
+    """The category's values, or the error of each field naming its rule."""
+    values: dict[str, object] = {}
+    errors: dict[str, str] = {}
+    if not form.name:
+        errors["name"] = "Name: a category needs a name."
+    elif problem := length_problem(form.name, NAME_LIMIT):
+        errors["name"] = f"Name: {problem}"
+    if problem := length_problem(form.description, DESCRIPTION_LIMIT):
+        errors["description"] = f"Description: {problem}"
+    try:
+        values["tolerable_frequency"] = parse_frequency(
+            form.tolerable_frequency, "Tolerable frequency").value
+    except LikelihoodInputError as err:
+        errors["tolerable_frequency"] = err.message
+    if form.receptor not in tuple(Receptor):
+        errors["receptor"] = (f"Receptor: '{form.receptor}' is not one of "
+                              f"{', '.join(Receptor)}.")
+    values |= {"name": form.name, "description": form.description, "receptor": form.receptor}
+    return values, errors
+
+
+def _get_category(session: Session, study_id: int, category_id: int) -> SeverityCategory:
+    row = session.get(SeverityCategory, category_id)
+    if row is None or row.study_id != study_id:
+        raise NotFoundError(f"There is no severity category {category_id} in study {study_id}.")
+    return row
+
+
+def _short_and_governed(tree: StudyTree, category_id: int) -> tuple[list[bool], int]:
+    by_id = {c.id: c for c in tree.categories if c.id is not None}
+    rated = [s for s in tree.scenario_branches() if _rated_with(s.scenario, category_id)]
+    short = [bool(s.outcome.result and not s.outcome.result.meets_target) for s in rated]
+    governed = len([s for s in rated if (g := governing_category(s.scenario, by_id)) is not None
+                    and g.id == category_id])
+    return short, governed
+
+
+def save_category(*, session: Session, study_id: int, category_id: int,
+                    form: CategoryForm) -> CriteriaPage:
+    """Save one category and re-evaluate the scenarios rated with it; errors save nothing."""
+    row = _get_category(session, study_id, category_id)
+    values, errors = validate_category(form)
+    if errors:
+        return _criteria_page(session, study_id, edited={category_id: (form, errors)})
+    short_before, governed_before = _short_and_governed(load_study_tree(session, study_id),
+                                                        category_id)
+    row.sqlmodel_update(values)
+    session.add(row)
+    session.commit()
+    after = load_study_tree(session, study_id)
+    short_after, governed_after = _short_and_governed(after, category_id)
+    change = ReEvaluation(row.name, len(short_after), sum(short_before), sum(short_after),
+                          governed_before, governed_after)
+    return _criteria_page(session, study_id, message=change.sentence, tree=after)
+
+
+def _next_category_position(session: Session, study_id: int) -> int:
+    statement = select(func.max(SeverityCategory.position)).where(
+        SeverityCategory.study_id == study_id)
+    return (session.exec(statement).one() or 0) + 1
+
+
+def add_category(*, session: Session, study_id: int, form: CategoryForm) -> CriteriaPage:
+    """Add a category at the end; errors save nothing and keep the typed text."""
+    get_study(session, study_id)
+    values, errors = validate_category(form)
+    if errors:
+        return _criteria_page(session, study_id, new_form=form, new_errors=errors)
+    position = _next_category_position(session, study_id)
+    session.add(SeverityCategory(study_id=study_id, position=position, **values))
+    session.commit()
+    return _criteria_page(session, study_id,
+                          message=f"'{form.name}' added. No scenario is rated with it yet.")
+
+
+def scenarios_rated_with(category_id: int) -> SelectOfScalar[int]:
+    """How many scenarios carry this category in any of their three ratings."""
+    return select(func.count()).select_from(Scenario).where(or_(
+        col(Scenario.severity_category_id) == category_id,
+        col(Scenario.environment_category_id) == category_id,
+        col(Scenario.asset_category_id) == category_id,
+    ))
+
+
+def remove_category(*, session: Session, study_id: int, category_id: int) -> CriteriaPage:
+    """Delete a category no scenario uses; otherwise refuse and say why."""
+    row = _get_category(session, study_id, category_id)
+    used = session.exec(scenarios_rated_with(category_id)).one()
+    if used:
+        noun = "scenario is" if used == 1 else "scenarios are"
+        return _criteria_page(session, study_id, refusal=(
+            f"'{row.name}' was not deleted: {used} {noun} rated with it. Rate them with "
+            f"another category first."))
+    name = row.name
+    session.delete(row)
+    session.commit()
+    return _criteria_page(session, study_id, message=f"'{name}' deleted.")
+
+
+def save_criteria_basis(*, session: Session, study_id: int, text: str) -> CriteriaPage:
+    """Say where the criteria come from; errors save nothing and keep the typed text."""
+    study = get_study(session, study_id)
+    typed = text.strip()
+    if not typed:
+        error = "Criteria basis: say where these criteria come from (e.g. your company standard)."
+    elif problem := length_problem(typed, BASIS_LIMIT):
+        error = f"Criteria basis: {problem}"
+    else:
+        study.criteria_basis = typed
+        session.add(study)
+        session.commit()
+        return _criteria_page(session, study_id, message="Criteria basis saved.")
+    return _criteria_page(session, study_id, basis_text=text, basis_error=error)

@@ -1,0 +1,184 @@
+"""The proof-test calculator: read the typed inputs, compute PFDavg and the longest interval,
+and write the result onto an IPL step with its inputs as the basis."""
+
+import json
+import math
+from dataclasses import asdict, dataclass, replace
+
+from sqlmodel import Session
+
+from app.db.models import Step, Study
+from app.likelihood.numbers import format_number
+from app.likelihood.proof_test import (
+    PROOF_TEST_INTERVAL_CAP_HOURS,
+    SifInputs,
+    longest_proof_test_interval,
+    pfd_avg,
+)
+from app.likelihood.sil import HOURS_PER_YEAR, pfd_band
+from app.likelihood.types import StepKind
+from app.services.risk.proof_test_form import ProofTestForm, read_inputs
+from app.services.risk.step_details import StepNeed, StepPlace, locate_step, step_need
+from app.services.study.tree import NotFoundError, get_study
+
+METHOD = "IEC 61508-6 Annex B simplified equation"
+
+
+@dataclass(frozen=True)
+class ProofTestResult:
+    """PFDavg and what it means, and the longest interval meeting the target."""
+
+    inputs: SifInputs
+    pfd: float
+    pfd_text: str
+    rrf: float
+    band_label: str
+    target_pfd: float | None
+    meets_target: bool | None
+    longest_hours: float | None
+    longest_text: str
+
+
+@dataclass(frozen=True)
+class ProofTestPage:
+    """Display-ready data for the calculator page."""
+
+    study: Study
+    form: ProofTestForm
+    errors: dict[str, str]
+    result: ProofTestResult | None
+    place: StepPlace | None
+    need: StepNeed | None
+    applied: bool = False
+
+
+def band_label(pfd: float) -> str:
+    """The low-demand SIL band a PFDavg falls in, said in words."""
+    sil = pfd_band(pfd)
+    if sil is not None:
+        return f"SIL {sil}"
+    if pfd >= 0.1:
+        return "No SIL band (PFD 0.1 or more)"
+    return "Better than the SIL 4 band (PFD below 1e-5): claim SIL 4 at most"
+
+
+def describe_hours(hours: float) -> str:
+    """Hours with the same time in years: '17,520 h (2 years)'."""
+    years = hours / HOURS_PER_YEAR
+    return f"{hours:,.0f} h ({years:.3g} year{'' if math.isclose(years, 1) else 's'})"
+
+
+def _longest_text(longest: float | None, target: float) -> str:
+    if longest is None:
+        return (f"None: even testing continuously leaves PFDavg above {format_number(target)} "
+                f"(the repair-time and common-cause terms alone exceed it).")
+    if longest >= PROOF_TEST_INTERVAL_CAP_HOURS:
+        return "100 years or more (the search stops there)."
+    return describe_hours(longest)
+
+
+def calculate(inputs: SifInputs, target: float | None) -> ProofTestResult:
+    """PFDavg by the Annex B equations, its band and RRF, and the inverse for the target."""
+    pfd = pfd_avg(inputs)
+    longest = longest_proof_test_interval(inputs, target) if target is not None else None
+    return ProofTestResult(
+        inputs=inputs, pfd=pfd, pfd_text=plain_number(pfd), rrf=1 / pfd,
+        band_label=band_label(pfd), target_pfd=target,
+        meets_target=None if target is None else pfd <= target,
+        longest_hours=longest,
+        longest_text=_longest_text(longest, target) if target is not None else "",
+    )
+
+
+def _stored_form(step: Step) -> ProofTestForm | None:
+    if not step.proof_test:
+        return None
+    typed = json.loads(step.proof_test).get("typed", {})
+    return ProofTestForm.from_mapping(typed)
+
+
+def read_calculator(*, session: Session, study_id: int, step_id: int | None = None,
+                    applied: bool = False) -> ProofTestPage:
+    """The calculator with defaults, or with the attached step's stored inputs and target."""
+    study = get_study(session, study_id)
+    place = _ipl_place(session, study_id, step_id)
+    need = step_need(session, place) if place else None
+    form = (_stored_form(place.step) if place else None) or ProofTestForm()
+    if need is not None and need.required_pfd is not None and not form.target_pfd:
+        form = replace(form, target_pfd=plain_number(need.required_pfd))
+    return evaluate(study, form, place, need, applied=applied)
+
+
+def evaluate(study: Study, form: ProofTestForm, place: StepPlace | None,
+             need: StepNeed | None, *, applied: bool = False) -> ProofTestPage:
+    """Compute the page for these typed inputs (errors at their fields, nothing saved)."""
+    inputs, target, errors = read_inputs(form)
+    result = calculate(inputs, target) if inputs is not None else None
+    return ProofTestPage(study, form, errors, result, place, need, applied)
+
+
+def calculate_page(*, session: Session, study_id: int, form: ProofTestForm,
+                   step_id: int | None = None) -> ProofTestPage:
+    """The calculator page for typed inputs (the live recalculation)."""
+    study = get_study(session, study_id)
+    place = _ipl_place(session, study_id, step_id)
+    need = step_need(session, place) if place else None
+    return evaluate(study, form, place, need)
+
+
+def _ipl_place(session: Session, study_id: int, step_id: int | None) -> StepPlace | None:
+    if step_id is None:
+        return None
+    place = locate_step(session, study_id, step_id)
+    if place.step.kind != StepKind.IPL:
+        raise NotFoundError(f"Step {step_id} is not a protection layer: the proof-test "
+                            f"calculator attaches only to an IPL.")
+    return place
+
+
+def plain_number(x: float) -> str:
+    """Three significant figures, as a person writes them: 0.00219 -> '2.19e-3', 0.05 -> '0.05'."""
+    if x == 0 or 1e-2 <= x < 1e4:
+        return f"{x:.3g}"
+    mantissa, exponent = f"{x:.2e}".split("e")
+    return f"{mantissa.rstrip('0').rstrip('.')}e{int(exponent)}"
+
+
+def basis_line(inputs: SifInputs, pfd: float) -> str:
+    """The sentence appended to the step's basis saying how its PFD was worked out."""
+    parts = [f"{METHOD}, {inputs.architecture}", f"λDU={plain_number(inputs.lambda_du)}/h",
+             f"λDD={plain_number(inputs.lambda_dd)}/h"]
+    if inputs.beta is not None:
+        parts += [f"β={inputs.effective_beta:g}", f"βD={inputs.effective_beta_d:g}"]
+    parts += [f"T1={inputs.proof_test_interval_hours:g} h", f"MTTR={inputs.mttr_hours:g} h",
+              f"MRT={inputs.effective_mrt_hours:g} h"]
+    return ", ".join(parts) + f": PFDavg {plain_number(pfd)}."
+
+
+def _stored_json(form: ProofTestForm, result: ProofTestResult) -> str:
+    numbers = {k: v for k, v in asdict(result.inputs).items()}
+    numbers["architecture"] = str(result.inputs.architecture)
+    return json.dumps({"method": METHOD, **numbers, "pfd_avg": result.pfd,
+                       "typed": asdict(form)}, ensure_ascii=False)
+
+
+BASIS_LIMIT = 2000
+
+
+def apply_to_step(*, session: Session, study_id: int, step_id: int,
+                  form: ProofTestForm) -> ProofTestPage:
+    """Set the IPL's PFD to the computed PFDavg with its inputs as basis; errors save nothing."""
+    page = calculate_page(session=session, study_id=study_id, form=form, step_id=step_id)
+    if page.result is None or page.place is None:
+        return page
+    step, line = page.place.step, basis_line(page.result.inputs, page.result.pfd)
+    basis = f"{step.basis.rstrip()}\n{line}" if step.basis.strip() else line
+    if len(basis) > BASIS_LIMIT:
+        message = (f"Basis: adding the calculation would make the basis {len(basis)} characters, "
+                   f"over the {BASIS_LIMIT} allowed; shorten the step's basis first.")
+        return replace(page, errors={"basis": message})
+    step.value, step.value_text = page.result.pfd, plain_number(page.result.pfd)
+    step.proof_test, step.basis = _stored_json(form, page.result), basis
+    session.add(step)
+    session.commit()
+    return replace(page, applied=True)

@@ -1,0 +1,231 @@
+"""A step's details beyond its number: layer type, system, response time, SIL claim, typical
+value and basis; used by the checks and by the proof-test calculator."""
+
+import math
+from dataclasses import dataclass, fields
+from typing import Any
+
+from sqlmodel import Session, col, select
+from sqlmodel.sql.expression import SelectOfScalar
+
+from app.db.models import Deviation, Scenario, SeverityCategory, Step, Study, saved_id, text_limit
+from app.db.queries import fetch_rows_of_study
+from app.likelihood.checks import CheckWarning, check_scenario
+from app.likelihood.types import DemandMode, IplType, StepKind
+from app.likelihood.typical import TypicalValue, typical_by_key, typical_for_kind
+from app.services.risk.ipl_checks import checked_steps
+from app.services.study.errors import length_problem
+from app.services.study.results import compute_outcome
+from app.services.study.tree import NotFoundError, WorksheetSpot, get_study
+
+# Any in this module: form readers take raw form values (the form boundary).
+
+IPL_TYPE_LABELS: dict[IplType, str] = {
+    IplType.BPCS: "BPCS loop (basic process control system)",
+    IplType.SIF: "Safety instrumented function (SIF)",
+    IplType.OPERATOR_RESPONSE: "Operator response to an alarm",
+    IplType.RELIEF_DEVICE: "Relief device",
+    IplType.PASSIVE: "Passive layer (dike, vent, wall, arrester)",
+    IplType.OTHER: "Other layer",
+}
+SYSTEM_TAG_LIMIT, BASIS_LIMIT = text_limit(Step, "system_tag"), text_limit(Step, "basis")
+
+
+@dataclass(frozen=True)
+class StepPlace:
+    """A step with its scenario and where that scenario sits on the worksheet."""
+
+    step: Step
+    scenario: Scenario
+    node_id: int
+    spot: WorksheetSpot
+
+
+def steps_of_scenario(scenario_id: int) -> SelectOfScalar[Step]:
+    """Every step of one scenario in stored order."""
+    return select(Step).where(Step.scenario_id == scenario_id).order_by(
+        col(Step.position), col(Step.id))
+
+
+def fetch_steps_of_scenario(session: Session, scenario_id: int) -> list[Step]:
+    """Run steps_of_scenario."""
+    return list(session.exec(steps_of_scenario(scenario_id)).all())
+
+
+def locate_step(session: Session, study_id: int, step_id: int) -> StepPlace:
+    """The step of this study with its scenario and node, or NotFoundError."""
+    step = session.get(Step, step_id)
+    if step is None or step.study_id != study_id:
+        raise NotFoundError(f"There is no step {step_id} in study {study_id}.")
+    scenario = session.get(Scenario, step.scenario_id)
+    deviation = session.get(Deviation, scenario.deviation_id) if scenario else None
+    if scenario is None or deviation is None:
+        raise NotFoundError(f"Step {step_id} belongs to no scenario.")
+    spot = WorksheetSpot(study_id, deviation.node_id, scenario.id or 0)
+    return StepPlace(step, scenario, deviation.node_id, spot)
+
+
+@dataclass(frozen=True)
+class StepNeed:
+    """What the scenario asks of this layer: the demand on it and the PFD that meets target."""
+
+    demand_per_year: float
+    required_pfd: float | None
+    high_demand: bool
+
+
+def step_need(session: Session, place: StepPlace) -> StepNeed | None:
+    """The scenario computed without this layer: its demand and the PFD this layer needs."""
+    others = [s for s in fetch_steps_of_scenario(session, place.scenario.id or 0)
+              if s.id != place.step.id]
+    categories = {saved_id(c.id): c for c in fetch_rows_of_study(session, SeverityCategory,
+                                                                 place.step.study_id)}
+    result = compute_outcome(place.scenario, others, categories).result
+    if result is None:
+        return None
+    target = result.sil_target
+    needed = 1 / result.ratio if result.ratio > 1 else None  # at most 1: met without the layer
+    return StepNeed(result.mitigated_frequency, needed, target.demand_mode is DemandMode.HIGH)
+
+
+@dataclass(frozen=True)
+class StepDetailsForm:
+    """The details as typed."""
+
+    ipl_type: str = ""
+    system_tag: str = ""
+    response_time_minutes: str = ""
+    sil_claimed: str = ""
+    typical_key: str = ""
+    basis: str = ""
+
+    @classmethod
+    def from_step(cls, step: Step) -> "StepDetailsForm":
+        """The step's stored details as form text."""
+        minutes = step.response_time_minutes
+        return cls(
+            ipl_type=step.ipl_type or "", system_tag=step.system_tag,
+            response_time_minutes="" if minutes is None else f"{minutes:g}",
+            sil_claimed="" if step.sil_claimed is None else str(step.sil_claimed),
+            typical_key=step.typical_key or "", basis=step.basis,
+        )
+
+    @classmethod
+    def from_mapping(cls, data: Any) -> "StepDetailsForm":
+        """Pick the fields out of submitted form data."""
+        return cls(**{f.name: str(data.get(f.name, "")).strip() for f in fields(cls)})
+
+
+@dataclass(frozen=True)
+class StepDetailsPage:
+    """Display-ready data for the step details page."""
+
+    study: Study
+    place: StepPlace
+    kind_label: str
+    is_ipl: bool
+    form: StepDetailsForm
+    errors: dict[str, str]
+    typical_options: tuple[TypicalValue, ...]
+    chosen_typical: TypicalValue | None
+    ipl_types: dict[IplType, str]
+    warnings: list[CheckWarning]
+    saved: bool = False
+
+
+def _details_page(session: Session, place: StepPlace, form: StepDetailsForm,
+          errors: dict[str, str], *, saved: bool = False) -> StepDetailsPage:
+    kind = place.step.kind
+    steps = fetch_steps_of_scenario(session, place.scenario.id or 0)
+    return StepDetailsPage(
+        study=get_study(session, place.step.study_id), place=place,
+        kind_label=kind.label, is_ipl=kind is StepKind.IPL, form=form, errors=errors,
+        typical_options=typical_for_kind(kind), chosen_typical=typical_by_key(form.typical_key),
+        ipl_types=IPL_TYPE_LABELS, warnings=check_scenario(checked_steps(steps)), saved=saved,
+    )
+
+
+def build_step_details_page(*, session: Session, study_id: int, step_id: int) -> StepDetailsPage:
+    """The step's details form filled from what is stored."""
+    place = locate_step(session, study_id, step_id)
+    return _details_page(session, place, StepDetailsForm.from_step(place.step), {})
+
+
+def _minutes(text: str) -> float | None:
+    if not text:
+        return None
+    try:
+        minutes = float(text)
+    except ValueError:
+        raise ValueError(f"Response time: not a number of minutes (got '{text}').") from None
+    if not (math.isfinite(minutes) and minutes >= 0):
+        raise ValueError(f"Response time: minutes must be 0 or more (got {text}).")
+    return minutes
+
+
+def _sil(text: str) -> int | None:
+    if not text:
+        return None
+    if text not in {"1", "2", "3", "4"}:
+        raise ValueError(f"SIL claimed: a SIL runs from 1 to 4 (got '{text}').")
+    return int(text)
+
+
+def _read_ipl_type(text: str) -> str | None:
+    if not text:
+        return None
+    if text not in tuple(IplType):
+        raise ValueError(f"Layer type: unknown type '{text}' (known: {', '.join(IplType)}).")
+    return text
+
+
+def _typical(text: str, kind: StepKind) -> str | None:
+    if not text:
+        return None
+    row = typical_by_key(text)
+    if row is None:
+        raise ValueError(f"Typical value: no typical-value row '{text}'.")
+    if row.kind != kind:
+        raise ValueError(f"Typical value: '{row.label}' is a typical value for "
+                         f"{row.kind.label.lower()}, not for this step.")
+    return text
+
+
+def _form_text(text: str, limit: int, label: str) -> str:
+    if problem := length_problem(text, limit):
+        raise ValueError(f"{label}: {problem}")
+    return text
+
+
+def _readers(kind: StepKind) -> dict[str, Any]:
+    """The fields a step of this kind keeps, each with its reader (raises with the rule)."""
+    readers: dict[str, Any] = {
+        "typical_key": lambda t: _typical(t, kind),
+        "basis": lambda t: _form_text(t, BASIS_LIMIT, "Basis"),
+    }
+    if kind in (StepKind.IPL, StepKind.INITIATING_EVENT):
+        readers["system_tag"] = lambda t: _form_text(t, SYSTEM_TAG_LIMIT, "System or device")
+    if kind is StepKind.IPL:
+        readers |= {"ipl_type": _read_ipl_type, "response_time_minutes": _minutes,
+                    "sil_claimed": _sil}
+    return readers
+
+
+def save_step_details(*, session: Session, study_id: int, step_id: int,
+                        form: StepDetailsForm) -> StepDetailsPage:
+    """Save the details if every field is valid; otherwise save nothing, errors at the fields."""
+    place = locate_step(session, study_id, step_id)
+    values, errors = {}, {}
+    for name, reader in _readers(place.step.kind).items():
+        try:
+            values[name] = reader(getattr(form, name))
+        except ValueError as err:
+            errors[name] = str(err)
+    if errors:
+        return _details_page(session, place, form, errors)
+    place.step.sqlmodel_update(values)
+    session.add(place.step)
+    session.commit()
+    session.refresh(place.step)
+    return _details_page(session, place, StepDetailsForm.from_step(place.step), {}, saved=True)
+

@@ -1,0 +1,1 @@
+"""The shared core every area builds on: study tree, results, totals, study list, errors."""

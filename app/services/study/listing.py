@@ -1,0 +1,97 @@
+"""Study listing and the study overview page's data."""
+
+import math
+from collections.abc import Sequence
+from dataclasses import dataclass
+
+from sqlalchemy import delete
+from sqlmodel import Session
+
+from app.db.models import Scenario, Study
+from app.db.queries import fetch_studies_with_counts
+from app.likelihood.types import ScenarioResult
+from app.services.study.tree import (
+    NodeBranch,
+    NotFoundError,
+    ScenarioBranch,
+    StudyTree,
+    load_study_tree,
+)
+
+
+@dataclass(frozen=True)
+class StudyListing:
+    """One line of the study list."""
+
+    study: Study
+    node_count: int
+    scenario_count: int
+
+
+@dataclass(frozen=True)
+class NodeTotals:
+    """What a node adds up to."""
+
+    scenario_count: int
+    short_count: int
+    unresolved_count: int
+    summed_frequency: float
+
+
+@dataclass(frozen=True)
+class StudyOverview:
+    """Display-ready data for the study page."""
+
+    tree: StudyTree
+    node_totals: dict[int, NodeTotals]
+    study_totals: NodeTotals
+
+
+def list_studies(*, session: Session) -> list[StudyListing]:
+    """Every study with its size."""
+    return [StudyListing(*row) for row in fetch_studies_with_counts(session)]
+
+
+def totals_of_results(results: Sequence[ScenarioResult | None]) -> NodeTotals:
+    """Count and sum scenario results; None stands for a scenario that could not be computed."""
+    computed = [r for r in results if r is not None]
+    return NodeTotals(
+        scenario_count=len(results),
+        short_count=sum(not r.meets_target for r in computed),
+        unresolved_count=len(results) - len(computed),
+        # fsum is exact, so the sum does not depend on the order the scenarios were read in.
+        summed_frequency=math.fsum(r.mitigated_frequency for r in computed),
+    )
+
+
+def totals_of(scenarios: list[ScenarioBranch]) -> NodeTotals:
+    """Count and sum a set of scenarios' outcomes."""
+    return totals_of_results([s.outcome.result for s in scenarios])
+
+
+def node_totals(nodes: list[NodeBranch]) -> dict[int, NodeTotals]:
+    """Totals for each node, keyed by node id."""
+    return {n.node.id: totals_of(n.scenario_branches()) for n in nodes if n.node.id is not None}
+
+
+def read_study_overview(*, session: Session, study_id: int) -> StudyOverview:
+    """The study with every scenario computed and totals per node and for the study."""
+    tree = load_study_tree(session, study_id)
+    return StudyOverview(tree, node_totals(tree.nodes), totals_of(tree.scenario_branches()))
+
+
+def delete_study(*, session: Session, study_id: int) -> StudyListing:
+    """Delete a study and everything it holds, in one transaction; returns what was deleted.
+
+    Scenarios go first: they refer to severity categories with ON DELETE RESTRICT, which the
+    study's own cascade could meet before it reached the scenarios. Everything else cascades
+    from the study row. Plain statements, so no change-log entry points at a deleted study.
+    """
+    listing = next((row for row in list_studies(session=session) if row.study.id == study_id),
+                   None)
+    if listing is None:
+        raise NotFoundError(f"There is no study with id {study_id}.")
+    session.execute(delete(Scenario).where(Scenario.study_id == study_id))  # type: ignore[arg-type]
+    session.execute(delete(Study).where(Study.id == study_id))  # type: ignore[arg-type]
+    session.commit()
+    return listing

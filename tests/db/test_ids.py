@@ -1,0 +1,73 @@
+"""Ids are never handed out twice: a page referring to a deleted row never touches a new one."""
+
+import sqlite3
+from pathlib import Path
+
+import pytest
+from alembic import command
+from sqlalchemy import Engine
+from sqlmodel import Session, SQLModel
+
+from app.cli import alembic_config
+from tests.factories import make_node, make_study
+from tests.scratch_db import settings_pointing_at, sqlite_url
+
+
+def test_a_row_created_after_deleting_the_newest_gets_a_new_id(session: Session) -> None:
+    study = make_study(session)
+    newest = make_node(session, study, number="2")
+    deleted_id = newest.id
+    session.delete(newest)
+    session.commit()
+    created = make_node(session, study, number="3")
+    assert created.id is not None and deleted_id is not None
+    assert created.id > deleted_id
+
+
+def test_every_table_keyed_by_id_says_autoincrement_on_sqlite(db_engine: Engine) -> None:
+    # Alembic's comparison does not see this table option, so the schema text is checked.
+    if db_engine.dialect.name != "sqlite":
+        pytest.skip("PostgreSQL sequences never reuse a value; the option is SQLite's")
+    with db_engine.connect() as connection:
+        schema: dict[str, str] = dict(connection.exec_driver_sql(
+            "SELECT name, sql FROM sqlite_master WHERE type = 'table'").fetchall())
+    keyed_by_id = [t.name for t in SQLModel.metadata.sorted_tables
+                   if [c.name for c in t.primary_key.columns] == ["id"]]
+    assert len(keyed_by_id) == 14  # 13 study tables and access_state
+    assert [t for t in keyed_by_id if "PRIMARY KEY AUTOINCREMENT" not in schema[t]] == []
+
+
+def test_the_migration_keeps_every_row_id_and_link_of_an_existing_database(
+    tmp_path: Path, monkeypatch: pytest.MonkeyPatch
+) -> None:
+    path = tmp_path / "before.db"
+    with settings_pointing_at(sqlite_url(path), monkeypatch):
+        command.upgrade(alembic_config(), "0c15478a5dc4")
+        _write_two_studies(path)
+        before = _contents(path)
+        command.upgrade(alembic_config(), "head")
+    after = _contents(path)
+    assert after == before
+    with sqlite3.connect(path) as raw:
+        assert raw.execute("PRAGMA foreign_key_check").fetchall() == []
+        assert raw.execute("SELECT seq FROM sqlite_sequence WHERE name = 'node'").fetchone() == (3,)
+
+
+def _write_two_studies(path: Path) -> None:
+    from app.db.session import build_db_engine
+
+    db_engine = build_db_engine(sqlite_url(path))
+    with Session(db_engine) as session:
+        first, second = make_study(session, title="A"), make_study(session, title="B")
+        for study, number in ((first, "1"), (second, "1"), (second, "2")):
+            make_node(session, study, number=number)
+    db_engine.dispose()
+
+
+def _contents(path: Path) -> list[tuple[object, ...]]:
+    with sqlite3.connect(path) as raw:
+        studies = raw.execute("SELECT id, title FROM study ORDER BY id").fetchall()
+        nodes = raw.execute("SELECT id, study_id, number FROM node ORDER BY id").fetchall()
+        categories = raw.execute("SELECT id, study_id FROM severity_category").fetchall()
+    return [*studies, *nodes, *categories]
+

@@ -1,0 +1,162 @@
+"""Helpers every test layer shares: reading HTML as data, htmx headers, the test author.
+
+Test modules import helpers from here (or fixtures from conftest), never from each other.
+"""
+
+
+import threading
+from collections.abc import Callable
+from html.parser import HTMLParser
+
+from sqlalchemy import Engine
+from sqlmodel import Session
+
+from app.db.tracking import AUTHOR_KEY
+
+TEST_AUTHOR = "Test Scribe"
+
+HX = {"HX-Request": "true"}
+VOID = {"input", "br", "img", "meta", "link", "hr", "area", "base", "col", "source", "wbr"}
+
+
+class Elements(HTMLParser):
+    """Each element with an id: its attributes and its text (void elements have none)."""
+
+    def __init__(self) -> None:
+        super().__init__()
+        self.found: dict[str, dict[str, str]] = {}
+        self.texts: dict[str, list[str]] = {}
+        self.open: list[tuple[str, str | None]] = []
+
+    def handle_starttag(self, tag: str, attrs: list) -> None:  # type: ignore[type-arg]
+        values = {k: v or "" for k, v in attrs}
+        element_id = values.get("id")
+        if element_id:
+            self.found[element_id] = {"tag": tag, **values}
+            self.texts.setdefault(element_id, [])
+        if tag not in VOID:
+            self.open.append((tag, element_id))
+
+    def handle_endtag(self, tag: str) -> None:
+        while self.open:
+            if self.open.pop()[0] == tag:
+                break
+
+    def handle_data(self, data: str) -> None:
+        for _, element_id in self.open:
+            if element_id:
+                self.texts[element_id].append(data)
+
+
+def parse(html: str) -> Elements:
+    """Parse a page or fragment."""
+    parser = Elements()
+    parser.feed(html)
+    return parser
+
+
+def text_of(html: str, element_id: str) -> str:
+    """The whitespace-normalised text of the element with this id."""
+    return " ".join(" ".join(parse(html).texts[element_id]).split())
+
+
+def attrs_of(html: str, element_id: str) -> dict[str, str]:
+    """The attributes of the element with this id."""
+    return parse(html).found[element_id]
+
+
+class Figures(HTMLParser):
+    """The data-figure texts inside one element (by id), stopping where it closes."""
+
+    def __init__(self, region_id: str) -> None:
+        super().__init__()
+        self.region_id, self.depth = region_id, 0
+        self.values: dict[str, str] = {}
+        self.current: str | None = None
+
+    def handle_starttag(self, tag: str, attrs: list) -> None:  # type: ignore[type-arg]
+        values = dict(attrs)
+        if values.get("id") == self.region_id:
+            self.depth = 1
+        elif self.depth and tag not in VOID:
+            self.depth += 1
+        if self.depth:
+            self.current = values.get("data-figure") or self.current
+
+    def handle_endtag(self, tag: str) -> None:
+        if self.depth:
+            self.depth -= 1
+            if tag in ("dd", "p"):
+                self.current = None
+
+    def handle_data(self, data: str) -> None:
+        if self.depth and self.current:
+            joined = self.values.get(self.current, "") + data
+            self.values[self.current] = " ".join(joined.split())
+
+
+def figures(html: str, scenario_id: int) -> dict[str, str]:
+    """The scenario's computed figures by name, as shown."""
+    parser = Figures(f"scenario-{scenario_id}-results")
+    parser.feed(html)
+    return parser.values
+
+
+class TableRows(HTMLParser):
+    """Collect the text of each <tr> of the table with the given id."""
+
+    def __init__(self, table_id: str) -> None:
+        super().__init__()
+        self.table_id, self.depth, self.rows = table_id, 0, []
+        self.cell: list[str] | None = None
+
+    def handle_starttag(self, tag: str, attrs: list) -> None:  # type: ignore[type-arg]
+        if tag == "table" and ("id", self.table_id) in attrs:
+            self.depth = 1
+        elif self.depth and tag == "tr":
+            self.rows.append([])
+        elif self.depth and tag in ("td", "th"):
+            self.cell = []
+
+    def handle_endtag(self, tag: str) -> None:
+        if self.depth and tag in ("td", "th") and self.cell is not None:
+            self.rows[-1].append(" ".join("".join(self.cell).split()))
+            self.cell = None
+        elif tag == "table":
+            self.depth = 0
+
+    def handle_data(self, data: str) -> None:
+        if self.cell is not None:
+            self.cell.append(data)
+
+
+def table_rows(html: str, table_id: str) -> list[list[str]]:
+    """The table's rows as lists of cell texts."""
+    parser = TableRows(table_id)
+    parser.feed(html)
+    return parser.rows
+
+
+def run_at_once(db_engine: Engine, move: Callable[[Session, int, int], object],
+                threads: int = 4, moves: int = 25) -> list[str]:
+    """`threads` workers each make `moves` calls of move(session, worker, i) in their own
+    sessions, all starting together; returns the errors raised (for concurrency tests)."""
+    errors: list[str] = []
+    start = threading.Barrier(threads)
+
+    def worker(number: int) -> None:
+        start.wait()
+        for i in range(moves):
+            try:
+                with Session(db_engine) as session:
+                    session.info[AUTHOR_KEY] = f"thread {number}"
+                    move(session, number, i)
+            except Exception as err:
+                errors.append(f"{type(err).__name__}: {err}")
+
+    workers = [threading.Thread(target=worker, args=(n,)) for n in range(threads)]
+    for thread in workers:
+        thread.start()
+    for thread in workers:
+        thread.join()
+    return errors

@@ -1,0 +1,287 @@
+"""The worksheet's cost per request does not grow with the rest of the study.
+
+One node is shown, but the totals of the whole study are too. These tests count the SQL
+statements and the ORM objects a request loads on a study of 1 node and on one of 40 nodes
+(built by importing a generated, invented study file), and check that the totals shown
+equal those of the whole-study path (load_study_tree + totals_of) on the same data.
+"""
+
+import json
+from collections import Counter
+from collections.abc import Callable, Iterator
+from contextlib import contextmanager
+from dataclasses import dataclass, field
+from html.parser import HTMLParser
+from typing import Any
+
+import pytest
+from fastapi.testclient import TestClient
+from httpx import Response
+from sqlalchemy import Engine, event
+from sqlmodel import Session, select
+
+from app.db.models import Deviation, Node, Safeguard, Scenario, Step, Study
+from app.likelihood.types import StepKind
+from app.routes.rendering import sci
+from app.services.exchange.study_import import import_study_text
+from app.services.study.listing import NodeTotals, totals_of
+from app.services.study.totals import study_totals
+from app.services.study.tree import load_node_tree, load_study_tree
+from tests.helpers import HX
+
+LARGE = 40
+STEPS_PER_NODE = 7  # 2 + 3 + 2 steps in the three scenarios of every generated node
+CONTENT = (Node, Deviation, Scenario, Step, Safeguard)
+
+
+def generated_scenarios(node: int) -> list[dict[str, Any]]:
+    """Three invented scenarios whose numbers differ from node to node."""
+    def initiating(per_year: float) -> dict[str, Any]:
+        return {"kind": "initiating_event", "description": "Control loop failure",
+                "value": per_year}
+    return [
+        {"ref": f"N{node}-S1", "cause": "Level control fails high", "severity": "P",
+         "steps": [initiating(0.1 / node),
+                   {"kind": "ipl", "description": "High level trip", "value": 0.01}]},
+        {"ref": f"N{node}-S2", "cause": "Inlet valve left open", "severity": "A",
+         "environment_severity": "E",  # the environment rating is the most demanding
+         "steps": [initiating(0.01 / node),
+                   {"kind": "enabling_condition", "description": "Tank filling", "value": 0.5},
+                   {"kind": "ipl", "description": "Operator response", "value": 0.1,
+                    "credited": False}],
+         "safeguards": [{"description": "Level gauge glass"}]},
+        {"ref": f"N{node}-S3", "cause": "Pump seal leaks", "severity": "A",
+         "steps": [initiating(1e-3), {"kind": "ipl", "description": "Relief valve",
+                                      "value": 0.1}]},
+    ]
+
+
+def generated_study(node_count: int) -> str:
+    """An invented study file of `node_count` nodes, one deviation and three scenarios each."""
+    return json.dumps({
+        "format": "tallyroom-study", "schema_version": 1, "invented": True,
+        "study": {"title": f"Scale study of {node_count} nodes (invented)"},
+        "severity_categories": [
+            {"ref": "P", "name": "Injury", "tolerable_frequency": 1e-5},
+            {"ref": "E", "name": "Reportable release", "tolerable_frequency": 1e-6,
+             "receptor": "environment"},
+            {"ref": "A", "name": "Plant damage", "tolerable_frequency": 1e-3,
+             "receptor": "asset"},
+        ],
+        "nodes": [{"number": str(n), "name": f"Invented unit {n}",
+                   "deviations": [{"guideword": "More", "parameter": "Level",
+                                   "scenarios": generated_scenarios(n)}]}
+                  for n in range(1, node_count + 1)],
+        "recommendations": [{"text": "Add an independent level trip", "scenarios": ["N1-S1"]}],
+    })
+
+
+def imported_study(session: Session, node_count: int) -> Study:
+    """The generated study, imported; its last node's third scenario lost its initiating event
+    (so the totals include a scenario that cannot be computed)."""
+    study = import_study_text(session, generated_study(node_count))
+    last = session.exec(select(Step).join(Scenario).where(
+        Scenario.study_id == study.id, Step.kind == StepKind.INITIATING_EVENT)
+        .order_by(Step.id.desc())).first()  # type: ignore[union-attr]
+    assert last is not None
+    session.delete(last)
+    session.commit()
+    return study
+
+
+def first_node(session: Session, study: Study) -> Node:
+    """The study's first node."""
+    return session.exec(select(Node).where(Node.study_id == study.id, Node.position == 0)).one()
+
+
+def trip_of_first_node(session: Session, study: Study) -> Step:
+    """The high level trip of the first node's first scenario."""
+    node_id = first_node(session, study).id
+    return session.exec(select(Step).join(Scenario).join(Deviation).where(
+        Deviation.node_id == node_id, Step.description == "High level trip")).one()
+
+
+@dataclass
+class Cost:
+    """What one request did: SQL statements sent and the content rows it loaded as objects."""
+
+    statements: int = 0
+    rows: set[tuple[str, int]] = field(default_factory=set)
+
+    @property
+    def loaded(self) -> Counter[str]:
+        """How many distinct rows of each model were loaded (a row loaded twice counts once)."""
+        return Counter(name for name, _ in self.rows)
+
+
+@contextmanager
+def measured(db_engine: Engine) -> Iterator[Cost]:
+    """Count statements and loaded content objects while the block runs."""
+    cost = Cost()
+
+    def count_statement(*_args: Any) -> None:
+        cost.statements += 1
+
+    def count_load(target: Any, _context: Any) -> None:
+        cost.rows.add((type(target).__name__, target.id))
+
+    event.listen(db_engine, "before_cursor_execute", count_statement)
+    for model in CONTENT:
+        event.listen(model, "load", count_load)
+    try:
+        yield cost
+    finally:
+        event.remove(db_engine, "before_cursor_execute", count_statement)
+        for model in CONTENT:
+            event.remove(model, "load", count_load)
+
+
+Send = Callable[[], Response]
+
+
+def view_worksheet(client: TestClient, session: Session, study: Study) -> Send:
+    """The first node's worksheet page."""
+    url = f"/studies/{study.id}/nodes/{first_node(session, study).id}"
+    return lambda: client.get(url)
+
+
+def edit_value(client: TestClient, session: Session, study: Study) -> Send:
+    """A keystroke reply: the first node's trip typed as 1 in 1000."""
+    url = f"/studies/{study.id}/steps/{trip_of_first_node(session, study).id}/value"
+    return lambda: client.post(url, data={"value_text": "1 in 1000"}, headers=HX)
+
+
+def view_room(client: TestClient, session: Session, study: Study) -> Send:
+    """The room view (no focus yet: the study's first scenario)."""
+    url = f"/studies/{study.id}/room"
+    return lambda: client.get(url)
+
+
+def steps_of_first_node(session: Session, study: Study) -> int:
+    """How many steps the first node has."""
+    node_id = first_node(session, study).id
+    return len(session.exec(select(Step).join(Scenario).join(Deviation).where(
+        Deviation.node_id == node_id)).all())
+
+
+@pytest.mark.parametrize("prepared", [view_worksheet, edit_value, view_room],
+                         ids=["worksheet GET", "value-edit POST", "room GET"])
+def test_a_request_costs_the_same_on_1_node_as_on_40_nodes(
+    client: TestClient, session: Session, db_engine: Engine,
+    prepared: Callable[[TestClient, Session, Study], Send],
+) -> None:
+    costs = []
+    for node_count in (1, LARGE):
+        study = imported_study(session, node_count)
+        send = prepared(client, session, study)
+        with measured(db_engine) as cost:
+            assert send().status_code == 200
+        costs.append((cost, steps_of_first_node(session, study)))
+    (small, small_steps), (large, large_steps) = costs
+    assert large_steps == small_steps + 1 == STEPS_PER_NODE  # the small study lost one step
+    assert large.statements == small.statements
+    assert large.loaded["Step"] == large_steps and small.loaded["Step"] == small_steps
+    assert large.loaded["Scenario"] == small.loaded["Scenario"] == 3
+    assert large.loaded["Node"] == small.loaded["Node"] == 1
+
+
+class ShownTotals(HTMLParser):
+    """The totals lists (#node-totals, #study-totals) as {label: shown value}."""
+
+    def __init__(self) -> None:
+        super().__init__()
+        self.values: dict[str, str] = {}
+        self.inside = 0
+        self.label: str | None = None
+        self.tag = ""
+
+    def handle_starttag(self, tag: str, attrs: list) -> None:  # type: ignore[type-arg]
+        if tag == "dl" and dict(attrs).get("id") in ("node-totals", "study-totals"):
+            self.inside += 1
+        self.tag = tag
+
+    def handle_endtag(self, tag: str) -> None:
+        if tag == "dl" and self.inside:
+            self.inside -= 1
+
+    def handle_data(self, data: str) -> None:
+        if not self.inside or not data.strip():
+            return
+        if self.tag == "dt":
+            self.label = data.strip()
+        elif self.tag == "dd" and self.label:
+            self.values[self.label] = data.strip()
+
+
+def shown_totals(html: str) -> dict[str, str]:
+    """The node and study totals a page or fragment shows."""
+    parser = ShownTotals()
+    parser.feed(html)
+    return parser.values
+
+
+def as_shown(node: NodeTotals, study: NodeTotals) -> dict[str, str]:
+    """Totals as the worksheet prints them."""
+    return {
+        "Node scenarios": str(node.scenario_count),
+        "Node short of target": str(node.short_count),
+        "Node summed mitigated": f"{sci(node.summed_frequency)} /yr",
+        "Study scenarios": str(study.scenario_count),
+        "Study short of target": str(study.short_count),
+        "Study summed mitigated": f"{sci(study.summed_frequency)} /yr",
+    }
+
+
+def whole_study_totals(session: Session, study: Study, node_id: int) -> dict[str, str]:
+    """The node's and the study's totals computed the old way, from the whole study tree."""
+    session.expire_all()
+    tree = load_study_tree(session, study.id or 0)
+    node = next(n for n in tree.nodes if n.node.id == node_id)
+    return as_shown(totals_of(node.scenario_branches()), totals_of(tree.scenario_branches()))
+
+
+@pytest.mark.parametrize("prepared", [view_worksheet, edit_value],
+                         ids=["worksheet GET", "value-edit POST"])
+def test_the_totals_shown_equal_the_whole_study_path(
+    client: TestClient, session: Session, prepared: Callable[[TestClient, Session, Study], Send]
+) -> None:
+    study = imported_study(session, LARGE)
+    node_id = first_node(session, study).id or 0
+    shown = shown_totals(prepared(client, session, study)().text)
+    expected = whole_study_totals(session, study, node_id)
+    assert shown == expected
+    assert expected["Study scenarios"] == str(3 * LARGE)
+    assert expected["Study short of target"] == str(2 * LARGE)
+
+
+def test_light_totals_match_the_tree_for_every_node_to_the_last_bit(session: Session) -> None:
+    study = imported_study(session, LARGE)
+    tree = load_study_tree(session, study.id or 0)
+    light = study_totals(session, study.id or 0)
+    assert light.study == totals_of(tree.scenario_branches())
+    assert light.study.unresolved_count == 1
+    for node_branch in tree.nodes:
+        assert light.of_node(node_branch.node.id or 0) == totals_of(node_branch.scenario_branches())
+
+
+def test_a_node_tree_is_that_node_of_the_study_tree(session: Session) -> None:
+    study = imported_study(session, 3)
+    whole = load_study_tree(session, study.id or 0)
+    for node_branch in whole.nodes:
+        alone = load_node_tree(session, study.id or 0, node_branch.node.id or 0).node
+        assert [(s.scenario.id, [step.id for step in s.steps], s.outcome)
+                for s in alone.scenario_branches()] == [
+            (s.scenario.id, [step.id for step in s.steps], s.outcome)
+            for s in node_branch.scenario_branches()]
+
+
+def test_importing_40_nodes_sends_as_many_statements_as_importing_1(
+    session: Session, db_engine: Engine
+) -> None:
+    statements = []
+    for node_count in (1, LARGE):
+        text = generated_study(node_count)
+        with measured(db_engine) as cost:
+            import_study_text(session, text)
+        statements.append(cost.statements)
+    assert statements[0] == statements[1]
