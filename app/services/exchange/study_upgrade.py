@@ -63,8 +63,25 @@ def upgrade_v1_to_v2(data: dict[str, Any]) -> dict[str, Any]:
     return upgraded
 
 
+def _has_v1_snapshot(data: dict[str, Any]) -> bool:
+    return any(isinstance(r, dict) and isinstance(r.get("snapshot"), dict)
+               and r["snapshot"].get("schema_version") == 1
+               for r in data.get("revisions") or [])
+
+
 def upgrade_study_data(data: dict[str, Any]) -> dict[str, Any]:
-    """The file brought to the current version (a version 2 file comes back as it is)."""
+    """The file brought to the current version; the same object when nothing needs it.
+
+    A version 2 file may hold version 1 revision snapshots (revisions frozen before the
+    upgrade are stored as they were), so those are upgraded too.
+    """
     if data.get("schema_version") == 1:
         return upgrade_v1_to_v2(data)
+    if _has_v1_snapshot(data):
+        upgraded = copy.deepcopy(data)
+        for revision in upgraded["revisions"]:
+            snapshot = revision.get("snapshot") if isinstance(revision, dict) else None
+            if isinstance(snapshot, dict) and snapshot.get("schema_version") == 1:
+                revision["snapshot"] = upgrade_v1_to_v2(snapshot)
+        return upgraded
     return data
