@@ -49,19 +49,22 @@ STEP_COLUMNS = (
 
 
 def upgrade() -> None:
-    """Apply this revision."""
-    with op.batch_alter_table('scenario', schema=None) as batch_op:
-        batch_op.add_column(sa.Column('people_not_rated', sa.Boolean(),
-                                      server_default=sa.false(), nullable=False))
-    with op.batch_alter_table('step', schema=None) as batch_op:
-        for _, column in STEP_COLUMNS:
-            batch_op.add_column(column())
+    """Apply this revision.
+
+    Plain ADD COLUMN, not a batch rebuild: SQLite adds a column with a constant default in
+    place, and a rebuild would drop the tables' AUTOINCREMENT (ids never reused).
+    """
+    op.add_column('scenario', sa.Column('people_not_rated', sa.Boolean(),
+                                        server_default=sa.false(), nullable=False))
+    for _, column in STEP_COLUMNS:
+        op.add_column('step', column())
 
 
 def downgrade() -> None:
-    """Undo this revision."""
-    with op.batch_alter_table('step', schema=None) as batch_op:
+    """Undo this revision (a rebuild on SQLite that keeps AUTOINCREMENT)."""
+    keep = {"recreate": "always", "table_kwargs": {"sqlite_autoincrement": True}}
+    with op.batch_alter_table('step', schema=None, **keep) as batch_op:  # type: ignore[arg-type]
         for name, _ in reversed(STEP_COLUMNS):
             batch_op.drop_column(name)
-    with op.batch_alter_table('scenario', schema=None) as batch_op:
+    with op.batch_alter_table('scenario', schema=None, **keep) as batch_op:  # type: ignore[arg-type]
         batch_op.drop_column('people_not_rated')

@@ -150,11 +150,12 @@ def _describe_validation(err: ValidationError) -> str:
 HEADER_FIELDS = ("title", "facility", "scope", "revision_label", "frequency_unit",
                  "criteria_basis")
 STEP_FIELDS = ("description", "value", "value_text", "basis", "credited", "ipl_type",
-               "system_tag", "response_time_minutes", "sil_claimed", "typical_key",
-               "acts_after_sif", "modifier_kind", "cause_type", "final_element_tag",
-               "alarm_on_bpcs", "crew", "per_opportunity_probability",
-               "opportunities_per_year", "time_available_minutes",
-               "time_to_detect_and_act_minutes")
+               "system_tag", "response_time_minutes", "sil_claimed", "typical_key")
+# Schema version 2's step fields, in StepRow's order (receptors goes between as a list).
+METHOD_FIELDS = ("acts_after_sif", "modifier_kind")
+CHECK_FIELDS = ("cause_type", "final_element_tag", "alarm_on_bpcs", "crew",
+                "per_opportunity_probability", "opportunities_per_year",
+                "time_available_minutes", "time_to_detect_and_act_minutes")
 
 
 def _fields(row: Any, names: tuple[str, ...]) -> dict[str, Any]:
@@ -264,10 +265,12 @@ def _export_scenario(
 
 
 def _export_step(step: Step) -> dict[str, Any]:
-    row = {"kind": step.kind.value, **_fields(step, STEP_FIELDS)}
-    row["receptors"] = stored_receptors(step.receptors)
-    row["proof_test"] = json.loads(step.proof_test) if step.proof_test else None
-    return row
+    # Key order as StepRow declares its fields, so a re-imported revision snapshot (dumped
+    # from the validated rows) exports byte for byte the same.
+    return {"kind": step.kind.value, **_fields(step, STEP_FIELDS),
+            "proof_test": json.loads(step.proof_test) if step.proof_test else None,
+            **_fields(step, METHOD_FIELDS), "receptors": stored_receptors(step.receptors),
+            **_fields(step, CHECK_FIELDS)}
 
 
 def _export_actions(

@@ -66,13 +66,24 @@ def test_a_version_1_file_is_upgraded_and_imports(session: Session) -> None:
 def test_the_version_1_demo_and_its_revisions_upgrade(session: Session) -> None:
     data = json.loads(DEMO.read_text())
     data["schema_version"] = 1
+    snapshot = {k: v for k, v in data.items() if k not in ("change_log", "revisions")}
     data["revisions"] = [{"label": "Rev 0", "frozen_at": "2026-01-01T00:00:00+00:00",
-                          "snapshot": {**data, "revisions": []}}]
+                          "snapshot": snapshot}]
     parsed = parse_study_file(json.dumps(data))
-    assert parsed.revisions[0].snapshot["schema_version"] == 2
+    assert parsed.revisions[0].snapshot.schema_version == 2
     kinds = {s.modifier_kind for n in parsed.nodes for d in n.deviations for sc in d.scenarios
              for s in sc.steps if s.kind is StepKind.CONDITIONAL_MODIFIER}
     assert ModifierKind.PRESENCE in kinds and ModifierKind.VULNERABILITY in kinds
+
+
+def test_a_version_2_file_with_a_version_1_revision_snapshot_imports(session: Session) -> None:
+    """Revisions frozen before the upgrade keep their version 1 snapshot in the database."""
+    data = upgrade_v1_to_v2(version_1_file())
+    snapshot = version_1_file()
+    data["revisions"] = [{"label": "Rev 0", "frozen_at": "2026-01-01T00:00:00+00:00",
+                          "snapshot": snapshot}]
+    parsed = parse_study_file(json.dumps(data))
+    assert parsed.revisions[0].snapshot.schema_version == 2
 
 
 def test_version_2_fields_survive_export_and_import(session: Session) -> None:
