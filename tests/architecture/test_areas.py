@@ -18,6 +18,9 @@ NAMED_EXCEPTIONS = {
     ("exchange", "app.services.worksheet.ladder"): "the report draws each scenario's ladder",
     ("exchange", "app.services.risk.picture"): "the report includes the risk picture",
     ("record", "app.services.exchange.study_file"): "a revision is a frozen study file",
+    ("record", "app.services.exchange.export_csv"): "the change log downloads through the one "
+                                                    "CSV writer",
+    ("record", "app.services.exchange.export_tables"): "the CSV writer's table and cell types",
 }
 
 
