@@ -20,7 +20,8 @@ from app.db.models import Study
 from app.services.exchange.export_csv import table_csv
 from app.services.exchange.export_tables import all_tables, scenario_table
 from app.services.exchange.export_xlsx import workbook_bytes
-from app.services.exchange.report import report_pdf
+from app.services.exchange.report import html_to_pdf
+from app.services.exchange.report_source import get_frozen_revision, live_report_html
 from app.services.exchange.study_file import export_study
 from app.services.study.tree import NotFoundError, get_study, load_study_tree
 
@@ -94,6 +95,17 @@ def export_filename(study: Study, export_format: ExportFormat) -> str:
     return f"tallyroom-{study.id}{'-' + slug if slug else ''}.{export_format}"
 
 
+def report_filename(*, session: Session, study_id: int, revision_id: int | None) -> str:
+    """The report's file name; a revision's carries its label ('…-rev-a.pdf')."""
+    name = export_filename(get_study(session, study_id), ExportFormat.PDF)
+    if revision_id is None:
+        return name
+    label = get_frozen_revision(session, study_id, revision_id).label
+    slug = re.sub(r"[^a-z0-9]+", "-", unicodedata.normalize("NFKD", label).encode(
+        "ascii", "ignore").decode().lower()).strip("-")
+    return name.removesuffix(".pdf") + (f"-{slug}" if slug else "-revision") + ".pdf"
+
+
 def study_json_bytes(data: dict[str, Any]) -> bytes:
     """A study file as UTF-8 JSON text: every character as itself, indented for diffs."""
     return (json.dumps(data, ensure_ascii=False, indent=2) + "\n").encode("utf-8")
@@ -108,17 +120,18 @@ def build_export(
     # Each format loads only what it writes: the file needs no computed tree, the CSV no history.
     if export_format is ExportFormat.JSON:
         return ExportFile(name, info.media_type, study_json_bytes(export_study(session, study_id)))
+    now = datetime.now(UTC).replace(microsecond=0)
+    if export_format is ExportFormat.PDF:
+        return ExportFile(name, info.media_type,
+                          html_to_pdf(live_report_html(session, study_id, env=env, when=now)))
     tree = load_study_tree(session, study_id)
     if export_format is ExportFormat.CSV:
         return ExportFile(name, info.media_type, table_csv(scenario_table(tree)))
     data = export_study(session, study_id)
-    now = datetime.now(UTC).replace(microsecond=0)
-    if export_format is ExportFormat.XLSX:
-        content = workbook_bytes(all_tables(tree, data), data,
-                                 cautions=env.globals["cautions"],  # type: ignore[arg-type]
-                                 exported_at=now.replace(tzinfo=None))
-        return ExportFile(name, info.media_type, content)
-    return ExportFile(name, info.media_type, report_pdf(tree, data, env=env, when=now))
+    content = workbook_bytes(all_tables(tree, data), data,
+                             cautions=env.globals["cautions"],  # type: ignore[arg-type]
+                             exported_at=now.replace(tzinfo=None))
+    return ExportFile(name, info.media_type, content)
 
 
 def studies_titled(title: str) -> SelectOfScalar[Study]:

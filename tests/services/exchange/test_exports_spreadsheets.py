@@ -114,7 +114,7 @@ def test_the_steps_actions_and_attendance_sheets_follow_the_study_file(
     steps = sheet_records(book["Steps"])
     assert len(steps) == sum(len(item.steps) for item in tree.scenario_branches())
     first = tree.scenario_branches()[0].steps[0]
-    assert steps[0]["Scenario"] == "S1"
+    assert steps[0]["Scenario"] == "1.1.1"  # as the worksheet numbers it
     assert steps[0]["Value"] == pytest.approx(first.value, rel=SAME)
     actions = sheet_records(book["Actions"])
     expected = [spreadsheet_text(action.text) for action in tree.recommendations]
