@@ -6,7 +6,7 @@ from fastapi import APIRouter, Query, Request
 from starlette.responses import Response
 
 from app.routes.deps import SessionDep
-from app.routes.rendering import is_htmx, render
+from app.routes.rendering import CAUTIONS, is_htmx, render
 from app.services.record import change_log as log_service
 
 router = APIRouter(prefix="/studies/{study_id}")
@@ -42,7 +42,8 @@ def export_change_log(
     """Every change the filter matches, in words, as CSV; an unreadable filter answers 422."""
     typed = log_service.FilterText(since, until, scenario_id, node_id, who)
     try:
-        content = log_service.change_log_csv(session=session, study_id=study_id, typed=typed)
+        content = log_service.change_log_csv(session=session, study_id=study_id, typed=typed,
+                                             cautions=CAUTIONS)
     except log_service.ChangeLogFilterError as error:
         return Response(f"Not exported: {error.message}", status_code=422,
                         media_type="text/plain; charset=utf-8")

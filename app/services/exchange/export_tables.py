@@ -13,7 +13,9 @@ from dataclasses import dataclass
 from datetime import UTC, date, datetime
 from typing import Any
 
+from app.likelihood.numbers import format_number
 from app.likelihood.types import DemandMode, StepKind
+from app.likelihood.typical import typical_by_key
 from app.services.exchange.study_file import scenario_ref
 from app.services.study.tree import DeviationBranch, NodeBranch, ScenarioBranch, StudyTree
 
@@ -141,7 +143,7 @@ STEP_COLUMNS = (
     Column("Scenario"), Column("Node"), Column("Step"), Column("Kind"), Column("Description"),
     Column("Value", SCIENTIFIC), Column("As written"), Column("Credited"), Column("IPL type"),
     Column("System tag"), Column("SIL claimed", WHOLE), Column("Response time (min)", "0.#"),
-    Column("Basis"),
+    Column("Basis"), Column("Typical-value row and source"),
 )  # fmt: skip
 
 
@@ -157,8 +159,19 @@ def step_table(tree: StudyTree) -> Table:
                     step.kind.label, step.description, step.value,
                     step.value_text, "yes" if step.credited else "no", step.ipl_type or "",
                     step.system_tag, step.sil_claimed, step.response_time_minutes, step.basis,
+                    typical_words(step.typical_key),
                 ])
     return Table("Steps", STEP_COLUMNS, rows)
+
+
+def typical_words(key: str | None) -> str:
+    """'BPCS loop, independent of the cause: 0.01 to 0.1; CCPS … [verify against your copy]'."""
+    row = typical_by_key(key) if key else None
+    if row is None:
+        return ""
+    marker = " [verify against your copy]" if row.verify_against_copy else ""
+    return (f"{row.label}: {format_number(row.low)} to {format_number(row.high)}; "
+            f"{row.citation or row.source}{marker}")
 
 
 ACTION_COLUMNS = (

@@ -10,8 +10,11 @@ from weasyprint import HTML, URLFetcher
 from app.db.models import Node, Step, Study
 from app.likelihood.check_base import CheckWarning
 from app.likelihood.numbers import format_number
-from app.likelihood.types import SilStatus
-from app.likelihood.typical import typical_by_key
+from app.services.exchange.export_audit_tables import (
+    AddedFunction,
+    added_functions,
+    warning_source,
+)
 from app.services.exchange.export_tables import (
     DEMAND_LABELS,
     StudyData,
@@ -23,6 +26,7 @@ from app.services.exchange.export_tables import (
     file_ref_numbers,
     node_label,
     scenario_refs,
+    typical_words,
 )
 from app.services.risk.ipl_checks import scenario_warnings
 from app.services.risk.picture import RiskPicture, build_risk_picture
@@ -46,17 +50,6 @@ class ReportStep:
     basis: str
     typical: str = ""
     not_credited_because: str = ""
-
-
-@dataclass(frozen=True)
-class AddedFunction:
-    """A safety function a scenario asks for: its target, mode and the scenario it serves."""
-
-    scenario: str
-    target: str
-    mode: str
-    demand_rate: float | None
-    required_rrf: float
 
 
 @dataclass(frozen=True)
@@ -149,25 +142,10 @@ def build_report(tree: StudyTree, data: StudyData, *, when: datetime,
         criteria=criteria_table(data), attendance=attendance_table(data),
         actions=(actions := action_table(data, file_ref_numbers(tree))),
         nodes=nodes, picture=build_risk_picture(tree),
-        functions=added_functions(nodes), rules=warnings_by_rule(nodes),
+        functions=tuple(added_functions(tree)), rules=warnings_by_rule(nodes),
         overdue=overdue_actions(actions, when.date()),
         signature=signature or Signature(f"{tree.study.revision_label}"),
     )
-
-
-def added_functions(nodes: tuple[ReportNode, ...]) -> tuple[AddedFunction, ...]:
-    """Every scenario whose gap asks for an added safety function, in worksheet order."""
-    found = []
-    for node in nodes:
-        for entry in node.scenarios:
-            result = entry.item.outcome.result
-            if result is None or result.sil_target.status is SilStatus.NONE_NEEDED:
-                continue
-            demand = result.demand.demand_rate_per_year if result.demand else None
-            found.append(AddedFunction(
-                f"{entry.ref} {entry.item.scenario.cause}".strip(), result.sil_target.label,
-                entry.demand_mode, demand, result.sil_target.required_rrf))
-    return tuple(found)
 
 
 def warnings_by_rule(nodes: tuple[ReportNode, ...]) -> tuple[RuleCount, ...]:
@@ -181,12 +159,6 @@ def warnings_by_rule(nodes: tuple[ReportNode, ...]) -> tuple[RuleCount, ...]:
                 sources[warning.rule] = warning_source(warning)
     return tuple(RuleCount(rule, len(refs), ", ".join(dict.fromkeys(refs)), sources[rule])
                  for rule, refs in scenarios.items())
-
-
-def warning_source(warning: CheckWarning) -> str:
-    """The warning's citation, with the marker when it still needs checking."""
-    text = warning.citation or warning.source
-    return f"{text} [verify against your copy]" if warning.verify_against_copy else text
 
 
 def overdue_actions(actions: Table, today: date) -> frozenset[str]:
@@ -208,12 +180,7 @@ def _report_scenario(ref: str, deviation: str, item: ScenarioBranch) -> ReportSc
 
 
 def _report_step(step: Step) -> ReportStep:
-    row = typical_by_key(step.typical_key) if step.typical_key else None
-    typical = ""
-    if row is not None:
-        marker = " [verify against your copy]" if row.verify_against_copy else ""
-        typical = (f"{row.label}: {format_number(row.low)} to {format_number(row.high)}; "
-                   f"{row.citation or row.source}{marker}")
+    typical = typical_words(step.typical_key)
     reason = "" if step.credited else (
         "the team did not credit it; see its basis" if step.basis.strip()
         else "the team did not credit it; no reason recorded")

@@ -236,7 +236,8 @@ LOG_CSV_COLUMNS = (Column("When (UTC)"), Column("Who"), Column("Change"), Column
                    Column("Field"), Column("Old value"), Column("New value"))
 
 
-def change_log_csv(*, session: Session, study_id: int, typed: FilterText) -> bytes:
+def change_log_csv(*, session: Session, study_id: int, typed: FilterText,
+                   cautions: str) -> bytes:
     """Every entry the filter matches, in words, as CSV (the app's one CSV writer)."""
     study = get_study(session, study_id)
     log = filtered_log(session, study, typed)
@@ -244,7 +245,7 @@ def change_log_csv(*, session: Session, study_id: int, typed: FilterText) -> byt
         [e.when, e.who, e.change, e.item, e.field, e.old, e.new]
         for e in readable_entries(session, log, None)
     ]
-    return table_csv(Table("Change log", LOG_CSV_COLUMNS, rows))
+    return table_csv(Table("Change log", LOG_CSV_COLUMNS, rows), cautions=cautions)
 
 
 def invalid_filter_page(

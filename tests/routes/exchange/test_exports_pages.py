@@ -9,6 +9,7 @@ from openpyxl import load_workbook
 from sqlmodel import Session
 
 from app.db.models import Study
+from app.routes.rendering import CAUTIONS
 from app.services.exchange.study_file import export_study
 from app.services.exchange.study_schema import study_json_schema
 from tests.factories import make_scenario_tree, make_step
@@ -82,7 +83,8 @@ def test_the_downloaded_json_is_the_study_file(
     client: TestClient, session: Session, small_study: Study
 ) -> None:
     response = client.get(f"/studies/{small_study.id}/export.json")
-    assert response.json() == json.loads(json.dumps(export_study(session, small_study.id or 0)))
+    expected = {**export_study(session, small_study.id or 0), "cautions": CAUTIONS}
+    assert response.json() == json.loads(json.dumps(expected))
 
 
 @pytest.mark.parametrize("path", ["export", "export.xlsx", "export.csv", "export.json",

@@ -22,6 +22,7 @@ from app.db.models import (
 )
 from app.db.tracking import AUTHOR_KEY
 from app.likelihood.types import StepKind
+from app.routes.rendering import CAUTIONS
 from tests.factories import make_node, make_scenario_tree, make_step
 from tests.helpers import table_rows
 
@@ -124,8 +125,9 @@ def test_the_node_and_person_filters_and_the_csv_of_what_they_show(
     assert response.headers["content-type"].startswith("text/csv")
     lines = list(csv.reader(io.StringIO(response.content.decode("utf-8-sig"))))
     assert lines[0] == ["When (UTC)", "Who", "Change", "Item", "Field", "Old value", "New value"]
-    assert [line[1:5] for line in lines[1:]] == [
+    assert [line[1:5] for line in lines[1:-1]] == [
         ["Olu", "changed", "Node 2 — Stripper", "Design intent"],
         ["Olu", "added", "Node 2 — Stripper", ""]]
+    assert lines[-1] == ["Cautions", CAUTIONS]
     assert client.get(f"/studies/{study.id}/changes.csv",
                       params={"to": "2026-01-01", "from": "2026-02-01"}).status_code == 422

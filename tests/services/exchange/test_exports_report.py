@@ -124,7 +124,7 @@ def test_the_demo_report_carries_every_basis_warning_and_added_function(
 ) -> None:
     """pdftotext finds every step's basis, every warning's title and the added-function table;
     every page's footer says whose record it is."""
-    from app.services.exchange.report import added_functions, build_report
+    from app.services.exchange.report import build_report
     from app.services.risk.ipl_checks import scenario_warnings
 
     tree = load_study_tree(session, demo_study.id or 0)
@@ -145,7 +145,8 @@ def test_the_demo_report_carries_every_basis_warning_and_added_function(
     assert "6 · Added safety functions" in text and "SCENARIO SERVED" not in text
     assert "Scenario served Required SIL Mode" in text
     report = build_report(tree, export_study(session, demo_study.id or 0), when=WHEN)
-    for function in added_functions(report.nodes):
+    assert report.functions
+    for function in report.functions:
         assert function.scenario[:20] in text
     assert "EXPECTE D" not in text and "Expected RRF" in text
     for page in pages:
