@@ -17,6 +17,7 @@ from app.db.models import (
     Node,
     Participant,
     Recommendation,
+    Revision,
     Safeguard,
     Scenario,
     SessionDay,
@@ -158,6 +159,12 @@ def _name_record(session: Session, study_id: int, places: StudyPlaces) -> None:
         SessionDay.id, SessionDay.day)).where(col(SessionDay.study_id) == study_id))
     for row in days:
         places.names[("session date", row.id)] = f"Session date {row.day.isoformat()}"
+    revisions = fetch_plain_rows(session, select_columns(*_columns(
+        Revision.id, Revision.label, Revision.signed_off_by)).where(
+        col(Revision.study_id) == study_id))
+    for row in revisions:
+        places.names[("revision", row.id)] = (
+            f"Revision {row.label}, signed off by {row.signed_off_by}")
 
 
 def study_places(session: Session, study: Study, scenario_ids: set[int]) -> StudyPlaces:

@@ -41,7 +41,7 @@ FIELD_WORDS: dict[str, str] = {
 }  # fmt: skip
 
 CHANGE_WORDS = {"create": "added", "edit": "changed", "delete": "deleted", "link": "linked",
-                "unlink": "unlinked"}
+                "unlink": "unlinked", "freeze": "frozen"}
 CATEGORY_FIELDS = {"severity_category_id", "environment_category_id", "asset_category_id"}
 ENTITY_WORDS = {"session date": "Session date", "severity category": "Severity category"}
 # describe() in app/db/tracking.py names a row without text by its id: "step #12".

@@ -3,9 +3,10 @@
 Rows are matched by a stable key within their parent, never by database id:
 node by number; deviation by guideword + parameter within its node; scenario by cause text
 within its deviation; step by kind + description within its scenario; severity category by
-name; action by its text; participant by name; session day by date. Keys compare with case and runs of spaces ignored. A row whose key finds no partner is
-paired with the unmatched row at the same position in its list, if there is one (so an edited
-cause reads as a change, not as a removal and an addition); otherwise it is added or removed.
+name; action by its text; participant by name; session day by date. Keys compare with case
+and runs of spaces ignored. A row whose key finds no partner is paired with the unmatched row
+at the same position in its list, if there is one (so an edited cause reads as a change, not
+as a removal and an addition); otherwise it is added or removed.
 """
 
 import math

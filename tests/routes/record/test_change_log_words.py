@@ -23,6 +23,7 @@ from app.db.models import (
 from app.db.tracking import AUTHOR_KEY
 from app.likelihood.types import StepKind
 from app.routes.rendering import CAUTIONS
+from app.services.record.revisions import freeze_revision
 from tests.factories import make_node, make_scenario_tree, make_step
 from tests.helpers import table_rows
 
@@ -66,6 +67,8 @@ def _edit_the_demo_as_a_session_would(session: Session, study: Study) -> dict[st
     session.commit()
     session.delete(next(s for s in steps if s.kind != StepKind.INITIATING_EVENT and s is not ipl))
     session.commit()
+    freeze_revision(session=session, study_id=study.id or 0, frozen_by="Rosa Lind",
+                    values={"label": "Rev A", "signed_off_by": "Dana Whitlock", "note": ""})
     return {"Severity": f"{before.name} → {after.name}"}
 
 
@@ -91,6 +94,8 @@ def test_every_entry_of_the_edited_demo_reads_as_words(
     assert by_field["Status"]["Old → new"] == "open → in progress"
     assert by_field["Credited"]["Old → new"] in ("yes → no", "no → yes")
     assert by_field["Typical-value row"]["Old → new"].startswith("(empty) → ")
+    assert ("frozen", "Revision Rev A, signed off by Dana Whitlock") in {
+        (r["Change"], r["Item"]) for r in rows}
     deleted = [r for r in rows if r["Change"] == "deleted"]
     assert deleted and deleted[0]["Item"].endswith("(no longer in the study)")
 
