@@ -12,6 +12,7 @@ from sqlalchemy import and_, or_
 from sqlmodel import Session, col, func, select
 from sqlmodel.sql.expression import SelectOfScalar
 
+from app.db.ids import read_row_id
 from app.db.models import ChangeLogEntry, Recommendation, Scenario, Study
 from app.db.tracking import AUTHOR_KEY, SUPPRESS_LOG_KEY, describe
 from app.services.exchange.export_csv import table_csv
@@ -74,11 +75,11 @@ def _read_day(field: str, label: str, typed: str) -> date | None:
 def _read_row_number(field: str, what: str, typed: str) -> int | None:
     if not typed.strip():
         return None
-    try:
-        return int(typed.strip())
-    except ValueError:
-        raise ChangeLogFilterError(
-            field, f"the {what} must be chosen from the list (got '{typed}').") from None
+    row_id = read_row_id(typed)  # bounded: a huge number is refused, never a database error
+    if row_id is None:
+        raise ChangeLogFilterError(field, f"the {what} must be chosen from the list "
+                                          f"(got '{typed}').")
+    return row_id
 
 
 def read_filter(typed: FilterText) -> ChangeLogFilter:
