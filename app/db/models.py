@@ -310,6 +310,25 @@ class DeletedItem(SQLModel, table=True):
     payload: str = Field(sa_column=Column(Text, nullable=False))
 
 
+class FieldEdit(SQLModel, table=True):
+    """The newest keystroke sequence number one page has sent for one field, and its text.
+
+    Compared and set in the same transaction as the value (`services/study/conflicts.py`), so
+    an older keystroke never overwrites a newer one, whichever worker or thread serves it.
+    `written` is the text this page last saved in the field: a save that finds the field
+    holding it is building on its own edit, not on someone else's.
+    """
+
+    __tablename__ = "field_edit"
+    study_id: int = _study_fk()
+    entity: str = Field(max_length=40, primary_key=True)
+    row_id: int = Field(primary_key=True)
+    field: str = Field(max_length=60, primary_key=True)
+    client: str = Field(max_length=64, primary_key=True)
+    seq: int = 0
+    written: str | None = Field(default=None, sa_column=Column(Text, nullable=True))
+
+
 class AccessState(SQLModel, table=True):
     """Who may use a served Tallyroom: one row, never part of a study, an export or the log."""
 

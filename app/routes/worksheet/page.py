@@ -1,5 +1,6 @@
 """The node worksheet and its live value edits."""
 
+from collections.abc import Mapping
 from typing import Annotated, Any
 
 from fastapi import APIRouter, Form, Request
@@ -9,6 +10,7 @@ from starlette.routing import NoMatchFound
 from app.routes.deps import SessionDep
 from app.routes.rendering import is_htmx, render
 from app.routes.urls import overview_url, worksheet_url
+from app.services.study.conflicts import PageEdit
 from app.services.worksheet import page as worksheet_service
 from app.services.worksheet.edits import FieldReply, edit_step_value
 
@@ -39,10 +41,37 @@ def render_worksheet(request: Request, session: SessionDep, study_id: int, node_
                   status_code=status_code)
 
 
+ORIGINAL_PREFIX = "orig_"
+PAGE_FIELDS = {"version", "client", "seq", "resolution"}
+
+
+def read_page_edit(form: Mapping[str, Any]) -> PageEdit:
+    """What the page knew: the row's version, each field's loaded value, its id and sequence.
+
+    Any: raw form values (a boundary).
+    """
+    originals = {key.removeprefix(ORIGINAL_PREFIX): value for key, value in form.items()
+                 if key.startswith(ORIGINAL_PREFIX)}
+    return PageEdit(version=_number(form.get("version")), originals=originals,
+                    client=str(form.get("client") or "")[:64], seq=_number(form.get("seq")))
+
+
+def _number(value: Any) -> int | None:  # Any: one raw form value
+    text = str(value if value is not None else "").strip()
+    return int(text) if text.isdigit() and len(text) < 12 else None
+
+
 def render_field_reply(request: Request, reply: FieldReply) -> Response:
-    """Results region (main swap) with the field's line and the totals out of band."""
-    return render(request, "worksheet/field_reply.html", {"edit": reply},
-                  status_code=422 if reply.error else 200)
+    """Results region (main swap) with the field's line and the totals out of band.
+
+    A conflict or a deleted row answers 409 with only the field's line, retargeted to it.
+    """
+    response = render(request, "worksheet/field_reply.html", {"edit": reply},
+                      status_code=reply.status_code)
+    if reply.conflict or reply.gone:
+        response.headers["HX-Retarget"] = f"#{reply.field_id}-said"
+        response.headers["HX-Reswap"] = "outerHTML"
+    return response
 
 
 @router.get("/nodes/{node_id}", name="read_worksheet")
@@ -67,21 +96,37 @@ def read_first_worksheet(request: Request, study_id: int,
 def update_step_value(
     request: Request, study_id: int, step_id: int, session: SessionDep,
     value_text: Annotated[str, Form()] = "", client: Annotated[str, Form(max_length=64)] = "",
-    seq: Annotated[int | None, Form()] = None,
+    seq: Annotated[int | None, Form()] = None, version: Annotated[int | None, Form()] = None,
+    orig_value_text: Annotated[str | None, Form(max_length=100)] = None,
 ) -> Response:
     """Parse, validate and save a step's value as typed; answer with the recomputed scenario."""
+    originals = {} if orig_value_text is None else {"value_text": orig_value_text}
+    edit = PageEdit(version=version, originals=originals, client=client, seq=seq)
     reply = edit_step_value(session=session, study_id=study_id, step_id=step_id, text=value_text,
-                            client=client, seq=seq)
+                            edit=edit)
     if reply is None:  # a newer edit of this field already arrived: drop this one
         return Response(status_code=204, headers={"X-Tallyroom-Stale": "1"})
     if is_htmx(request):
         response = render_field_reply(request, reply)
         response.headers["X-Tallyroom-Seq"] = str(seq if seq is not None else "")
         return response
+    return answer_without_script(request, session, study_id, reply, value_text)
+
+
+def answer_without_script(request: Request, session: SessionDep, study_id: int,
+                          reply: FieldReply, typed: str = "") -> Response:
+    """A plain form post: back to the worksheet, or the page again saying what went wrong."""
     anchor = f"scenario-{reply.scenario.item.scenario.id}" if reply.scenario else ""
+    if reply.conflict or reply.gone:
+        node_id = reply.node_id or worksheet_service.first_node_id(session=session,
+                                                                   study_id=study_id)
+        if node_id is None:
+            return RedirectResponse(overview_url(request, study_id), status_code=303)
+        return render_worksheet(request, session, study_id, node_id, status_code=409,
+                                edit=reply, focus_id=reply.field_id)
     if reply.error:
         return render_worksheet(request, session, study_id, reply.node_id,
                                 status_code=422, notice=reply.error,
-                                typed={reply.field_id: value_text}, focus_id=reply.field_id)
+                                typed={reply.field_id: typed}, focus_id=reply.field_id)
     return RedirectResponse(worksheet_url(request, study_id, reply.node_id, anchor),
                             status_code=303)

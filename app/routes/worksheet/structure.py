@@ -12,7 +12,14 @@ from starlette.responses import RedirectResponse, Response
 from app.routes.deps import AuthorDep, SessionDep
 from app.routes.rendering import is_htmx, render
 from app.routes.urls import overview_url, path_for, worksheet_url
-from app.routes.worksheet.page import render_field_reply, render_worksheet
+from app.routes.worksheet.page import (
+    ORIGINAL_PREFIX,
+    PAGE_FIELDS,
+    answer_without_script,
+    read_page_edit,
+    render_field_reply,
+    render_worksheet,
+)
 from app.services.worksheet import structure
 from app.services.worksheet import undo as structure_undo
 from app.services.worksheet.edits import edit_field, field_id
@@ -82,11 +89,15 @@ async def _update(request: Request, session: SessionDep, study_id: int, kind: st
                   row_id: int) -> Response:
     """Save the sent fields; htmx gets the recomputed figures and the field's line."""
     form = await read_form(request)
-    changes = {k: v for k, v in form.items() if k not in NOT_VALUES}
+    changes = {k: v for k, v in form.items()
+               if k not in NOT_VALUES | PAGE_FIELDS and not k.startswith(ORIGINAL_PREFIX)}
     reply = edit_field(session=session, study_id=study_id, kind_name=kind, row_id=row_id,
-                       changes=changes)
+                       changes=changes, edit=read_page_edit(form),
+                       resolution=str(form.get("resolution") or ""))
     if is_htmx(request):
         return render_field_reply(request, reply)
+    if reply.conflict or reply.gone:
+        return answer_without_script(request, session, study_id, reply)
     return _after_change(request, session, study_id, reply.node_id,
                          focus_id=reply.field_id, notice=reply.error,
                          status_code=422 if reply.error else 200)

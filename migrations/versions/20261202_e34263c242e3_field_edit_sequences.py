@@ -1,0 +1,48 @@
+"""Keystroke order kept in the database: field_edit.
+
+One row per (entity, row id, field, page): the newest sequence number that page sent for the
+field and the text it last saved there. The save compares and sets it in the same transaction
+as the value, so the stale-keystroke guard holds across several server workers (it lived in
+one process's memory before) and the conflict check can tell a page's own earlier keystroke
+from someone else's edit.
+
+Revision ID: e34263c242e3
+Revises: 5e1a9c3d7b20
+Create Date: 2026-12-02 07:03:45.854691
+"""
+from collections.abc import Sequence
+
+import sqlalchemy as sa
+import sqlmodel
+from alembic import op
+
+revision: str = 'e34263c242e3'
+down_revision: str | None = '5e1a9c3d7b20'
+branch_labels: str | Sequence[str] | None = None
+depends_on: str | Sequence[str] | None = None
+
+
+def upgrade() -> None:
+    """Apply this revision."""
+    op.create_table('field_edit',
+    sa.Column('study_id', sa.Integer(), nullable=False),
+    sa.Column('entity', sqlmodel.sql.sqltypes.AutoString(length=40), nullable=False),
+    sa.Column('row_id', sa.Integer(), nullable=False),
+    sa.Column('field', sqlmodel.sql.sqltypes.AutoString(length=60), nullable=False),
+    sa.Column('client', sqlmodel.sql.sqltypes.AutoString(length=64), nullable=False),
+    sa.Column('seq', sa.Integer(), nullable=False),
+    sa.Column('written', sa.Text(), nullable=True),
+    sa.ForeignKeyConstraint(['study_id'], ['study.id'], name=op.f('fk_field_edit_study_id_study'), ondelete='CASCADE'),
+    sa.PrimaryKeyConstraint('entity', 'row_id', 'field', 'client', name=op.f('pk_field_edit'))
+    )
+    with op.batch_alter_table('field_edit', schema=None) as batch_op:
+        batch_op.create_index(batch_op.f('ix_field_edit_study_id'), ['study_id'], unique=False)
+
+
+
+def downgrade() -> None:
+    """Undo this revision."""
+    with op.batch_alter_table('field_edit', schema=None) as batch_op:
+        batch_op.drop_index(batch_op.f('ix_field_edit_study_id'))
+
+    op.drop_table('field_edit')
