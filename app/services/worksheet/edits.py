@@ -30,8 +30,8 @@ from app.services.study.conflicts import (
     remember_written,
 )
 from app.services.study.listing import NodeTotals
-from app.services.study.tree import NotFoundError
 from app.services.study.totals import study_totals
+from app.services.study.tree import NotFoundError
 from app.services.worksheet.page import ScenarioView, located_scenario, plain_value
 from app.services.worksheet.structure import (
     RowKind,
