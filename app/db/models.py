@@ -298,7 +298,7 @@ class Revision(SQLModel, table=True):
 
 
 class DeletedItem(SQLModel, table=True):
-    """What a delete removed, kept so the last delete can be undone."""
+    """What a delete removed, kept so its author can undo it (newest first, per person)."""
 
     __tablename__ = "deleted_item"
     id: int | None = Field(default=None, primary_key=True)
@@ -308,6 +308,10 @@ class DeletedItem(SQLModel, table=True):
     entity: str = Field(max_length=40)
     label: str = Field(default="", max_length=300)
     payload: str = Field(sa_column=Column(Text, nullable=False))
+    # Why an undo could not bring it back (empty: it can be tried); such an item no longer
+    # stands in the way of its author's older deletes.
+    blocked_reason: str = Field(default="", max_length=500,
+                                sa_column_kwargs={"server_default": ""})
 
 
 class FieldEdit(SQLModel, table=True):

@@ -1,10 +1,14 @@
-"""Keystroke order kept in the database: field_edit.
+"""Keystroke order kept in the database (field_edit); undo set-aside reasons.
 
 One row per (entity, row id, field, page): the newest sequence number that page sent for the
 field and the text it last saved there. The save compares and sets it in the same transaction
 as the value, so the stale-keystroke guard holds across several server workers (it lived in
 one process's memory before) and the conflict check can tell a page's own earlier keystroke
 from someone else's edit.
+
+Also adds deleted_item.blocked_reason: undo is per person, and a delete that cannot come back
+(what it hung from was deleted since) is set aside with the reason instead of blocking every
+later undo.
 
 Revision ID: e34263c242e3
 Revises: 5e1a9c3d7b20
@@ -37,11 +41,16 @@ def upgrade() -> None:
     )
     with op.batch_alter_table('field_edit', schema=None) as batch_op:
         batch_op.create_index(batch_op.f('ix_field_edit_study_id'), ['study_id'], unique=False)
+    with op.batch_alter_table('deleted_item', schema=None) as batch_op:
+        batch_op.add_column(sa.Column('blocked_reason', sqlmodel.sql.sqltypes.AutoString(length=500),
+                                      server_default='', nullable=False))
 
 
 
 def downgrade() -> None:
     """Undo this revision."""
+    with op.batch_alter_table('deleted_item', schema=None) as batch_op:
+        batch_op.drop_column('blocked_reason')
     with op.batch_alter_table('field_edit', schema=None) as batch_op:
         batch_op.drop_index(batch_op.f('ix_field_edit_study_id'))
 

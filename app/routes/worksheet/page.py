@@ -7,7 +7,7 @@ from fastapi import APIRouter, Form, Request
 from starlette.responses import RedirectResponse, Response
 from starlette.routing import NoMatchFound
 
-from app.routes.deps import SessionDep
+from app.routes.deps import SessionDep, author_name
 from app.routes.rendering import is_htmx, render
 from app.routes.urls import overview_url, worksheet_url
 from app.services.study.conflicts import PageEdit
@@ -31,7 +31,7 @@ def render_worksheet(request: Request, session: SessionDep, study_id: int, node_
                      **extra: Any) -> Response:
     """The worksheet page, or only its #worksheet region for htmx."""
     page = worksheet_service.build_worksheet_page(session=session, study_id=study_id,
-                                                  node_id=node_id)
+                                                  node_id=node_id, author=author_name(request))
     links = {"step_details": route_exists(request, "read_step_details", study_id=0, step_id=0),
              "proof_test": route_exists(request, "read_proof_test", study_id=0),
              "actions": route_exists(request, "read_actions", study_id=0)}
