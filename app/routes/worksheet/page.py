@@ -7,6 +7,7 @@ from fastapi import APIRouter, Form, Request
 from starlette.responses import RedirectResponse, Response
 from starlette.routing import NoMatchFound
 
+from app.access.csrf import FIELD as CSRF_FIELD
 from app.routes.deps import SessionDep, author_name
 from app.routes.rendering import is_htmx, render
 from app.routes.urls import overview_url, worksheet_url
@@ -42,7 +43,7 @@ def render_worksheet(request: Request, session: SessionDep, study_id: int, node_
 
 
 ORIGINAL_PREFIX = "orig_"
-PAGE_FIELDS = {"version", "client", "seq", "resolution"}
+PAGE_FIELDS = {"version", "client", "seq", "resolution", CSRF_FIELD}
 
 
 def read_page_edit(form: Mapping[str, Any]) -> PageEdit:
