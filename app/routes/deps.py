@@ -1,14 +1,16 @@
 """Request dependencies, aliased once for every router."""
 
-from collections.abc import Iterator
-from typing import Annotated
+from collections.abc import Iterator, Mapping
+from typing import Annotated, Any
 
 from fastapi import Depends, Request
 from sqlmodel import Session
 
+from app.access.csrf import FIELD as CSRF_FIELD
 from app.access.guard import current_access
 from app.db.session import get_db_engine
 from app.db.tracking import AUTHOR_KEY
+from app.services.study.conflicts import PageEdit
 
 
 def author_name(request: Request) -> str:
@@ -26,3 +28,23 @@ def get_session(request: Request) -> Iterator[Session]:
 
 SessionDep = Annotated[Session, Depends(get_session)]
 AuthorDep = Annotated[str, Depends(author_name)]
+
+
+ORIGINAL_PREFIX = "orig_"
+PAGE_FIELDS = {"version", "client", "seq", "resolution", "resolved", CSRF_FIELD}
+
+
+def read_page_edit(form: Mapping[str, Any]) -> PageEdit:
+    """What the page knew: the row's version, each field's loaded value, its id and sequence.
+
+    Any: raw form values (a boundary).
+    """
+    originals = {key.removeprefix(ORIGINAL_PREFIX): value for key, value in form.items()
+                 if key.startswith(ORIGINAL_PREFIX)}
+    return PageEdit(version=_number(form.get("version")), originals=originals,
+                    client=str(form.get("client") or "")[:64], seq=_number(form.get("seq")))
+
+
+def _number(value: Any) -> int | None:  # Any: one raw form value
+    text = str(value if value is not None else "").strip()
+    return int(text) if text.isdigit() and len(text) < 12 else None

@@ -1,13 +1,11 @@
 """The node worksheet and its live value edits."""
 
-from collections.abc import Mapping
 from typing import Annotated, Any
 
 from fastapi import APIRouter, Form, Request
 from starlette.responses import RedirectResponse, Response
 from starlette.routing import NoMatchFound
 
-from app.access.csrf import FIELD as CSRF_FIELD
 from app.routes.deps import SessionDep, author_name
 from app.routes.rendering import is_htmx, render
 from app.routes.urls import overview_url, worksheet_url
@@ -40,26 +38,6 @@ def render_worksheet(request: Request, session: SessionDep, study_id: int, node_
                "links": links, **extra}
     return render(request, "worksheet/page.html", context, block=block,
                   status_code=status_code)
-
-
-ORIGINAL_PREFIX = "orig_"
-PAGE_FIELDS = {"version", "client", "seq", "resolution", CSRF_FIELD}
-
-
-def read_page_edit(form: Mapping[str, Any]) -> PageEdit:
-    """What the page knew: the row's version, each field's loaded value, its id and sequence.
-
-    Any: raw form values (a boundary).
-    """
-    originals = {key.removeprefix(ORIGINAL_PREFIX): value for key, value in form.items()
-                 if key.startswith(ORIGINAL_PREFIX)}
-    return PageEdit(version=_number(form.get("version")), originals=originals,
-                    client=str(form.get("client") or "")[:64], seq=_number(form.get("seq")))
-
-
-def _number(value: Any) -> int | None:  # Any: one raw form value
-    text = str(value if value is not None else "").strip()
-    return int(text) if text.isdigit() and len(text) < 12 else None
 
 
 def render_field_reply(request: Request, reply: FieldReply) -> Response:

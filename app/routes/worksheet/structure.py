@@ -9,17 +9,10 @@ from typing import Any
 from fastapi import APIRouter, Request
 from starlette.responses import RedirectResponse, Response
 
-from app.routes.deps import AuthorDep, SessionDep
+from app.routes.deps import ORIGINAL_PREFIX, PAGE_FIELDS, AuthorDep, SessionDep, read_page_edit
 from app.routes.rendering import is_htmx, render
 from app.routes.urls import overview_url, path_for, worksheet_url
-from app.routes.worksheet.page import (
-    ORIGINAL_PREFIX,
-    PAGE_FIELDS,
-    answer_without_script,
-    read_page_edit,
-    render_field_reply,
-    render_worksheet,
-)
+from app.routes.worksheet.page import answer_without_script, render_field_reply, render_worksheet
 from app.services.study.tree import NotFoundError
 from app.services.worksheet import structure
 from app.services.worksheet import undo as structure_undo

@@ -95,6 +95,13 @@ def as_text(value: Any) -> str:
     return str(value)
 
 
+def changed_fields(values: Mapping[str, Any], originals: Mapping[str, Any]) -> dict[str, Any]:
+    """Only the fields the person changed: a field still as loaded is not written, so a
+    whole-row form never puts back a field someone else changed meanwhile."""
+    return {name: value for name, value in values.items()
+            if name not in originals or as_text(originals[name]) != as_text(value)}
+
+
 def guarded_save(session: Session, model: type[Any], row_id: int, edit: PageEdit,
                  changes: Mapping[str, Any], written: Mapping[str, str | None] | None = None
                  ) -> GuardedResult:

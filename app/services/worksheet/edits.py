@@ -23,6 +23,7 @@ from app.services.study.conflicts import (
     GuardedResult,
     PageEdit,
     as_text,
+    changed_fields,
     claim_keystroke,
     gone_row,
     guarded_save,
@@ -178,7 +179,7 @@ def edit_field(*, session: Session, study_id: int, kind_name: str, row_id: int,
                       error=err.message)
     if resolution in (KEEP_MINE, TAKE_THEIRS):
         _log_choice(session, row, values, originals, kept_mine=resolution == KEEP_MINE)
-    values = {} if resolution == TAKE_THEIRS else _touched(values, originals)
+    values = {} if resolution == TAKE_THEIRS else changed_fields(values, originals)
     result = (guarded_save(session, kind.model, row_id, replace(edit, originals=originals),
                            values) if values else GuardedResult(SaveOutcome.SAVED))
     said = plain_value(row) if sent == "value_text" else SAVED
@@ -203,12 +204,6 @@ def _read_originals(session: Session, kind: RowKind, row: Any,
         except StructureInputError:
             continue
     return known
-
-
-def _touched(values: dict[str, Any], originals: Mapping[str, Any]) -> dict[str, Any]:
-    """Only the fields the person changed: a field still as loaded is not written."""
-    return {name: value for name, value in values.items()
-            if name not in originals or as_text(originals[name]) != as_text(value)}
 
 
 def _log_choice(session: Session, row: Any, values: Mapping[str, Any],
