@@ -31,7 +31,9 @@ AuthorDep = Annotated[str, Depends(author_name)]
 
 
 ORIGINAL_PREFIX = "orig_"
-PAGE_FIELDS = {"version", "client", "seq", "resolution", "resolved", CSRF_FIELD}
+# The other person's values a conflict showed, sent back with "keep mine" / "take theirs".
+SEEN_PREFIX = "seen_"
+PAGE_FIELDS = {"version", "client", "seq", "resolution", CSRF_FIELD}
 
 
 def read_page_edit(form: Mapping[str, Any]) -> PageEdit:
@@ -48,3 +50,12 @@ def read_page_edit(form: Mapping[str, Any]) -> PageEdit:
 def _number(value: Any) -> int | None:  # Any: one raw form value
     text = str(value if value is not None else "").strip()
     return int(text) if text.isdigit() and len(text) < 12 else None
+
+
+def read_seen(form: Mapping[str, Any]) -> dict[str, str]:
+    """The other person's values a conflict showed (seen_…), by field.
+
+    Any: raw form values (a boundary).
+    """
+    return {key.removeprefix(SEEN_PREFIX): str(value) for key, value in form.items()
+            if key.startswith(SEEN_PREFIX)}

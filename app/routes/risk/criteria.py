@@ -3,13 +3,12 @@
 from fastapi import APIRouter, Request
 from starlette.responses import Response
 
-from app.routes.deps import SessionDep, read_page_edit
+from app.routes.deps import SessionDep, read_page_edit, read_seen
 from app.routes.rendering import render
 from app.services.risk import criteria as service
 
 router = APIRouter(prefix="/studies/{study_id}")
 PAGE = "risk/criteria/edit.html"
-SEEN_PREFIX = "seen_"  # the other person's values a conflict showed (app/services/risk/criteria)
 
 
 def _answer(request: Request, page: service.CriteriaPage) -> Response:
@@ -51,8 +50,7 @@ async def update_category(
                                  category_id=category_id, form=form,
                                  edit=read_page_edit(posted),
                                  resolution=str(posted.get("resolution") or ""),
-                                 seen={k.removeprefix(SEEN_PREFIX): str(v)
-                                       for k, v in posted.items() if k.startswith(SEEN_PREFIX)})
+                                 seen=read_seen(posted))
     return _answer(request, page)
 
 
