@@ -182,7 +182,7 @@ def edit_field(*, session: Session, study_id: int, kind_name: str, row_id: int,
     values = {} if resolution == TAKE_THEIRS else changed_fields(values, originals)
     result = (guarded_save(session, kind.model, row_id, replace(edit, originals=originals),
                            values) if values else GuardedResult(SaveOutcome.SAVED))
-    said = plain_value(row) if sent == "value_text" else SAVED
+    said = plain_value(row) if (kind_name, sent) == ("step", "value_text") else SAVED
     return _after_save(session, kind_name, row, field_id(kind_name, row_id, sent), result,
                        said=said, page_version=edit.version)
 
