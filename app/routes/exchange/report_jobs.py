@@ -32,28 +32,29 @@ def start_report_job(
                                        study_id=study_id, revision_id=revision_id,
                                        filename=filename)
     if not is_htmx(request):
+        # The path names the job "job", not "job_id": *_id path segments must be row numbers.
         return RedirectResponse(request.url_for("read_report_job", study_id=study_id,
-                                                job_id=job.job_id), status_code=303)
+                                                job=job.job_id), status_code=303)
     return render(request, "exchange/exports/report_job.html",
                   {"job": job, "study": get_study(session, study_id)}, block="report_job")
 
 
-@router.get("/report-jobs/{job_id}", name="read_report_job")
-def read_report_job(request: Request, study_id: int, job_id: str,
+@router.get("/report-jobs/{job}", name="read_report_job")
+def read_report_job(request: Request, study_id: int, job: str,
                     session: SessionDep) -> Response:
     """The job's progress (the fragment polls itself until the file is ready)."""
-    job = _job_or_404(study_id, job_id)
+    found = _job_or_404(study_id, job)
     block = "report_job" if is_htmx(request) else None
     return render(request, "exchange/exports/report_job.html",
-                  {"job": job, "study": get_study(session, study_id)}, block=block)
+                  {"job": found, "study": get_study(session, study_id)}, block=block)
 
 
-@router.get("/report-jobs/{job_id}/file", name="download_report_job")
-def download_report_job(study_id: int, job_id: str) -> Response:
+@router.get("/report-jobs/{job}/file", name="download_report_job")
+def download_report_job(study_id: int, job: str) -> Response:
     """The finished PDF; 409 while it is still being made."""
-    job = _job_or_404(study_id, job_id)
-    if job.state is not report_jobs.JobState.READY:
-        return Response(f"The report is not ready yet ({job.step}).", status_code=409,
+    found = _job_or_404(study_id, job)
+    if found.state is not report_jobs.JobState.READY:
+        return Response(f"The report is not ready yet ({found.step}).", status_code=409,
                         media_type="text/plain; charset=utf-8")
-    return Response(job.content, media_type="application/pdf",
-                    headers={"Content-Disposition": f'attachment; filename="{job.filename}"'})
+    return Response(found.content, media_type="application/pdf",
+                    headers={"Content-Disposition": f'attachment; filename="{found.filename}"'})
