@@ -11,7 +11,7 @@ from app.routes.rendering import render, templates
 from app.services.exchange.exports import ExportFormat, build_export, read_export_page
 from app.services.exchange.study_file import StudyFileError
 from app.services.exchange.study_import import MAX_FILE_BYTES, import_study_upload
-from app.services.exchange.study_schema import SCHEMA_PATH, study_json_schema
+from app.services.exchange.study_schema import SCHEMA_PATH, SCHEMA_VERSION, study_json_schema
 from app.services.study import listing as study_service
 
 router = APIRouter()
@@ -21,7 +21,8 @@ router = APIRouter()
 def read_exports(request: Request, study_id: int, session: SessionDep) -> Response:
     """The formats a study exports to, with download links and the command-line equivalent."""
     page = read_export_page(session=session, study_id=study_id)
-    return render(request, "exchange/exports/index.html", {"page": page, "study": page.study})
+    return render(request, "exchange/exports/index.html",
+                  {"page": page, "study": page.study, "schema_version": SCHEMA_VERSION})
 
 
 def _download(session: SessionDep, study_id: int, export_format: ExportFormat) -> Response:

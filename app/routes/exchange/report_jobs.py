@@ -32,29 +32,29 @@ def start_report_job(
                                        study_id=study_id, revision_id=revision_id,
                                        filename=filename)
     if not is_htmx(request):
-        # The path names the job "job", not "job_id": *_id path segments must be row numbers.
         return RedirectResponse(request.url_for("read_report_job", study_id=study_id,
-                                                job=job.job_id), status_code=303)
+                                                job_key=job.job_id), status_code=303)
     return render(request, "exchange/exports/report_job.html",
                   {"job": job, "study": get_study(session, study_id)}, block="report_job")
 
 
-@router.get("/report-jobs/{job}", name="read_report_job")
-def read_report_job(request: Request, study_id: int, job: str,
+# `job_key`, not `…_id`: path parameters named `…_id` must be row ids (routes/deps.check_path_ids).
+@router.get("/report-jobs/{job_key}", name="read_report_job")
+def read_report_job(request: Request, study_id: int, job_key: str,
                     session: SessionDep) -> Response:
     """The job's progress (the fragment polls itself until the file is ready)."""
-    found = _job_or_404(study_id, job)
+    job = _job_or_404(study_id, job_key)
     block = "report_job" if is_htmx(request) else None
     return render(request, "exchange/exports/report_job.html",
-                  {"job": found, "study": get_study(session, study_id)}, block=block)
+                  {"job": job, "study": get_study(session, study_id)}, block=block)
 
 
-@router.get("/report-jobs/{job}/file", name="download_report_job")
-def download_report_job(study_id: int, job: str) -> Response:
+@router.get("/report-jobs/{job_key}/file", name="download_report_job")
+def download_report_job(study_id: int, job_key: str) -> Response:
     """The finished PDF; 409 while it is still being made."""
-    found = _job_or_404(study_id, job)
-    if found.state is not report_jobs.JobState.READY:
-        return Response(f"The report is not ready yet ({found.step}).", status_code=409,
+    job = _job_or_404(study_id, job_key)
+    if job.state is not report_jobs.JobState.READY:
+        return Response(f"The report is not ready yet ({job.step}).", status_code=409,
                         media_type="text/plain; charset=utf-8")
-    return Response(found.content, media_type="application/pdf",
-                    headers={"Content-Disposition": f'attachment; filename="{found.filename}"'})
+    return Response(job.content, media_type="application/pdf",
+                    headers={"Content-Disposition": f'attachment; filename="{job.filename}"'})

@@ -46,7 +46,7 @@ def test_the_export_page_offers_every_format_with_its_command(
     # The PDF is made in the background, with its progress shown (tests/routes/exchange/
     # test_report_jobs.py); /export.pdf still answers for scripts.
     assert f'hx-post="http://testserver/studies/{study_id}/report-jobs"' in page.text
-    assert 'href="http://testserver/schema/study-v1.json"' in page.text
+    assert 'href="http://testserver/schema/study-v2.json"' in page.text
 
 
 @pytest.mark.parametrize(("fmt", "media_type", "magic"), [
@@ -96,7 +96,7 @@ def test_an_unknown_study_has_no_exports(client: TestClient, session: Session, p
 
 
 def test_the_schema_document_is_served(client: TestClient, session: Session) -> None:
-    response = client.get("/schema/study-v1.json")
+    response = client.get("/schema/study-v2.json")
     assert response.status_code == 200
     assert response.headers["content-type"] == "application/schema+json"
     assert response.json() == study_json_schema()
