@@ -23,8 +23,9 @@ from app.settings import PROJECT_ROOT
 
 CAUTIONS = (
     "Tallyroom is decision support for a competent review team. Its results are only as good "
-    "as the inputs the team agrees. Follow your company's standards, local regulations, the "
-    "IEC 61511 safety lifecycle and licensed professional judgement."
+    "as the inputs the team agrees. LOPA is an order-of-magnitude method: read each figure to "
+    "its decade, not its digits. Follow your company's standards, local regulations, the "
+    "IEC 61511 safety lifecycle and competent professional judgement."
 )
 
 # Explicit bidirectional formatting characters: embeddings and overrides (closed by PDF,
