@@ -89,6 +89,7 @@ def render(
 STUDY_NAV = [
     ("Overview", "read_study"),
     ("Room view", "read_room"),
+    ("Estimate rounds", "read_rounds"),
     ("Risk criteria", "read_criteria"),
     ("Risk picture", "read_risk_picture"),
     ("SIF proof test", "read_proof_test"),
