@@ -371,6 +371,22 @@ class RoundDissent(SQLModel, table=True):
     position: int = 0
 
 
+class ScaleWord(SQLModel, table=True):
+    """A word the team uses for a likelihood ("unlikely") and, once adopted, its number.
+
+    `unit` is the estimate unit (per_year or probability); a word without `value` is on the
+    team's list but not adopted, so typing it in a value field is refused.
+    """
+
+    __tablename__ = "scale_word"
+    id: int | None = Field(default=None, primary_key=True)
+    study_id: int = _study_fk()
+    unit: str = Field(max_length=20)
+    word: str = Field(min_length=1, max_length=60)
+    value: float | None = Field(default=None, gt=0)
+    position: int = 0
+
+
 class AccessState(SQLModel, table=True):
     """Who may use a served Tallyroom: one row, never part of a study, an export or the log."""
 

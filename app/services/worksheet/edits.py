@@ -13,17 +13,18 @@ from typing import Any
 from sqlmodel import Session
 
 from app.db.models import Step
-from app.likelihood.numbers import ParsedNumber, format_number
+from app.likelihood.numbers import format_number
 from app.likelihood.types import LikelihoodInputError
+from app.likelihood.word_scale import WordedNumber
 from app.services.study.listing import NodeTotals
 from app.services.study.totals import study_totals
+from app.services.study.word_scale import basis_with_word, read_step_text
 from app.services.worksheet.page import ScenarioView, located_scenario, plain_value
 from app.services.worksheet.structure import (
     StructureInputError,
     get_row,
     kind_of,
     node_id_of,
-    parse_step_value,
     step_label,
     update_row,
 )
@@ -62,24 +63,28 @@ def edit_step_value(*, session: Session, study_id: int, step_id: int, text: str,
     """Save a step's value if it parses; None when a newer edit of it was already seen."""
     step: Step = get_row(session, kind_of("step"), study_id, step_id)
     fid = field_id("step", step_id, "value_text")
-    parsed = _parse_typed_value(step, text)
+    worded = _parse_typed_value(session, step, text)
     if not LATEST_EDITS.accept(step_id, client, seq):
         return None
-    if isinstance(parsed, LikelihoodInputError):
+    if isinstance(worded, LikelihoodInputError):
         session.rollback()
         fallback = f"{step_label(step)}: using last valid value {format_number(step.value)}"
-        return _reply(session, "step", step, fid, error=parsed.message, fallback=fallback)
-    if (step.value, step.value_text) != (parsed.value, parsed.text):
-        step.value, step.value_text = parsed.value, parsed.text
+        return _reply(session, "step", step, fid, error=worded.message, fallback=fallback)
+    parsed = worded.number
+    changes = (parsed.value, parsed.text, basis_with_word(step.basis, worded))
+    if (step.value, step.value_text, step.basis) != changes:
+        step.value, step.value_text, step.basis = changes
         session.add(step)
         session.commit()
     return _reply(session, "step", step, fid, said=parsed.plain)
 
 
-def _parse_typed_value(step: Step, text: str) -> ParsedNumber | LikelihoodInputError:
-    """The typed text read as the step's kind needs (a frequency or a probability), or why not."""
+def _parse_typed_value(session: Session, step: Step,
+                       text: str) -> WordedNumber | LikelihoodInputError:
+    """The typed text read as the step's kind needs (a frequency or a probability, or a word
+    on the team's adopted scale), or why not."""
     try:
-        return parse_step_value(step.kind, text, step_label(step))
+        return read_step_text(session, step, text, step_label(step))
     except LikelihoodInputError as err:
         return err
 

@@ -1,0 +1,76 @@
+"""The team's word list and the numbers it adopts, edited as lines of "word = number".
+
+A line with only a word keeps the word on the list without a number (typing it in a value
+field is then refused). Every adopted line is checked by likelihood/word_scale.adopt_word_scale:
+no empty or repeated word, no word that reads as a number, a number valid for the unit.
+"""
+
+from dataclasses import dataclass
+
+from sqlmodel import Session, col, delete, select
+
+from app.db.models import ScaleWord
+from app.likelihood.estimates import EstimateUnit
+from app.likelihood.numbers import format_number
+from app.likelihood.types import LikelihoodInputError
+from app.likelihood.word_scale import adopt_word_scale
+from app.services.estimates.reading import parse_estimate
+from app.services.study.errors import FieldInputError
+from app.services.study.tree import get_study
+
+WORD_LIMIT = 60
+_STAND_IN = 0.5
+
+
+@dataclass(frozen=True)
+class WordLine:
+    """One line of the list: the word and the adopted number, if any."""
+
+    word: str
+    value: float | None
+
+
+def _line(text: str, unit: EstimateUnit, field: str) -> WordLine:
+    word, _, number = text.partition("=")
+    word = " ".join(word.split())
+    if len(word) > WORD_LIMIT:
+        raise FieldInputError(field, f"'{word[:20]}…': a word has at most {WORD_LIMIT} "
+                                     "characters.")
+    if not number.strip():
+        return WordLine(word, None)
+    return WordLine(word, parse_estimate(number, unit, f"Word '{word}'").value)
+
+
+def read_word_lines(text: str, unit: EstimateUnit, field: str) -> tuple[WordLine, ...]:
+    """The lines as words and numbers, checked as one scale; FieldInputError names the rule."""
+    try:
+        lines = tuple(_line(raw, unit, field) for raw in text.splitlines() if raw.strip())
+        # Words not yet adopted obey the same word rules (not empty, not repeated, not a
+        # number): check them with a stand-in number valid in both units.
+        adopt_word_scale([(line.word, line.value or _STAND_IN) for line in lines], unit)
+    except FieldInputError as error:
+        raise FieldInputError(field, error.message) from error
+    except LikelihoodInputError as error:
+        raise FieldInputError(field, error.message) from error
+    return lines
+
+
+def save_word_list(*, session: Session, study_id: int, unit: EstimateUnit, text: str) -> None:
+    """Replace the study's words for the unit with the lines (nothing saved if one is wrong)."""
+    get_study(session, study_id)
+    lines = read_word_lines(text, unit, unit.value)
+    session.exec(delete(ScaleWord).where(col(ScaleWord.study_id) == study_id,
+                                         col(ScaleWord.unit) == unit.value))
+    for position, line in enumerate(lines):
+        session.add(ScaleWord(study_id=study_id, unit=unit.value, word=line.word,
+                              value=line.value, position=position))
+    session.commit()
+
+
+def word_list_text(session: Session, study_id: int, unit: EstimateUnit) -> str:
+    """The saved list as the form shows it: "word = 1.0e-2" per line."""
+    rows = session.exec(select(ScaleWord).where(ScaleWord.study_id == study_id,
+                                                ScaleWord.unit == unit.value)
+                        .order_by(col(ScaleWord.position), col(ScaleWord.id))).all()
+    return "\n".join(f"{row.word} = {format_number(row.value)}" if row.value else row.word
+                     for row in rows)

@@ -1,0 +1,102 @@
+"""The team word scale: the list is edited as "word = number" lines; typing an adopted word in
+a value field uses its number, echoes word and number and records the word in the basis; a word
+not on the scale is refused with the adopted list (422, nothing saved)."""
+
+import html
+
+from fastapi.testclient import TestClient
+from sqlmodel import Session, select
+
+from app.db.models import ScaleWord, Step
+from app.likelihood.types import StepKind
+from tests.factories import make_scenario_tree, make_step
+from tests.helpers import HX
+
+PROBABILITY_WORDS = "unlikely = 1 in 100\nRemote = 1e-3\ncredible"
+FREQUENCY_WORDS = "frequent = once in 2 years"
+
+
+def _save(client: TestClient, study_id: int, probability: str = PROBABILITY_WORDS,
+          per_year: str = FREQUENCY_WORDS) -> int:
+    response = client.post(f"/studies/{study_id}/word-scale",
+                           data={"probability": probability, "per_year": per_year},
+                           follow_redirects=False)
+    return response.status_code
+
+
+def _layer(session: Session) -> Step:
+    scenario = make_scenario_tree(session)
+    return make_step(session, scenario, kind=StepKind.IPL, value=0.1, value_text="1 in 10",
+                     description="Operator response", basis="procedure OP-12")
+
+
+def _type(client: TestClient, step: Step, text: str) -> tuple[int, str]:
+    response = client.post(f"/studies/{step.study_id}/steps/{step.id}/value",
+                           data={"value_text": text}, headers=HX)
+    return response.status_code, html.unescape(response.text)
+
+
+def test_the_list_is_saved_in_order_with_and_without_numbers(client: TestClient,
+                                                             session: Session) -> None:
+    step = _layer(session)
+    assert _save(client, step.study_id) == 303
+    rows = session.exec(select(ScaleWord).order_by(ScaleWord.unit, ScaleWord.position)).all()
+    assert [(r.unit, r.word, r.value) for r in rows] == [
+        ("per_year", "frequent", 0.5),  # by hand: once in 2 years = 0.5 per year
+        ("probability", "unlikely", 0.01), ("probability", "Remote", 0.001),
+        ("probability", "credible", None)]
+    page = client.get(f"/studies/{step.study_id}/word-scale").text
+    assert "unlikely = 1.0e-2\nRemote = 1.0e-3\ncredible</textarea>" in page
+
+
+def test_a_wrong_line_saves_nothing_and_names_the_rule(client: TestClient,
+                                                       session: Session) -> None:
+    step = _layer(session)
+    assert _save(client, step.study_id) == 303
+    for lines, rule in [("rare = 1e-4\nRARE = 1e-3", "adopted twice"),
+                        ("one = 1e-2", "reads as a number"),
+                        ("rare = 3", "Word 'rare'")]:
+        response = client.post(f"/studies/{step.study_id}/word-scale",
+                               data={"probability": lines, "per_year": ""})
+        assert response.status_code == 422 and rule in html.unescape(response.text), lines
+    assert len(session.exec(select(ScaleWord)).all()) == 4
+
+
+def test_an_adopted_word_gives_its_number_and_goes_into_the_basis(client: TestClient,
+                                                                  session: Session) -> None:
+    step = _layer(session)
+    _save(client, step.study_id)
+    status, reply = _type(client, step, "  UNLIKELY ")
+    assert status == 200
+    assert "'unlikely' on the team's word scale = 1 in 100 · 1.0e-2" in reply
+    session.refresh(step)
+    assert (step.value, step.value_text) == (0.01, "UNLIKELY")
+    assert step.basis == "procedure OP-12; team word scale: 'unlikely' = 1.0e-2"
+    _type(client, step, "unlikely")  # typed again: the note is not repeated
+    session.refresh(step)
+    assert step.basis.count("team word scale") == 1
+
+
+def test_an_unknown_or_unadopted_word_is_refused_with_the_adopted_list(
+        client: TestClient, session: Session) -> None:
+    step = _layer(session)
+    _save(client, step.study_id)
+    for word in ("rare", "credible"):
+        status, reply = _type(client, step, word)
+        assert status == 422
+        assert "adopted words: unlikely (1.0e-2), Remote (1.0e-3)" in reply
+    session.refresh(step)
+    assert (step.value, step.value_text) == (0.1, "1 in 10")
+
+
+def test_an_initiating_event_uses_the_per_year_words_only(client: TestClient,
+                                                          session: Session) -> None:
+    step = _layer(session)
+    _save(client, step.study_id)
+    event = session.exec(select(Step).where(Step.scenario_id == step.scenario_id,
+                                            Step.kind == StepKind.INITIATING_EVENT)).one()
+    assert _type(client, event, "frequent")[0] == 200
+    session.refresh(event)
+    assert event.value == 0.5
+    status, reply = _type(client, event, "unlikely")
+    assert status == 422 and "frequent (5.0e-1)" in reply
