@@ -319,7 +319,7 @@ class RoundState(StrEnum):
 
 
 class EstimateRound(SQLModel, table=True):
-    """One private round of estimates on a step's value, and (once agreed) its outcome.
+    """One private round of estimates on a step's value or a word, and its outcome.
 
     Not a TrackedRow: rounds and estimates stay out of the change log, which editors read
     while a round is open; agreeing writes the step, and that edit is logged.
@@ -328,7 +328,10 @@ class EstimateRound(SQLModel, table=True):
     __tablename__ = "estimate_round"
     id: int | None = Field(default=None, primary_key=True)
     study_id: int = _study_fk()
-    step_id: int = Field(foreign_key="step.id", ondelete="CASCADE", index=True)
+    # A round is on a step's value, or (step None) on a word of the team's word scale.
+    step_id: int | None = Field(default=None, foreign_key="step.id", ondelete="CASCADE",
+                                index=True)
+    word: str | None = Field(default=None, max_length=60)
     number: int = Field(ge=1)
     question: str = Field(min_length=1, max_length=300)
     unit: str = Field(max_length=20)

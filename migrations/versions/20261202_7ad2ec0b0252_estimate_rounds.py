@@ -1,6 +1,6 @@
 """Estimate rounds: private rounds of estimates on a step value, and their agreement.
 
-Adds estimate_round (question, unit, state open/revealed/agreed, names shown or hidden, and
+Adds estimate_round (on a step or on a word of the team's word scale; question, unit, state open/revealed/agreed, names shown or hidden, and
 the agreed method, value and basis), round_estimate (one per person and round, entered by the
 person's own device or by the scribe) and round_dissent. All cascade with their study, and a
 round with its step. New tables only: nothing existing is rebuilt.
@@ -26,7 +26,8 @@ def upgrade() -> None:
     op.create_table('estimate_round',
     sa.Column('id', sa.Integer(), nullable=False),
     sa.Column('study_id', sa.Integer(), nullable=False),
-    sa.Column('step_id', sa.Integer(), nullable=False),
+    sa.Column('step_id', sa.Integer(), nullable=True),
+    sa.Column('word', sqlmodel.sql.sqltypes.AutoString(length=60), nullable=True),
     sa.Column('number', sa.Integer(), nullable=False),
     sa.Column('question', sqlmodel.sql.sqltypes.AutoString(length=300), nullable=False),
     sa.Column('unit', sqlmodel.sql.sqltypes.AutoString(length=20), nullable=False),

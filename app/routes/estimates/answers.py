@@ -1,4 +1,4 @@
-"""The participant's page: the open round's question, one large input, their own answer only.
+"""The participant's page: each open round's question, a large input, their own answer only.
 
 Who answers comes from the session (`current_access`): the name given when joining and the
 device's session id, so a device can change only the estimate it gave.
@@ -30,10 +30,12 @@ def _answerer(request: Request) -> answers.Answerer:
 
 
 def _page(request: Request, session: SessionDep, study_id: int,
-          error: FieldInputError | None = None, typed: str = "") -> Response:
-    found = views.participant_round(session=session, study_id=study_id,
-                                    answerer=_answerer(request))
-    context = {"found": found, "study_id": study_id, "error": error, "typed": typed,
+          error: FieldInputError | None = None, typed: str = "",
+          round_id: int = 0) -> Response:
+    found = views.participant_rounds(session=session, study_id=study_id,
+                                     answerer=_answerer(request))
+    context = {"found": found, "open_key": views.open_rounds_key(found), "study_id": study_id,
+               "error": error, "typed": typed, "error_round": round_id,
                "person": _answerer(request).person}
     return render(request, PAGE, context, status_code=422 if error else 200)
 
@@ -48,11 +50,11 @@ def read_estimate(request: Request, study_id: int, session: SessionDep) -> Respo
 @router.get("/estimate/live", name="read_estimate_live")
 @allow(Role.PARTICIPANT)
 def read_estimate_live(request: Request, study_id: int, session: SessionDep,
-                       round_id: int = 0) -> Response:
-    """204 while the open round is still `round_id`; otherwise tell htmx to reload the page."""
-    found = views.participant_round(session=session, study_id=study_id,
-                                    answerer=_answerer(request))
-    if (found.round_id if found else 0) == round_id:
+                       rounds: str = "0") -> Response:
+    """204 while the same rounds are open; otherwise tell htmx to reload the page."""
+    found = views.participant_rounds(session=session, study_id=study_id,
+                                     answerer=_answerer(request))
+    if views.open_rounds_key(found) == rounds:
         return Response(status_code=204)
     return Response(status_code=200, headers={"HX-Refresh": "true"})
 
@@ -66,6 +68,6 @@ def submit_estimate(request: Request, study_id: int, session: SessionDep,
         answers.give_estimate(session=session, study_id=study_id, round_id=round_id,
                               answerer=_answerer(request), text=value_text)
     except FieldInputError as error:
-        return _page(request, session, study_id, error, value_text)
+        return _page(request, session, study_id, error, value_text, round_id)
     return RedirectResponse(path_for(request, "read_estimate", study_id=study_id),
                             status_code=303)

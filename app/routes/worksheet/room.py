@@ -26,7 +26,7 @@ def _context(request: Request, session: SessionDep, study_id: int) -> dict[str, 
     room = room_service.build_room_view(session=session, study_id=study_id)
     return {"room": room, "study": room.study, "poll": get_settings().room_poll_seconds,
             "stamp": _stamp(session, study_id),
-            "round": rounds_view.room_round(session=session, study_id=study_id),
+            "rounds": rounds_view.room_rounds(session=session, study_id=study_id),
             "join": join_panel(request, session, study_id)}
 
 

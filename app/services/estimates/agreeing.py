@@ -70,6 +70,9 @@ def agree_round(*, session: Session, study_id: int, round_id: int,
     if found.state != RoundState.REVEALED:
         raise FieldInputError("method", "Agree: reveal the round first (an agreed round "
                                         "stays as it is; open another round to change it).")
+    if found.step_id is None:
+        raise FieldInputError("method", "Agree: a word round is adopted on the word scale "
+                                        "page, not on a step.")
     agreement = build_agreement(session, found, form)
     try:
         value, basis = agreed_value(agreement), basis_sentence(agreement)

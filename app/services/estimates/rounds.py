@@ -11,6 +11,7 @@ from app.db.models import (
     RoundDissent,
     RoundEstimate,
     RoundState,
+    ScaleWord,
     Step,
     text_limit,
     utc_now,
@@ -65,10 +66,46 @@ def open_round(*, session: Session, study_id: int, step_id: int, question: str,
 
 def open_next_round(*, session: Session, study_id: int, round_id: int,
                     author: str = "") -> EstimateRound:
-    """Another round on the same step and question, after the room has talked."""
+    """Another round on the same step (or word) and question, after the room has talked."""
     earlier = get_round(session, study_id, round_id)
+    if earlier.step_id is None:
+        return _open_word_round(session, earlier.study_id, earlier.word or "", earlier.unit,
+                                author)
     return open_round(session=session, study_id=study_id, step_id=earlier.step_id,
                       question=earlier.question, author=author)
+
+
+def word_question(word: str, unit: str) -> str:
+    """The question of a word round, in the unit of the word's list."""
+    if unit == EstimateUnit.PER_YEAR.value:
+        return f"How often per year is something that is “{word}”?"
+    return f"What probability do you mean by “{word}”?"
+
+
+def _open_word_round(session: Session, study_id: int, word: str, unit: str,
+                     author: str) -> EstimateRound:
+    count = session.exec(select(func.count()).select_from(EstimateRound)
+                         .where(EstimateRound.study_id == study_id,
+                                EstimateRound.word == word, EstimateRound.unit == unit)).one()
+    created = EstimateRound(study_id=study_id, step_id=None, word=word, number=count + 1,
+                            question=word_question(word, unit), unit=unit,
+                            opened_by=author[:120])
+    session.add(created)
+    session.commit()
+    session.refresh(created)
+    return created
+
+
+def open_word_rounds(*, session: Session, study_id: int, author: str = "") -> int:
+    """A private round on every word of the team's list; how many were opened."""
+    get_study(session, study_id)
+    words = session.exec(select(ScaleWord).where(ScaleWord.study_id == study_id)
+                         .order_by(col(ScaleWord.unit), col(ScaleWord.position))).all()
+    if not words:
+        raise FieldInputError("words", "Word round: put the team's words on the list first.")
+    for row in words:
+        _open_word_round(session, study_id, row.word, row.unit, author)
+    return len(words)
 
 
 def estimates_of(session: Session, round_id: int) -> list[RoundEstimate]:

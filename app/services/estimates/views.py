@@ -3,6 +3,7 @@ an open round's view carries who answered, never what, so no page or fragment ca
 
 import hashlib
 from dataclasses import dataclass
+from typing import Any
 
 from sqlmodel import Session, col, func, select
 
@@ -13,6 +14,8 @@ from app.services.estimates.answers import SCRIBE, Answerer, own_estimate
 from app.services.estimates.reading import unit_words
 from app.services.estimates.rounds import dissents_of, estimates_of, get_round, stats_of
 from app.services.study.tree import WorksheetSpot, get_study
+
+# Any in this module: a round's query conditions are SQLAlchemy expressions (the ORM boundary).
 
 # Marks closer than this (share of the axis) stack on separate lanes so none hides another.
 _CROWDED = 0.04
@@ -62,8 +65,8 @@ def _marks(found: EstimateRound, estimates: list[RoundEstimate],
 def round_view(session: Session, found: EstimateRound) -> RoundView:
     """The round as every page may see it (values only after the reveal)."""
     estimates = estimates_of(session, found.id or 0)
-    step = session.get(Step, found.step_id)
-    label = (step.description or step.kind.label) if step else "step"
+    step = session.get(Step, found.step_id) if found.step_id is not None else None
+    label = (step.description or step.kind.label) if step else f"word “{found.word}”"
     answered = tuple((e.person, e.entered_by == SCRIBE) for e in estimates)
     if found.state == RoundState.OPEN:
         return RoundView(found, label, unit_words(found.unit), answered, None, (), ())
@@ -79,7 +82,7 @@ class RoundPage:
 
     current: RoundView
     others: tuple[RoundView, ...]
-    spot: WorksheetSpot
+    spot: WorksheetSpot | None  # None for a round on a word
 
 
 def _spot(session: Session, study_id: int, step_id: int) -> WorksheetSpot:
@@ -90,13 +93,21 @@ def _spot(session: Session, study_id: int, step_id: int) -> WorksheetSpot:
     return WorksheetSpot(study_id, node_id, scenario.id if scenario else None)
 
 
+def _same_question(found: EstimateRound) -> list[Any]:
+    if found.step_id is not None:
+        return [EstimateRound.step_id == found.step_id]
+    return [EstimateRound.study_id == found.study_id, EstimateRound.word == found.word,
+            EstimateRound.unit == found.unit]
+
+
 def round_page(*, session: Session, study_id: int, round_id: int) -> RoundPage:
-    """The round with the step's other rounds, newest first."""
+    """The round with the other rounds on its step (or word), newest first."""
     found = get_round(session, study_id, round_id)
-    rounds = session.exec(select(EstimateRound).where(EstimateRound.step_id == found.step_id)
+    rounds = session.exec(select(EstimateRound).where(*_same_question(found))
                           .order_by(col(EstimateRound.number).desc())).all()
     others = tuple(round_view(session, r) for r in rounds if r.id != found.id)
-    return RoundPage(round_view(session, found), others, _spot(session, study_id, found.step_id))
+    spot = _spot(session, study_id, found.step_id) if found.step_id is not None else None
+    return RoundPage(round_view(session, found), others, spot)
 
 
 def study_rounds(*, session: Session, study_id: int) -> tuple[RoundView, ...]:
@@ -115,10 +126,25 @@ def _latest(session: Session, study_id: int, *states: RoundState) -> EstimateRou
                                   col(EstimateRound.id).desc())).first()
 
 
-def room_round(*, session: Session, study_id: int) -> RoundView | None:
-    """The round the room view shows: the latest one not yet agreed."""
+def room_rounds(*, session: Session, study_id: int) -> tuple[RoundView, ...]:
+    """What the room view shows: the latest step round not yet agreed, or, when the latest is
+    a word round, every word round not yet adopted (each word's spread)."""
     found = _latest(session, study_id, RoundState.OPEN, RoundState.REVEALED)
-    return round_view(session, found) if found else None
+    if found is None:
+        return ()
+    if found.step_id is not None:
+        return (round_view(session, found),)
+    return word_rounds(session=session, study_id=study_id)
+
+
+def word_rounds(*, session: Session, study_id: int) -> tuple[RoundView, ...]:
+    """Every word round not yet adopted, in the list's order (unit, then word order)."""
+    found = session.exec(select(EstimateRound)
+                         .where(EstimateRound.study_id == study_id,
+                                col(EstimateRound.step_id).is_(None),
+                                EstimateRound.state != RoundState.AGREED)
+                         .order_by(col(EstimateRound.unit), col(EstimateRound.id))).all()
+    return tuple(round_view(session, r) for r in found)
 
 
 @dataclass(frozen=True)
@@ -132,15 +158,21 @@ class ParticipantRound:
     own: ParsedNumber | None
 
 
-def participant_round(*, session: Session, study_id: int,
-                      answerer: Answerer) -> ParticipantRound | None:
-    """The newest open round, with this device's own estimate; None when no round is open."""
+def participant_rounds(*, session: Session, study_id: int,
+                       answerer: Answerer) -> tuple[ParticipantRound, ...]:
+    """Every open round (a step's, or one per word), with this device's own estimates only."""
     get_study(session, study_id)
-    found = _latest(session, study_id, RoundState.OPEN)
-    if found is None or found.id is None:
-        return None
-    return ParticipantRound(found.id, found.number, found.question, unit_words(found.unit),
-                            own_estimate(session, found.id, answerer))
+    found = session.exec(select(EstimateRound)
+                         .where(EstimateRound.study_id == study_id,
+                                EstimateRound.state == RoundState.OPEN)
+                         .order_by(col(EstimateRound.id))).all()
+    return tuple(ParticipantRound(r.id or 0, r.number, r.question, unit_words(r.unit),
+                                  own_estimate(session, r.id or 0, answerer)) for r in found)
+
+
+def open_rounds_key(found: tuple[ParticipantRound, ...]) -> str:
+    """Which rounds are open ('3-4-5'): the participant page reloads when this changes."""
+    return "-".join(str(item.round_id) for item in found) or "0"
 
 
 def rounds_stamp(*, session: Session, study_id: int) -> str:

@@ -9,12 +9,13 @@ from dataclasses import dataclass
 
 from sqlmodel import Session, col, delete, select
 
-from app.db.models import ScaleWord
+from app.db.models import EstimateRound, RoundState, ScaleWord, utc_now
 from app.likelihood.estimates import EstimateUnit
 from app.likelihood.numbers import format_number
 from app.likelihood.types import LikelihoodInputError
 from app.likelihood.word_scale import adopt_word_scale
 from app.services.estimates.reading import parse_estimate
+from app.services.estimates.rounds import estimates_of, stats_of
 from app.services.study.errors import FieldInputError
 from app.services.study.tree import get_study
 
@@ -74,3 +75,43 @@ def word_list_text(session: Session, study_id: int, unit: EstimateUnit) -> str:
                         .order_by(col(ScaleWord.position), col(ScaleWord.id))).all()
     return "\n".join(f"{row.word} = {format_number(row.value)}" if row.value else row.word
                      for row in rows)
+
+
+def reveal_word_rounds(*, session: Session, study_id: int) -> int:
+    """Reveal every open word round that has an answer; how many were revealed."""
+    opened = session.exec(select(EstimateRound).where(
+        EstimateRound.study_id == study_id, col(EstimateRound.step_id).is_(None),
+        EstimateRound.state == RoundState.OPEN)).all()
+    answered = [r for r in opened if estimates_of(session, r.id or 0)]
+    if not answered:
+        raise FieldInputError("words", "Reveal: nobody has answered the word round yet.")
+    for found in answered:
+        found.state, found.updated_at = RoundState.REVEALED, utc_now()
+        session.add(found)
+    session.commit()
+    return len(answered)
+
+
+def adopt_word_means(*, session: Session, study_id: int) -> int:
+    """Adopt each revealed word's geometric mean as its number (the team may then edit the
+    list); the rounds are closed as agreed. How many words were adopted."""
+    revealed = session.exec(select(EstimateRound).where(
+        EstimateRound.study_id == study_id, col(EstimateRound.step_id).is_(None),
+        EstimateRound.state == RoundState.REVEALED)).all()
+    if not revealed:
+        raise FieldInputError("words", "Adopt: reveal the word round first.")
+    for found in revealed:
+        stats = stats_of(found, estimates_of(session, found.id or 0))
+        word = session.exec(select(ScaleWord).where(
+            ScaleWord.study_id == study_id, ScaleWord.unit == found.unit,
+            ScaleWord.word == found.word)).first()
+        if stats is None or word is None:  # the word left the list since the round opened
+            continue
+        word.value = stats.geometric_mean
+        found.state, found.agreed_method = RoundState.AGREED, "geometric_mean"
+        found.agreed_value, found.updated_at = stats.geometric_mean, utc_now()
+        found.agreed_basis = (f"adopted for '{found.word}' from {stats.count} estimates, "
+                              f"geometric mean {format_number(stats.geometric_mean)}")
+        session.add_all([word, found])
+    session.commit()
+    return len(revealed)

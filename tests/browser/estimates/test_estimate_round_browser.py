@@ -101,7 +101,7 @@ def test_three_phones_answer_in_private_then_the_reveal_and_the_agreement(
         page = phones[person][1]
         page.get_by_label("Your estimate").fill(said)
         page.get_by_role("button", name="Send my estimate").click()
-        expect(page.locator("#answer-echo")).to_contain_text(said)
+        expect(page.locator("[data-echo]")).to_contain_text(said)
     lind = phones["A. Lind"][1]
     _save_shot(lind, artifacts, "estimate-participant-phone.png")
     for other in ("0.7%", "7.0e-3", "1 in 20000", "5.0e-5"):

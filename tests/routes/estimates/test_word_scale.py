@@ -3,8 +3,11 @@ a value field uses its number, echoes word and number and records the word in th
 not on the scale is refused with the adopted list (422, nothing saved)."""
 
 import html
+import re
 
+import pytest
 from fastapi.testclient import TestClient
+from scipy.stats import gmean
 from sqlmodel import Session, select
 
 from app.db.models import ScaleWord, Step
@@ -100,3 +103,56 @@ def test_an_initiating_event_uses_the_per_year_words_only(client: TestClient,
     assert event.value == 0.5
     status, reply = _type(client, event, "unlikely")
     assert status == 422 and "frequent (5.0e-1)" in reply
+
+
+WORD_ESTIMATES = {"unlikely": {"A. Lind": "1e-2", "B. Osei": "1e-3", "C. Ruiz": "4e-3"},
+                  "remote": {"A. Lind": "1e-4", "B. Osei": "1e-3", "C. Ruiz": "2e-5"}}
+
+
+def test_a_private_word_round_shows_each_word_s_spread_then_adopts_the_geometric_means(
+        client: TestClient, session: Session) -> None:
+    step = _layer(session)
+    study = step.study_id
+    assert _save(client, study, probability="unlikely\nremote", per_year="") == 303
+    assert client.post(f"/studies/{study}/word-scale/round",
+                       follow_redirects=False).status_code == 303
+    answer_page = client.get(f"/studies/{study}/estimate").text
+    assert answer_page.count('class="answer-round"') == 2  # one input per word
+    assert "What probability do you mean by “remote”?" in answer_page
+    rounds = {word: int(found) for word, found in re.findall(
+        r'<tr data-word="(\w+)"><td><a href="/studies/\d+/rounds/(\d+)"',
+        client.get(f"/studies/{study}/word-scale").text)}
+    for word, said in WORD_ESTIMATES.items():
+        for person, text in said.items():
+            client.post(f"/studies/{study}/rounds/{rounds[word]}/estimates",
+                        data={"person": person, "value_text": text})
+    hidden = client.get(f"/studies/{study}/room").text
+    assert "hidden until the reveal" in hidden
+    assert "2.0e-5" not in hidden and "2e-5" not in hidden
+    assert client.post(f"/studies/{study}/word-scale/reveal",
+                       follow_redirects=False).status_code == 303
+    room = html.unescape(client.get(f"/studies/{study}/room").text)
+    remote_means = gmean([1e-4, 1e-3, 2e-5])  # scipy: 1.3e-4
+    assert 'data-word="remote"' in room and "1.7 ▲ discuss" in room  # log10(1e-3 / 2e-5) = 1.7
+    assert client.post(f"/studies/{study}/word-scale/adopt",
+                       follow_redirects=False).status_code == 303
+    adopted = {row.word: row.value for row in session.exec(select(ScaleWord)).all()}
+    assert adopted["remote"] == pytest.approx(remote_means, rel=1e-12)
+    assert adopted["unlikely"] == pytest.approx(gmean([1e-2, 1e-3, 4e-3]), rel=1e-12)  # scipy
+    status, _reply = _type(client, step, "remote")
+    session.refresh(step)
+    assert status == 200 and step.value == pytest.approx(remote_means, rel=1e-12)
+
+
+def test_revealing_or_adopting_a_word_round_too_early_is_refused(client: TestClient,
+                                                                 session: Session) -> None:
+    step = _layer(session)
+    study = step.study_id
+    empty = client.post(f"/studies/{study}/word-scale/round")
+    assert empty.status_code == 422 and "put the team" in html.unescape(empty.text)
+    _save(client, study)
+    client.post(f"/studies/{study}/word-scale/round")
+    early = client.post(f"/studies/{study}/word-scale/reveal")
+    assert early.status_code == 422 and "nobody has answered" in early.text
+    adopt = client.post(f"/studies/{study}/word-scale/adopt")
+    assert adopt.status_code == 422 and "reveal the word round first" in adopt.text
