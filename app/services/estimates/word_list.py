@@ -7,13 +7,13 @@ no empty or repeated word, no word that reads as a number, a number valid for th
 
 from dataclasses import dataclass
 
-from sqlmodel import Session, col, delete, select
+from sqlmodel import Session, col, select
 
 from app.db.models import EstimateRound, RoundState, ScaleWord, utc_now
 from app.likelihood.estimates import EstimateUnit
 from app.likelihood.numbers import format_number
 from app.likelihood.types import LikelihoodInputError
-from app.likelihood.word_scale import adopt_word_scale
+from app.likelihood.word_scale import adopt_word_scale, normalise_word
 from app.services.estimates.reading import parse_estimate
 from app.services.estimates.rounds import estimates_of, stats_of
 from app.services.study.errors import FieldInputError
@@ -57,14 +57,22 @@ def read_word_lines(text: str, unit: EstimateUnit, field: str) -> tuple[WordLine
 
 
 def save_word_list(*, session: Session, study_id: int, unit: EstimateUnit, text: str) -> None:
-    """Replace the study's words for the unit with the lines (nothing saved if one is wrong)."""
+    """Make the study's words for the unit match the lines (nothing saved if one is wrong).
+
+    Words are matched by their compared form, so the change log shows a changed number as an
+    edit of that word, and only words really removed or added as such.
+    """
     get_study(session, study_id)
     lines = read_word_lines(text, unit, unit.value)
-    session.exec(delete(ScaleWord).where(col(ScaleWord.study_id) == study_id,
-                                         col(ScaleWord.unit) == unit.value))
+    saved = {normalise_word(row.word): row for row in session.exec(
+        select(ScaleWord).where(ScaleWord.study_id == study_id, ScaleWord.unit == unit.value))}
     for position, line in enumerate(lines):
-        session.add(ScaleWord(study_id=study_id, unit=unit.value, word=line.word,
-                              value=line.value, position=position))
+        row = saved.pop(normalise_word(line.word), None) or ScaleWord(
+            study_id=study_id, unit=unit.value, word=line.word)
+        row.word, row.value, row.position = line.word, line.value, position
+        session.add(row)
+    for removed in saved.values():
+        session.delete(removed)
     session.commit()
 
 

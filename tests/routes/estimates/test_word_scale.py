@@ -10,7 +10,7 @@ from fastapi.testclient import TestClient
 from scipy.stats import gmean
 from sqlmodel import Session, select
 
-from app.db.models import ScaleWord, Step
+from app.db.models import ChangeLogEntry, ScaleWord, Step
 from app.likelihood.types import StepKind
 from tests.factories import make_scenario_tree, make_step
 from tests.helpers import HX
@@ -156,3 +156,13 @@ def test_revealing_or_adopting_a_word_round_too_early_is_refused(client: TestCli
     assert early.status_code == 422 and "nobody has answered" in early.text
     adopt = client.post(f"/studies/{study}/word-scale/adopt")
     assert adopt.status_code == 422 and "reveal the word round first" in adopt.text
+
+
+def test_the_change_log_records_an_adopted_number_as_an_edit_of_its_word(
+        client: TestClient, session: Session) -> None:
+    step = _layer(session)
+    _save(client, step.study_id)
+    _save(client, step.study_id, probability="unlikely = 1 in 50\nRemote = 1e-3\ncredible")
+    edits = session.exec(select(ChangeLogEntry).where(
+        ChangeLogEntry.entity == "word on the scale", ChangeLogEntry.action == "edit")).all()
+    assert [(e.field, e.new_value) for e in edits] == [("value", "0.02")]
