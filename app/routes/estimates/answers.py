@@ -11,7 +11,7 @@ from starlette.responses import RedirectResponse, Response
 
 from app.access.guard import current_access
 from app.access.roles import Role, allow
-from app.routes.deps import SessionDep
+from app.routes.deps import ID_BOUNDS, SessionDep
 from app.routes.rendering import render
 from app.routes.urls import path_for
 from app.services.estimates import answers, views
@@ -62,7 +62,8 @@ def read_estimate_live(request: Request, study_id: int, session: SessionDep,
 @router.post("/estimate", name="submit_estimate")
 @allow(Role.PARTICIPANT)
 def submit_estimate(request: Request, study_id: int, session: SessionDep,
-                    round_id: Annotated[int, Form()] = 0, value_text: TextForm = "") -> Response:
+                    round_id: Annotated[int, Form(**ID_BOUNDS)] = 0,
+                    value_text: TextForm = "") -> Response:
     """Save or change this device's estimate in the open round and read it back."""
     try:
         answers.give_estimate(session=session, study_id=study_id, round_id=round_id,
