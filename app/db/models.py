@@ -150,6 +150,8 @@ class ScenarioBase(SQLModel):
     cause: str = Field(default="", max_length=2000)
     consequence: str = Field(default="", max_length=2000)
     notes: str = Field(default="", max_length=5000)
+    # True for a scenario with no potential to harm people: only environment and asset are rated.
+    people_not_rated: bool = Field(default=False, sa_column_kwargs={"server_default": false()})
     position: int = 0
 
 
@@ -183,6 +185,24 @@ class StepBase(SQLModel):
     typical_key: str | None = Field(default=None, max_length=60)
     # Proof-test calculator inputs (JSON) when the PFD was taken from the calculator.
     proof_test: str | None = Field(default=None, sa_column=Column(Text, nullable=True))
+    # What the method needs per step (issue 9); each is read by app.likelihood.check_base.
+    # An IPL that acts after an added SIF (bund, blast wall) does not reduce the SIF's demand.
+    acts_after_sif: bool = Field(default=False, sa_column_kwargs={"server_default": false()})
+    # A conditional modifier's kind (types.ModifierKind) and its receptors, comma-separated
+    # ("people,environment"); None means the default of its kind.
+    modifier_kind: str | None = Field(default=None, max_length=30)
+    receptors: str | None = Field(default=None, max_length=60)
+    # An initiating event's kind of failure (check_base.CauseType).
+    cause_type: str | None = Field(default=None, max_length=30)
+    final_element_tag: str = Field(default="", max_length=80,
+                                   sa_column_kwargs={"server_default": ""})
+    alarm_on_bpcs: bool | None = Field(default=None)
+    crew: str = Field(default="", max_length=80, sa_column_kwargs={"server_default": ""})
+    # A per-task value (operator error per opportunity) and how many tasks a year.
+    per_opportunity_probability: float | None = Field(default=None, gt=0, le=1)
+    opportunities_per_year: float | None = Field(default=None, gt=0)
+    time_available_minutes: float | None = Field(default=None, ge=0)
+    time_to_detect_and_act_minutes: float | None = Field(default=None, ge=0)
     position: int = 0
 
 

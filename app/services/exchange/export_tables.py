@@ -13,8 +13,9 @@ from dataclasses import dataclass
 from datetime import UTC, date, datetime
 from typing import Any
 
-from app.likelihood.types import DemandMode, StepKind
+from app.likelihood.types import DemandMode, Receptor, ScenarioResult, StepKind
 from app.services.exchange.study_file import scenario_ref
+from app.services.study.results import Assessment
 from app.services.study.tree import DeviationBranch, NodeBranch, ScenarioBranch, StudyTree
 
 Cell = str | float | int | date | datetime | None
@@ -56,6 +57,23 @@ def spreadsheet_text(text: str) -> str:
     return "'" + text if text.startswith(FORMULA_STARTS) else text
 
 
+# Issue 9: the demand on an added SIF, each receptor's line, and the figures with the credits
+# the IPL checks flag withdrawn (PFD 1). Appended after the older columns.
+RECEPTOR_COLUMNS = tuple(
+    column
+    for receptor in Receptor
+    for column in (Column(f"{receptor.value.capitalize()}: mitigated (/yr)", SCIENTIFIC),
+                   Column(f"{receptor.value.capitalize()}: tolerable (/yr)", SCIENTIFIC),
+                   Column(f"{receptor.value.capitalize()}: ratio", SCIENTIFIC),
+                   Column(f"{receptor.value.capitalize()}: SIL target"))
+)
+METHOD_COLUMNS = (
+    Column("Demand rate on an added SIF (/yr)", SCIENTIFIC), Column("Demand formula"),
+    Column("Governing receptor"), *RECEPTOR_COLUMNS, Column("Flagged credits"),
+    Column("Withdrawn: mitigated (/yr)", SCIENTIFIC), Column("Withdrawn: ratio", SCIENTIFIC),
+    Column("Withdrawn: SIL target"), Column("Withdrawn: status"),
+)  # fmt: skip
+
 SCENARIO_COLUMNS = (
     Column("Scenario"), Column("Node"), Column("Deviation"), Column("Cause"),
     Column("Consequence"), Column("Governing severity"),
@@ -66,6 +84,7 @@ SCENARIO_COLUMNS = (
     Column("Ratio mitigated / tolerable", SCIENTIFIC),
     Column("Gap (orders of magnitude)", SIGNED), Column("Required RRF", RRF),
     Column("SIL target"), Column("Demand mode"), Column("Status"),
+    *METHOD_COLUMNS,
 )  # fmt: skip
 
 
@@ -111,16 +130,38 @@ def _scenario_row(
         initiating.description if initiating else "",
         initiating.value if initiating else None,
     ]
-    if result is None:
+    if result is None or outcome.assessment is None:
         return [*head, None, None, len(credited), None, None, None, None, None, "", "",
-                f"not computed: {outcome.error}"]
+                f"not computed: {outcome.error}", *[None] * len(METHOD_COLUMNS)]
     target = result.sil_target
     return [
         *head, result.enabling_product, result.modifier_product, len(credited),
         result.ipl_product, result.mitigated_frequency, result.ratio, result.gap_orders,
         result.required_rrf, target.label, DEMAND_LABELS[target.demand_mode],
-        "meets target" if result.meets_target else "short of target",
+        _status(result), *_method_cells(outcome.assessment),
     ]
+
+
+def _status(result: ScenarioResult) -> str:
+    return "meets target" if result.meets_target else "short of target"
+
+
+def _method_cells(assessment: Assessment) -> list[Cell]:
+    """Demand, governing receptor, each receptor's line, then the withdrawn figures."""
+    figures = assessment.as_credited
+    demand = figures.result.demand
+    lines = {line.receptor: line for line in figures.receptors.lines}
+    cells: list[Cell] = [demand.demand_rate_per_year if demand else None,
+                         demand.formula if demand else "", figures.governing.receptor.value]
+    for receptor in Receptor:
+        line = lines.get(receptor)
+        cells += ([line.mitigated_frequency, line.tolerable_frequency, line.ratio,
+                   line.demand.sil_target.label] if line else [None, None, None, "not rated"])
+    withdrawn = assessment.withdrawn
+    if withdrawn is None:
+        return [*cells, "", None, None, "", ""]
+    return [*cells, "; ".join(assessment.withdrawn_labels), withdrawn.result.mitigated_frequency,
+            withdrawn.result.ratio, withdrawn.result.sil_target.label, _status(withdrawn.result)]
 
 
 STEP_COLUMNS = (

@@ -133,7 +133,8 @@ def scenario_view(item: ScenarioBranch, number: str, recommendations: tuple[Reco
     return ScenarioView(
         item=item, number=number, steps=_step_rows(item.steps),
         ladder=build_ladder(result) if result is not None else None,
-        warnings=tuple(scenario_warnings(item)),
+        warnings=(item.outcome.assessment.warnings if item.outcome.assessment
+                  else tuple(scenario_warnings(item))),
         recommendations=recommendations,
         delete_question=delete_question("scenario", label, counts), fallback=fallback,
     )

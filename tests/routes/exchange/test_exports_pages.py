@@ -42,7 +42,7 @@ def test_the_export_page_offers_every_format_with_its_command(
     ]
     for fmt in ("xlsx", "csv", "json", "pdf"):
         assert f'href="http://testserver/studies/{study_id}/export.{fmt}"' in page.text
-    assert 'href="http://testserver/schema/study-v1.json"' in page.text
+    assert 'href="http://testserver/schema/study-v2.json"' in page.text
 
 
 @pytest.mark.parametrize(("fmt", "media_type", "magic"), [
@@ -91,7 +91,7 @@ def test_an_unknown_study_has_no_exports(client: TestClient, session: Session, p
 
 
 def test_the_schema_document_is_served(client: TestClient, session: Session) -> None:
-    response = client.get("/schema/study-v1.json")
+    response = client.get("/schema/study-v2.json")
     assert response.status_code == 200
     assert response.headers["content-type"] == "application/schema+json"
     assert response.json() == study_json_schema()
