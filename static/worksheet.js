@@ -1,5 +1,7 @@
 // Tallyroom worksheet: what htmx attributes cannot say on their own.
-// - a sequence number per value field, so a reply older than the newest text is never shown;
+// - a sequence number per value field, so a reply older than the newest text is never shown
+//   (the server keeps the same order in the database: services/study/conflicts.py);
+// - "keep mine" / "take theirs" put the chosen value in the field after a conflict;
 // - keyboard: Enter to the next field (or a new row), Escape to cancel, Alt+arrows to move,
 //   Alt+Delete to delete (asks first), Alt+Z to undo, Alt+N to add an IPL, Alt+R for an estimate round, ? for help;
 // - tell the server which scenario the scribe is on, for the room view.
@@ -43,6 +45,17 @@
     if (answered && Number(answered) < Number(field.dataset.seq || "0")) return;
     if (event.detail.xhr.status === 422) field.setAttribute("aria-invalid", "true");
     else if (event.detail.xhr.status === 200) field.removeAttribute("aria-invalid");
+  });
+
+  // "Keep mine" / "Take theirs" after a conflict (409): the field shows the chosen value; the
+  // button's form saves (keep) or only logs (take) the choice.
+  document.addEventListener("click", function (event) {
+    const button = event.target.closest && event.target.closest("[data-resolve]");
+    if (!button) return;
+    const field = document.getElementById(button.dataset.for);
+    if (!field) return;
+    field.value = button.dataset.value;
+    field.dataset.before = field.value;
   });
 
   // --- focus: remember the text on entry (for Escape) and follow the scenario (for the room)

@@ -318,7 +318,7 @@ class Revision(SQLModel, table=True):
 
 
 class DeletedItem(SQLModel, table=True):
-    """What a delete removed, kept so the last delete can be undone."""
+    """What a delete removed, kept so its author can undo it (newest first, per person)."""
 
     __tablename__ = "deleted_item"
     id: int | None = Field(default=None, primary_key=True)
@@ -328,6 +328,29 @@ class DeletedItem(SQLModel, table=True):
     entity: str = Field(max_length=40)
     label: str = Field(default="", max_length=300)
     payload: str = Field(sa_column=Column(Text, nullable=False))
+    # Why an undo could not bring it back (empty: it can be tried); such an item no longer
+    # stands in the way of its author's older deletes.
+    blocked_reason: str = Field(default="", max_length=500,
+                                sa_column_kwargs={"server_default": ""})
+
+
+class FieldEdit(SQLModel, table=True):
+    """The newest keystroke sequence number one page has sent for one field, and its text.
+
+    Compared and set in the same transaction as the value (`services/study/conflicts.py`), so
+    an older keystroke never overwrites a newer one, whichever worker or thread serves it.
+    `written` is the text this page last saved in the field: a save that finds the field
+    holding it is building on its own edit, not on someone else's.
+    """
+
+    __tablename__ = "field_edit"
+    study_id: int = _study_fk()
+    entity: str = Field(max_length=40, primary_key=True)
+    row_id: int = Field(primary_key=True)
+    field: str = Field(max_length=60, primary_key=True)
+    client: str = Field(max_length=64, primary_key=True)
+    seq: int = 0
+    written: str | None = Field(default=None, sa_column=Column(Text, nullable=True))
 
 
 class RoundState(StrEnum):

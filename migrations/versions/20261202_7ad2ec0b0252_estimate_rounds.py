@@ -6,7 +6,7 @@ person's own device or by the scribe) and round_dissent. All cascade with their 
 round with its step. New tables only: nothing existing is rebuilt.
 
 Revision ID: 7ad2ec0b0252
-Revises: 9a3e5c71d2f4
+Revises: e34263c242e3
 Create Date: 2026-12-02 07:03:19.508063
 """
 from collections.abc import Sequence
@@ -16,7 +16,7 @@ import sqlmodel
 from alembic import op
 
 revision: str = '7ad2ec0b0252'
-down_revision: str | None = '9a3e5c71d2f4'
+down_revision: str | None = 'e34263c242e3'
 branch_labels: str | Sequence[str] | None = None
 depends_on: str | Sequence[str] | None = None
 

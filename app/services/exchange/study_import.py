@@ -232,6 +232,8 @@ def _import_history(
             **entry.model_dump(exclude={"scenario"}),
         ))
     for revision in data.revisions:
-        snapshot = json.dumps(revision.snapshot.model_dump(mode="json"))
+        # A snapshot without cautions (every one frozen in the app) is stored without them.
+        unset = None if "cautions" in revision.snapshot.model_fields_set else {"cautions"}
+        snapshot = json.dumps(revision.snapshot.model_dump(mode="json", exclude=unset))
         session.add(Revision(study_id=study_id, snapshot=snapshot,
                              **revision.model_dump(exclude={"snapshot"})))
