@@ -3,7 +3,7 @@
 //   (the server keeps the same order in the database: services/study/conflicts.py);
 // - "keep mine" / "take theirs" put the chosen value in the field after a conflict;
 // - keyboard: Enter to the next field (or a new row), Escape to cancel, Alt+arrows to move,
-//   Alt+Delete to delete (asks first), Alt+Z to undo, Alt+N to add an IPL, ? for help;
+//   Alt+Delete to delete (asks first), Alt+Z to undo, Alt+N to add an IPL, Alt+R for an estimate round, ? for help;
 // - tell the server which scenario the scribe is on, for the room view.
 (function () {
   "use strict";
@@ -157,6 +157,15 @@
     link.click();
   }
 
+  function onOpenRound(event, field) {
+    // Alt+R in a value field: open an estimate round on that value (the row's "ask the room").
+    const cell = field.closest(".value-cell");
+    const link = cell && cell.querySelector("[data-open-round]");
+    if (!link) return;
+    event.preventDefault();
+    window.location.href = link.href;
+  }
+
   function onAddIpl(event, field) {
     const scenario = field.closest("[data-scenario]");
     const form = scenario && scenario.querySelector('[data-add="ipl"]');
@@ -185,6 +194,7 @@
     else if (event.altKey && event.key === "ArrowDown") onMove(event, target, 1);
     else if (event.altKey && (event.key === "Delete" || event.key === "Backspace")) onDelete(event, target);
     else if (event.altKey && event.key.toLowerCase() === "n") onAddIpl(event, target);
+    else if (event.altKey && event.key.toLowerCase() === "r") onOpenRound(event, target);
     else if (event.key === "Enter" && !event.altKey && !event.shiftKey) onEnter(event, target);
     else if (event.key === "Escape") onEscape(event, target);
   });

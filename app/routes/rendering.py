@@ -121,6 +121,8 @@ def render(
 STUDY_NAV = [
     ("Overview", "read_study"),
     ("Room view", "read_room"),
+    ("Estimate rounds", "read_rounds"),
+    ("Word scale", "read_word_scale"),
     ("Risk criteria", "read_criteria"),
     ("Risk picture", "read_risk_picture"),
     ("SIF proof test", "read_proof_test"),

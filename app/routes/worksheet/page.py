@@ -33,7 +33,8 @@ def render_worksheet(request: Request, session: SessionDep, study_id: int, node_
                                                   node_id=node_id, author=author_name(request))
     links = {"step_details": route_exists(request, "read_step_details", study_id=0, step_id=0),
              "proof_test": route_exists(request, "read_proof_test", study_id=0),
-             "actions": route_exists(request, "read_actions", study_id=0)}
+             "actions": route_exists(request, "read_actions", study_id=0),
+             "estimate_round": route_exists(request, "read_new_round", study_id=0, step_id=0)}
     context = {"page": page, "study": page.study, "focus_id": "", "notice": "", "typed": {},
                "links": links, **extra}
     return render(request, "worksheet/page.html", context, block=block,
