@@ -189,6 +189,13 @@ def node_links(session: Session, study_id: int) -> tuple[NodeLink, ...]:
                  for row in fetch_node_links(session, study_id))
 
 
+def picked_node_id(*, session: Session, study_id: int, picked: str) -> int | None:
+    """The node chosen in the node picker when it belongs to the study, else the first node."""
+    ids = [link.id for link in node_links(session, study_id)] if picked else []
+    chosen = int(picked) if picked.isdigit() else None
+    return chosen if chosen in ids else first_node_id(session=session, study_id=study_id)
+
+
 def first_node_id(*, session: Session, study_id: int) -> int | None:
     """The study's first node, where the worksheet opens (None when it has none)."""
     get_study(session, study_id)
