@@ -25,6 +25,22 @@
     event.detail.parameters.seq = nextSeq(field);
   });
 
+  // A scenario's figures carry the state they were computed from (data-state grows with every
+  // save). The target was found when the request left; another reply may have replaced it
+  // since, and a swap into that detached element would be lost, so aim at the one now on the
+  // page; and drop a reply computed from an older state than the one shown, so a slow reply
+  // never brings back old figures. (htmx reads the target before this event and fires
+  // beforeSwap on the old one, so this is the event that sees every such reply.)
+  document.addEventListener("htmx:beforeOnLoad", function (event) {
+    const target = event.detail.target;
+    if (!target || !target.matches || !target.matches(".scenario-results[data-state]")) return;
+    const live = target.isConnected ? target : document.getElementById(target.id);
+    if (!live) return;
+    event.detail.target = live;
+    const found = /data-state="(\d+)"/.exec(event.detail.xhr.response || "");
+    if (found && Number(found[1]) < Number(live.dataset.state)) event.preventDefault();
+  });
+
   // A reply carries the sequence number it answers; drop it if the field has moved on.
   document.addEventListener("htmx:beforeSwap", function (event) {
     const field = event.detail.requestConfig && event.detail.requestConfig.elt;

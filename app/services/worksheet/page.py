@@ -57,6 +57,14 @@ class ScenarioView:
     delete_question: str
     fallback: str = ""
 
+    @property
+    def state(self) -> int:
+        """How far the saved scenario has come: every save bumps one of these versions by one,
+        so of two replies the one computed from more saves has the larger number. The page
+        keeps the figures with the largest (replies can arrive out of order)."""
+        rows = [self.item.scenario, *self.item.steps, *self.item.safeguards]
+        return sum(row.version for row in rows)
+
 
 @dataclass(frozen=True)
 class DeviationView:
