@@ -1,7 +1,9 @@
 // Tallyroom worksheet: what htmx attributes cannot say on their own.
 // - a sequence number per value field, so a reply older than the newest text is never shown;
-// - keyboard: Enter to the next field (or a new row), Escape to cancel, Alt+arrows to move,
-//   Alt+Delete to delete (asks first), Alt+Z to undo, Alt+N to add an IPL, ? for help;
+// - keyboard: Enter to the next field (after a kind's last row: its add button, which adds
+//   only with its own Enter), Escape to cancel, Alt+arrows to move, Alt+Delete to delete
+//   (asks first), Alt+Z to undo, Alt+N to add an IPL, ? for help; Alt shortcuts match the
+//   physical key (event.code), so Option on macOS, which changes the character, works;
 // - tell the server which scenario the scribe is on, for the room view.
 (function () {
   "use strict";
@@ -115,22 +117,28 @@
     const isLast = fields.indexOf(field) === fields.length - 1;
     const addNext = row && Array.from(row.querySelectorAll("[data-add-next]"))
       .find(function (form) { return rowOf(form) === row; });
-    if (!(isLast && addNext)) {
+    const nextRow = row && row.nextElementSibling;
+    if (!(isLast && addNext) || (nextRow && nextRow.matches("[data-row]"))) {
       focusNextField(field);  // leaving the field saves it (its change event)
       return;
     }
-    const unsaved = field.type !== "checkbox" && !field.matches("[data-value-field]") &&
-      field.value !== field.dataset.before;
-    if (!unsaved) {
-      addNext.requestSubmit();
-      return;
-    }
-    // Save the text first, then add the row, so the new worksheet shows what was typed.
-    field.addEventListener("htmx:afterRequest", function () { addNext.requestSubmit(); },
-      { once: true });
-    field.dataset.before = field.value;
-    field.dispatchEvent(new Event("change", { bubbles: true }));
+    // The last field of the last row: never add a row from a key meant for the text. Focus
+    // goes to the labelled add button of this kind, which adds only with its own Enter.
+    const scenario = field.closest("[data-scenario]");
+    const add = scenario && scenario.querySelector(
+      '[data-add="' + row.dataset.kind + '"] button');
+    if (add) add.focus();
   }
+
+  // An add button takes Enter pressed on it, not Space and not a held-down Enter: a space or
+  // a repeated Enter typed just after leaving a field never adds a blank row.
+  function guardAddButton(event) {
+    const button = event.target;
+    if (!button.matches || !button.matches("[data-add] button, [data-add-next] button")) return;
+    if (event.key === " " || (event.key === "Enter" && event.repeat)) event.preventDefault();
+  }
+  document.addEventListener("keydown", guardAddButton, true);
+  document.addEventListener("keyup", guardAddButton, true);
 
   function onEscape(event, field) {
     if (field.dataset.before === undefined || field.value === field.dataset.before) return;
@@ -171,7 +179,7 @@
   document.addEventListener("keydown", function (event) {
     const target = event.target;
     const inField = target.matches && target.matches("[data-field]");
-    if (event.altKey && event.key.toLowerCase() === "z") {
+    if (event.altKey && event.code === "KeyZ") {
       const undo = document.getElementById("undo-button");
       if (undo) { event.preventDefault(); undo.click(); }
       return;
@@ -187,7 +195,7 @@
     if (event.altKey && event.key === "ArrowUp") onMove(event, target, -1);
     else if (event.altKey && event.key === "ArrowDown") onMove(event, target, 1);
     else if (event.altKey && (event.key === "Delete" || event.key === "Backspace")) onDelete(event, target);
-    else if (event.altKey && event.key.toLowerCase() === "n") onAddIpl(event, target);
+    else if (event.altKey && event.code === "KeyN") onAddIpl(event, target);
     else if (event.key === "Enter" && !event.altKey && !event.shiftKey) onEnter(event, target);
     else if (event.key === "Escape") onEscape(event, target);
   });
