@@ -150,6 +150,31 @@ def cmd_import(args: argparse.Namespace) -> int:
     return 0
 
 
+def cmd_delete_study(args: argparse.Namespace) -> int:
+    """Delete one study and everything it holds, only when --yes confirms it."""
+    from app.services.exchange.exports import find_study
+    from app.services.study.listing import delete_study, list_studies
+    from app.services.study.tree import NotFoundError
+
+    with Session(get_db_engine()) as session:
+        try:
+            study = find_study(session=session, key=args.study)
+        except NotFoundError as err:
+            print(f"tallyroom delete-study: {err}", file=sys.stderr)
+            return 2
+        listing = next(row for row in list_studies(session=session) if row.study.id == study.id)
+        what = (f"study {study.id} '{study.title}' ({listing.node_count} nodes, "
+                f"{listing.scenario_count} scenarios, its actions, attendance, change log and "
+                f"revisions)")
+        if not args.yes:
+            print(f"tallyroom delete-study: would delete {what}; nothing deleted. Export it "
+                  f"first if you may need it, then repeat with --yes.", file=sys.stderr)
+            return 2
+        delete_study(session=session, study_id=study.id or 0)
+    print(f"deleted {what}")
+    return 0
+
+
 def _add_file_commands(sub: argparse._SubParsersAction) -> None:  # type: ignore[type-arg]
     export = sub.add_parser("export", help="write a study to an .xlsx, .csv, .json or .pdf file")
     export.add_argument("study", help="the study's id or its exact title")
@@ -157,6 +182,10 @@ def _add_file_commands(sub: argparse._SubParsersAction) -> None:  # type: ignore
     export.add_argument("--out", help="file to write (default: the download's file name, here)")
     importer = sub.add_parser("import", help="create a new study from a study file (.json)")
     importer.add_argument("file", help="a Tallyroom study file, schema version 1")
+    deleter = sub.add_parser("delete-study", help="delete a study and everything it holds")
+    deleter.add_argument("study", help="the study's id or its exact title")
+    deleter.add_argument("--yes", action="store_true", help="confirm: without it nothing is "
+                         "deleted")
 
 
 def build_parser() -> argparse.ArgumentParser:
@@ -183,7 +212,7 @@ PARSER_EXTENSIONS: list[Callable[[argparse._SubParsersAction], None]] = [  # typ
 ]
 COMMANDS.update({"migrate": cmd_migrate, "load-demo": cmd_load_demo, "serve": cmd_serve,
                  "passphrase": cmd_passphrase, "export": cmd_export, "import": cmd_import,
-                 **DATA_COMMANDS})
+                 "delete-study": cmd_delete_study, **DATA_COMMANDS})
 
 
 def main(argv: Sequence[str] | None = None) -> int:

@@ -3,7 +3,7 @@
 import importlib
 import pkgutil
 
-from fastapi import APIRouter, FastAPI, Request
+from fastapi import APIRouter, Depends, FastAPI, Request
 from fastapi.staticfiles import StaticFiles
 from starlette.exceptions import HTTPException as StarletteHTTPException
 from starlette.responses import Response
@@ -12,6 +12,7 @@ import app.routes
 from app.access.setup import install_access
 from app.db.tracking import install_tracking
 from app.lifecycle import server_lifespan
+from app.routes.deps import check_path_ids
 from app.routes.rendering import render
 from app.services.study.tree import NotFoundError
 from app.settings import PROJECT_ROOT, Settings, get_settings
@@ -35,6 +36,8 @@ def create_app(settings: Settings | None = None) -> FastAPI:
     application = FastAPI(title="Tallyroom", docs_url=None, redoc_url=None,
                           lifespan=server_lifespan)
     install_access(application, settings or get_settings())
+    # After the access checks: who may ask is settled before the path's ids are read.
+    application.router.dependencies.append(Depends(check_path_ids))
     application.mount("/static", StaticFiles(directory=PROJECT_ROOT / "static"), name="static")
     for router in discover_routers():
         application.include_router(router)

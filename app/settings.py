@@ -19,6 +19,12 @@ class Settings(BaseSettings):
     host: str = "127.0.0.1"
     port: int = 8000
     room_poll_seconds: float = 0.5
+    # Study-file limits (README "Importing a study file"): a node's worksheet shows every one of
+    # its scenarios at once (measured: 500 demo-like scenarios make a 20 MB page in ~2 s and
+    # ~100 MB of server memory; 2,000 made 82 MB, 6 s, ~360 MB), so a node is bounded; the
+    # whole study too, at the largest study `make bench` measures (50,000 scenarios).
+    max_import_scenarios: int = 50_000
+    max_import_scenarios_per_node: int = 500
     # Serve the meeting-room network: sign-in with the passphrase or the day's join code.
     lan: bool = False
     # Other names this server answers to (a DNS name for the LAN address; the test client).

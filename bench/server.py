@@ -76,9 +76,12 @@ with Session(get_db_engine()) as session:
 
 
 def import_without_size_limit(database: Path, study_file: Path, log: Path) -> Imported:
-    """Import through the service the command uses, skipping only its file-size check."""
+    """Import through the service the command uses, skipping its file-size check and lifting
+    the scenario limits (settings) for this one process."""
+    unlimited = {"TALLYROOM_MAX_IMPORT_SCENARIOS": "1000000",
+                 "TALLYROOM_MAX_IMPORT_SCENARIOS_PER_NODE": "1000000"}
     return run_measured([sys.executable, "-c", UNLIMITED_IMPORT, str(study_file)],
-                        database_env(database), log)
+                        {**database_env(database), **unlimited}, log)
 
 
 def free_port() -> int:

@@ -4,7 +4,14 @@ Test modules import helpers from here (or fixtures from conftest), never from ea
 """
 
 
+import threading
+from collections.abc import Callable
 from html.parser import HTMLParser
+
+from sqlalchemy import Engine
+from sqlmodel import Session
+
+from app.db.tracking import AUTHOR_KEY
 
 TEST_AUTHOR = "Test Scribe"
 
@@ -128,3 +135,28 @@ def table_rows(html: str, table_id: str) -> list[list[str]]:
     parser = TableRows(table_id)
     parser.feed(html)
     return parser.rows
+
+
+def run_at_once(db_engine: Engine, move: Callable[[Session, int, int], object],
+                threads: int = 4, moves: int = 25) -> list[str]:
+    """`threads` workers each make `moves` calls of move(session, worker, i) in their own
+    sessions, all starting together; returns the errors raised (for concurrency tests)."""
+    errors: list[str] = []
+    start = threading.Barrier(threads)
+
+    def worker(number: int) -> None:
+        start.wait()
+        for i in range(moves):
+            try:
+                with Session(db_engine) as session:
+                    session.info[AUTHOR_KEY] = f"thread {number}"
+                    move(session, number, i)
+            except Exception as err:
+                errors.append(f"{type(err).__name__}: {err}")
+
+    workers = [threading.Thread(target=worker, args=(n,)) for n in range(threads)]
+    for thread in workers:
+        thread.start()
+    for thread in workers:
+        thread.join()
+    return errors

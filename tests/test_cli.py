@@ -4,7 +4,7 @@ import json
 from pathlib import Path
 
 import pytest
-from sqlmodel import Session
+from sqlmodel import Session, select
 
 from app.cli import main
 from app.db.models import Study
@@ -121,3 +121,38 @@ def test_import_of_a_missing_file_exits_2(
         f"tallyroom import: cannot read {missing}: No such file or directory\n"
     )
     assert study_count(session) == 0
+
+
+def test_delete_study_without_yes_deletes_nothing_and_says_what_it_would_delete(
+    session: Session, study: Study, capsys: pytest.CaptureFixture[str]
+) -> None:
+    assert main(["delete-study", str(study.id)]) == 2
+    said = capsys.readouterr().err
+    assert f"would delete study {study.id} 'Command line check (invented)'" in said
+    assert "1 scenarios" in said and "repeat with --yes" in said
+    assert study_count(session) == 1
+
+
+def test_delete_study_with_yes_removes_the_study_and_everything_it_holds(
+    session: Session, demo_study: Study, study: Study, capsys: pytest.CaptureFixture[str]
+) -> None:
+    from app.db.models import ChangeLogEntry, Revision, Scenario, Step
+    from app.services.record.revisions import freeze_revision
+
+    doomed, kept = demo_study.id, study.id
+    freeze_revision(session=session, study_id=doomed or 0, frozen_by="T",
+                    values={"label": "A", "note": "", "signed_off_by": "T"})
+    assert main(["delete-study", demo_study.title, "--yes"]) == 0
+    assert capsys.readouterr().out.startswith(f"deleted study {doomed} ")
+    session.expunge_all()
+    assert session.get(Study, doomed) is None and study_count(session) == 1
+    for model in (Scenario, Step, ChangeLogEntry, Revision):
+        rows = session.exec(select(model).where(model.study_id == doomed)).all()
+        assert rows == [], model.__name__
+    assert session.exec(select(Scenario).where(Scenario.study_id == kept)).all() != []
+
+
+def test_delete_study_of_an_unknown_study_is_refused(capsys: pytest.CaptureFixture[str],
+                                                     session: Session) -> None:
+    assert main(["delete-study", "4711", "--yes"]) == 2
+    assert "no study with id or exact title '4711'" in capsys.readouterr().err

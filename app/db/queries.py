@@ -4,6 +4,7 @@ from typing import Any, TypeVar
 
 from sqlalchemy import Row as ResultRow
 from sqlalchemy import select as select_columns
+from sqlalchemy import update
 from sqlalchemy.sql.selectable import GenerativeSelect
 from sqlmodel import Session, col, func, select
 from sqlmodel.sql.expression import SelectOfScalar
@@ -169,3 +170,15 @@ def studies_with_counts() -> Any:
 def fetch_studies_with_counts(session: Session) -> list[tuple[Study, int, int]]:
     """Run studies_with_counts."""
     return [tuple(row) for row in session.exec(studies_with_counts()).all()]
+
+
+def lock_study_order(session: Session, study_id: int) -> None:
+    """Make this transaction the study's only reorderer until it commits.
+
+    A reorder reads the siblings' positions and writes new ones; two at once would each write
+    from a stale read and leave tied positions. A no-op UPDATE of the study row as the
+    transaction's first statement takes the row lock on PostgreSQL and the write lock on
+    SQLite, so the next reorder waits and then reads the committed order.
+    """
+    table = Study.__table__  # type: ignore[attr-defined]
+    session.execute(update(table).where(table.c.id == study_id).values(id=table.c.id))

@@ -1,12 +1,14 @@
 """Jinja2 with named fragment blocks, and the number filters every template uses."""
 
 import math
+import re
 from collections.abc import Mapping
 from typing import Any
 
 from fastapi import Request
 from jinja2 import pass_context
 from jinja2_fragments.fastapi import Jinja2Blocks
+from markupsafe import Markup
 from starlette.responses import Response
 from starlette.routing import NoMatchFound
 
@@ -25,7 +27,36 @@ CAUTIONS = (
     "IEC 61511 safety lifecycle and licensed professional judgement."
 )
 
+# Explicit bidirectional formatting characters: embeddings and overrides (closed by PDF,
+# U+202C) and isolates (closed by PDI, U+2069).
+_BIDI_CONTROLS = re.compile("[\u202a-\u202e\u2066-\u2069]")
+_EMBEDDINGS, _ISOLATES = "\u202a\u202b\u202d\u202e", "\u2066\u2067\u2068"
+FIRST_STRONG_ISOLATE, POP_ISOLATE, POP_EMBEDDING = "\u2068", "\u2069", "\u202c"
+
+
+def isolate_bidi(value: Any) -> Any:
+    """Text holding bidirectional controls, closed and isolated so it cannot reorder its
+    neighbours on the page (every `{{ }}` output passes here; idempotent, so text saved back
+    from a form does not grow)."""
+    if not isinstance(value, str) or isinstance(value, Markup) or not _BIDI_CONTROLS.search(
+            value):
+        return value
+    open_marks: list[str] = []
+    for char in value:
+        if char in _EMBEDDINGS or char in _ISOLATES:
+            open_marks.append(char)
+        elif char in (POP_EMBEDDING, POP_ISOLATE) and open_marks:
+            open_marks.pop()
+    closed = value + "".join(POP_ISOLATE if mark in _ISOLATES else POP_EMBEDDING
+                             for mark in reversed(open_marks))
+    if closed == value and value.startswith(FIRST_STRONG_ISOLATE) and value.endswith(
+            POP_ISOLATE):
+        return value
+    return FIRST_STRONG_ISOLATE + closed + POP_ISOLATE
+
+
 templates = Jinja2Blocks(directory=str(PROJECT_ROOT / "templates"))
+templates.env.finalize = isolate_bidi
 
 
 def sci(value: float | None) -> str:

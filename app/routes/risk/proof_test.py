@@ -1,9 +1,12 @@
 """The proof-test calculator for a safety instrumented function, attachable to an IPL step."""
 
-from fastapi import APIRouter, Request
+from typing import Annotated
+
+from fastapi import APIRouter, Query, Request
 from starlette.responses import RedirectResponse, Response
 
-from app.routes.deps import SessionDep
+from app.db.ids import read_row_id
+from app.routes.deps import ID_BOUNDS, SessionDep
 from app.routes.rendering import is_htmx, render
 from app.services.risk import proof_test as service
 from app.services.risk.proof_test_form import ProofTestForm
@@ -12,15 +15,10 @@ router = APIRouter(prefix="/studies/{study_id}")
 PAGE = "risk/proof_test/calculator.html"
 
 
-def _step_id(raw: object) -> int | None:
-    text = str(raw or "").strip()
-    return int(text) if text.isdigit() else None
-
-
 @router.get("/proof-test", name="read_proof_test")
 def read_proof_test(
     request: Request, study_id: int, session: SessionDep,
-    step_id: int | None = None, applied: bool = False,
+    step_id: Annotated[int | None, Query(**ID_BOUNDS)] = None, applied: bool = False,
 ) -> Response:
     """The calculator, with an attached IPL step's stored inputs and target when given."""
     page = service.read_calculator(
@@ -35,7 +33,7 @@ async def calculate_proof_test(request: Request, study_id: int, session: Session
     data = await request.form()
     page = service.calculate_page(session=session, study_id=study_id,
                                   form=ProofTestForm.from_mapping(data),
-                                  step_id=_step_id(data.get("step_id")))
+                                  step_id=read_row_id(data.get("step_id")))
     blocks = ["result", "field_errors"] if is_htmx(request) else None
     return render(request, PAGE, {"page": page}, blocks=blocks,
                   status_code=422 if page.errors else 200)
@@ -46,7 +44,7 @@ async def apply_proof_test(request: Request, study_id: int, session: SessionDep)
     """Use the computed PFDavg for the attached IPL step, its inputs kept as the basis."""
     data = await request.form()
     page = service.apply_to_step(session=session, study_id=study_id,
-                                 step_id=_step_id(data.get("step_id")) or 0,
+                                 step_id=read_row_id(data.get("step_id")) or 0,
                                  form=ProofTestForm.from_mapping(data))
     if page.errors:
         return render(request, PAGE, {"page": page}, status_code=422)

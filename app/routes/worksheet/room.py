@@ -6,7 +6,7 @@ from fastapi import APIRouter, Form, Request
 from starlette.responses import Response
 
 from app.access.roles import Role, allow
-from app.routes.deps import SessionDep
+from app.routes.deps import ID_BOUNDS, SessionDep
 from app.routes.rendering import render
 from app.services.worksheet import room as room_service
 from app.settings import get_settings
@@ -36,7 +36,7 @@ def read_room_live(request: Request, study_id: int, session: SessionDep,
 
 
 @router.post("/focus", name="update_focus")
-def update_focus(study_id: int, scenario_id: Annotated[int, Form()],
+def update_focus(study_id: int, scenario_id: Annotated[int, Form(**ID_BOUNDS)],
                  session: SessionDep) -> Response:
     """The scribe moved to a scenario: the room view follows (no change-log entry)."""
     room_service.set_focus(session=session, study_id=study_id, scenario_id=scenario_id)

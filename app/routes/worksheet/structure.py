@@ -9,6 +9,7 @@ from typing import Any
 from fastapi import APIRouter, Request
 from starlette.responses import RedirectResponse, Response
 
+from app.db.ids import read_row_id
 from app.routes.deps import AuthorDep, SessionDep
 from app.routes.rendering import is_htmx, render
 from app.routes.urls import empty_worksheet_url, path_for, worksheet_url
@@ -37,7 +38,7 @@ async def read_form(request: Request) -> dict[str, Any]:
 
 def _int(value: Any) -> int | None:  # Any: one raw form value
     text = str(value or "").strip()
-    return int(text) if text.lstrip("-").isdigit() else None
+    return -1 if text == "-1" else read_row_id(text)
 
 
 def _after_change(request: Request, session: SessionDep, study_id: int, node_id: int | None,

@@ -16,6 +16,7 @@ from jinja2 import Environment
 from sqlmodel import Session, col, select
 from sqlmodel.sql.expression import SelectOfScalar
 
+from app.db.ids import read_row_id
 from app.db.models import Study
 from app.services.exchange.export_csv import table_csv
 from app.services.exchange.export_tables import all_tables, scenario_table
@@ -128,7 +129,8 @@ def studies_titled(title: str) -> SelectOfScalar[Study]:
 
 def find_study(*, session: Session, key: str) -> Study:
     """The study with this id, else the one study with exactly this title, else NotFoundError."""
-    if key.strip().isdigit() and (study := session.get(Study, int(key))) is not None:
+    study_id = read_row_id(key)
+    if study_id is not None and (study := session.get(Study, study_id)) is not None:
         return study
     matches = list(session.exec(studies_titled(key)).all())
     if len(matches) == 1:

@@ -25,9 +25,13 @@ from app.db.models import (
 )
 from app.services.exchange.study_schema import FILE_FORMAT, SCHEMA_VERSION, StudyFile
 from app.services.study.tree import get_study
+from app.settings import get_settings
 
 # Any in this module: study-file rows are JSON objects and table rows of several models (the file
 # boundary).
+
+# The format itself nests 18 levels at most (a revision snapshot's proof-test inputs).
+MAX_NESTING = 40
 
 
 class StudyFileError(ValueError):
@@ -35,16 +39,76 @@ class StudyFileError(ValueError):
 
 
 def parse_study_file(raw: str | bytes) -> StudyFile:
-    """Validate a JSON study file, turning every problem into one readable message."""
+    """Validate a JSON study file, turning every problem into one readable message.
+
+    Every check is linear in the file's size; the file is read strictly (no "1" for a number,
+    no "yes" for a boolean), and its size is checked before the rows are validated.
+    """
+    text = _decoded(raw)
     try:
-        data = json.loads(raw)
-    except (json.JSONDecodeError, UnicodeDecodeError) as err:
+        data = json.loads(text)
+    except json.JSONDecodeError as err:
         raise StudyFileError(f"not a JSON file: {err}") from err
+    except RecursionError:
+        data = None  # deeper than the parser goes: said by the nesting rule below
+    if data is None or _nesting(data) > MAX_NESTING:
+        raise StudyFileError(f"the file nests more than {MAX_NESTING} levels deep; a study "
+                             f"file nests far less")
     _check_format_and_version(data)
+    _check_size(data)
     try:
-        return StudyFile.model_validate(data)
+        return StudyFile.model_validate_json(text, strict=True)
     except ValidationError as err:
         raise StudyFileError(_describe_validation(err)) from err
+
+
+def _decoded(raw: str | bytes) -> str:
+    if isinstance(raw, str):
+        return raw
+    try:
+        return raw.decode("utf-8-sig")
+    except UnicodeDecodeError as err:
+        raise StudyFileError(f"not a JSON file: the text is not UTF-8 ({err})") from err
+
+
+def _nesting(data: Any) -> int:
+    """How deep arrays and objects nest (without recursion, so any depth is measured)."""
+    deepest, stack = 0, [(data, 1)]
+    while stack:
+        value, depth = stack.pop()
+        children = value.values() if isinstance(value, dict) else value
+        if isinstance(value, dict | list):
+            deepest = max(deepest, depth)
+            stack.extend((child, depth + 1) for child in children
+                         if isinstance(child, dict | list))
+    return deepest
+
+
+def _items(value: Any, key: str) -> list[Any]:
+    """`value[key]` when it is a list of objects (shape errors are left to validation)."""
+    found = value.get(key) if isinstance(value, dict) else None
+    return [item for item in found if isinstance(item, dict)] if isinstance(found, list) else []
+
+
+def _check_size(data: dict[str, Any]) -> None:
+    """Refuse a study, or any revision snapshot in it, over the scenario limits (settings)."""
+    settings = get_settings()
+    studies = [("the study", data)] + [
+        (f"revision {i}'s snapshot", rev.get("snapshot")) for i, rev in
+        enumerate(_items(data, "revisions"))]
+    for where, study in studies:
+        total = 0
+        for node in _items(study, "nodes"):
+            count = sum(len(_items(d, "scenarios")) for d in _items(node, "deviations"))
+            if count > settings.max_import_scenarios_per_node:
+                limit = settings.max_import_scenarios_per_node
+                raise StudyFileError(
+                    f"{where}: node {node.get('number')!r} has {count:,} scenarios; a node "
+                    f"may have at most {limit:,} (split it into smaller nodes)")
+            total += count
+        if total > settings.max_import_scenarios:
+            raise StudyFileError(f"{where} has {total:,} scenarios; a study file may have at "
+                                 f"most {settings.max_import_scenarios:,}")
 
 
 def _check_format_and_version(data: Any) -> None:

@@ -178,8 +178,9 @@ def _scenario_values(study_id: int, placed: Placed, categories: dict[str, int]
 
 def _step_values(study_id: int, placed: Placed) -> dict[str, Any]:
     scenario_id, position, step = placed
-    # Key order kept as given, so exporting again gives the same file.
-    proof_test = json.dumps(step.proof_test) if step.proof_test else None
+    # Key order as the calculator writes it, so exporting again gives the same file.
+    proof_test = (json.dumps(step.proof_test.model_dump(mode="json"), ensure_ascii=False)
+                  if step.proof_test else None)
     return {"study_id": study_id, "scenario_id": scenario_id, "position": position,
             "proof_test": proof_test, **step.model_dump(exclude={"proof_test"})}
 
@@ -257,5 +258,6 @@ def _import_history(
             **entry.model_dump(exclude={"scenario"}),
         ))
     for revision in data.revisions:
-        session.add(Revision(study_id=study_id, snapshot=json.dumps(revision.snapshot),
+        snapshot = json.dumps(revision.snapshot.model_dump(mode="json"))
+        session.add(Revision(study_id=study_id, snapshot=snapshot,
                              **revision.model_dump(exclude={"snapshot"})))

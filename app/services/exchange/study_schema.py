@@ -4,13 +4,17 @@ Rows refer to each other by `ref` strings unique within one file, never by datab
 so a file imports into any database.
 """
 
+from collections import Counter
 from datetime import date, datetime
 from typing import Any, Final, Literal
 
 from pydantic import BaseModel, ConfigDict, Field, field_validator, model_validator
 
 from app.db.models import ActionStatus, Receptor
-from app.likelihood.types import StepKind
+from app.likelihood.proof_test import Architecture
+from app.likelihood.types import IplType, StepKind
+from app.likelihood.typical import typical_by_key
+from app.services.study.errors import nul_problem
 
 # Any in this module: the proof-test inputs, the snapshot and the JSON Schema are JSON objects
 # (the file boundary).
@@ -21,9 +25,21 @@ SCHEMA_PATH = "/schema/study-v1.json"
 
 
 class FileRow(BaseModel):
-    """Unknown keys are refused so a typo never passes silently."""
+    """Unknown keys are refused so a typo never passes silently; no text may hold NUL.
+
+    Files are validated strictly (`study_file.parse_study_file`): "1" is not a number, "yes" is
+    not a boolean, an enumeration takes only its listed values.
+    """
 
     model_config = ConfigDict(extra="forbid")
+
+    @field_validator("*", mode="after")
+    @classmethod
+    def no_nul_in_text(cls, value: Any) -> Any:
+        """PostgreSQL refuses NUL in text: the file is refused instead, saying where."""
+        if isinstance(value, str) and (problem := nul_problem(value)):
+            raise ValueError(problem)
+        return value
 
 
 class StudyHeader(FileRow):
@@ -47,6 +63,41 @@ class CategoryRow(FileRow):
     receptor: Receptor = Receptor.PEOPLE
 
 
+class ProofTestTyped(FileRow):
+    """The proof-test calculator's inputs as the user typed them (re-shown in the calculator)."""
+
+    architecture: str = Field(default="", max_length=60)
+    lambda_du: str = Field(default="", max_length=60)
+    lambda_dd: str = Field(default="", max_length=60)
+    beta: str = Field(default="", max_length=60)
+    beta_d: str = Field(default="", max_length=60)
+    interval_value: str = Field(default="", max_length=60)
+    interval_unit: str = Field(default="", max_length=60)
+    mttr_hours: str = Field(default="", max_length=60)
+    mrt_hours: str = Field(default="", max_length=60)
+    target_pfd: str = Field(default="", max_length=60)
+
+
+def _rate() -> Any:
+    return Field(ge=0, allow_inf_nan=False)
+
+
+class ProofTestRecord(FileRow):
+    """How an IPL's PFD came from the proof-test calculator (IEC 61508-6 Annex B inputs)."""
+
+    method: str = Field(max_length=200)
+    architecture: Architecture
+    lambda_du: float = _rate()
+    lambda_dd: float = _rate()
+    proof_test_interval_hours: float = Field(gt=0, allow_inf_nan=False)
+    beta: float | None = Field(default=None, ge=0, le=1, allow_inf_nan=False)
+    beta_d: float | None = Field(default=None, ge=0, le=1, allow_inf_nan=False)
+    mttr_hours: float = _rate()
+    mrt_hours: float | None = Field(default=None, ge=0, allow_inf_nan=False)
+    pfd_avg: float = Field(gt=0, allow_inf_nan=False)
+    typed: ProofTestTyped = ProofTestTyped()
+
+
 class StepRow(FileRow):
     """One factor of a scenario: the initiating event (per year) or a probability / PFD."""
 
@@ -56,18 +107,29 @@ class StepRow(FileRow):
     value_text: str = Field(default="", max_length=100)
     basis: str = Field(default="", max_length=2000)
     credited: bool = True
-    ipl_type: str | None = Field(default=None, max_length=30)
+    ipl_type: IplType | None = None
     system_tag: str = Field(default="", max_length=80)
     response_time_minutes: float | None = Field(default=None, ge=0, allow_inf_nan=False)
     sil_claimed: int | None = Field(default=None, ge=1, le=4)
     typical_key: str | None = Field(default=None, max_length=60)
-    proof_test: dict[str, Any] | None = None
+    proof_test: ProofTestRecord | None = None
 
     @model_validator(mode="after")
     def probability_at_most_one(self) -> "StepRow":
         """Probabilities and PFDs lie in (0, 1]; only the initiating event is a frequency."""
         if self.kind != StepKind.INITIATING_EVENT and self.value > 1:
             raise ValueError(f"a probability must be at most 1 (got {self.value})")
+        return self
+
+    @model_validator(mode="after")
+    def typical_value_of_this_kind(self) -> "StepRow":
+        """A typical-value key names a row of the published tables for this kind of step."""
+        if self.typical_key is None:
+            return self
+        row = typical_by_key(self.typical_key)
+        if row is None or str(row.kind) != str(self.kind):
+            raise ValueError(f"typical_key '{self.typical_key}' is not a typical value for a "
+                             f"step of kind {self.kind}")
         return self
 
 
@@ -175,22 +237,8 @@ class ChangeLogRow(FileRow):
     scenario: str | None = Field(default=None, description="ref of the scenario, if any")
 
 
-class RevisionRow(FileRow):
-    """A frozen revision with its snapshot (a study file without history)."""
-
-    label: str = Field(min_length=1, max_length=60)
-    note: str = Field(default="", max_length=2000)
-    frozen_at: datetime
-    frozen_by: str = Field(default="", max_length=120)
-    signed_off_by: str = Field(default="", max_length=120)
-    signed_off_at: datetime | None = None
-    snapshot: dict[str, Any]
-
-
-class StudyFile(FileRow):
-    """One whole Tallyroom study: content, attendance, change log and revisions."""
-
-    model_config = ConfigDict(extra="forbid", title="Tallyroom study file, schema version 1")
+class StudySnapshot(FileRow):
+    """A study's content without history: a revision's frozen snapshot (and the file's core)."""
 
     format: Literal["tallyroom-study"] = FILE_FORMAT
     schema_version: Literal[1] = SCHEMA_VERSION
@@ -201,11 +249,9 @@ class StudyFile(FileRow):
     recommendations: list[RecommendationRow] = []
     participants: list[ParticipantRow] = []
     session_days: list[SessionDayRow] = []
-    change_log: list[ChangeLogRow] = []
-    revisions: list[RevisionRow] = []
 
     @model_validator(mode="after")
-    def references_resolve(self) -> "StudyFile":
+    def references_resolve(self) -> "StudySnapshot":
         """Every ref used points at a row defined in this file, and refs are unique."""
         categories = _unique_refs("severity category", [c.ref for c in self.severity_categories])
         scenarios = _unique_refs(
@@ -225,9 +271,31 @@ class StudyFile(FileRow):
         for day in self.session_days:
             for ref in day.attendees:
                 _must_exist("participant", ref, people)
-        for entry in self.change_log:
-            _must_exist("scenario", entry.scenario, scenarios, allow_missing=True)
         return self
+
+
+class RevisionRow(FileRow):
+    """A frozen revision with its snapshot (a study file without history), validated alike."""
+
+    label: str = Field(min_length=1, max_length=60)
+    note: str = Field(default="", max_length=2000)
+    frozen_at: datetime
+    frozen_by: str = Field(default="", max_length=120)
+    signed_off_by: str = Field(default="", max_length=120)
+    signed_off_at: datetime | None = None
+    snapshot: StudySnapshot
+
+
+class StudyFile(StudySnapshot):
+    """One whole Tallyroom study: content, attendance, change log and revisions.
+
+    Change-log entries may name scenarios deleted since, so their scenario refs may dangle.
+    """
+
+    model_config = ConfigDict(extra="forbid", title="Tallyroom study file, schema version 1")
+
+    change_log: list[ChangeLogRow] = []
+    revisions: list[RevisionRow] = []
 
 
 def study_json_schema() -> dict[str, Any]:
@@ -240,7 +308,8 @@ def study_json_schema() -> dict[str, Any]:
 
 
 def _listed_once(what: str, refs: list[str]) -> list[str]:
-    repeated = sorted({ref for ref in refs if refs.count(ref) > 1})
+    # One count of the whole list: counting each ref's repeats in turn was quadratic.
+    repeated = sorted(ref for ref, count in Counter(refs).items() if count > 1)
     if repeated:
         raise ValueError(f"{what} ref '{repeated[0]}' is listed twice; list each one once")
     return refs
@@ -255,7 +324,6 @@ def _unique_refs(what: str, refs: list[str]) -> set[str]:
     return seen
 
 
-def _must_exist(what: str, ref: str | None, known: set[str], allow_missing: bool = False) -> None:
-    # Change-log entries may name scenarios deleted since, so they are allowed to dangle.
-    if ref is not None and ref not in known and not allow_missing:
+def _must_exist(what: str, ref: str | None, known: set[str]) -> None:
+    if ref is not None and ref not in known:
         raise ValueError(f"{what} ref '{ref}' is not defined in this file")

@@ -10,6 +10,7 @@ from datetime import date
 from enum import StrEnum
 from typing import Any
 
+from app.db.ids import read_row_id
 from app.db.models import ActionStatus, Recommendation, text_limit
 from app.services.study.errors import FieldInputError, length_problem
 
@@ -79,10 +80,10 @@ def read_status(value: Any) -> ActionStatus:
 
 def read_scenario_id(value: Any) -> int:
     """A scenario id chosen in a select."""
-    try:
-        return int(str(value).strip())
-    except ValueError:
-        raise ActionInputError("scenario_id", "choose a scenario to link.") from None
+    scenario_id = read_row_id(value)
+    if scenario_id is None:
+        raise ActionInputError("scenario_id", "choose a scenario to link.")
+    return scenario_id
 
 
 def read_direction(value: Any) -> int:

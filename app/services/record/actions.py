@@ -12,6 +12,7 @@ from typing import Any
 from sqlmodel import Session, col, select
 
 from app.db.models import ActionStatus, Recommendation, RecommendationScenario, Scenario, saved_id
+from app.db.queries import lock_study_order
 from app.services.record.action_inputs import (
     ActionInputError,
     ActionOrder,
@@ -109,6 +110,7 @@ def shift_action(
     *, session: Session, action_id: int, study_id: int, direction: str
 ) -> Recommendation:
     """Swap the action with its neighbour in the team order ('up' or 'down'); ends stay put."""
+    lock_study_order(session, study_id)
     action = get_action(session=session, action_id=action_id, study_id=study_id)
     step = read_direction(direction)
     ordered = _in_team_order(session, study_id)

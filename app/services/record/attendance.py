@@ -9,6 +9,7 @@ from typing import Any, TypeVar
 
 from sqlmodel import Session, col, select
 
+from app.db.ids import read_row_id
 from app.db.models import Attendance, Participant, SessionDay, Study, text_limit
 from app.db.queries import fetch_rows_of_study
 from app.services.study.errors import FieldInputError, length_problem
@@ -164,9 +165,10 @@ def read_marks(typed: list[str]) -> set[tuple[int, int]]:
     marks = set()
     for value in typed:
         day_text, _, person_text = value.partition(":")
-        if not (day_text.isdigit() and person_text.isdigit()):
+        day_id, person_id = read_row_id(day_text), read_row_id(person_text)
+        if day_id is None or person_id is None:
             raise AttendanceInputError("present", f"'{value}' is not an attendance mark.")
-        marks.add((int(day_text), int(person_text)))
+        marks.add((day_id, person_id))
     return marks
 
 

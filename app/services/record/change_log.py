@@ -11,6 +11,7 @@ from typing import Any
 from sqlmodel import Session, col, func, select
 from sqlmodel.sql.expression import SelectOfScalar
 
+from app.db.ids import read_row_id
 from app.db.models import ChangeLogEntry, Recommendation, Scenario, Study
 from app.db.tracking import AUTHOR_KEY, SUPPRESS_LOG_KEY, describe
 from app.services.study.errors import FieldInputError
@@ -63,13 +64,12 @@ def read_filter(typed: FilterText) -> ChangeLogFilter:
         )
     scenario_id = None
     if typed.scenario_id.strip():
-        try:
-            scenario_id = int(typed.scenario_id.strip())
-        except ValueError:
+        scenario_id = read_row_id(typed.scenario_id)
+        if scenario_id is None:
             raise ChangeLogFilterError(
                 "scenario_id",
                 f"the scenario must be a scenario number (got '{typed.scenario_id}').",
-            ) from None
+            )
     return ChangeLogFilter(since, until, scenario_id)
 
 

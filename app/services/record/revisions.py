@@ -6,6 +6,7 @@ from typing import Any
 
 from sqlmodel import Session, col, select
 
+from app.db.ids import read_row_id
 from app.db.models import ChangeLogEntry, Revision, Study, text_limit, utc_now
 from app.db.tracking import SUPPRESS_LOG_KEY
 from app.services.exchange.study_file import export_study
@@ -174,12 +175,10 @@ class ComparePage:
 def _pick(session: Session, study_id: int, field_name: str, typed: str) -> Revision:
     if not typed.strip():
         raise RevisionInputError(field_name, "choose a revision to compare.")
-    try:
-        revision_id = int(typed.strip())
-    except ValueError:
+    revision_id = read_row_id(typed)
+    if revision_id is None:
         raise RevisionInputError(
-            field_name, f"a revision is chosen by its number (got '{typed.strip()}')."
-        ) from None
+            field_name, f"a revision is chosen by its number (got '{typed.strip()}').")
     revision = session.get(Revision, revision_id)
     if revision is None or revision.study_id != study_id:
         raise RevisionInputError(field_name, f"there is no revision {revision_id} of this study.")

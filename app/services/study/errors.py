@@ -10,8 +10,19 @@ class FieldInputError(ValueError):
         self.message = message
 
 
+def nul_problem(text: str) -> str | None:
+    """The NUL rule's message when `text` holds a NUL character (forms and study files)."""
+    return "must not contain the NUL control character (\\x00)." if "\x00" in text else None
+
+
 def length_problem(text: str, limit: int) -> str | None:
-    """The message of the length rule when `text` is over its column's `limit`, else None."""
+    """The message of the rule typed text breaks, else None: every text field's one check.
+
+    Text must fit its column's `limit` and hold no NUL character (PostgreSQL refuses NUL in
+    text, and no one types it on purpose).
+    """
+    if problem := nul_problem(text):
+        return problem
     if len(text) <= limit:
         return None
     return f"at most {limit} characters (got {len(text)})."

@@ -4,12 +4,19 @@ import math
 from collections.abc import Sequence
 from dataclasses import dataclass
 
+from sqlalchemy import delete
 from sqlmodel import Session
 
-from app.db.models import Study
+from app.db.models import Scenario, Study
 from app.db.queries import fetch_studies_with_counts
 from app.likelihood.types import ScenarioResult
-from app.services.study.tree import NodeBranch, ScenarioBranch, StudyTree, load_study_tree
+from app.services.study.tree import (
+    NodeBranch,
+    NotFoundError,
+    ScenarioBranch,
+    StudyTree,
+    load_study_tree,
+)
 
 
 @dataclass(frozen=True)
@@ -71,3 +78,20 @@ def read_study_overview(*, session: Session, study_id: int) -> StudyOverview:
     """The study with every scenario computed and totals per node and for the study."""
     tree = load_study_tree(session, study_id)
     return StudyOverview(tree, node_totals(tree.nodes), totals_of(tree.scenario_branches()))
+
+
+def delete_study(*, session: Session, study_id: int) -> StudyListing:
+    """Delete a study and everything it holds, in one transaction; returns what was deleted.
+
+    Scenarios go first: they refer to severity categories with ON DELETE RESTRICT, which the
+    study's own cascade could meet before it reached the scenarios. Everything else cascades
+    from the study row. Plain statements, so no change-log entry points at a deleted study.
+    """
+    listing = next((row for row in list_studies(session=session) if row.study.id == study_id),
+                   None)
+    if listing is None:
+        raise NotFoundError(f"There is no study with id {study_id}.")
+    session.execute(delete(Scenario).where(Scenario.study_id == study_id))  # type: ignore[arg-type]
+    session.execute(delete(Study).where(Study.id == study_id))  # type: ignore[arg-type]
+    session.commit()
+    return listing

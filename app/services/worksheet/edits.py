@@ -125,7 +125,7 @@ def edit_field(*, session: Session, study_id: int, kind_name: str, row_id: int,
         session.rollback()
         return _reply(session, kind_name, row, field_id(kind_name, row_id, err.field),
                       error=err.message)
-    said = plain_value(row) if sent == "value_text" else SAVED
+    said = plain_value(row) if (kind_name, sent) == ("step", "value_text") else SAVED
     return _reply(session, kind_name, row, field_id(kind_name, row_id, sent), said=said)
 
 

@@ -10,7 +10,9 @@ from typing import Any
 
 from sqlmodel import Session, col, select
 
+from app.db.ids import read_row_id
 from app.db.models import Deviation, Node, Safeguard, Scenario, SeverityCategory, Step, text_limit
+from app.db.queries import lock_study_order
 from app.likelihood.numbers import ParsedNumber, parse_frequency, parse_probability
 from app.likelihood.types import LikelihoodInputError, StepKind
 from app.services.study.errors import FieldInputError, length_problem
@@ -189,7 +191,7 @@ def _default_category(session: Session, study_id: int, deviation: Deviation) -> 
 
 def _next_node_number(session: Session, study_id: int) -> str:
     numbers = session.exec(select(Node.number).where(Node.study_id == study_id)).all()
-    counted = [int(n) for n in numbers if n.strip().isdigit()]
+    counted = [int(n) for n in numbers if n.strip().isdecimal()]
     return str(max(counted, default=0) + 1)
 
 
@@ -214,7 +216,8 @@ def _read_text_fields(kind: RowKind, changes: Mapping[str, str], *,
 def _read_category(session: Session, study_id: int, field: str, text: str) -> int | None:
     if not text.strip() and field != "severity_category_id":
         return None
-    category = session.get(SeverityCategory, int(text)) if text.strip().isdigit() else None
+    category_id = read_row_id(text)
+    category = session.get(SeverityCategory, category_id) if category_id else None
     if category is None or category.study_id != study_id:
         raise StructureInputError(field, f"choose one of the study's severity categories "
                                   f"(got '{text}').")
@@ -270,6 +273,7 @@ def update_row(*, session: Session, study_id: int, kind_name: str, row_id: int,
 def move_row(*, session: Session, study_id: int, kind_name: str, row_id: int,
              offset: int) -> Any:
     """Move a row up (offset -1) or down (+1) among its siblings; at an end it stays put."""
+    lock_study_order(session, study_id)
     kind = kind_of(kind_name)
     row = get_row(session, kind, study_id, row_id)
     ordered = siblings(session, kind, row)
