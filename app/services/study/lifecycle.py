@@ -9,8 +9,7 @@ from collections.abc import Mapping
 from dataclasses import dataclass, fields
 from typing import Any
 
-from sqlalchemy import delete
-from sqlmodel import Session, col, func, select
+from sqlmodel import Session, func, select
 
 from app.db.models import (
     Node,
@@ -22,6 +21,7 @@ from app.db.models import (
     Study,
 )
 from app.db.queries import fetch_rows_of_study
+from app.services.study import listing
 from app.services.study.errors import length_problem
 from app.services.study.tree import get_study
 
@@ -171,14 +171,8 @@ def study_contents(*, session: Session, study_id: int) -> StudyContents:
 
 
 def delete_study(*, session: Session, study_id: int) -> StudyContents:
-    """Delete a study and everything it holds in one transaction; returns what went.
-
-    Scenarios go first: they refer to severity categories with ON DELETE RESTRICT, which the
-    study's own cascade could meet before it reached the scenarios. Everything else cascades
-    from the study row. Plain statements, so no change-log entry points at a deleted study.
-    """
+    """Delete a study and everything it holds (the one delete, `listing.delete_study`, which
+    the command line uses too); returns what went, as the question named it."""
     contents = study_contents(session=session, study_id=study_id)
-    session.execute(delete(Scenario).where(col(Scenario.study_id) == study_id))
-    session.execute(delete(Study).where(col(Study.id) == study_id))
-    session.commit()
+    listing.delete_study(session=session, study_id=study_id)
     return contents
