@@ -5,6 +5,7 @@ Enter or typing. The test never clicks.
 """
 
 import json
+from pathlib import Path
 
 from playwright.sync_api import Page, expect
 
@@ -25,7 +26,7 @@ def tab_to(page: Page, selector: str) -> None:
 
 
 def test_a_whole_study_from_nothing_with_the_keyboard_only(
-    page: Page, live_server: str
+    page: Page, live_server: str, artifacts: Path
 ) -> None:
     page.goto(live_server)
     tab_to(page, "#new-study")
@@ -36,10 +37,12 @@ def test_a_whole_study_from_nothing_with_the_keyboard_only(
         page.keyboard.type(text)
         page.keyboard.press("Tab")
     tab_to(page, "button[type=submit]")
+    page.screenshot(path=str(artifacts / "new-study.png"))
     page.keyboard.press("Enter")
 
     # The empty study opens on a worksheet that adds the first node.
     expect(page.locator("#add-node")).to_be_focused()
+    page.screenshot(path=str(artifacts / "empty-worksheet.png"))
     page.keyboard.type("Unloading arm")
     page.keyboard.press("Enter")
     expect(page.locator("#no-deviations")).to_be_visible()
@@ -90,6 +93,7 @@ def test_a_whole_study_from_nothing_with_the_keyboard_only(
         page.keyboard.press("Tab")
     # 0.1 x 0.1 x 0.5 x 0.01 = 5e-5 per year
     expect(page.locator("[data-figure='mitigated']")).to_have_text("5.0e-5 /yr")
+    page.screenshot(path=str(artifacts / "study-from-nothing.png"), full_page=True)
 
     tab_to(page, ".study-nav a[href$='/export']")
     page.keyboard.press("Enter")
