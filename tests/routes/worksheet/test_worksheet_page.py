@@ -1,6 +1,8 @@
 """The node worksheet page, read as the scribe sees it."""
 # ruff: noqa: RUF001 - the multiplication sign is what the page shows
 
+import re
+
 from fastapi.testclient import TestClient
 from sqlmodel import Session
 
@@ -114,3 +116,19 @@ def test_the_keyboard_help_lists_the_shortcuts(client: TestClient, session: Sess
     page = client.get("/help/keys").text
     for keys in ("Enter", "Esc", "Alt</kbd>+<kbd>↑", "Alt</kbd>+<kbd>Delete", "Alt</kbd>+<kbd>Z"):
         assert keys in page
+
+
+def test_step_details_proof_test_and_actions_links_are_on_the_keyboard_route(
+    client: TestClient, session: Session
+) -> None:
+    scenario = make_scenario_tree(session)
+    make_step(session, scenario, description="Trip")
+    study = session.get(Study, scenario.study_id)
+    assert study is not None
+    node_id = client.get(f"/studies/{study.id}/worksheet", follow_redirects=False)
+    page = client.get(node_id.headers["location"]).text
+    links = re.findall(r'<a class="step-link[^>]*>', page)
+    assert len(links) >= 3  # details, proof test, actions
+    assert not [a for a in links if 'tabindex="-1"' in a]
+    labels = set(re.findall(r'aria-label="([^"]*) in scenario 1\.1\.1', page))
+    assert {"Details of step 2", "Proof test of step 2"} <= labels
