@@ -1,5 +1,7 @@
 // Tallyroom worksheet: what htmx attributes cannot say on their own.
-// - a sequence number per value field, so a reply older than the newest text is never shown;
+// - a sequence number per value field, so a reply older than the newest text is never shown
+//   (the server keeps the same order in the database: services/study/conflicts.py);
+// - "keep mine" / "take theirs" put the chosen value in the field after a conflict;
 // - keyboard: Enter to the next field (after a kind's last row: its add button, which adds
 //   only with its own Enter), Escape to cancel, Alt+arrows to move, Alt+Delete to delete
 //   (asks first), Alt+Z to undo, Alt+N to add an IPL, ? for help; Alt shortcuts match the
@@ -61,6 +63,17 @@
     if (answered && Number(answered) < Number(field.dataset.seq || "0")) return;
     if (event.detail.xhr.status === 422) field.setAttribute("aria-invalid", "true");
     else if (event.detail.xhr.status === 200) field.removeAttribute("aria-invalid");
+  });
+
+  // "Keep mine" / "Take theirs" after a conflict (409): the field shows the chosen value; the
+  // button's form saves (keep) or only logs (take) the choice.
+  document.addEventListener("click", function (event) {
+    const button = event.target.closest && event.target.closest("[data-resolve]");
+    if (!button) return;
+    const field = document.getElementById(button.dataset.for);
+    if (!field) return;
+    field.value = button.dataset.value;
+    field.dataset.before = field.value;
   });
 
   // --- focus: remember the text on entry (for Escape) and follow the scenario (for the room)

@@ -8,6 +8,7 @@ from sqlmodel import Session, select
 
 from app.cli import main
 from app.db.models import Study
+from app.routes.rendering import CAUTIONS
 from app.services.exchange.exports import study_json_bytes
 from app.services.exchange.study_file import export_study
 from tests.factories import make_scenario_tree, make_study
@@ -40,7 +41,8 @@ def test_export_finds_a_study_by_its_exact_title_and_writes_the_study_file(
 ) -> None:
     out = tmp_path / "by-title.json"
     assert main(["export", study.title, "--format", "json", "--out", str(out)]) == 0
-    assert out.read_bytes() == study_json_bytes(export_study(session, study.id or 0))
+    expected = {**export_study(session, study.id or 0), "cautions": CAUTIONS}
+    assert out.read_bytes() == study_json_bytes(expected)
 
 
 def test_export_without_out_uses_the_download_name_in_the_current_folder(

@@ -53,3 +53,28 @@ def test_the_demo_study_is_flagged_invented_and_stays_so_on_export(
 
     assert demo_study.invented is True
     assert export_study(session, demo_study.id)["invented"] is True
+
+
+def test_the_demo_passes_its_checks_or_says_why_it_does_not(
+    session: Session, demo_study: Study
+) -> None:
+    """Issue 9: a demo scenario that raises IPL-check warnings carries them on purpose, and
+    its notes say so; every other scenario passes its own checks."""
+    tree = load_study_tree(session, demo_study.id)
+    warned = {s.scenario.cause[:40]: s.scenario.notes for s in tree.scenario_branches()
+              if s.outcome.assessment is not None and s.outcome.assessment.warnings}
+    assert warned, "the demo shows at least one warning on purpose"
+    for cause, notes in warned.items():
+        assert "Demo:" in notes and ("check" in notes), cause
+
+
+def test_the_demo_has_no_fatality_probability_in_an_injury_rated_scenario(
+    session: Session, demo_study: Study
+) -> None:
+    tree = load_study_tree(session, demo_study.id)
+    for item in tree.scenario_branches():
+        category = item.outcome.governing_category
+        if category is not None and "injury" in category.name.lower():
+            assert not any("fatality" in s.description.lower() for s in item.steps)
+        assert all(s.kind is not StepKind.ENABLING_CONDITION
+                   or "error" not in s.description.lower() for s in item.steps)

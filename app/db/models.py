@@ -150,6 +150,8 @@ class ScenarioBase(SQLModel):
     cause: str = Field(default="", max_length=2000)
     consequence: str = Field(default="", max_length=2000)
     notes: str = Field(default="", max_length=5000)
+    # True for a scenario with no potential to harm people: only environment and asset are rated.
+    people_not_rated: bool = Field(default=False, sa_column_kwargs={"server_default": false()})
     position: int = 0
 
 
@@ -183,6 +185,24 @@ class StepBase(SQLModel):
     typical_key: str | None = Field(default=None, max_length=60)
     # Proof-test calculator inputs (JSON) when the PFD was taken from the calculator.
     proof_test: str | None = Field(default=None, sa_column=Column(Text, nullable=True))
+    # What the method needs per step (issue 9); each is read by app.likelihood.check_base.
+    # An IPL that acts after an added SIF (bund, blast wall) does not reduce the SIF's demand.
+    acts_after_sif: bool = Field(default=False, sa_column_kwargs={"server_default": false()})
+    # A conditional modifier's kind (types.ModifierKind) and its receptors, comma-separated
+    # ("people,environment"); None means the default of its kind.
+    modifier_kind: str | None = Field(default=None, max_length=30)
+    receptors: str | None = Field(default=None, max_length=60)
+    # An initiating event's kind of failure (check_base.CauseType).
+    cause_type: str | None = Field(default=None, max_length=30)
+    final_element_tag: str = Field(default="", max_length=80,
+                                   sa_column_kwargs={"server_default": ""})
+    alarm_on_bpcs: bool | None = Field(default=None)
+    crew: str = Field(default="", max_length=80, sa_column_kwargs={"server_default": ""})
+    # A per-task value (operator error per opportunity) and how many tasks a year.
+    per_opportunity_probability: float | None = Field(default=None, gt=0, le=1)
+    opportunities_per_year: float | None = Field(default=None, gt=0)
+    time_available_minutes: float | None = Field(default=None, ge=0)
+    time_to_detect_and_act_minutes: float | None = Field(default=None, ge=0)
     position: int = 0
 
 
@@ -298,7 +318,7 @@ class Revision(SQLModel, table=True):
 
 
 class DeletedItem(SQLModel, table=True):
-    """What a delete removed, kept so the last delete can be undone."""
+    """What a delete removed, kept so its author can undo it (newest first, per person)."""
 
     __tablename__ = "deleted_item"
     id: int | None = Field(default=None, primary_key=True)
@@ -308,6 +328,29 @@ class DeletedItem(SQLModel, table=True):
     entity: str = Field(max_length=40)
     label: str = Field(default="", max_length=300)
     payload: str = Field(sa_column=Column(Text, nullable=False))
+    # Why an undo could not bring it back (empty: it can be tried); such an item no longer
+    # stands in the way of its author's older deletes.
+    blocked_reason: str = Field(default="", max_length=500,
+                                sa_column_kwargs={"server_default": ""})
+
+
+class FieldEdit(SQLModel, table=True):
+    """The newest keystroke sequence number one page has sent for one field, and its text.
+
+    Compared and set in the same transaction as the value (`services/study/conflicts.py`), so
+    an older keystroke never overwrites a newer one, whichever worker or thread serves it.
+    `written` is the text this page last saved in the field: a save that finds the field
+    holding it is building on its own edit, not on someone else's.
+    """
+
+    __tablename__ = "field_edit"
+    study_id: int = _study_fk()
+    entity: str = Field(max_length=40, primary_key=True)
+    row_id: int = Field(primary_key=True)
+    field: str = Field(max_length=60, primary_key=True)
+    client: str = Field(max_length=64, primary_key=True)
+    seq: int = 0
+    written: str | None = Field(default=None, sa_column=Column(Text, nullable=True))
 
 
 class AccessState(SQLModel, table=True):

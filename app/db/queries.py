@@ -64,8 +64,16 @@ def fetch_rows_of_node(session: Session, model: type[Row], node_id: int) -> list
 
 def step_figures_of_study(study_id: int) -> Any:
     """The columns of a study's steps that the arithmetic reads, as plain rows."""
+    # Every column the IPL checks read too: totals show the figures with flagged credits
+    # withdrawn. Any: ORM attributes as columns.
     columns: list[Any] = [Step.scenario_id, Step.id, Step.position, Step.kind, Step.value,
-                          Step.credited, Step.description]  # Any: ORM attributes as columns
+                          Step.credited, Step.description, Step.ipl_type, Step.system_tag,
+                          Step.response_time_minutes, Step.sil_claimed, Step.typical_key,
+                          Step.acts_after_sif, Step.modifier_kind, Step.receptors,
+                          Step.cause_type, Step.final_element_tag, Step.alarm_on_bpcs,
+                          Step.crew, Step.per_opportunity_probability,
+                          Step.opportunities_per_year, Step.time_available_minutes,
+                          Step.time_to_detect_and_act_minutes]
     return select_columns(*columns).where(col(Step.study_id) == study_id)
 
 
@@ -73,16 +81,17 @@ def scenario_ratings_of_study(study_id: int) -> Any:
     """Each scenario of a study with its node and its three severity ratings, as plain rows."""
     columns: list[Any] = [Scenario.id, Scenario.deviation_id, Deviation.node_id,
                           Scenario.severity_category_id, Scenario.environment_category_id,
-                          Scenario.asset_category_id]  # Any: ORM attributes as columns
+                          Scenario.asset_category_id,
+                          Scenario.people_not_rated]  # Any: ORM attributes as columns
     return (select_columns(*columns)
             .join(Deviation, col(Deviation.id) == col(Scenario.deviation_id))
             .where(col(Scenario.study_id) == study_id))
 
 
 def category_targets_of_study(study_id: int) -> Any:
-    """Each severity category's id, name and tolerable frequency, as plain rows."""
+    """Each severity category's id, name, tolerable frequency and receptor, as plain rows."""
     return select(SeverityCategory.id, SeverityCategory.name,
-                  SeverityCategory.tolerable_frequency).where(
+                  SeverityCategory.tolerable_frequency, SeverityCategory.receptor).where(
         SeverityCategory.study_id == study_id)
 
 

@@ -3,7 +3,7 @@
 from fastapi import APIRouter, Request
 from starlette.responses import RedirectResponse, Response
 
-from app.routes.deps import SessionDep
+from app.routes.deps import SessionDep, read_page_edit, read_seen
 from app.routes.rendering import render
 from app.routes.urls import path_for
 from app.services.risk import criteria as service
@@ -14,7 +14,7 @@ PAGE = "risk/criteria/edit.html"
 
 def _answer(request: Request, page: service.CriteriaPage) -> Response:
     has_errors = page.new_errors or page.basis_error or any(u.errors for u in page.categories)
-    status = 422 if has_errors else 409 if page.refusal else 200
+    status = 422 if has_errors else 409 if page.refusal or page.conflict else 200
     return render(request, PAGE, {"page": page}, status_code=status)
 
 
@@ -50,9 +50,13 @@ async def update_category(
     request: Request, study_id: int, category_id: int, session: SessionDep
 ) -> Response:
     """Change a category and re-evaluate every scenario rated with it."""
-    form = service.CategoryForm.from_mapping(await request.form())
+    posted = await request.form()
+    form = service.CategoryForm.from_mapping(posted)
     page = service.save_category(session=session, study_id=study_id,
-                                   category_id=category_id, form=form)
+                                 category_id=category_id, form=form,
+                                 edit=read_page_edit(posted),
+                                 resolution=str(posted.get("resolution") or ""),
+                                 seen=read_seen(posted))
     return _answer(request, page)
 
 

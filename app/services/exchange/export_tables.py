@@ -13,8 +13,11 @@ from dataclasses import dataclass
 from datetime import UTC, date, datetime
 from typing import Any
 
-from app.likelihood.types import DemandMode, StepKind
+from app.likelihood.numbers import format_number
+from app.likelihood.types import DemandMode, Receptor, ScenarioResult, StepKind
+from app.likelihood.typical import typical_by_key
 from app.services.exchange.study_file import scenario_ref
+from app.services.study.results import Assessment
 from app.services.study.tree import DeviationBranch, NodeBranch, ScenarioBranch, StudyTree
 
 Cell = str | float | int | date | datetime | None
@@ -56,6 +59,23 @@ def spreadsheet_text(text: str) -> str:
     return "'" + text if text.startswith(FORMULA_STARTS) else text
 
 
+# Issue 9: the demand on an added SIF, each receptor's line, and the figures with the credits
+# the IPL checks flag withdrawn (PFD 1). Appended after the older columns.
+RECEPTOR_COLUMNS = tuple(
+    column
+    for receptor in Receptor
+    for column in (Column(f"{receptor.value.capitalize()}: mitigated (/yr)", SCIENTIFIC),
+                   Column(f"{receptor.value.capitalize()}: tolerable (/yr)", SCIENTIFIC),
+                   Column(f"{receptor.value.capitalize()}: ratio", SCIENTIFIC),
+                   Column(f"{receptor.value.capitalize()}: SIL target"))
+)
+METHOD_COLUMNS = (
+    Column("Demand rate on an added SIF (/yr)", SCIENTIFIC), Column("Demand formula"),
+    Column("Governing receptor"), *RECEPTOR_COLUMNS, Column("Flagged credits"),
+    Column("Withdrawn: mitigated (/yr)", SCIENTIFIC), Column("Withdrawn: ratio", SCIENTIFIC),
+    Column("Withdrawn: SIL target"), Column("Withdrawn: status"),
+)  # fmt: skip
+
 SCENARIO_COLUMNS = (
     Column("Scenario"), Column("Node"), Column("Deviation"), Column("Cause"),
     Column("Consequence"), Column("Governing severity"),
@@ -66,13 +86,28 @@ SCENARIO_COLUMNS = (
     Column("Ratio mitigated / tolerable", SCIENTIFIC),
     Column("Gap (orders of magnitude)", SIGNED), Column("Required RRF", RRF),
     Column("SIL target"), Column("Demand mode"), Column("Status"),
+    *METHOD_COLUMNS,
 )  # fmt: skip
 
 
 def scenario_refs(tree: StudyTree) -> dict[int, str]:
-    """Scenario id -> the ref the study file gives it (S1, S2, ... in worksheet order)."""
-    return {s.scenario.id: scenario_ref(i) for i, s in enumerate(tree.scenario_branches())
-            if s.scenario.id is not None}
+    """Scenario id -> its number as the worksheet shows it (node 2, deviation 1, scenario 3:
+    '2.1.3'), so every export names a scenario as the screens do."""
+    numbers: dict[int, str] = {}
+    for node_branch in tree.nodes:
+        node_number = node_branch.node.number or "(unnumbered)"
+        for d_index, deviation_branch in enumerate(node_branch.deviations, start=1):
+            for s_index, item in enumerate(deviation_branch.scenarios, start=1):
+                if item.scenario.id is not None:
+                    numbers[item.scenario.id] = f"{node_number}.{d_index}.{s_index}"
+    return numbers
+
+
+def file_ref_numbers(tree: StudyTree) -> dict[str, str]:
+    """The study file's scenario refs (S1, S2, ...) -> the worksheet's numbers."""
+    numbers = scenario_refs(tree)
+    return {scenario_ref(i): numbers.get(s.scenario.id or 0, scenario_ref(i))
+            for i, s in enumerate(tree.scenario_branches())}
 
 
 def node_label(node_branch: NodeBranch) -> str:
@@ -111,23 +146,45 @@ def _scenario_row(
         initiating.description if initiating else "",
         initiating.value if initiating else None,
     ]
-    if result is None:
+    if result is None or outcome.assessment is None:
         return [*head, None, None, len(credited), None, None, None, None, None, "", "",
-                f"not computed: {outcome.error}"]
+                f"not computed: {outcome.error}", *[None] * len(METHOD_COLUMNS)]
     target = result.sil_target
     return [
         *head, result.enabling_product, result.modifier_product, len(credited),
         result.ipl_product, result.mitigated_frequency, result.ratio, result.gap_orders,
         result.required_rrf, target.label, DEMAND_LABELS[target.demand_mode],
-        "meets target" if result.meets_target else "short of target",
+        _status(result), *_method_cells(outcome.assessment),
     ]
+
+
+def _status(result: ScenarioResult) -> str:
+    return "meets target" if result.meets_target else "short of target"
+
+
+def _method_cells(assessment: Assessment) -> list[Cell]:
+    """Demand, governing receptor, each receptor's line, then the withdrawn figures."""
+    figures = assessment.as_credited
+    demand = figures.result.demand
+    lines = {line.receptor: line for line in figures.receptors.lines}
+    cells: list[Cell] = [demand.demand_rate_per_year if demand else None,
+                         demand.formula if demand else "", figures.governing.receptor.value]
+    for receptor in Receptor:
+        line = lines.get(receptor)
+        cells += ([line.mitigated_frequency, line.tolerable_frequency, line.ratio,
+                   line.demand.sil_target.label] if line else [None, None, None, "not rated"])
+    withdrawn = assessment.withdrawn
+    if withdrawn is None:
+        return [*cells, "", None, None, "", ""]
+    return [*cells, "; ".join(assessment.withdrawn_labels), withdrawn.result.mitigated_frequency,
+            withdrawn.result.ratio, withdrawn.result.sil_target.label, _status(withdrawn.result)]
 
 
 STEP_COLUMNS = (
     Column("Scenario"), Column("Node"), Column("Step"), Column("Kind"), Column("Description"),
     Column("Value", SCIENTIFIC), Column("As written"), Column("Credited"), Column("IPL type"),
     Column("System tag"), Column("SIL claimed", WHOLE), Column("Response time (min)", "0.#"),
-    Column("Basis"),
+    Column("Basis"), Column("Typical-value row and source"),
 )  # fmt: skip
 
 
@@ -143,8 +200,19 @@ def step_table(tree: StudyTree) -> Table:
                     step.kind.label, step.description, step.value,
                     step.value_text, "yes" if step.credited else "no", step.ipl_type or "",
                     step.system_tag, step.sil_claimed, step.response_time_minutes, step.basis,
+                    typical_words(step.typical_key),
                 ])
     return Table("Steps", STEP_COLUMNS, rows)
+
+
+def typical_words(key: str | None) -> str:
+    """'BPCS loop, independent of the cause: 0.01 to 0.1; CCPS … [verify against your copy]'."""
+    row = typical_by_key(key) if key else None
+    if row is None:
+        return ""
+    marker = " [verify against your copy]" if row.verify_against_copy else ""
+    return (f"{row.label}: {format_number(row.low)} to {format_number(row.high)}; "
+            f"{row.citation or row.source}{marker}")
 
 
 ACTION_COLUMNS = (
@@ -153,12 +221,14 @@ ACTION_COLUMNS = (
 )  # fmt: skip
 
 
-def action_table(data: StudyData) -> Table:
-    """The recommendations with the scenarios they address."""
+def action_table(data: StudyData, numbers: dict[str, str] | None = None) -> Table:
+    """The recommendations with the scenarios they address (by the worksheet's numbers when
+    `numbers` maps the file's refs to them)."""
+    named = numbers or {}
     rows: list[list[Cell]] = [
         [f"A{number}", a["text"], a["owner"], _day(a["due_date"]),
          a["status"].replace("_", " "), a["status_reason"], a["expected_rrf"],
-         ", ".join(a["scenarios"])]
+         ", ".join(named.get(ref, ref) for ref in a["scenarios"])]
         for number, a in enumerate(data["recommendations"], 1)
     ]
     return Table("Actions", ACTION_COLUMNS, rows)
@@ -195,11 +265,13 @@ LOG_COLUMNS = (
 )  # fmt: skip
 
 
-def change_log_table(data: StudyData) -> Table:
+def change_log_table(data: StudyData, numbers: dict[str, str] | None = None) -> Table:
     """Every recorded change, oldest first."""
+    named = numbers or {}
     rows: list[list[Cell]] = [
         [utc_naive(datetime.fromisoformat(e["at"])), e["author"], e["action"], e["entity"],
-         e["field"], e["old_value"], e["new_value"], e["summary"], e["scenario"] or ""]
+         e["field"], e["old_value"], e["new_value"], e["summary"],
+         named.get(e["scenario"], e["scenario"]) if e["scenario"] else ""]
         for e in data.get("change_log", [])
     ]
     return Table("Change log", LOG_COLUMNS, rows)
@@ -216,5 +288,6 @@ def _day(text: str | None) -> date | None:
 
 def all_tables(tree: StudyTree, data: StudyData) -> Sequence[Table]:
     """Every table of the workbook after the cover, in sheet order."""
-    return (scenario_table(tree), step_table(tree), action_table(data), criteria_table(data),
-            attendance_table(data), change_log_table(data))
+    return (scenario_table(tree), step_table(tree), action_table(data, file_ref_numbers(tree)),
+            criteria_table(data),
+            attendance_table(data), change_log_table(data, file_ref_numbers(tree)))

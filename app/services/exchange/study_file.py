@@ -23,7 +23,14 @@ from app.db.models import (
     Step,
     saved_id,
 )
-from app.services.exchange.study_schema import FILE_FORMAT, SCHEMA_VERSION, StudyFile
+from app.services.exchange.study_schema import (
+    FILE_FORMAT,
+    READABLE_VERSIONS,
+    SCHEMA_VERSION,
+    StudyFile,
+)
+from app.services.exchange.study_upgrade import upgrade_study_data
+from app.services.study.step_fields import stored_receptors
 from app.services.study.tree import get_study
 from app.settings import get_settings
 
@@ -56,6 +63,9 @@ def parse_study_file(raw: str | bytes) -> StudyFile:
                              f"file nests far less")
     _check_format_and_version(data)
     _check_size(data)
+    upgraded = upgrade_study_data(data)
+    if upgraded is not data:  # an older version: validate the upgraded rows
+        text = json.dumps(upgraded)
     try:
         return StudyFile.model_validate_json(text, strict=True)
     except ValidationError as err:
@@ -119,10 +129,11 @@ def _check_format_and_version(data: Any) -> None:
             f"\"format\": \"{FILE_FORMAT}\""
         )
     version = data.get("schema_version")
-    if version != SCHEMA_VERSION:
+    if version not in READABLE_VERSIONS or isinstance(version, bool):
+        readable = " and ".join(str(v) for v in READABLE_VERSIONS)
         raise StudyFileError(
             f"schema_version {version!r} is not supported: this Tallyroom reads study files "
-            f"of schema version {SCHEMA_VERSION}"
+            f"of schema versions {readable}"
         )
 
 
@@ -140,6 +151,11 @@ HEADER_FIELDS = ("title", "facility", "scope", "revision_label", "frequency_unit
                  "criteria_basis")
 STEP_FIELDS = ("description", "value", "value_text", "basis", "credited", "ipl_type",
                "system_tag", "response_time_minutes", "sil_claimed", "typical_key")
+# Schema version 2's step fields, in StepRow's order (receptors goes between as a list).
+METHOD_FIELDS = ("acts_after_sif", "modifier_kind")
+CHECK_FIELDS = ("cause_type", "final_element_tag", "alarm_on_bpcs", "crew",
+                "per_opportunity_probability", "opportunities_per_year",
+                "time_available_minutes", "time_to_detect_and_act_minutes")
 
 
 def _fields(row: Any, names: tuple[str, ...]) -> dict[str, Any]:
@@ -177,7 +193,7 @@ def export_study(session: Session, study_id: int, *, with_history: bool = True) 
     people_refs = {p.id: f"P{i}" for i, p in enumerate(participants, 1)}
     data: dict[str, Any] = {
         "format": "tallyroom-study",
-        "schema_version": 1,
+        "schema_version": SCHEMA_VERSION,
         "invented": study.invented,
         "study": _fields(study, HEADER_FIELDS),
         "severity_categories": [
@@ -242,15 +258,19 @@ def _export_scenario(
         "severity": category_refs[scenario.severity_category_id],
         "environment_severity": category_refs.get(scenario.environment_category_id),
         "asset_severity": category_refs.get(scenario.asset_category_id),
+        "people_not_rated": scenario.people_not_rated,
         "steps": [_export_step(step) for step in steps],
         "safeguards": [{"description": s.description, "note": s.note} for s in safeguards],
     }
 
 
 def _export_step(step: Step) -> dict[str, Any]:
-    row = {"kind": step.kind.value, **_fields(step, STEP_FIELDS)}
-    row["proof_test"] = json.loads(step.proof_test) if step.proof_test else None
-    return row
+    # Key order as StepRow declares its fields, so a re-imported revision snapshot (dumped
+    # from the validated rows) exports byte for byte the same.
+    return {"kind": step.kind.value, **_fields(step, STEP_FIELDS),
+            "proof_test": json.loads(step.proof_test) if step.proof_test else None,
+            **_fields(step, METHOD_FIELDS), "receptors": stored_receptors(step.receptors),
+            **_fields(step, CHECK_FIELDS)}
 
 
 def _export_actions(

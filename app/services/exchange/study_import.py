@@ -29,6 +29,7 @@ from app.db.queries import fetch_plain_rows, placed_rows_of_study
 from app.db.tracking import SUPPRESS_LOG_KEY
 from app.services.exchange.study_file import StudyFileError, export_study, parse_study_file
 from app.services.exchange.study_schema import StudyFile
+from app.services.study.step_fields import receptors_text
 
 # Far above any real study (the invented demo is under 100 kB); refuses runaway uploads early.
 MAX_FILE_BYTES = 20 * 1024 * 1024
@@ -173,6 +174,7 @@ def _scenario_values(study_id: int, placed: Placed, categories: dict[str, int]
         "severity_category_id": categories[row.severity],
         "environment_category_id": categories.get(row.environment_severity or ""),
         "asset_category_id": categories.get(row.asset_severity or ""),
+        "people_not_rated": row.people_not_rated,
     }
 
 
@@ -182,7 +184,8 @@ def _step_values(study_id: int, placed: Placed) -> dict[str, Any]:
     proof_test = (json.dumps(step.proof_test.model_dump(mode="json"), ensure_ascii=False)
                   if step.proof_test else None)
     return {"study_id": study_id, "scenario_id": scenario_id, "position": position,
-            "proof_test": proof_test, **step.model_dump(exclude={"proof_test"})}
+            "proof_test": proof_test, **step.model_dump(exclude={"proof_test", "receptors"}),
+            "receptors": receptors_text(step.receptors)}
 
 
 def _with_defaults(model: type[SQLModel], rows: list[dict[str, Any]]) -> list[dict[str, Any]]:
@@ -258,6 +261,8 @@ def _import_history(
             **entry.model_dump(exclude={"scenario"}),
         ))
     for revision in data.revisions:
-        snapshot = json.dumps(revision.snapshot.model_dump(mode="json"))
+        # A snapshot without cautions (every one frozen in the app) is stored without them.
+        unset = None if "cautions" in revision.snapshot.model_fields_set else {"cautions"}
+        snapshot = json.dumps(revision.snapshot.model_dump(mode="json", exclude=unset))
         session.add(Revision(study_id=study_id, snapshot=snapshot,
                              **revision.model_dump(exclude={"snapshot"})))

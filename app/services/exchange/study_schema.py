@@ -11,8 +11,9 @@ from typing import Any, Final, Literal
 from pydantic import BaseModel, ConfigDict, Field, field_validator, model_validator
 
 from app.db.models import ActionStatus, Receptor
+from app.likelihood.check_base import CauseType
 from app.likelihood.proof_test import Architecture
-from app.likelihood.types import IplType, StepKind
+from app.likelihood.types import IplType, ModifierKind, StepKind
 from app.likelihood.typical import typical_by_key
 from app.services.study.errors import nul_problem
 
@@ -20,8 +21,10 @@ from app.services.study.errors import nul_problem
 # (the file boundary).
 
 FILE_FORMAT: Final = "tallyroom-study"
-SCHEMA_VERSION: Final = 1
-SCHEMA_PATH = "/schema/study-v1.json"
+SCHEMA_VERSION: Final = 2
+SCHEMA_PATH = "/schema/study-v2.json"
+READABLE_VERSIONS: Final = (1, 2)
+"""Version 1 files are upgraded on reading (study_upgrade.upgrade_study_data)."""
 
 
 class FileRow(BaseModel):
@@ -113,6 +116,21 @@ class StepRow(FileRow):
     sil_claimed: int | None = Field(default=None, ge=1, le=4)
     typical_key: str | None = Field(default=None, max_length=60)
     proof_test: ProofTestRecord | None = None
+    # Schema version 2 (issue 9): what the method and the IPL checks need per step.
+    acts_after_sif: bool = False
+    modifier_kind: ModifierKind | None = None
+    receptors: list[Receptor] | None = Field(
+        default=None, description="receptors a modifier applies to; null: its kind's default")
+    cause_type: CauseType | None = None
+    final_element_tag: str = Field(default="", max_length=80)
+    alarm_on_bpcs: bool | None = None
+    crew: str = Field(default="", max_length=80)
+    per_opportunity_probability: float | None = Field(default=None, gt=0, le=1,
+                                                      allow_inf_nan=False)
+    opportunities_per_year: float | None = Field(default=None, gt=0, allow_inf_nan=False)
+    time_available_minutes: float | None = Field(default=None, ge=0, allow_inf_nan=False)
+    time_to_detect_and_act_minutes: float | None = Field(default=None, ge=0,
+                                                         allow_inf_nan=False)
 
     @model_validator(mode="after")
     def probability_at_most_one(self) -> "StepRow":
@@ -150,6 +168,7 @@ class ScenarioRow(FileRow):
     severity: str = Field(description="ref of a people/general severity category")
     environment_severity: str | None = None
     asset_severity: str | None = None
+    people_not_rated: bool = False
     steps: list[StepRow]
     safeguards: list[SafeguardRow] = []
 
@@ -241,8 +260,10 @@ class StudySnapshot(FileRow):
     """A study's content without history: a revision's frozen snapshot (and the file's core)."""
 
     format: Literal["tallyroom-study"] = FILE_FORMAT
-    schema_version: Literal[1] = SCHEMA_VERSION
+    schema_version: Literal[2] = SCHEMA_VERSION
     invented: bool = Field(default=False, description="true for made-up demo data")
+    cautions: str = Field(default="", description="the cautions every export carries; read "
+                                                  "them before using the numbers")
     study: StudyHeader
     severity_categories: list[CategoryRow] = Field(min_length=1)
     nodes: list[NodeRow] = []
@@ -292,7 +313,7 @@ class StudyFile(StudySnapshot):
     Change-log entries may name scenarios deleted since, so their scenario refs may dangle.
     """
 
-    model_config = ConfigDict(extra="forbid", title="Tallyroom study file, schema version 1")
+    model_config = ConfigDict(extra="forbid", title="Tallyroom study file, schema version 2")
 
     change_log: list[ChangeLogRow] = []
     revisions: list[RevisionRow] = []

@@ -6,7 +6,7 @@ from dataclasses import dataclass
 from sqlmodel import Session
 
 from app.db.models import SeverityCategory
-from app.likelihood.types import DemandMode, ScenarioResult, SilStatus
+from app.likelihood.types import DemandMode, SilStatus
 from app.services.risk.charts import (
     GapBarInput,
     GapBars,
@@ -19,6 +19,7 @@ from app.services.risk.charts import (
 )
 from app.services.risk.ipl_checks import ScenarioWarnings, study_warnings
 from app.services.study.listing import NodeTotals, totals_of
+from app.services.study.results import Figures
 from app.services.study.tree import (
     NodeBranch,
     ScenarioBranch,
@@ -47,6 +48,11 @@ class RankedScenario:
     sil_label: str
     spot: WorksheetSpot
     cell: str
+    flagged: bool = False
+    """A check doubts one of its credits (marked ⚑ wherever it is listed)."""
+    demand_rate: float = 0.0
+    demand_formula: str = ""
+    receptor: str = ""
 
 
 @dataclass(frozen=True)
@@ -115,6 +121,8 @@ class RiskPicture:
     sil_needs: tuple[SilNeed, ...]
     sil_counts: tuple[SilBandCount, ...]
     warnings: tuple[ScenarioWarnings, ...]
+    withdrawn: bool = False
+    """Drawn with every credit an IPL check flags withdrawn (PFD 1), not as credited."""
 
 
 BAND_ORDER = ("Below SIL 1", "SIL 1", "SIL 2", "SIL 3", "SIL 4", "Beyond one function")
@@ -126,8 +134,9 @@ def _node_label(node_branch: NodeBranch) -> str:
 
 
 def _ranked(study_id: int, node_branch: NodeBranch, deviation_label: str, item: ScenarioBranch,
-            result: ScenarioResult) -> RankedScenario:
-    scenario, category = item.scenario, item.outcome.governing_category
+            figures: Figures) -> RankedScenario:
+    scenario, result = item.scenario, figures.result
+    category = item.outcome.category_of(figures.governing.receptor)
     assert category is not None and category.id is not None  # a result needs a category
     return RankedScenario(
         scenario_id=scenario.id or 0,
@@ -145,10 +154,16 @@ def _ranked(study_id: int, node_branch: NodeBranch, deviation_label: str, item: 
         sil_label=result.sil_target.label,
         spot=WorksheetSpot(study_id, node_branch.node.id or 0, scenario.id or 0),
         cell=cell_key(category.id, decade_of(result.mitigated_frequency)),
+        flagged=item.outcome.assessment is not None and item.outcome.assessment.withdrawn
+        is not None,
+        demand_rate=result.demand.demand_rate_per_year if result.demand else 0.0,
+        demand_formula=result.demand.formula if result.demand else "",
+        receptor=figures.governing.receptor.value,
     )
 
 
-def _scenarios(tree: StudyTree) -> tuple[list[RankedScenario], list[UnresolvedScenario]]:
+def _scenarios(tree: StudyTree, *, withdrawn: bool
+               ) -> tuple[list[RankedScenario], list[UnresolvedScenario]]:
     ranked, unresolved = [], []
     study_id = tree.study.id or 0
     for node_branch in tree.nodes:
@@ -156,9 +171,9 @@ def _scenarios(tree: StudyTree) -> tuple[list[RankedScenario], list[UnresolvedSc
             deviation = deviation_branch.deviation
             deviation_label = f"{deviation.guideword} {deviation.parameter}"
             for item in deviation_branch.scenarios:
-                result = item.outcome.result
-                if result is not None:
-                    ranked.append(_ranked(study_id, node_branch, deviation_label, item, result))
+                figures = item.outcome.figures(withdrawn=withdrawn)
+                if figures is not None:
+                    ranked.append(_ranked(study_id, node_branch, deviation_label, item, figures))
                     continue
                 scenario = item.scenario
                 unresolved.append(UnresolvedScenario(
@@ -205,13 +220,16 @@ def _band_label(result_label: str, status: SilStatus, sil: int | None) -> str:
     return "Beyond one function" if status is SilStatus.BEYOND_ONE_FUNCTION else result_label
 
 
-def _sil_needs(tree: StudyTree, ranked: list[RankedScenario]) -> list[tuple[SilNeed, str]]:
-    results = {s.scenario.id: s.outcome.result for s in tree.scenario_branches()}
+def _sil_needs(tree: StudyTree, ranked: list[RankedScenario], *, withdrawn: bool
+               ) -> list[tuple[SilNeed, str]]:
+    figures = {s.scenario.id: s.outcome.figures(withdrawn=withdrawn)
+               for s in tree.scenario_branches()}
     needs = []
     for item in ranked:
-        result = results[item.scenario_id]
-        if item.meets or result is None:
+        found = figures[item.scenario_id]
+        if item.meets or found is None:
             continue
+        result = found.result
         target = result.sil_target
         needs.append((SilNeed(
             scenario=item, required_rrf=target.required_rrf, sil_label=target.label,
@@ -229,11 +247,11 @@ def _sil_counts(needs: list[tuple[SilNeed, str]]) -> tuple[SilBandCount, ...]:
     )
 
 
-def build_risk_picture(tree: StudyTree) -> RiskPicture:
-    """Everything the risk picture shows, computed from an already loaded study."""
-    ranked, unresolved = _scenarios(tree)
+def build_risk_picture(tree: StudyTree, *, withdrawn: bool = False) -> RiskPicture:
+    """Everything the risk picture shows, as credited or with flagged credits withdrawn."""
+    ranked, unresolved = _scenarios(tree, withdrawn=withdrawn)
     study_id = tree.study.id or 0
-    needs = _sil_needs(tree, ranked)
+    needs = _sil_needs(tree, ranked, withdrawn=withdrawn)
     return RiskPicture(
         study_id=study_id,
         ranked=tuple(ranked),
@@ -251,6 +269,7 @@ def build_risk_picture(tree: StudyTree) -> RiskPicture:
         sil_needs=tuple(need for need, _ in needs),
         sil_counts=_sil_counts(needs),
         warnings=tuple(study_warnings(tree)),
+        withdrawn=withdrawn,
     )
 
 
@@ -288,10 +307,11 @@ class RiskPage:
     cell_error: str
 
 
-def read_risk_page(*, session: Session, study_id: int, cell: str | None = None) -> RiskPage:
+def read_risk_page(*, session: Session, study_id: int, cell: str | None = None,
+                   withdrawn: bool = False) -> RiskPage:
     """Load and compute the study, then pick out the requested matrix cell if any."""
     tree = load_study_tree(session, study_id)
-    picture = build_risk_picture(tree)
+    picture = build_risk_picture(tree, withdrawn=withdrawn)
     selection, error = None, ""
     if cell:
         try:

@@ -12,12 +12,21 @@ from app.likelihood.numbers import format_number
 from app.likelihood.proof_test import (
     PROOF_TEST_INTERVAL_CAP_HOURS,
     SifInputs,
+    SimplifiedCheck,
     longest_proof_test_interval,
     pfd_avg,
+    simplified_check,
+    storable_pfd,
+)
+from app.likelihood.sif_verification import (
+    SifVerification,
+    Subsystem,
+    SubsystemRole,
+    verify_sif,
 )
 from app.likelihood.sil import HOURS_PER_YEAR, pfd_band
-from app.likelihood.types import StepKind
-from app.services.risk.proof_test_form import ProofTestForm, read_inputs
+from app.likelihood.types import DemandMode, LikelihoodInputError, StepKind
+from app.services.risk.proof_test_form import ProofTestForm, read_inputs, read_subsystems
 from app.services.risk.step_details import StepNeed, StepPlace, locate_step, step_need
 from app.services.study.tree import NotFoundError, get_study
 
@@ -37,6 +46,12 @@ class ProofTestResult:
     meets_target: bool | None
     longest_hours: float | None
     longest_text: str
+    verification: SifVerification | None = None
+    """The function as subsystems: PFDavg their sum, SIL by PFD and by HFT (lower governs)."""
+    simplified: tuple[SimplifiedCheck, ...] = ()
+    """Each subsystem's λDU·T check; a failing one says the equations do not hold."""
+    refusal: str = ""
+    """Why this PFDavg cannot be stored on a step (above 1), else empty."""
 
 
 @dataclass(frozen=True)
@@ -77,17 +92,42 @@ def _longest_text(longest: float | None, target: float) -> str:
     return describe_hours(longest)
 
 
-def calculate(inputs: SifInputs, target: float | None) -> ProofTestResult:
-    """PFDavg by the Annex B equations, its band and RRF, and the inverse for the target."""
-    pfd = pfd_avg(inputs)
-    longest = longest_proof_test_interval(inputs, target) if target is not None else None
+ROLE_ORDER = (SubsystemRole.SENSORS, SubsystemRole.LOGIC_SOLVER, SubsystemRole.FINAL_ELEMENTS)
+
+
+def calculate(inputs: SifInputs, target: float | None,
+              subsystems: dict[str, SifInputs] | None = None,
+              mode: DemandMode = DemandMode.LOW) -> ProofTestResult:
+    """PFDavg by the Annex B equations (summed over the subsystems given), its band and RRF,
+    the SIL by PFD and by HFT, and the inverse for the target (one subsystem only)."""
+    given = subsystems or {"final_elements": inputs}
+    verification = verify_sif([Subsystem(role, given[role.value]) for role in ROLE_ORDER
+                               if role.value in given], mode)
+    pfd = verification.pfd_avg if len(given) > 1 else pfd_avg(inputs)
+    single = len(given) == 1 and target is not None
+    longest = longest_proof_test_interval(inputs, target) if single and target else None
     return ProofTestResult(
         inputs=inputs, pfd=pfd, pfd_text=plain_number(pfd), rrf=1 / pfd,
         band_label=band_label(pfd), target_pfd=target,
         meets_target=None if target is None else pfd <= target,
         longest_hours=longest,
-        longest_text=_longest_text(longest, target) if target is not None else "",
+        longest_text=(_longest_text(longest, target) if single and target is not None
+                      else "not searched for a function of several subsystems"),
+        verification=verification,
+        simplified=tuple(simplified_check(given[r.value]) for r in ROLE_ORDER
+                         if r.value in given),
+        refusal=_refusal(inputs, pfd),
     )
+
+
+def _refusal(inputs: SifInputs, pfd: float) -> str:
+    if pfd <= 1:
+        return ""
+    try:
+        storable_pfd(replace(inputs))  # the engine's rule and sentence for a result above 1
+    except LikelihoodInputError as err:
+        return err.message
+    return f"PFDavg: {plain_number(pfd)} is above 1, so it cannot be a PFD."
 
 
 def _stored_form(step: Step) -> ProofTestForm | None:
@@ -113,7 +153,17 @@ def evaluate(study: Study, form: ProofTestForm, place: StepPlace | None,
              need: StepNeed | None, *, applied: bool = False) -> ProofTestPage:
     """Compute the page for these typed inputs (errors at their fields, nothing saved)."""
     inputs, target, errors = read_inputs(form)
-    result = calculate(inputs, target) if inputs is not None else None
+    if inputs is None:
+        return ProofTestPage(study, form, errors, None, place, need, applied)
+    subsystems, errors = read_subsystems(form, inputs)
+    if errors:
+        return ProofTestPage(study, form, errors, None, place, need, applied)
+    mode = DemandMode.HIGH if need is not None and need.high_demand else DemandMode.LOW
+    try:
+        result = calculate(inputs, target, subsystems, mode)
+    except LikelihoodInputError as err:
+        return ProofTestPage(study, form, {"architecture": err.message}, None, place, need,
+                             applied)
     return ProofTestPage(study, form, errors, result, place, need, applied)
 
 
@@ -171,7 +221,16 @@ def apply_to_step(*, session: Session, study_id: int, step_id: int,
     page = calculate_page(session=session, study_id=study_id, form=form, step_id=step_id)
     if page.result is None or page.place is None:
         return page
+    if page.result.refusal:  # a PFD above 1 is never stored
+        return replace(page, errors={"basis": page.result.refusal})
     step, line = page.place.step, basis_line(page.result.inputs, page.result.pfd)
+    verification = page.result.verification
+    if verification is not None and len(verification.subsystems) > 1:
+        parts = " + ".join(f"{r.subsystem.role.value.replace('_', ' ')} "
+                           f"{r.subsystem.inputs.architecture} {plain_number(r.pfd_avg)}"
+                           for r in verification.subsystems)
+        line = (f"{METHOD}, function as subsystems (shared T1, MTTR, β): {parts} "
+                f"= PFDavg {plain_number(page.result.pfd)}.")
     basis = f"{step.basis.rstrip()}\n{line}" if step.basis.strip() else line
     if len(basis) > BASIS_LIMIT:
         message = (f"Basis: adding the calculation would make the basis {len(basis)} characters, "

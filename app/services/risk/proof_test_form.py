@@ -1,7 +1,7 @@
 """The proof-test calculator's inputs as typed, read into SifInputs with an error per field."""
 
 from collections.abc import Callable
-from dataclasses import dataclass, fields
+from dataclasses import dataclass, fields, replace
 from typing import Any
 
 from app.likelihood.numbers import parse_probability
@@ -32,6 +32,14 @@ class ProofTestForm:
     mttr_hours: str = "8"
     mrt_hours: str = ""
     target_pfd: str = ""
+    proof_test_coverage: str = ""
+    mission_time_years: str = ""
+    sensors_architecture: str = "1oo1"
+    sensors_lambda_du: str = ""
+    sensors_lambda_dd: str = ""
+    logic_architecture: str = "1oo1"
+    logic_lambda_du: str = ""
+    logic_lambda_dd: str = ""
 
     @classmethod
     def from_mapping(cls, data: Any) -> "ProofTestForm":
@@ -105,9 +113,18 @@ _READERS: dict[str, Callable[[ProofTestForm], Any]] = {
     "proof_test_interval_hours": _interval_hours,
     "mttr_hours": lambda f: _hours(f.mttr_hours, "mttr_hours", "MTTR"),
     "mrt_hours": lambda f: _hours(f.mrt_hours, "mrt_hours", "MRT"),
+    "proof_test_coverage": lambda f: _fraction(f.proof_test_coverage, "proof_test_coverage",
+                                               "Proof-test coverage"),
+    "mission_time_hours": lambda f: _years(f.mission_time_years),
 }
+
+
+def _years(text: str) -> float | None:
+    years = _hours(text, "mission_time_years", "Mission time")
+    return None if years is None else years * HOURS_PER_YEAR
 # SifInputs names the interval field by its number of hours; the form field holds the number.
-_FORM_FIELD = {"proof_test_interval_hours": "interval_value"}
+_FORM_FIELD = {"proof_test_interval_hours": "interval_value",
+               "mission_time_hours": "mission_time_years"}
 
 
 def read_inputs(form: ProofTestForm) -> tuple[SifInputs | None, float | None, dict[str, str]]:
@@ -128,6 +145,8 @@ def read_inputs(form: ProofTestForm) -> tuple[SifInputs | None, float | None, di
         return None, target, errors
     if values["mttr_hours"] is None:
         values["mttr_hours"] = 8.0
+    if values["proof_test_coverage"] is None:
+        values["proof_test_coverage"] = 1.0
     try:
         inputs = SifInputs(architecture=_architecture(form.architecture), **values)
     except LikelihoodInputError as err:
@@ -138,7 +157,33 @@ def read_inputs(form: ProofTestForm) -> tuple[SifInputs | None, float | None, di
 
 _LABELS = {"lambda_du": "λDU", "lambda_dd": "λDD", "beta": "β", "beta_d": "βD",
            "interval_value": "Proof-test interval", "mttr_hours": "MTTR", "mrt_hours": "MRT",
-           "architecture": "Architecture"}
+           "architecture": "Architecture", "proof_test_coverage": "Proof-test coverage",
+           "mission_time_years": "Mission time"}
+
+SUBSYSTEM_FIELDS = {"sensors": ("sensors_architecture", "sensors_lambda_du",
+                                "sensors_lambda_dd"),
+                    "logic_solver": ("logic_architecture", "logic_lambda_du", "logic_lambda_dd")}
+"""The form fields of the sensors and the logic solver; the main fields are the final
+elements. A subsystem with a blank λDU is not given (the function is its other parts)."""
+
+
+def read_subsystems(form: ProofTestForm, final: SifInputs
+                    ) -> tuple[dict[str, SifInputs], dict[str, str]]:
+    """Each given subsystem's inputs (testing, repair and common cause as the final
+    elements'), keyed by role, or the error of each bad field."""
+    found, errors = {"final_elements": final}, {}
+    for role, (arch_field, du_field, dd_field) in SUBSYSTEM_FIELDS.items():
+        if not getattr(form, du_field):
+            continue
+        try:
+            found[role] = replace(
+                final, architecture=_architecture(getattr(form, arch_field)),
+                lambda_du=_rate(getattr(form, du_field), du_field, "λDU", blank_is_zero=False),
+                lambda_dd=_rate(getattr(form, dd_field), dd_field, "λDD", blank_is_zero=True))
+        except LikelihoodInputError as err:
+            field = err.step if err.step in (du_field, dd_field) else du_field
+            errors[field] = err.message
+    return found, errors
 
 
 def _named(err: LikelihoodInputError, field: str) -> str:

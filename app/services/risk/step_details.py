@@ -2,7 +2,7 @@
 value and basis; used by the checks and by the proof-test calculator."""
 
 import math
-from dataclasses import dataclass, fields
+from dataclasses import dataclass, field, fields
 from typing import Any
 
 from sqlmodel import Session, col, select
@@ -10,12 +10,22 @@ from sqlmodel.sql.expression import SelectOfScalar
 
 from app.db.models import Deviation, Scenario, SeverityCategory, Step, Study, saved_id, text_limit
 from app.db.queries import fetch_rows_of_study
+from app.likelihood.check_base import CauseType
 from app.likelihood.checks import CheckWarning, check_scenario
-from app.likelihood.types import DemandMode, IplType, StepKind
+from app.likelihood.numbers import parse_frequency, parse_probability
+from app.likelihood.types import (
+    DemandMode,
+    IplType,
+    LikelihoodInputError,
+    ModifierKind,
+    Receptor,
+    StepKind,
+)
 from app.likelihood.typical import TypicalValue, typical_by_key, typical_for_kind
 from app.services.risk.ipl_checks import checked_steps
 from app.services.study.errors import length_problem
 from app.services.study.results import compute_outcome
+from app.services.study.step_fields import receptors_text
 from app.services.study.tree import NotFoundError, WorksheetSpot, get_study
 
 # Any in this module: form readers take raw form values (the form boundary).
@@ -29,6 +39,20 @@ IPL_TYPE_LABELS: dict[IplType, str] = {
     IplType.OTHER: "Other layer",
 }
 SYSTEM_TAG_LIMIT, BASIS_LIMIT = text_limit(Step, "system_tag"), text_limit(Step, "basis")
+TAG_LIMIT, CREW_LIMIT = text_limit(Step, "final_element_tag"), text_limit(Step, "crew")
+MODIFIER_KIND_LABELS: dict[ModifierKind, str] = {
+    ModifierKind.IGNITION: "Ignition (applies to every receptor)",
+    ModifierKind.PRESENCE: "Presence or occupancy (people only)",
+    ModifierKind.VULNERABILITY: "Probability of injury or fatality (people only)",
+    ModifierKind.OTHER: "Other (every receptor unless said)",
+}
+CAUSE_TYPE_LABELS: dict[CauseType, str] = {
+    CauseType.BPCS_FAILURE: "BPCS failure",
+    CauseType.HUMAN_ERROR: "Human error",
+    CauseType.EQUIPMENT_FAILURE: "Equipment failure",
+    CauseType.EXTERNAL_EVENT: "External event",
+    CauseType.OTHER: "Other",
+}
 
 
 @dataclass(frozen=True)
@@ -85,7 +109,9 @@ def step_need(session: Session, place: StepPlace) -> StepNeed | None:
         return None
     target = result.sil_target
     needed = 1 / result.ratio if result.ratio > 1 else None  # at most 1: met without the layer
-    return StepNeed(result.mitigated_frequency, needed, target.demand_mode is DemandMode.HIGH)
+    # The demand on this layer: what reaches it (initiating x enabling x layers before it).
+    demand = result.demand.demand_rate_per_year if result.demand else result.mitigated_frequency
+    return StepNeed(demand, needed, target.demand_mode is DemandMode.HIGH)
 
 
 @dataclass(frozen=True)
@@ -94,26 +120,54 @@ class StepDetailsForm:
 
     ipl_type: str = ""
     system_tag: str = ""
-    response_time_minutes: str = ""
+    time_available_minutes: str = ""
+    time_to_detect_and_act_minutes: str = ""
     sil_claimed: str = ""
     typical_key: str = ""
     basis: str = ""
+    acts_after_sif: str = ""
+    final_element_tag: str = ""
+    alarm_on_bpcs: str = ""
+    crew: str = ""
+    modifier_kind: str = ""
+    receptors: str = ""
+    cause_type: str = ""
+    per_opportunity_probability: str = ""
+    opportunities_per_year: str = ""
 
     @classmethod
     def from_step(cls, step: Step) -> "StepDetailsForm":
-        """The step's stored details as form text."""
-        minutes = step.response_time_minutes
+        """The step's stored details as form text (a time stored by the older single-time
+        field shows as the time available)."""
+        available = step.time_available_minutes
+        if available is None:
+            available = step.response_time_minutes
         return cls(
             ipl_type=step.ipl_type or "", system_tag=step.system_tag,
-            response_time_minutes="" if minutes is None else f"{minutes:g}",
+            time_available_minutes=_text(available),
+            time_to_detect_and_act_minutes=_text(step.time_to_detect_and_act_minutes),
             sil_claimed="" if step.sil_claimed is None else str(step.sil_claimed),
             typical_key=step.typical_key or "", basis=step.basis,
+            acts_after_sif="on" if step.acts_after_sif else "",
+            final_element_tag=step.final_element_tag, crew=step.crew,
+            alarm_on_bpcs={None: "", True: "yes", False: "no"}[step.alarm_on_bpcs],
+            modifier_kind=step.modifier_kind or "", receptors=step.receptors or "",
+            cause_type=step.cause_type or "",
+            per_opportunity_probability=_text(step.per_opportunity_probability),
+            opportunities_per_year=_text(step.opportunities_per_year),
         )
 
     @classmethod
     def from_mapping(cls, data: Any) -> "StepDetailsForm":
-        """Pick the fields out of submitted form data."""
-        return cls(**{f.name: str(data.get(f.name, "")).strip() for f in fields(cls)})
+        """Pick the fields out of submitted form data (receptor boxes joined with commas)."""
+        values = {f.name: str(data.get(f.name, "")).strip() for f in fields(cls)}
+        if hasattr(data, "getlist"):
+            values["receptors"] = ",".join(str(v).strip() for v in data.getlist("receptors"))
+        return cls(**values)
+
+
+def _text(number: float | None) -> str:
+    return "" if number is None else f"{number:g}"
 
 
 @dataclass(frozen=True)
@@ -131,6 +185,10 @@ class StepDetailsPage:
     ipl_types: dict[IplType, str]
     warnings: list[CheckWarning]
     saved: bool = False
+    modifier_kinds: dict[ModifierKind, str] = field(
+        default_factory=lambda: dict(MODIFIER_KIND_LABELS))
+    cause_types: dict[CauseType, str] = field(default_factory=lambda: dict(CAUSE_TYPE_LABELS))
+    receptors: tuple[Receptor, ...] = tuple(Receptor)
 
 
 def _details_page(session: Session, place: StepPlace, form: StepDetailsForm,
@@ -151,16 +209,55 @@ def build_step_details_page(*, session: Session, study_id: int, step_id: int) ->
     return _details_page(session, place, StepDetailsForm.from_step(place.step), {})
 
 
-def _minutes(text: str) -> float | None:
-    if not text:
-        return None
-    try:
-        minutes = float(text)
-    except ValueError:
-        raise ValueError(f"Response time: not a number of minutes (got '{text}').") from None
-    if not (math.isfinite(minutes) and minutes >= 0):
-        raise ValueError(f"Response time: minutes must be 0 or more (got {text}).")
-    return minutes
+def _minutes_of(label: str) -> Any:
+    def read(text: str) -> float | None:
+        if not text:
+            return None
+        try:
+            minutes = float(text)
+        except ValueError:
+            raise ValueError(f"{label}: not a number of minutes (got '{text}').") from None
+        if not (math.isfinite(minutes) and minutes >= 0):
+            raise ValueError(f"{label}: minutes must be 0 or more (got {text}).")
+        return minutes
+    return read
+
+
+def _number_of(label: str, parse: Any) -> Any:
+    """A reader that takes a number as people say it, refusing with the parser's rule."""
+    def read(text: str) -> float | None:
+        if not text:
+            return None
+        try:
+            return float(parse(text).value)
+        except LikelihoodInputError as err:
+            raise ValueError(f"{label}: {err.message}") from None
+    return read
+
+
+def _choice_of(label: str, known: tuple[str, ...]) -> Any:
+    def read(text: str) -> str | None:
+        if not text:
+            return None
+        if text not in known:
+            raise ValueError(f"{label}: unknown choice '{text}' (known: {', '.join(known)}).")
+        return text
+    return read
+
+
+def _receptors(text: str) -> str | None:
+    names = [part.strip() for part in text.split(",") if part.strip()]
+    unknown = [n for n in names if n not in tuple(Receptor)]
+    if unknown:
+        raise ValueError(f"Applies to: unknown receptor '{unknown[0]}' "
+                         f"(known: {', '.join(Receptor)}).")
+    return receptors_text(names)
+
+
+def _yes_no(text: str) -> bool | None:
+    if text not in ("", "yes", "no"):
+        raise ValueError(f"Alarm on the BPCS: say yes, no or leave it blank (got '{text}').")
+    return None if not text else text == "yes"
 
 
 def _sil(text: str) -> int | None:
@@ -204,10 +301,25 @@ def _readers(kind: StepKind) -> dict[str, Any]:
         "basis": lambda t: _form_text(t, BASIS_LIMIT, "Basis"),
     }
     if kind in (StepKind.IPL, StepKind.INITIATING_EVENT):
-        readers["system_tag"] = lambda t: _form_text(t, SYSTEM_TAG_LIMIT, "System or device")
+        readers |= {
+            "system_tag": lambda t: _form_text(t, SYSTEM_TAG_LIMIT, "System or device"),
+            "final_element_tag": lambda t: _form_text(t, TAG_LIMIT, "Final element"),
+            "crew": lambda t: _form_text(t, CREW_LIMIT, "Crew"),
+        }
     if kind is StepKind.IPL:
-        readers |= {"ipl_type": _read_ipl_type, "response_time_minutes": _minutes,
-                    "sil_claimed": _sil}
+        readers |= {"ipl_type": _read_ipl_type, "sil_claimed": _sil,
+                    "time_available_minutes": _minutes_of("Time available"),
+                    "time_to_detect_and_act_minutes": _minutes_of("Time to detect and act"),
+                    "acts_after_sif": lambda t: t == "on", "alarm_on_bpcs": _yes_no}
+    if kind is StepKind.CONDITIONAL_MODIFIER:
+        readers |= {"modifier_kind": _choice_of("Modifier kind", tuple(ModifierKind)),
+                    "receptors": _receptors}
+    if kind is StepKind.INITIATING_EVENT:
+        readers |= {"cause_type": _choice_of("Cause type", tuple(CauseType)),
+                    "per_opportunity_probability": _number_of(
+                        "Probability per opportunity", parse_probability),
+                    "opportunities_per_year": _number_of(
+                        "Opportunities a year", parse_frequency)}
     return readers
 
 

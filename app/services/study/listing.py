@@ -10,6 +10,7 @@ from sqlmodel import Session
 from app.db.models import Scenario, Study
 from app.db.queries import fetch_studies_with_counts
 from app.likelihood.types import ScenarioResult
+from app.services.study.results import Assessment
 from app.services.study.tree import (
     NodeBranch,
     NotFoundError,
@@ -35,7 +36,12 @@ class NodeTotals:
     scenario_count: int
     short_count: int
     unresolved_count: int
+    # Kept for the PDF's study page until issue 12 restructures it; pages show per-category sums.
     summed_frequency: float
+    flagged_count: int = 0
+    """Scenarios with a credit an IPL check doubts."""
+    short_withdrawn_count: int = 0
+    """Scenarios short of target once the flagged credits are withdrawn."""
 
 
 @dataclass(frozen=True)
@@ -52,21 +58,28 @@ def list_studies(*, session: Session) -> list[StudyListing]:
     return [StudyListing(*row) for row in fetch_studies_with_counts(session)]
 
 
-def totals_of_results(results: Sequence[ScenarioResult | None]) -> NodeTotals:
-    """Count and sum scenario results; None stands for a scenario that could not be computed."""
-    computed = [r for r in results if r is not None]
+def _withdrawn_result(assessment: Assessment) -> ScenarioResult:
+    figures = assessment.withdrawn or assessment.as_credited
+    return figures.result
+
+
+def totals_of_results(assessments: Sequence[Assessment | None]) -> NodeTotals:
+    """Count and sum scenario assessments; None stands for one that could not be computed."""
+    computed = [a for a in assessments if a is not None]
     return NodeTotals(
-        scenario_count=len(results),
-        short_count=sum(not r.meets_target for r in computed),
-        unresolved_count=len(results) - len(computed),
+        scenario_count=len(assessments),
+        short_count=sum(not a.as_credited.result.meets_target for a in computed),
+        unresolved_count=len(assessments) - len(computed),
         # fsum is exact, so the sum does not depend on the order the scenarios were read in.
-        summed_frequency=math.fsum(r.mitigated_frequency for r in computed),
+        summed_frequency=math.fsum(a.as_credited.result.mitigated_frequency for a in computed),
+        flagged_count=sum(a.withdrawn is not None for a in computed),
+        short_withdrawn_count=sum(not _withdrawn_result(a).meets_target for a in computed),
     )
 
 
 def totals_of(scenarios: list[ScenarioBranch]) -> NodeTotals:
     """Count and sum a set of scenarios' outcomes."""
-    return totals_of_results([s.outcome.result for s in scenarios])
+    return totals_of_results([s.outcome.assessment for s in scenarios])
 
 
 def node_totals(nodes: list[NodeBranch]) -> dict[int, NodeTotals]:

@@ -1,19 +1,40 @@
-"""Turn stored scenarios into likelihood inputs and computed results."""
+"""Turn stored scenarios into likelihood inputs and computed results.
 
-from collections.abc import Iterable, Mapping
+A scenario is assessed per rated receptor (people, environment, asset): each gets its own
+mitigated frequency, ratio, gap and SIL target, because a conditional modifier reduces only the
+receptors it applies to. The headline (`ScenarioOutcome.result`, its ladder and SIL target) is
+the governing receptor's: the one needing the largest risk reduction. Beside the figures as
+credited stand the figures with every credit an IPL check doubts withdrawn (PFD taken as 1), so
+no headline says "meets target" while the scenario's own checks reject a credit.
+"""
+
+from collections.abc import Callable, Iterable, Mapping, Sequence
 from dataclasses import dataclass
 from functools import lru_cache
-from typing import Protocol, TypeVar
+from typing import Any, Protocol, TypeVar
 
 from app.db.models import Scenario, SeverityCategory, Step
+from app.likelihood.check_base import CheckedStep, CheckWarning
+from app.likelihood.checks import check_scenario
 from app.likelihood.frequency import compute_scenario
-from app.likelihood.types import LikelihoodInputError, ScenarioResult, StepInput, StepKind
+from app.likelihood.receptors import ReceptorAssessment, ReceptorLine, assess_receptors
+from app.likelihood.types import (
+    IplType,
+    LikelihoodInputError,
+    Receptor,
+    ScenarioResult,
+    StepInput,
+    StepKind,
+    modifier_receptors,
+)
+from app.likelihood.withdrawn import withdraw_flagged_credits
+from app.services.study.step_fields import cause_type_of, modifier_kind_of, receptor_set
 
 NO_CATEGORY = "no severity category: no target to compare with"
 
 
 class RatedScenario(Protocol):
-    """What the governing-category rule reads of a scenario (an ORM row or a plain row)."""
+    """What the receptor rules read of a scenario (an ORM row or a plain row)."""
 
     @property
     def severity_category_id(self) -> int | None: ...
@@ -31,7 +52,7 @@ class RatedCategory(Protocol):
 
 
 class StoredStep(Protocol):
-    """What the arithmetic reads of a stored step (an ORM row or a plain row)."""
+    """What the arithmetic and the IPL checks read of a stored step (ORM row or plain row)."""
 
     @property
     def id(self) -> int | None: ...
@@ -51,18 +72,66 @@ Category = TypeVar("Category", bound=RatedCategory)
 
 
 @dataclass(frozen=True)
+class Figures:
+    """One way of crediting a scenario: the governing receptor's result and every line."""
+
+    result: ScenarioResult
+    receptors: ReceptorAssessment
+
+    @property
+    def governing(self) -> ReceptorLine:
+        """The rated receptor needing the largest risk reduction."""
+        return self.receptors.governing
+
+
+@dataclass(frozen=True)
+class Assessment:
+    """A scenario as credited and, when a check doubts a credit, with those credits withdrawn."""
+
+    as_credited: Figures
+    withdrawn: Figures | None
+    warnings: tuple[CheckWarning, ...]
+    withdrawn_labels: tuple[str, ...]
+
+    @property
+    def verdict_changes(self) -> bool:
+        """True when withdrawing the flagged credits turns "meets target" into "short"."""
+        return (self.withdrawn is not None
+                and self.as_credited.result.meets_target != self.withdrawn.result.meets_target)
+
+
+@dataclass(frozen=True)
 class ScenarioOutcome:
-    """A scenario's result, or the reason it could not be computed."""
+    """A scenario's result (the governing receptor's, as credited), or why it has none."""
 
     result: ScenarioResult | None
     governing_category: SeverityCategory | None
     error: str = ""
+    assessment: Assessment | None = None
+    rated: tuple[tuple[Receptor, SeverityCategory], ...] = ()
+    """Each rated receptor's severity category, in receptor order."""
+
+    def figures(self, *, withdrawn: bool) -> Figures | None:
+        """The figures as credited, or with flagged credits withdrawn where a check flags one."""
+        if self.assessment is None:
+            return None
+        if withdrawn and self.assessment.withdrawn is not None:
+            return self.assessment.withdrawn
+        return self.assessment.as_credited
+
+    def category_of(self, receptor: Receptor) -> SeverityCategory | None:
+        """The severity category a rated receptor is judged against."""
+        return dict(self.rated).get(receptor)
 
 
 def governing_category(
     scenario: RatedScenario, categories: Mapping[int, Category]
 ) -> Category | None:
-    """The most demanding (lowest tolerable frequency) of the scenario's severity ratings."""
+    """The strictest (lowest tolerable frequency) of the scenario's severity ratings.
+
+    Used where no arithmetic runs (the criteria page's counts); results use the governing
+    receptor, which also weighs the modifiers each receptor gets.
+    """
     rated = [
         categories[category_id]
         for category_id in (scenario.severity_category_id, scenario.environment_category_id,
@@ -72,46 +141,176 @@ def governing_category(
     return min(rated, key=lambda c: c.tolerable_frequency, default=None)
 
 
+def receptor_categories(
+    scenario: RatedScenario, categories: Mapping[int, Category], *, people_not_rated: bool
+) -> dict[Receptor, Category]:
+    """Each rated receptor's category.
+
+    The main severity rating counts for the receptor its category names (people unless the
+    category says environment or asset), and not at all when people are not rated; the
+    environment and asset ratings count for theirs. Two ratings of one receptor: the stricter.
+    """
+    slots = [(None if people_not_rated else scenario.severity_category_id, None),
+             (scenario.environment_category_id, Receptor.ENVIRONMENT),
+             (scenario.asset_category_id, Receptor.ASSET)]
+    rated: dict[Receptor, Category] = {}
+    for category_id, slot_receptor in slots:
+        category = categories.get(category_id) if category_id is not None else None
+        if category is None:
+            continue
+        receptor = slot_receptor or _receptor_of(category)
+        held = rated.get(receptor)
+        if held is None or category.tolerable_frequency < held.tolerable_frequency:
+            rated[receptor] = category
+    return rated
+
+
+def _receptor_of(category: RatedCategory) -> Receptor:
+    stored = str(getattr(category, "receptor", "") or "")
+    return Receptor(stored) if stored in tuple(Receptor) else Receptor.PEOPLE
+
+
+def _ordered(steps: Iterable[StoredStep]) -> list[StoredStep]:
+    return sorted(steps, key=lambda s: (s.position, s.id or 0))
+
+
 def step_inputs(steps: Iterable[StoredStep]) -> list[StepInput]:
     """Stored steps as pure likelihood inputs, in their stored order."""
-    ordered = sorted(steps, key=lambda s: (s.position, s.id or 0))
-    return [
-        StepInput(kind=s.kind, value=s.value, label=s.description,
-                  credited=s.credited)
-        for s in ordered
-    ]
+    return [s.to_step_input() for s in checked_steps(steps)]
 
 
-# The arithmetic is pure, so results are cached on their inputs: a page that shows a whole
-# study recomputes only the scenarios whose numbers changed since the last view.
+def _ipl_type(stored: str | None) -> IplType | None:
+    # An unknown stored type checks as "no type given" rather than failing the page.
+    return IplType(stored) if stored in tuple(IplType) else None
+
+
+def checked_step(step: StoredStep, cause_system_tag: str = "") -> CheckedStep:
+    """One stored step as the checks and the arithmetic see it."""
+    def read(name: str) -> Any:  # Any: an ORM attribute or a plain row's column
+        return getattr(step, name, None)
+
+    return CheckedStep(
+        kind=step.kind, value=step.value, label=step.description, credited=step.credited,
+        ipl_type=_ipl_type(read("ipl_type")), system_tag=read("system_tag") or "",
+        response_time_minutes=read("response_time_minutes"), sil_claimed=read("sil_claimed"),
+        typical_key=read("typical_key"), cause_system_tag=cause_system_tag,
+        acts_after_sif=bool(read("acts_after_sif")),
+        modifier_kind=modifier_kind_of(read("modifier_kind")),
+        receptors=receptor_set(read("receptors")), cause_type=cause_type_of(read("cause_type")),
+        final_element_tag=read("final_element_tag") or "", alarm_on_bpcs=read("alarm_on_bpcs"),
+        crew=read("crew") or "",
+        per_opportunity_probability=read("per_opportunity_probability"),
+        opportunities_per_year=read("opportunities_per_year"),
+        time_available_minutes=read("time_available_minutes"),
+        time_to_detect_and_act_minutes=read("time_to_detect_and_act_minutes"),
+    )
+
+
+def checked_steps(steps: Iterable[StoredStep]) -> list[CheckedStep]:
+    """Stored steps in order; the initiating event's system_tag names the cause's system."""
+    return [checked_step(s, getattr(s, "system_tag", "") or ""
+                         if s.kind == StepKind.INITIATING_EVENT else "")
+            for s in _ordered(steps)]
+
+
+def steps_for_receptor(steps: Sequence[StepInput], receptor: Receptor) -> list[StepInput]:
+    """The steps that reduce this receptor's frequency: modifiers for other receptors left out."""
+    return [s for s in steps
+            if s.kind != StepKind.CONDITIONAL_MODIFIER or receptor in modifier_receptors(s)]
+
+
+Targets = tuple[tuple[Receptor, float], ...]
+
+
+def _figures(steps: Sequence[StepInput], targets: Targets) -> Figures:
+    receptors = assess_receptors(steps, dict(targets))
+    line = receptors.governing
+    result = compute_cached(tuple(steps_for_receptor(steps, line.receptor)),
+                            line.tolerable_frequency)
+    return Figures(result, receptors)
+
+
+@lru_cache(maxsize=65_536)
+def assess(steps: tuple[CheckedStep, ...], targets: Targets) -> Assessment:
+    """The scenario checked, then computed as credited and with flagged credits withdrawn.
+
+    Cached on its inputs (all frozen): a page showing a whole study recomputes only the
+    scenarios whose numbers changed. Raises LikelihoodInputError for invalid steps.
+    """
+    warnings = tuple(check_scenario(steps))
+    as_credited = _figures([s.to_step_input() for s in steps], targets)
+    flagged = sorted({w.step_index for w in warnings
+                      if w.withdraws_credit and w.step_index is not None})
+    if not flagged:
+        return Assessment(as_credited, None, warnings, ())
+    withdrawn = withdraw_flagged_credits(steps, warnings)
+    return Assessment(as_credited, _figures([s.to_step_input() for s in withdrawn], targets),
+                      warnings, tuple(steps[i].label for i in flagged))
+
+
 @lru_cache(maxsize=65_536)
 def compute_cached(steps: tuple[StepInput, ...], tolerable_frequency: float) -> ScenarioResult:
     """compute_scenario, remembered for identical inputs."""
     return compute_scenario(steps, tolerable_frequency)
 
 
-def result_against(
-    steps: Iterable[StoredStep], tolerable_frequency: float
-) -> tuple[ScenarioResult | None, str]:
-    """The scenario's result against a tolerable frequency, or None and the rule its steps break."""
+def assessment_of(
+    steps: Iterable[StoredStep], targets: Targets
+) -> tuple[Assessment | None, str]:
+    """The scenario's assessment, or None and the message of the rule its steps break."""
+    if not targets:
+        return None, NO_CATEGORY
     try:
-        return compute_cached(tuple(step_inputs(steps)), tolerable_frequency), ""
+        return assess(tuple(checked_steps(steps)), targets), ""
     except LikelihoodInputError as err:
         return None, err.message
 
 
 # Whole-study totals are recomputed after every keystroke. Plain rows read from the database
 # are hashable, so an unchanged scenario costs one lookup here instead of rebuilding its inputs
-# for compute_cached (the rows carry step ids, so two scenarios never share an entry).
-result_of_rows = lru_cache(maxsize=65_536)(result_against)
+# (the rows carry step ids, so two scenarios never share an entry).
+@lru_cache(maxsize=65_536)
+def _assessment_of_row_tuple(steps: tuple[Any, ...], targets: Targets
+                             ) -> tuple[Assessment | None, str]:
+    return assessment_of(steps, targets)
+
+
+def assessment_of_rows(steps: Iterable[StoredStep], targets: Targets
+                       ) -> tuple[Assessment | None, str]:
+    """assessment_of for plain rows, remembered per scenario (rows are hashable)."""
+    return _assessment_of_row_tuple(tuple(steps), targets)
+
+
+Assessor = Callable[[Iterable[StoredStep], Targets], tuple[Assessment | None, str]]
+
+
+def targets_of(rated: Mapping[Receptor, RatedCategory]) -> Targets:
+    """The tolerable frequency of each rated receptor, in receptor order (hashable)."""
+    return tuple((r, float(rated[r].tolerable_frequency)) for r in Receptor if r in rated)
+
+
+def outcome_of(
+    scenario: RatedScenario, steps: Iterable[StoredStep],
+    categories: Mapping[int, Category], *, people_not_rated: bool,
+    assessed: Assessor,
+) -> tuple[Assessment | None, Category | None, str]:
+    """Assess a scenario and name the category of its governing receptor."""
+    rated = receptor_categories(scenario, categories, people_not_rated=people_not_rated)
+    assessment, error = assessed(steps, targets_of(rated))
+    if assessment is None:
+        return None, None, error
+    return assessment, rated[assessment.as_credited.governing.receptor], ""
 
 
 def compute_outcome(
     scenario: Scenario, steps: Iterable[Step], categories: Mapping[int, SeverityCategory]
 ) -> ScenarioOutcome:
-    """Compute one scenario against its governing tolerable frequency."""
-    category = governing_category(scenario, categories)
-    if category is None:
-        return ScenarioOutcome(None, None, NO_CATEGORY)
-    result, error = result_against(steps, category.tolerable_frequency)
-    return ScenarioOutcome(result, category, error)
+    """Compute one scenario per rated receptor; the headline is the governing receptor's."""
+    assessment, category, error = outcome_of(
+        scenario, list(steps), categories, people_not_rated=scenario.people_not_rated,
+        assessed=assessment_of)
+    if assessment is None:
+        return ScenarioOutcome(None, None, error)
+    rated = receptor_categories(scenario, categories, people_not_rated=scenario.people_not_rated)
+    return ScenarioOutcome(assessment.as_credited.result, category, "", assessment,
+                           tuple((r, rated[r]) for r in Receptor if r in rated))

@@ -19,9 +19,8 @@ from app.db.queries import (
     scenario_ratings_of_study,
     step_figures_of_study,
 )
-from app.likelihood.types import ScenarioResult
 from app.services.study.listing import NodeTotals, totals_of_results
-from app.services.study.results import governing_category, result_of_rows
+from app.services.study.results import Assessment, assessment_of_rows, outcome_of
 
 # Any in this module: plain result rows from SQLAlchemy carry no column types (the ORM boundary).
 
@@ -47,23 +46,22 @@ def study_totals(session: Session, study_id: int) -> StudyTotals:
     steps: dict[int, list[Any]] = defaultdict(list)
     for step in fetch_plain_rows(session, step_figures_of_study(study_id)):
         steps[step.scenario_id].append(step)
-    results: dict[int, list[ScenarioResult | None]] = defaultdict(list)
+    results: dict[int, list[Assessment | None]] = defaultdict(list)
     for scenario in fetch_plain_rows(session, scenario_ratings_of_study(study_id)):
         results[scenario.node_id].append(
-            scenario_result(scenario, tuple(steps[scenario.id]), categories))
+            scenario_assessment(scenario, tuple(steps[scenario.id]), categories))
     return totals_by_node(results)
 
 
-def scenario_result(scenario: Any, steps: tuple[Any, ...],
-                    categories: Mapping[int, Any]) -> ScenarioResult | None:
-    """One scenario's result from plain rows (None when it cannot be computed)."""
-    category = governing_category(scenario, categories)
-    if category is None:
-        return None
-    return result_of_rows(steps, category.tolerable_frequency)[0]
+def scenario_assessment(scenario: Any, steps: tuple[Any, ...],
+                        categories: Mapping[int, Any]) -> Assessment | None:
+    """One scenario's assessment from plain rows (None when it cannot be computed)."""
+    return outcome_of(scenario, steps, categories,
+                      people_not_rated=bool(scenario.people_not_rated),
+                      assessed=assessment_of_rows)[0]
 
 
-def totals_by_node(results: Mapping[int, Sequence[ScenarioResult | None]]) -> StudyTotals:
+def totals_by_node(results: Mapping[int, Sequence[Assessment | None]]) -> StudyTotals:
     """Sum the results of each node and of all nodes together."""
     every = [result for node_results in results.values() for result in node_results]
     return StudyTotals({node_id: totals_of_results(node_results)

@@ -5,7 +5,7 @@ from dataclasses import dataclass
 
 from sqlmodel import Session
 
-from app.db.models import DeletedItem, Node, Recommendation, SeverityCategory, Step, Study
+from app.db.models import Node, Recommendation, SeverityCategory, Step, Study
 from app.db.queries import fetch_first_node_id, fetch_node_links, fetch_recommendations_of_node
 from app.likelihood.checks import CheckWarning
 from app.likelihood.numbers import format_number
@@ -29,7 +29,7 @@ from app.services.worksheet.structure import (
     parse_step_value,
     step_label,
 )
-from app.services.worksheet.undo import DeleteCounts, delete_question, last_deleted
+from app.services.worksheet.undo import DeleteCounts, UndoState, delete_question, undo_state
 
 
 @dataclass(frozen=True)
@@ -96,7 +96,7 @@ class WorksheetPage:
     deviations: tuple[DeviationView, ...]
     node_totals: NodeTotals
     study_totals: NodeTotals
-    undo: DeletedItem | None
+    undo: UndoState
     node_delete_question: str
 
 
@@ -141,7 +141,8 @@ def scenario_view(item: ScenarioBranch, number: str, recommendations: tuple[Reco
     return ScenarioView(
         item=item, number=number, steps=_step_rows(item.steps),
         ladder=build_ladder(result) if result is not None else None,
-        warnings=tuple(scenario_warnings(item)),
+        warnings=(item.outcome.assessment.warnings if item.outcome.assessment
+                  else tuple(scenario_warnings(item))),
         recommendations=recommendations,
         delete_question=delete_question("scenario", label, counts), fallback=fallback,
     )
@@ -170,7 +171,8 @@ def node_delete_question(node_branch: NodeBranch) -> str:
     return delete_question("node", node_branch.node.number, counts)
 
 
-def build_worksheet_page(*, session: Session, study_id: int, node_id: int) -> WorksheetPage:
+def build_worksheet_page(*, session: Session, study_id: int, node_id: int,
+                         author: str = "") -> WorksheetPage:
     """The node's deviations and scenarios, every scenario computed, with node and study totals.
 
     Only this node's rows are loaded as objects; the totals come from plain rows.
@@ -186,7 +188,7 @@ def build_worksheet_page(*, session: Session, study_id: int, node_id: int) -> Wo
         study=tree.study, node=node_branch.node, nodes=node_links(session, study_id),
         categories=tuple(tree.categories), deviations=deviations,
         node_totals=totals.of_node(node_id), study_totals=totals.study,
-        undo=last_deleted(session=session, study_id=study_id),
+        undo=undo_state(session=session, study_id=study_id, author=author),
         node_delete_question=node_delete_question(node_branch),
     )
 

@@ -16,10 +16,11 @@ from app.likelihood.types import StepKind
 from app.services.risk.ipl_checks import checked_steps
 from tests.factories import make_scenario_tree, make_step
 
-BPCS = "IEC 61511-1:2016, clause 9.3 (value secondary; clause from memory)"
-INDEPENDENCE = "CCPS, Layer of Protection Analysis (2001), ch. 6 (secondary)"
-OPERATOR = "CCPS, Layer of Protection Analysis (2001), ch. 6 (from memory)"
-SIL_TABLE = "IEC 61511-1:2016, Table 4, low demand (values secondary; table from memory)"
+# What users see: document, edition and clause or table; "verify against your copy" apart.
+BPCS = "IEC 61511-1:2016, clause 9.3"
+INDEPENDENCE = "CCPS, Layer of Protection Analysis (AIChE, 2001), chapter 6"
+OPERATOR = INDEPENDENCE
+SIL_TABLE = "IEC 61511-1:2016, Table 4 (low demand SIL bands)"
 
 IPL = StepKind.IPL
 # rule -> (steps to add to a scenario whose initiating event is tagged DCS-1, source shown)
@@ -71,6 +72,7 @@ def test_each_check_shows_on_the_risk_picture_with_its_source(
     page = unescape(client.get(f"/studies/{scenario.study_id}/risk").text)
     assert rule in _rules_shown(page)
     assert f"Source: {source}" in page
+    assert "(from memory)" not in page  # the status is a marker beside the citation
     assert f'data-scenario="{scenario.id}"' in page
     assert "⚠" in page and "Check: " in page  # an icon and a word, not colour alone
 
@@ -94,7 +96,7 @@ def test_a_rule_of_thumb_says_common_practice_no_source(
               typical_key="freezing_season", description="Winter")
     page = unescape(client.get(f"/studies/{scenario.study_id}/risk").text)
     assert _rules_shown(page) == ["outside_typical_range"]
-    assert ">common practice, no source<" in page
+    assert ">Common practice, no published source<" in page
 
 
 def test_a_clean_scenario_raises_no_warning(client: TestClient, session: Session) -> None:

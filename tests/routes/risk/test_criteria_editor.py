@@ -26,7 +26,8 @@ def three_scenarios(session: Session) -> tuple[Study, SeverityCategory]:
     deviation = make_deviation(session, make_node(session, study))
     for pfd in (0.01, 0.001, 0.00001):
         scenario = make_scenario(session, deviation)  # IE 0.1 /yr
-        make_step(session, scenario, value=pfd, description="Relief valve")
+        make_step(session, scenario, value=pfd, description="Relief valve",
+                  ipl_type="relief_device")
     return study, first_category(session, study)
 
 

@@ -216,3 +216,80 @@ def test_a_layer_with_demand_above_once_a_year_is_flagged_high_demand(
                       params={"step_id": step.id}).text
     assert "High demand:" in page and "3.0e0 per year" in page
 
+
+
+# Issue 9: subsystems, the SIL by HFT, coverage and mission time, a PFD above 1.
+HOURS_PER_YEAR = 8760  # a year is 8760 h
+
+
+def _one_channel(lambda_du: float, t1: float = 8760.0, mrt: float = 8.0) -> float:
+    """1oo1 with λDD = 0: PFDavg = λDU (T1/2 + MRT) (IEC 61508-6:2010 B.3.2.2; from memory)."""
+    return lambda_du * (t1 / 2 + mrt)
+
+
+def _subsystems(du_sensors: str, du_logic: str, du_final: str) -> dict[str, str]:
+    return {**REFERENCE_1OO1, "lambda_du": du_final, "sensors_architecture": "1oo1",
+            "sensors_lambda_du": du_sensors, "logic_architecture": "1oo1",
+            "logic_lambda_du": du_logic}
+
+
+def test_the_function_pfd_is_the_sum_of_its_subsystems(
+    client: TestClient, session: Session
+) -> None:
+    """Sensors 1e-6, logic solver 1e-7, final elements 5e-7 /h, each 1oo1, T1 = 8760 h.
+
+    By hand: 4.388e-3 + 4.388e-4 + 2.194e-3 = 7.0208e-3 -> SIL 2 by PFD ([1e-3, 1e-2),
+    IEC 61511-1:2016 Table 4; values secondary); HFT 0 allows SIL 2 in low demand (IEC
+    61511-1:2016, 11.4, Table 6; from memory), so SIL 2 stands.
+    """
+    study_id = make_scenario_tree(session).study_id
+    page = unescape(client.post(f"/studies/{study_id}/proof-test",
+                                data=_subsystems("1e-6", "1e-7", "5e-7")).text)
+    expected = _one_channel(1e-6) + _one_channel(1e-7) + _one_channel(5e-7)
+    assert expected == pytest.approx(7.0208e-3, rel=1e-12)
+    assert _pfd(page) == pytest.approx(expected, rel=1e-12)
+    assert 'id="function-pfd">7.0e-3<' in page
+    assert 'id="sil-by-pfd">SIL 2<' in page and 'id="sil-supported-value">SIL 2<' in page
+    assert "Systematic capability" in page and "verify against your copy" in page
+
+
+def test_hardware_fault_tolerance_caps_the_sil(client: TestClient, session: Session) -> None:
+    """Three 1oo1 subsystems at 1e-8 /h: 3 x 4.388e-5 = 1.3164e-4 -> SIL 3 by PFD, but
+    SIL 3 needs HFT 1 (IEC 61511-1:2016, 11.4, Table 6; from memory): HFT 0 caps it at SIL 2."""
+    study_id = make_scenario_tree(session).study_id
+    page = unescape(client.post(f"/studies/{study_id}/proof-test",
+                                data=_subsystems("1e-8", "1e-8", "1e-8")).text)
+    assert _pfd(page) == pytest.approx(3 * _one_channel(1e-8), rel=1e-12)
+    assert 'id="sil-by-pfd">SIL 3<' in page and 'id="sil-by-hft">SIL 2<' in page
+    assert "SIL 2 <small>capped by HFT</small>" in page
+
+
+def test_coverage_and_mission_time_add_the_untested_share(
+    client: TestClient, session: Session
+) -> None:
+    """PTC 90 %, mission 20 years: 0.9·λDU(T1/2 + MRT) + 0.1·λDU(TM/2 + MRT) (the form of
+    ISA-TR84.00.02; from memory) = 1.9746e-3 + 4.3804e-3 = 6.355e-3."""
+    study_id = make_scenario_tree(session).study_id
+    data = {**REFERENCE_1OO1, "proof_test_coverage": "90%", "mission_time_years": "20"}
+    page = client.post(f"/studies/{study_id}/proof-test", data=data).text
+    mission = 20 * HOURS_PER_YEAR
+    expected = 0.9 * _one_channel(5e-7) + 0.1 * _one_channel(5e-7, t1=mission)
+    assert _pfd(page) == pytest.approx(expected, rel=1e-12)
+
+
+def test_a_pfd_above_1_is_shown_refused_and_never_stored(
+    client: TestClient, session: Session
+) -> None:
+    """λDU 1e-3 /h over 10 years: λDU·T1 = 87.6, far from small (limit 0.1; common practice,
+    no source); the linear form gives 1e-3 x 43,808 = 43.8, which is no probability."""
+    step = _sif_step(session)
+    data = {**REFERENCE_1OO1, "lambda_du": "1e-3", "interval_value": "10",
+            "interval_unit": "years", "step_id": str(step.id)}
+    page = unescape(client.post(f"/studies/{step.study_id}/proof-test", data=data).text)
+    assert "data-simplified-warning" in page and "not small compared with 1" in page
+    assert 'id="pfd-refusal"' in page and 'id="apply-pfd"' not in page
+    response = client.post(f"/studies/{step.study_id}/proof-test/apply", data=data)
+    assert response.status_code == 422
+    assert "above 1" in unescape(response.text)
+    session.refresh(step)
+    assert step.value == 0.1 and step.proof_test is None

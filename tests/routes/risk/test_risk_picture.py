@@ -36,11 +36,13 @@ def built_case(session: Session) -> dict[str, object]:
     # 0.1 x 0.01 = 1e-3 /yr against 1e-5: gap +2.0, RRF 100 -> SIL 1 (RRF 100 is SIL 1).
     first = make_scenario(session, more_level, cause="Valve A fails",
                           severity_category_id=fatality.id)
-    make_step(session, first, value=0.01, description="Relief valve")
+    make_step(session, first, value=0.01, description="Relief valve",
+              ipl_type="relief_device")
     # 0.2 x 0.01 = 2e-3 /yr against 1e-5: gap log10(200) = +2.3, RRF 200 -> SIL 2.
     second = make_scenario(session, more_level, cause="Valve B fails",
                            initiating_frequency=0.2, severity_category_id=fatality.id)
-    make_step(session, second, value=0.01, description="Relief valve")
+    make_step(session, second, value=0.01, description="Relief valve",
+              ipl_type="relief_device")
     # 1e-4 /yr against 1e-3: gap -1.0, meets target.
     third = make_scenario(session, low_flow, cause="Hose splits", initiating_frequency=1e-4,
                           severity_category_id=spill.id)
@@ -58,15 +60,18 @@ def test_scenarios_are_ranked_by_gap_largest_first_with_links_to_the_worksheet(
     rows = [[r[0], r[3].split(" → ")[0], r[4], r[5], r[6], r[7], r[8], r[9]]
             for r in table_rows(page, "ranked-table")[1:]]
     assert rows == [
-        ["1", "Valve B fails", "Fatality", "2.0e-3", "1.0e-5", "+2.3", "SIL 2", "▲ short"],
-        ["2", "Valve A fails", "Fatality", "1.0e-3", "1.0e-5", "+2.0", "SIL 1", "▲ short"],
-        ["3", "Hose splits", "Spill", "1.0e-4", "1.0e-3", "-1.0", "None needed", "● meets"],
+        ["1", "Valve B fails", "Fatality (people)", "2.0e-3", "1.0e-5", "+2.3", "SIL 2",
+         "▲ short"],
+        ["2", "Valve A fails", "Fatality (people)", "1.0e-3", "1.0e-5", "+2.0", "SIL 1",
+         "▲ short"],
+        ["3", "Hose splits", "Spill (environment)", "1.0e-4", "1.0e-3", "-1.0", "None needed",
+         "● meets"],
     ]
     assert f'href="/studies/{study.id}/nodes/{node_1.id}#scenario-{second.id}"' in page
     assert f'href="/studies/{study.id}/nodes/{node_2.id}#scenario-{third.id}"' in page
 
 
-def test_summed_mitigated_frequency_per_category_and_per_node(
+def test_summed_mitigated_frequency_per_category_and_counts_per_node(
     client: TestClient, session: Session
 ) -> None:
     study = built_case(session)["study"]
@@ -76,9 +81,10 @@ def test_summed_mitigated_frequency_per_category_and_per_node(
         ["Fatality", "people", "1.0e-5", "2", "2", "3.0e-3"],
         ["Spill", "environment", "1.0e-3", "1", "0", "1.0e-4"],
     ]
+    # Per node: counts only (a sum across categories would add unlike consequences).
     assert table_rows(page, "node-table")[1:] == [
-        ["1 Feed drum", "2", "2", "0", "3.0e-3"],
-        ["2 Tank farm", "1", "0", "0", "1.0e-4"],
+        ["1 Feed drum", "2", "2", "0", "2"],
+        ["2 Tank farm", "1", "0", "0", "0"],
     ]
 
 
@@ -157,7 +163,7 @@ def test_added_functions_are_counted_per_sil_band(client: TestClient, session: S
     assert counts == {"Below SIL 1": ("0", "0"), "SIL 1": ("1", "0"), "SIL 2": ("1", "0"),
                       "SIL 3": ("0", "0"), "SIL 4": ("0", "0"),
                       "Beyond one function": ("0", "0")}
-    needs = [row[1:] for row in table_rows(page, "sil-needs-table")[1:]]
+    needs = [row[1:7] for row in table_rows(page, "sil-needs-table")[1:]]
     # RRF 200 and 100; target PFD 1/RRF; low demand (demand at most once a year).
     assert needs == [["2.0e-3", "2.0e2", "low demand", "SIL 2", "5.0e-3", "—"],
                      ["1.0e-3", "1.0e2", "low demand", "SIL 1", "1.0e-2", "—"]]
@@ -178,7 +184,8 @@ def test_a_demand_above_once_a_year_gives_a_high_demand_pfh_target(
     assert scenario.id is not None
     page = client.get(f"/studies/{study.id}/risk").text
     need = table_rows(page, "sil-needs-table")[1]
-    assert need[1:] == ["5.0e0", "5.0e3", "high demand", "SIL 2", "—", "1.1e-7"]
+    assert need[1:7] == ["5.0e0", "5.0e3", "high demand", "SIL 2", "—", "1.1e-7"]
+    assert need[7] == "High demand (5.0e0/yr > 1/yr): PFH = 1.0e-3 ÷ (8760 h x 1.0e0) = 1.1e-7/h"
     counts = {row[0]: (row[1], row[2]) for row in table_rows(page, "sil-count-table")[1:]}
     assert counts["SIL 2"] == ("0", "1")
 
@@ -210,3 +217,28 @@ def test_the_demo_study_risk_picture_adds_up(client: TestClient, demo_study: Stu
 
 def test_an_unknown_study_has_no_risk_picture(client: TestClient, session: Session) -> None:
     assert client.get("/studies/999/risk").status_code == 404
+
+
+def test_the_picture_drawn_with_flagged_credits_withdrawn_changes_the_headline(
+    client: TestClient, session: Session
+) -> None:
+    """A BPCS layer credited at PFD 0.01 (better than 0.1 needs a BPCS designed to IEC 61511;
+    IEC 61511-1:2016, clause 9.3) on 1e-4 /yr against 1e-5 /yr.
+
+    As credited: 1e-4 x 0.01 = 1e-6 /yr, meets (gap -1.0). Withdrawn (PFD 1): 1e-4 /yr, gap
+    +1.0, RRF 10 -> below SIL 1 (RRF 10 needs no SIF band; IEC 61511-1:2016 Table 4).
+    """
+    study, _, _ = _study(session)
+    deviation = make_deviation(session, make_node(session, study))
+    scenario = make_scenario(session, deviation, cause="Feed valve opens",
+                             initiating_frequency=1e-4)
+    make_step(session, scenario, value=0.01, description="DCS trip", ipl_type="bpcs",
+              system_tag="DCS-2")
+    credited = client.get(f"/studies/{study.id}/risk").text
+    withdrawn = client.get(f"/studies/{study.id}/risk?credits=withdrawn").text
+    row = table_rows(credited, "ranked-table")[1]
+    assert row[3].startswith("⚑ Feed valve opens") and row[7:] == ["-1.0", "None needed",
+                                                                   "● meets"]
+    row = table_rows(withdrawn, "ranked-table")[1]
+    assert row[5:] == ["1.0e-4", "1.0e-5", "+1.0", "Below SIL 1 (RRF ≤ 10)", "▲ short"]
+    assert 'data-drawn="withdrawn"' in withdrawn and 'data-drawn="as-credited"' in credited

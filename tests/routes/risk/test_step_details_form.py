@@ -13,7 +13,8 @@ from tests.factories import make_scenario_tree, make_step
 from tests.helpers import HX
 
 VALID = {"ipl_type": "operator_response", "system_tag": "Control room panel",
-         "response_time_minutes": "15", "sil_claimed": "", "typical_key": "operator_response",
+         "time_available_minutes": "15", "time_to_detect_and_act_minutes": "5",
+         "sil_claimed": "", "typical_key": "operator_response",
          "basis": "Alarm LAH-4010 with 20 min to overflow (invented)."}
 
 
@@ -32,10 +33,12 @@ def _error(page: str, field: str) -> str:
 
 def test_an_ipl_shows_every_detail_field(client: TestClient, session: Session) -> None:
     page = client.get(_url(_ipl(session))).text
-    for field in ("ipl_type", "system_tag", "response_time_minutes", "sil_claimed",
+    for field in ("ipl_type", "system_tag", "time_available_minutes",
+                  "time_to_detect_and_act_minutes", "acts_after_sif", "final_element_tag",
+                  "alarm_on_bpcs", "crew", "sil_claimed",
                   "typical_key", "basis"):
         assert f'name="{field}"' in page
-    assert "Relief valve: 1.0e-5 to 1.0e-1, usually 1.0e-2" in page  # typical rows for IPLs
+    assert "Relief valve: 1.0e-5 to 1.0e-1, example value 1.0e-2" in page  # typical rows for IPLs
     assert "Pump seal failure" not in page  # initiating-event rows are not offered
 
 
@@ -47,7 +50,7 @@ def test_an_initiating_event_offers_its_system_and_typical_value(
     page = client.get(_url(cause)).text
     assert "System or device whose failure is the cause" in page
     assert 'name="ipl_type"' not in page and 'name="sil_claimed"' not in page
-    assert "Pump seal failure: 1.0e-2 to 1.0e-1, usually 1.0e-1" in page
+    assert "Pump seal failure: 1.0e-2 to 1.0e-1, example value 1.0e-1" in page
 
 
 def test_valid_details_are_saved(client: TestClient, session: Session) -> None:
@@ -55,12 +58,14 @@ def test_valid_details_are_saved(client: TestClient, session: Session) -> None:
     response = client.post(_url(step), data=VALID)
     assert response.status_code == 200 and "✓ Saved." in response.text
     session.refresh(step)
-    assert (step.ipl_type, step.system_tag, step.response_time_minutes, step.sil_claimed,
-            step.typical_key) == ("operator_response", "Control room panel", 15.0, None,
-                                  "operator_response")
+    assert (step.ipl_type, step.system_tag, step.time_available_minutes,
+            step.time_to_detect_and_act_minutes, step.sil_claimed, step.typical_key) == (
+        "operator_response", "Control room panel", 15.0, 5.0, None, "operator_response")
     assert step.basis == VALID["basis"]
-    assert "Source: CCPS, Layer of Protection Analysis (2001), ch. 6 (from memory)." in (
-        unescape(response.text))  # the chosen typical row's range and source
+    shown = unescape(response.text)
+    # The chosen typical row's source: document, edition, chapter; the status apart.
+    assert "Source: CCPS, Layer of Protection Analysis (AIChE, 2001), chapter 6." in shown
+    assert 'data-verify>verify against your copy<' in shown and "(from memory)" not in shown
 
 
 def test_htmx_gets_the_form_fragment_only(client: TestClient, session: Session) -> None:
@@ -74,8 +79,10 @@ def test_htmx_gets_the_form_fragment_only(client: TestClient, session: Session) 
 @pytest.mark.parametrize(
     ("field", "typed", "message"),
     [
-        ("response_time_minutes", "soon", "Response time: not a number of minutes (got 'soon')."),
-        ("response_time_minutes", "-5", "Response time: minutes must be 0 or more (got -5)."),
+        ("time_available_minutes", "soon",
+         "Time available: not a number of minutes (got 'soon')."),
+        ("time_to_detect_and_act_minutes", "-5",
+         "Time to detect and act: minutes must be 0 or more (got -5)."),
         ("sil_claimed", "5", "SIL claimed: a SIL runs from 1 to 4 (got '5')."),
         ("ipl_type", "wishful", "Layer type: unknown type 'wishful'"),
         ("typical_key", "unicorn", "Typical value: no typical-value row 'unicorn'."),
@@ -124,3 +131,41 @@ def test_an_ipl_links_to_the_proof_test_calculator(client: TestClient, session: 
     page = client.get(_url(step)).text
     assert f"/proof-test?step_id={step.id}" in page
     assert step.kind == StepKind.IPL
+
+
+def test_a_modifier_says_its_kind_and_receptors(client: TestClient, session: Session) -> None:
+    step = make_step(session, make_scenario_tree(session), kind=StepKind.CONDITIONAL_MODIFIER,
+                     value=0.5, description="Operator present")
+    response = client.post(_url(step), data={"modifier_kind": "presence",
+                                             "receptors": ["people", "asset"], "basis": ""})
+    assert response.status_code == 200
+    session.refresh(step)
+    assert (step.modifier_kind, step.receptors) == ("presence", "people,asset")
+
+
+def test_a_cause_takes_its_type_and_a_per_task_value_as_people_say_it(
+    client: TestClient, session: Session
+) -> None:
+    scenario = make_scenario_tree(session)
+    cause = session.exec(select(Step).where(Step.scenario_id == scenario.id)).one()
+    response = client.post(_url(cause), data={
+        "cause_type": "human_error", "per_opportunity_probability": "1 in 100",
+        "opportunities_per_year": "52", "crew": "Shift A", "basis": ""})
+    assert response.status_code == 200
+    session.refresh(cause)
+    assert (cause.cause_type, cause.per_opportunity_probability, cause.opportunities_per_year,
+            cause.crew) == ("human_error", 0.01, 52.0, "Shift A")
+    bad = client.post(_url(cause), data={"per_opportunity_probability": "0,01"})
+    assert bad.status_code == 422
+    assert "Use a dot for decimals" in _error(bad.text, "per_opportunity_probability")
+
+
+def test_a_layer_can_act_after_an_added_sif(client: TestClient, session: Session) -> None:
+    step = _ipl(session)
+    client.post(_url(step), data={**VALID, "ipl_type": "passive", "typical_key": "",
+                                  "acts_after_sif": "on"})
+    session.refresh(step)
+    assert step.acts_after_sif is True
+    client.post(_url(step), data={**VALID, "ipl_type": "passive", "typical_key": ""})
+    session.refresh(step)
+    assert step.acts_after_sif is False

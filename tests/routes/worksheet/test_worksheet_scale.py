@@ -22,7 +22,6 @@ from sqlmodel import Session, select
 
 from app.db.models import Deviation, Node, Safeguard, Scenario, Step, Study
 from app.likelihood.types import StepKind
-from app.routes.rendering import sci
 from app.services.exchange.study_import import import_study_text
 from app.services.study.listing import NodeTotals, totals_of
 from app.services.study.totals import study_totals
@@ -225,10 +224,10 @@ def as_shown(node: NodeTotals, study: NodeTotals) -> dict[str, str]:
     return {
         "Node scenarios": str(node.scenario_count),
         "Node short of target": str(node.short_count),
-        "Node summed mitigated": f"{sci(node.summed_frequency)} /yr",
+        "Node short with flagged credits withdrawn": str(node.short_withdrawn_count),
         "Study scenarios": str(study.scenario_count),
         "Study short of target": str(study.short_count),
-        "Study summed mitigated": f"{sci(study.summed_frequency)} /yr",
+        "Study short with flagged credits withdrawn": str(study.short_withdrawn_count),
     }
 
 

@@ -84,7 +84,8 @@ def test_the_reply_is_the_recomputed_scenario_with_the_totals_out_of_band(
     assert shown["sil"] == "Below SIL 1 (RRF ≤ 10)"
     for element_id in (f"step-{layer.id}-value_text-said", "node-totals", "study-totals"):
         assert attrs_of(html, element_id)["hx-swap-oob"] == "true"
-    assert text_of(html, "node-totals").endswith("Node summed mitigated 1.0e-4 /yr")
+    assert text_of(html, "node-totals").endswith(
+        "Node short of target 1 Node short with flagged credits withdrawn 1")
     assert 'id="step-' + str(layer.id) + '-value_text"' not in html  # the box is never swapped
 
 
@@ -112,7 +113,8 @@ def test_bad_input_is_refused_with_the_rule_and_nothing_is_saved(
     assert text_of(response.text, f"scenario-{layer.scenario_id}-results").startswith(
         "High level trip: using last valid value 1.0e-1")
     assert text_of(response.text, "node-totals").endswith(
-        "Node summed mitigated 1.0e-2 /yr Totals High level trip: using last valid value 1.0e-1")
+        "Node short with flagged credits withdrawn 1 "
+        "Totals High level trip: using last valid value 1.0e-1")
 
 
 @pytest.mark.parametrize(("text", "rule_words"), [

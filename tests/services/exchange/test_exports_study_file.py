@@ -73,8 +73,8 @@ def test_hostile_text_is_exact_in_the_file_and_survives_a_round_trip(session: Se
 def test_the_served_schema_document_describes_the_file(session: Session) -> None:
     schema = study_json_schema()
     assert schema["$schema"] == "https://json-schema.org/draft/2020-12/schema"
-    assert schema["$id"] == "/schema/study-v1.json"
-    assert schema["properties"]["schema_version"]["const"] == 1
+    assert schema["$id"] == "/schema/study-v2.json"
+    assert schema["properties"]["schema_version"]["const"] == 2
     assert set(schema["required"]) == {"study", "severity_categories"}
     assert schema["$defs"]["ScenarioRow"]["properties"]["cause"]["maxLength"] == 2000
     assert schema == StudyFile.model_json_schema() | {k: schema[k] for k in ("$schema", "$id")}
@@ -99,7 +99,7 @@ SCENARIO = "nodes.0.deviations.0.scenarios.0"
 
 REFUSALS = [
     ("format", "not-a-study", "not a Tallyroom study file"),
-    ("schema_version", 2, "schema_version 2 is not supported"),
+    ("schema_version", 3, "schema_version 3 is not supported"),
     ("study.title", "", "study.title: String should have at least 1 character"),
     (f"{SCENARIO}.steps.1.value", 1.5, "a probability must be at most 1"),
     (f"{SCENARIO}.steps.0.kind", "ipl", "a scenario needs exactly one initiating event"),
