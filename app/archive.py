@@ -5,9 +5,11 @@ Each member is the same study file the JSON export writes (schema version 1), so
 `_study_file` only.
 """
 
+import io
 import os
 import zipfile
 from pathlib import Path
+from typing import BinaryIO
 
 from sqlmodel import Session, select
 
@@ -39,14 +41,27 @@ def _readme(names: list[str]) -> str:
 
 def write_all_studies(session: Session, out: Path) -> list[str]:
     """Write every study into the zip `out` (replaced whole at the end); return the names."""
-    studies = session.exec(select(Study).order_by(Study.id)).all()  # type: ignore[arg-type]
     partial = out.with_name(out.name + ".partial")
+    with partial.open("wb") as target:
+        names = _write_archive(session, target)
+    os.replace(partial, out)
+    return names
+
+
+def all_studies_archive(session: Session) -> tuple[bytes, list[str]]:
+    """The same archive in memory, for the "export all studies" page's download."""
+    buffer = io.BytesIO()
+    names = _write_archive(session, buffer)
+    return buffer.getvalue(), names
+
+
+def _write_archive(session: Session, target: BinaryIO) -> list[str]:
+    studies = session.exec(select(Study).order_by(Study.id)).all()  # type: ignore[arg-type]
     names: list[str] = []
-    with zipfile.ZipFile(partial, "w", compression=zipfile.ZIP_DEFLATED) as archive:
+    with zipfile.ZipFile(target, "w", compression=zipfile.ZIP_DEFLATED) as archive:
         for study in studies:
             name, content = _study_file(session, study)
             archive.writestr(f"{STUDY_FOLDER}/{name}", content)
             names.append(name)
         archive.writestr("README.txt", _readme(names))
-    os.replace(partial, out)
     return names

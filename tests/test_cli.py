@@ -8,10 +8,11 @@ from sqlmodel import Session, select
 
 from app.cli import main
 from app.db.models import Study
+from app.routes.rendering import CAUTIONS
 from app.services.exchange.exports import study_json_bytes
 from app.services.exchange.study_file import export_study
 from tests.factories import make_scenario_tree, make_study
-from tests.samples import study_count
+from tests.samples import free_the_title, study_count
 
 
 @pytest.fixture
@@ -40,7 +41,8 @@ def test_export_finds_a_study_by_its_exact_title_and_writes_the_study_file(
 ) -> None:
     out = tmp_path / "by-title.json"
     assert main(["export", study.title, "--format", "json", "--out", str(out)]) == 0
-    assert out.read_bytes() == study_json_bytes(export_study(session, study.id or 0))
+    expected = {**export_study(session, study.id or 0), "cautions": CAUTIONS}
+    assert out.read_bytes() == study_json_bytes(expected)
 
 
 def test_export_without_out_uses_the_download_name_in_the_current_folder(
@@ -90,6 +92,7 @@ def test_import_prints_the_new_id_and_the_new_study_exports_the_same_file(
     original = study_json_bytes(export_study(session, study.id or 0))
     path = tmp_path / "study.json"
     path.write_bytes(original)
+    free_the_title(session, study)
     assert main(["import", str(path)]) == 0
     new_id = int(capsys.readouterr().out)
     assert new_id != study.id

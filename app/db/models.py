@@ -318,7 +318,7 @@ class Revision(SQLModel, table=True):
 
 
 class DeletedItem(SQLModel, table=True):
-    """What a delete removed, kept so the last delete can be undone."""
+    """What a delete removed, kept so its author can undo it (newest first, per person)."""
 
     __tablename__ = "deleted_item"
     id: int | None = Field(default=None, primary_key=True)
@@ -328,6 +328,109 @@ class DeletedItem(SQLModel, table=True):
     entity: str = Field(max_length=40)
     label: str = Field(default="", max_length=300)
     payload: str = Field(sa_column=Column(Text, nullable=False))
+    # Why an undo could not bring it back (empty: it can be tried); such an item no longer
+    # stands in the way of its author's older deletes.
+    blocked_reason: str = Field(default="", max_length=500,
+                                sa_column_kwargs={"server_default": ""})
+
+
+class FieldEdit(SQLModel, table=True):
+    """The newest keystroke sequence number one page has sent for one field, and its text.
+
+    Compared and set in the same transaction as the value (`services/study/conflicts.py`), so
+    an older keystroke never overwrites a newer one, whichever worker or thread serves it.
+    `written` is the text this page last saved in the field: a save that finds the field
+    holding it is building on its own edit, not on someone else's.
+    """
+
+    __tablename__ = "field_edit"
+    study_id: int = _study_fk()
+    entity: str = Field(max_length=40, primary_key=True)
+    row_id: int = Field(primary_key=True)
+    field: str = Field(max_length=60, primary_key=True)
+    client: str = Field(max_length=64, primary_key=True)
+    seq: int = 0
+    written: str | None = Field(default=None, sa_column=Column(Text, nullable=True))
+
+
+class RoundState(StrEnum):
+    """Where an estimate round stands: answers hidden, shown to the room, or agreed."""
+
+    OPEN = "open"
+    REVEALED = "revealed"
+    AGREED = "agreed"
+
+
+class EstimateRound(SQLModel, table=True):
+    """One private round of estimates on a step's value or a word, and its outcome.
+
+    Not a TrackedRow: rounds and estimates stay out of the change log, which editors read
+    while a round is open; agreeing writes the step, and that edit is logged.
+    """
+
+    __tablename__ = "estimate_round"
+    id: int | None = Field(default=None, primary_key=True)
+    study_id: int = _study_fk()
+    # A round is on a step's value, or (step None) on a word of the team's word scale.
+    step_id: int | None = Field(default=None, foreign_key="step.id", ondelete="CASCADE",
+                                index=True)
+    word: str | None = Field(default=None, max_length=60)
+    number: int = Field(ge=1)
+    question: str = Field(min_length=1, max_length=300)
+    unit: str = Field(max_length=20)
+    state: RoundState = Field(default=RoundState.OPEN, sa_type=AutoString(length=20))
+    names_shown: bool = True
+    opened_by: str = Field(default="", max_length=120)
+    created_at: datetime = Field(default_factory=utc_now, nullable=False)
+    updated_at: datetime = Field(default_factory=utc_now, nullable=False)
+    agreed_method: str | None = Field(default=None, max_length=20)
+    agreed_value: float | None = Field(default=None, gt=0)
+    agreed_basis: str = Field(default="", max_length=2000)
+
+
+class RoundEstimate(SQLModel, table=True):
+    """One person's estimate in one round; `session_id` is the device that gave it ('' for
+    the scribe typing it), so only that device may change it."""
+
+    __tablename__ = "round_estimate"
+    __table_args__ = (Index("uq_round_estimate_person", "round_id", "person", unique=True),)
+    id: int | None = Field(default=None, primary_key=True)
+    study_id: int = _study_fk()
+    round_id: int = Field(foreign_key="estimate_round.id", ondelete="CASCADE", index=True)
+    person: str = Field(min_length=1, max_length=120)
+    value: float = Field(gt=0)
+    value_text: str = Field(default="", max_length=100)
+    entered_by: str = Field(default="self", max_length=10)
+    session_id: str = Field(default="", max_length=100)
+    updated_at: datetime = Field(default_factory=utc_now, nullable=False)
+
+
+class RoundDissent(SQLModel, table=True):
+    """A person who does not accept a round's agreed value, and why."""
+
+    __tablename__ = "round_dissent"
+    id: int | None = Field(default=None, primary_key=True)
+    study_id: int = _study_fk()
+    round_id: int = Field(foreign_key="estimate_round.id", ondelete="CASCADE", index=True)
+    person: str = Field(min_length=1, max_length=120)
+    reason: str = Field(default="", max_length=1000)
+    position: int = 0
+
+
+class ScaleWord(SQLModel, table=True):
+    """A word the team uses for a likelihood ("unlikely") and, once adopted, its number.
+
+    `unit` is the estimate unit (per_year or probability); a word without `value` is on the
+    team's list but not adopted, so typing it in a value field is refused.
+    """
+
+    __tablename__ = "scale_word"
+    id: int | None = Field(default=None, primary_key=True)
+    study_id: int = _study_fk()
+    unit: str = Field(max_length=20)
+    word: str = Field(min_length=1, max_length=60)
+    value: float | None = Field(default=None, gt=0)
+    position: int = 0
 
 
 class AccessState(SQLModel, table=True):

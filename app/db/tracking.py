@@ -3,7 +3,7 @@
 from datetime import timedelta
 from typing import Any
 
-from sqlalchemy import event, insert, inspect, select, update
+from sqlalchemy import delete, event, insert, inspect, select, update
 from sqlalchemy.orm import Session as OrmSession
 from sqlalchemy.orm import UOWTransaction
 
@@ -14,6 +14,7 @@ from app.db.models import (
     Participant,
     Recommendation,
     Safeguard,
+    ScaleWord,
     Scenario,
     SessionDay,
     SeverityCategory,
@@ -37,6 +38,7 @@ LOGGED_TYPES: dict[type, str] = {
     Recommendation: "recommendation",
     Participant: "participant",
     SessionDay: "session date",
+    ScaleWord: "word on the scale",
 }
 UNLOGGED_FIELDS = {"version", "created_at", "updated_at", "focus_scenario_id", "focus_changed_at"}
 # Keystrokes of one person on one field within this window read as one edit in the log.
@@ -50,7 +52,7 @@ CLAIMED_KEY = "claimed_rows"
 
 def describe(row: Any) -> str:
     """A short human label for a logged row."""
-    for attribute in ("title", "name", "description", "cause", "text"):
+    for attribute in ("title", "name", "description", "cause", "text", "word"):
         value = getattr(row, attribute, None)
         if value:
             return f"{LOGGED_TYPES.get(type(row), 'row')} '{str(value)[:80]}'"
@@ -104,6 +106,9 @@ def _entry(session: OrmSession, row: Any, action: str, **values: Any) -> dict[st
         "entity_id": row.id,
         "scenario_id": _scenario_of(row),
         "summary": describe(row),
+        # Every entry carries every column: one executemany INSERT takes its columns from the
+        # first row, so an edit flushed after a create would otherwise lose its field and values.
+        "field": "", "old_value": None, "new_value": None,
         **values,
     }
 
@@ -127,7 +132,8 @@ def _coalesce(session: OrmSession, entry: dict[str, Any]) -> bool:
     """Fold a keystroke-level edit into the same person's edit of that field a moment ago."""
     table = ChangeLogEntry.__table__  # type: ignore[attr-defined]
     latest = session.connection().execute(
-        select(table.c.id, table.c.author, table.c.at, table.c.field, table.c.action)
+        select(table.c.id, table.c.author, table.c.at, table.c.field, table.c.action,
+               table.c.old_value)
         # Only the window can fold, so the indexed time bound keeps this cheap on every keystroke.
         .where(table.c.at >= entry["at"] - COALESCE_WINDOW,
                table.c.entity == entry["entity"], table.c.entity_id == entry["entity_id"],
@@ -137,6 +143,10 @@ def _coalesce(session: OrmSession, entry: dict[str, Any]) -> bool:
     ).first()
     if latest is None or latest.action != "edit" or latest.author != entry["author"]:
         return False
+    if latest.old_value == entry["new_value"]:
+        # Typed away and back (X -> Y -> X): the field ends where it began, so nothing changed.
+        session.connection().execute(delete(table).where(table.c.id == latest.id))
+        return True
     session.connection().execute(
         update(table)
         .where(table.c.id == latest.id)

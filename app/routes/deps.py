@@ -1,16 +1,18 @@
 """Request dependencies, aliased once for every router."""
 
-from collections.abc import Iterator
-from typing import Annotated
+from collections.abc import Iterator, Mapping
+from typing import Annotated, Any
 
 from fastapi import Depends, Request
 from fastapi.exceptions import RequestValidationError
 from sqlmodel import Session
 
+from app.access.csrf import FIELD as CSRF_FIELD
 from app.access.guard import current_access
 from app.db.ids import MAX_ROW_ID, read_row_id
 from app.db.session import get_db_engine
 from app.db.tracking import AUTHOR_KEY
+from app.services.study.conflicts import PageEdit
 from app.services.study.tree import NotFoundError
 
 
@@ -46,3 +48,34 @@ SessionDep = Annotated[Session, Depends(get_session)]
 # The bounds of a row id typed into a query or form field (`Query(**ID_BOUNDS)`).
 ID_BOUNDS = {"ge": 1, "le": MAX_ROW_ID}
 AuthorDep = Annotated[str, Depends(author_name)]
+
+
+ORIGINAL_PREFIX = "orig_"
+# The other person's values a conflict showed, sent back with "keep mine" / "take theirs".
+SEEN_PREFIX = "seen_"
+PAGE_FIELDS = {"version", "client", "seq", "resolution", CSRF_FIELD}
+
+
+def read_page_edit(form: Mapping[str, Any]) -> PageEdit:
+    """What the page knew: the row's version, each field's loaded value, its id and sequence.
+
+    Any: raw form values (a boundary).
+    """
+    originals = {key.removeprefix(ORIGINAL_PREFIX): value for key, value in form.items()
+                 if key.startswith(ORIGINAL_PREFIX)}
+    return PageEdit(version=_number(form.get("version")), originals=originals,
+                    client=str(form.get("client") or "")[:64], seq=_number(form.get("seq")))
+
+
+def _number(value: Any) -> int | None:  # Any: one raw form value
+    text = str(value if value is not None else "").strip()
+    return int(text) if text.isdigit() and len(text) < 12 else None
+
+
+def read_seen(form: Mapping[str, Any]) -> dict[str, str]:
+    """The other person's values a conflict showed (seen_…), by field.
+
+    Any: raw form values (a boundary).
+    """
+    return {key.removeprefix(SEEN_PREFIX): str(value) for key, value in form.items()
+            if key.startswith(SEEN_PREFIX)}

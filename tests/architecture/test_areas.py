@@ -10,14 +10,18 @@ from pathlib import Path
 REPO_ROOT = Path(__file__).resolve().parents[2]
 SERVICES = REPO_ROOT / "app" / "services"
 CORE = "study"
-AREAS = {"study", "worksheet", "record", "risk", "exchange"}
+AREAS = {"study", "worksheet", "record", "risk", "exchange", "estimates"}
 
 # (importing area, imported module) → why
 NAMED_EXCEPTIONS = {
     ("worksheet", "app.services.risk.ipl_checks"): "the worksheet shows each scenario's warnings",
     ("exchange", "app.services.worksheet.ladder"): "the report draws each scenario's ladder",
     ("exchange", "app.services.risk.picture"): "the report includes the risk picture",
+    ("exchange", "app.services.risk.ipl_checks"): "the report lists each scenario's warnings",
     ("record", "app.services.exchange.study_file"): "a revision is a frozen study file",
+    ("record", "app.services.exchange.export_csv"): "the change log downloads through the one "
+                                                    "CSV writer",
+    ("record", "app.services.exchange.export_tables"): "the CSV writer's table and cell types",
 }
 
 

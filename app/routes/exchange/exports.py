@@ -6,22 +6,42 @@ from fastapi import APIRouter, File, Request, UploadFile
 from fastapi.responses import JSONResponse
 from starlette.responses import RedirectResponse, Response
 
+from app.archive import all_studies_archive
 from app.routes.deps import SessionDep
 from app.routes.rendering import render, templates
 from app.services.exchange.exports import ExportFormat, build_export, read_export_page
 from app.services.exchange.study_file import StudyFileError
 from app.services.exchange.study_import import MAX_FILE_BYTES, import_study_upload
-from app.services.exchange.study_schema import SCHEMA_PATH, study_json_schema
+from app.services.exchange.study_schema import SCHEMA_PATH, SCHEMA_VERSION, study_json_schema
 from app.services.study import listing as study_service
 
 router = APIRouter()
+ALL_STUDIES_FILENAME = "tallyroom-all-studies.zip"
+
+
+@router.get("/export-all", name="read_export_all")
+def read_export_all(request: Request, session: SessionDep) -> Response:
+    """Every study in one archive, for moving to another machine: what it holds and how."""
+    studies = study_service.list_studies(session=session)
+    return render(request, "exchange/exports/all.html",
+                  {"studies": studies, "filename": ALL_STUDIES_FILENAME})
+
+
+@router.get("/export-all.zip", name="export_all_studies")
+def export_all_studies(session: SessionDep) -> Response:
+    """One zip with every study's study file (as `tallyroom export-all` writes it)."""
+    content, _names = all_studies_archive(session)
+    disposition = f'attachment; filename="{ALL_STUDIES_FILENAME}"'
+    return Response(content, media_type="application/zip",
+                    headers={"Content-Disposition": disposition})
 
 
 @router.get("/studies/{study_id}/export", name="read_exports")
 def read_exports(request: Request, study_id: int, session: SessionDep) -> Response:
     """The formats a study exports to, with download links and the command-line equivalent."""
     page = read_export_page(session=session, study_id=study_id)
-    return render(request, "exchange/exports/index.html", {"page": page, "study": page.study})
+    return render(request, "exchange/exports/index.html",
+                  {"page": page, "study": page.study, "schema_version": SCHEMA_VERSION})
 
 
 def _download(session: SessionDep, study_id: int, export_format: ExportFormat) -> Response:

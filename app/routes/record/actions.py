@@ -7,7 +7,7 @@ from typing import Annotated
 from fastapi import APIRouter, Depends, Form, Request
 from starlette.responses import RedirectResponse, Response
 
-from app.routes.deps import SessionDep
+from app.routes.deps import SessionDep, read_page_edit, read_seen
 from app.routes.rendering import is_htmx, render
 from app.services.record import actions as action_service
 from app.services.record.action_inputs import (
@@ -105,19 +105,27 @@ def edit_action(
 
 
 @router.post("/actions/{action_id}", name="update_action")
-def update_action(
+async def update_action(
     request: Request, study_id: int, action_id: int, session: SessionDep, view: ViewDep,
     text: TextForm = "", owner: TextForm = "", due_date: TextForm = "", status: TextForm = "open",
     status_reason: TextForm = "", expected_rrf: TextForm = "",
 ) -> Response:
-    """Save an edited action; a rejected one needs a reason."""
+    """Save the fields the person changed; a rejected action needs a reason; 409 on a conflict."""
     values = {"text": text, "owner": owner, "due_date": due_date, "status": status,
               "status_reason": status_reason, "expected_rrf": expected_rrf}
+    posted = await request.form()
+    edit = read_page_edit(posted)
     try:
         action_service.save_action(session=session, action_id=action_id, changes=values,
-                                     study_id=study_id)
+                                   study_id=study_id, edit=edit, seen=read_seen(posted),
+                                   resolution=str(posted.get("resolution") or ""))
     except ActionInputError as error:
         return _refused(request, session, study_id, view, error, action_id, values)
+    except action_service.ActionConflictError as conflict:
+        form = ActionForm(action_id, values, conflicts=conflict.conflicts,
+                          page_version=edit.version,
+                          originals={k: str(v) for k, v in edit.originals.items()})
+        return _page(request, session, study_id, view, form, status_code=409)
     return _done(request, session, study_id, view)
 
 

@@ -6,9 +6,11 @@ from fastapi import APIRouter, Form, Request
 from starlette.responses import RedirectResponse, Response
 from starlette.routing import NoMatchFound
 
-from app.routes.deps import SessionDep
+from app.routes.deps import SessionDep, author_name
 from app.routes.rendering import is_htmx, render
-from app.routes.urls import overview_url, worksheet_url
+from app.routes.urls import empty_worksheet_url, worksheet_url
+from app.services.study.conflicts import PageEdit
+from app.services.study.tree import get_study
 from app.services.worksheet import page as worksheet_service
 from app.services.worksheet.edits import FieldReply, edit_step_value
 
@@ -29,10 +31,11 @@ def render_worksheet(request: Request, session: SessionDep, study_id: int, node_
                      **extra: Any) -> Response:
     """The worksheet page, or only its #worksheet region for htmx."""
     page = worksheet_service.build_worksheet_page(session=session, study_id=study_id,
-                                                  node_id=node_id)
+                                                  node_id=node_id, author=author_name(request))
     links = {"step_details": route_exists(request, "read_step_details", study_id=0, step_id=0),
              "proof_test": route_exists(request, "read_proof_test", study_id=0),
-             "actions": route_exists(request, "read_actions", study_id=0)}
+             "actions": route_exists(request, "read_actions", study_id=0),
+             "estimate_round": route_exists(request, "read_new_round", study_id=0, step_id=0)}
     context = {"page": page, "study": page.study, "focus_id": "", "notice": "", "typed": {},
                "links": links, **extra}
     return render(request, "worksheet/page.html", context, block=block,
@@ -40,9 +43,16 @@ def render_worksheet(request: Request, session: SessionDep, study_id: int, node_
 
 
 def render_field_reply(request: Request, reply: FieldReply) -> Response:
-    """Results region (main swap) with the field's line and the totals out of band."""
-    return render(request, "worksheet/field_reply.html", {"edit": reply},
-                  status_code=422 if reply.error else 200)
+    """Results region (main swap) with the field's line and the totals out of band.
+
+    A conflict or a deleted row answers 409 with only the field's line, retargeted to it.
+    """
+    response = render(request, "worksheet/field_reply.html", {"edit": reply},
+                      status_code=reply.status_code)
+    if reply.conflict or reply.gone:
+        response.headers["HX-Retarget"] = f"#{reply.field_id}-said"
+        response.headers["HX-Reswap"] = "outerHTML"
+    return response
 
 
 @router.get("/nodes/{node_id}", name="read_worksheet")
@@ -54,34 +64,52 @@ def read_worksheet(request: Request, study_id: int, node_id: int, session: Sessi
 
 
 @router.get("/worksheet", name="read_first_worksheet")
-def read_first_worksheet(request: Request, study_id: int,
-                         session: SessionDep) -> RedirectResponse:
-    """Open the worksheet at the study's first node (the overview when it has none)."""
-    node_id = worksheet_service.first_node_id(session=session, study_id=study_id)
-    target = (worksheet_url(request, study_id, node_id) if node_id
-              else overview_url(request, study_id))
-    return RedirectResponse(target, status_code=303)
+def read_first_worksheet(request: Request, study_id: int, session: SessionDep,
+                         node: str = "") -> Response:
+    """Open the worksheet at the chosen node, else the first; a study with none gets the
+    empty worksheet, where the first node is added."""
+    node_id = worksheet_service.picked_node_id(session=session, study_id=study_id, picked=node)
+    if node_id is None:
+        study = get_study(session, study_id)
+        return render(request, "worksheet/empty.html", {"study": study, "focus_id": "add-node"})
+    return RedirectResponse(worksheet_url(request, study_id, node_id), status_code=303)
 
 
 @router.post("/steps/{step_id}/value", name="update_step_value")
 def update_step_value(
     request: Request, study_id: int, step_id: int, session: SessionDep,
     value_text: Annotated[str, Form()] = "", client: Annotated[str, Form(max_length=64)] = "",
-    seq: Annotated[int | None, Form()] = None,
+    seq: Annotated[int | None, Form()] = None, version: Annotated[int | None, Form()] = None,
+    orig_value_text: Annotated[str | None, Form(max_length=100)] = None,
 ) -> Response:
     """Parse, validate and save a step's value as typed; answer with the recomputed scenario."""
+    originals = {} if orig_value_text is None else {"value_text": orig_value_text}
+    edit = PageEdit(version=version, originals=originals, client=client, seq=seq)
     reply = edit_step_value(session=session, study_id=study_id, step_id=step_id, text=value_text,
-                            client=client, seq=seq)
+                            edit=edit)
     if reply is None:  # a newer edit of this field already arrived: drop this one
         return Response(status_code=204, headers={"X-Tallyroom-Stale": "1"})
     if is_htmx(request):
         response = render_field_reply(request, reply)
         response.headers["X-Tallyroom-Seq"] = str(seq if seq is not None else "")
         return response
+    return answer_without_script(request, session, study_id, reply, value_text)
+
+
+def answer_without_script(request: Request, session: SessionDep, study_id: int,
+                          reply: FieldReply, typed: str = "") -> Response:
+    """A plain form post: back to the worksheet, or the page again saying what went wrong."""
     anchor = f"scenario-{reply.scenario.item.scenario.id}" if reply.scenario else ""
+    if reply.conflict or reply.gone:
+        node_id = reply.node_id or worksheet_service.first_node_id(session=session,
+                                                                   study_id=study_id)
+        if node_id is None:
+            return RedirectResponse(empty_worksheet_url(request, study_id), status_code=303)
+        return render_worksheet(request, session, study_id, node_id, status_code=409,
+                                edit=reply, focus_id=reply.field_id)
     if reply.error:
         return render_worksheet(request, session, study_id, reply.node_id,
                                 status_code=422, notice=reply.error,
-                                typed={reply.field_id: value_text}, focus_id=reply.field_id)
+                                typed={reply.field_id: typed}, focus_id=reply.field_id)
     return RedirectResponse(worksheet_url(request, study_id, reply.node_id, anchor),
                             status_code=303)

@@ -10,10 +10,11 @@ from fastapi import APIRouter, Request
 from starlette.responses import RedirectResponse, Response
 
 from app.db.ids import read_row_id
-from app.routes.deps import AuthorDep, SessionDep
+from app.routes.deps import ORIGINAL_PREFIX, PAGE_FIELDS, AuthorDep, SessionDep, read_page_edit
 from app.routes.rendering import is_htmx, render
-from app.routes.urls import overview_url, path_for, worksheet_url
-from app.routes.worksheet.page import render_field_reply, render_worksheet
+from app.routes.urls import empty_worksheet_url, path_for, worksheet_url
+from app.routes.worksheet.page import answer_without_script, render_field_reply, render_worksheet
+from app.services.study.tree import NotFoundError
 from app.services.worksheet import structure
 from app.services.worksheet import undo as structure_undo
 from app.services.worksheet.edits import edit_field, field_id
@@ -47,7 +48,7 @@ def _after_change(request: Request, session: SessionDep, study_id: int, node_id:
     if node_id is None:
         node_id = first_node_id(session=session, study_id=study_id)
         if node_id is None:
-            return _go(request, overview_url(request, study_id))
+            return _go(request, empty_worksheet_url(request, study_id))
     if is_htmx(request) or status_code >= 400:
         block = "worksheet" if is_htmx(request) else None
         return render_worksheet(request, session, study_id, node_id, block=block,
@@ -83,11 +84,15 @@ async def _update(request: Request, session: SessionDep, study_id: int, kind: st
                   row_id: int) -> Response:
     """Save the sent fields; htmx gets the recomputed figures and the field's line."""
     form = await read_form(request)
-    changes = {k: v for k, v in form.items() if k not in NOT_VALUES}
+    changes = {k: v for k, v in form.items()
+               if k not in NOT_VALUES | PAGE_FIELDS and not k.startswith(ORIGINAL_PREFIX)}
     reply = edit_field(session=session, study_id=study_id, kind_name=kind, row_id=row_id,
-                       changes=changes)
+                       changes=changes, edit=read_page_edit(form),
+                       resolution=str(form.get("resolution") or ""))
     if is_htmx(request):
         return render_field_reply(request, reply)
+    if reply.conflict or reply.gone:
+        return answer_without_script(request, session, study_id, reply)
     return _after_change(request, session, study_id, reply.node_id,
                          focus_id=reply.field_id, notice=reply.error,
                          status_code=422 if reply.error else 200)
@@ -130,23 +135,35 @@ def _delete(request: Request, session: SessionDep, author: str, study_id: int, k
     if kind == "node":
         node_id = first_node_id(session=session, study_id=study_id)
         return _go(request, worksheet_url(request, study_id, node_id) if node_id
-                   else overview_url(request, study_id))
+                   else empty_worksheet_url(request, study_id))
     return _after_change(request, session, study_id, node_id, focus_id="undo-button")
 
 
 @router.post("/undo", name="undo_delete")
-def undo_delete(request: Request, study_id: int, session: SessionDep) -> Response:
-    """Bring back what the study's last delete removed."""
+async def undo_delete(request: Request, study_id: int, session: SessionDep,
+                      author: AuthorDep) -> Response:
+    """Bring back this person's newest delete (each person undoes their own)."""
+    form_node = _int((await read_form(request)).get("node_id"))
     try:
-        kind, row = structure_undo.undo_last_delete(session=session, study_id=study_id)
+        kind, row = structure_undo.undo_last_delete(session=session, study_id=study_id,
+                                                    author=author)
     except structure_undo.NothingToUndoError as err:
-        return _after_change(request, session, study_id, None, notice=str(err),
+        node_id = form_node if form_node and _node_exists(session, study_id, form_node) else None
+        return _after_change(request, session, study_id, node_id, notice=str(err),
                              status_code=409)
     node_id = node_id_of(session, kind, row)
     if kind == "node":
         return _go(request, worksheet_url(request, study_id, node_id))
     return _after_change(request, session, study_id, node_id,
                          focus_id=field_id(kind, row.id, FIRST_FIELD[kind]))
+
+
+def _node_exists(session: SessionDep, study_id: int, node_id: int) -> bool:
+    try:
+        structure.get_row(session, structure.kind_of("node"), study_id, node_id)
+    except NotFoundError:
+        return False
+    return True
 
 
 # nodes

@@ -1,4 +1,4 @@
-"""The scenario table as CSV: UTF-8 with a byte-order mark so spreadsheet programs read it right.
+"""Tables as CSV: UTF-8 with a byte-order mark so spreadsheet programs read it right.
 
 The byte-order mark is common practice (no standard asks for it): without it Excel reads a
 UTF-8 file in the local code page and garbles every non-Latin letter.
@@ -13,13 +13,17 @@ from app.services.exchange.export_tables import Cell, Table, spreadsheet_text
 BYTE_ORDER_MARK = "\ufeff"
 
 
-def table_csv(table: Table) -> bytes:
-    """The table as CSV bytes: a header row, then one row per table row, CRLF line ends."""
+def table_csv(table: Table, *, cautions: str = "") -> bytes:
+    """The table as CSV bytes: a header row, then one row per table row, CRLF line ends; with
+    `cautions`, a last row "Cautions", text (a reader that stops at the data still sees them
+    when it opens the file, and no comment syntax outside RFC 4180 is needed)."""
     buffer = io.StringIO()
     writer = csv.writer(buffer, lineterminator="\r\n")
     writer.writerow([spreadsheet_text(column.header) for column in table.columns])
     for row in table.rows:
         writer.writerow([csv_cell(value) for value in row])
+    if cautions:
+        writer.writerow(["Cautions", spreadsheet_text(cautions)])
     return (BYTE_ORDER_MARK + buffer.getvalue()).encode("utf-8")
 
 

@@ -13,7 +13,9 @@ from dataclasses import dataclass
 from datetime import UTC, date, datetime
 from typing import Any
 
+from app.likelihood.numbers import format_number
 from app.likelihood.types import DemandMode, Receptor, ScenarioResult, StepKind
+from app.likelihood.typical import typical_by_key
 from app.services.exchange.study_file import scenario_ref
 from app.services.study.results import Assessment
 from app.services.study.tree import DeviationBranch, NodeBranch, ScenarioBranch, StudyTree
@@ -89,9 +91,23 @@ SCENARIO_COLUMNS = (
 
 
 def scenario_refs(tree: StudyTree) -> dict[int, str]:
-    """Scenario id -> the ref the study file gives it (S1, S2, ... in worksheet order)."""
-    return {s.scenario.id: scenario_ref(i) for i, s in enumerate(tree.scenario_branches())
-            if s.scenario.id is not None}
+    """Scenario id -> its number as the worksheet shows it (node 2, deviation 1, scenario 3:
+    '2.1.3'), so every export names a scenario as the screens do."""
+    numbers: dict[int, str] = {}
+    for node_branch in tree.nodes:
+        node_number = node_branch.node.number or "(unnumbered)"
+        for d_index, deviation_branch in enumerate(node_branch.deviations, start=1):
+            for s_index, item in enumerate(deviation_branch.scenarios, start=1):
+                if item.scenario.id is not None:
+                    numbers[item.scenario.id] = f"{node_number}.{d_index}.{s_index}"
+    return numbers
+
+
+def file_ref_numbers(tree: StudyTree) -> dict[str, str]:
+    """The study file's scenario refs (S1, S2, ...) -> the worksheet's numbers."""
+    numbers = scenario_refs(tree)
+    return {scenario_ref(i): numbers.get(s.scenario.id or 0, scenario_ref(i))
+            for i, s in enumerate(tree.scenario_branches())}
 
 
 def node_label(node_branch: NodeBranch) -> str:
@@ -168,7 +184,7 @@ STEP_COLUMNS = (
     Column("Scenario"), Column("Node"), Column("Step"), Column("Kind"), Column("Description"),
     Column("Value", SCIENTIFIC), Column("As written"), Column("Credited"), Column("IPL type"),
     Column("System tag"), Column("SIL claimed", WHOLE), Column("Response time (min)", "0.#"),
-    Column("Basis"),
+    Column("Basis"), Column("Typical-value row and source"),
 )  # fmt: skip
 
 
@@ -184,8 +200,19 @@ def step_table(tree: StudyTree) -> Table:
                     step.kind.label, step.description, step.value,
                     step.value_text, "yes" if step.credited else "no", step.ipl_type or "",
                     step.system_tag, step.sil_claimed, step.response_time_minutes, step.basis,
+                    typical_words(step.typical_key),
                 ])
     return Table("Steps", STEP_COLUMNS, rows)
+
+
+def typical_words(key: str | None) -> str:
+    """'BPCS loop, independent of the cause: 0.01 to 0.1; CCPS … [verify against your copy]'."""
+    row = typical_by_key(key) if key else None
+    if row is None:
+        return ""
+    marker = " [verify against your copy]" if row.verify_against_copy else ""
+    return (f"{row.label}: {format_number(row.low)} to {format_number(row.high)}; "
+            f"{row.citation or row.source}{marker}")
 
 
 ACTION_COLUMNS = (
@@ -194,12 +221,14 @@ ACTION_COLUMNS = (
 )  # fmt: skip
 
 
-def action_table(data: StudyData) -> Table:
-    """The recommendations with the scenarios they address."""
+def action_table(data: StudyData, numbers: dict[str, str] | None = None) -> Table:
+    """The recommendations with the scenarios they address (by the worksheet's numbers when
+    `numbers` maps the file's refs to them)."""
+    named = numbers or {}
     rows: list[list[Cell]] = [
         [f"A{number}", a["text"], a["owner"], _day(a["due_date"]),
          a["status"].replace("_", " "), a["status_reason"], a["expected_rrf"],
-         ", ".join(a["scenarios"])]
+         ", ".join(named.get(ref, ref) for ref in a["scenarios"])]
         for number, a in enumerate(data["recommendations"], 1)
     ]
     return Table("Actions", ACTION_COLUMNS, rows)
@@ -236,11 +265,13 @@ LOG_COLUMNS = (
 )  # fmt: skip
 
 
-def change_log_table(data: StudyData) -> Table:
+def change_log_table(data: StudyData, numbers: dict[str, str] | None = None) -> Table:
     """Every recorded change, oldest first."""
+    named = numbers or {}
     rows: list[list[Cell]] = [
         [utc_naive(datetime.fromisoformat(e["at"])), e["author"], e["action"], e["entity"],
-         e["field"], e["old_value"], e["new_value"], e["summary"], e["scenario"] or ""]
+         e["field"], e["old_value"], e["new_value"], e["summary"],
+         named.get(e["scenario"], e["scenario"]) if e["scenario"] else ""]
         for e in data.get("change_log", [])
     ]
     return Table("Change log", LOG_COLUMNS, rows)
@@ -257,5 +288,6 @@ def _day(text: str | None) -> date | None:
 
 def all_tables(tree: StudyTree, data: StudyData) -> Sequence[Table]:
     """Every table of the workbook after the cover, in sheet order."""
-    return (scenario_table(tree), step_table(tree), action_table(data), criteria_table(data),
-            attendance_table(data), change_log_table(data))
+    return (scenario_table(tree), step_table(tree), action_table(data, file_ref_numbers(tree)),
+            criteria_table(data),
+            attendance_table(data), change_log_table(data, file_ref_numbers(tree)))

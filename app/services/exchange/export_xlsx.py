@@ -2,7 +2,7 @@
 
 import io
 from collections.abc import Sequence
-from datetime import datetime
+from datetime import date, datetime
 
 from openpyxl import Workbook
 from openpyxl.cell.cell import ILLEGAL_CHARACTERS_RE
@@ -16,7 +16,7 @@ from app.services.exchange.study_schema import SCHEMA_PATH
 # Excel's limit on the characters in one cell.
 MAX_CELL_CHARS = 32_767
 TRUNCATED = " … [cut: longer than a spreadsheet cell holds; see the JSON export]"
-NARROWEST, WIDEST, NUMBER_WIDTH = 8, 60, 14
+NARROWEST, WIDEST, NUMBER_WIDTH = 8, 80, 14
 HEADER_FONT = Font(bold=True)
 HEADER_FILL = PatternFill("solid", fgColor="E4E1DA")
 HEADER_RULE = Border(bottom=Side(style="medium", color="26323F"))
@@ -29,17 +29,25 @@ SHEET_NOTES = {
     "Criteria": "severity categories and their tolerable frequencies",
     "Attendance": "participants against session dates",
     "Change log": "every recorded change, oldest first",
+    "Safeguards": "safeguards listed but not credited as IPLs",
+    "Notes": "the notes written on each scenario",
+    "Warnings": "every IPL-check warning with its source",
+    "Added functions": "the safety functions the gaps ask for: SIL, mode, demand",
 }
+# Widest text a date or time cell shows ("2026-11-12 15:30:00"), so no column shows '####'.
+DATE_WIDTH, MOMENT_WIDTH = 10, 19
 
 
 def workbook_bytes(
-    tables: Sequence[Table], data: StudyData, *, cautions: str, exported_at: datetime
+    tables: Sequence[Table], data: StudyData, *, cautions: str, exported_at: datetime,
+    revision: str = "",
 ) -> bytes:
     """The workbook as .xlsx bytes: the cover first, then each table on its own sheet."""
     workbook = Workbook()
     cover = workbook.active
     assert cover is not None
-    _write_cover(cover, data["study"], cautions=cautions, exported_at=exported_at)
+    _write_cover(cover, data["study"], cautions=cautions, exported_at=exported_at,
+                 revision=revision)
     for table in tables:
         _write_table(workbook.create_sheet(table.title), table)
     workbook.properties.title = data["study"]["title"]
@@ -50,13 +58,14 @@ def workbook_bytes(
 
 
 def _write_cover(
-    sheet: Worksheet, study: dict[str, str], *, cautions: str, exported_at: datetime
+    sheet: Worksheet, study: dict[str, str], *, cautions: str, exported_at: datetime,
+    revision: str,
 ) -> None:
     sheet_notes: list[list[Cell]] = [[f"Sheet: {name}", note]
                                      for name, note in SHEET_NOTES.items()]
     rows: list[list[Cell]] = [
         ["Study", study["title"]], ["Facility", study["facility"]],
-        ["Revision", study["revision_label"]], ["Exported (UTC)", exported_at],
+        ["Revision", revision or study["revision_label"]], ["Exported (UTC)", exported_at],
         ["Scope", study["scope"]], ["Criteria basis", study["criteria_basis"]],
         ["Frequencies", "events per year; probabilities and PFDs are fractions of 1"],
         ["Cautions", cautions],
@@ -65,7 +74,6 @@ def _write_cover(
     ]  # fmt: skip
     columns = (Column("About this file"), Column("", "yyyy-mm-dd hh:mm"))
     _write_table(sheet, Table("About", columns, rows))
-    sheet.column_dimensions["B"].width = 100
 
 
 def _write_table(sheet: Worksheet, table: Table) -> None:
@@ -103,17 +111,37 @@ def cell_text(text: str) -> str:
     return safe
 
 
+def shown_length(value: Cell, number_format: str | None = None) -> int:
+    """How many characters a cell shows: its longest line, a date's or number's text as its
+    number format writes it."""
+    if value is None:
+        return 0
+    if isinstance(value, str):
+        return max((len(line) for line in value.splitlines()), default=0)
+    if isinstance(value, datetime):
+        return MOMENT_WIDTH
+    if isinstance(value, date):
+        return DATE_WIDTH
+    return len(_number_text(value, number_format))
+
+
+def _number_text(value: float, number_format: str | None) -> str:
+    if number_format and "E" in number_format:
+        return f"{value:.2E}"
+    if number_format == "#,##0.0":
+        return f"{value:,.1f}"
+    if number_format and number_format.startswith("+"):
+        return f"{value:+.2f}"
+    return str(value) if isinstance(value, int) else f"{value:.10g}"
+
+
 def _fit_widths(sheet: Worksheet, table: Table) -> None:
     for number, column in enumerate(table.columns, 1):
-        values = [row[number - 1] for row in table.rows]
-        texts = [v for v in values if isinstance(v, str)]
-        longest = max((len(line) for t in [column.header, *texts] for line in t.splitlines()),
+        cells = [row[number - 1] for row in table.rows]
+        longest = max((shown_length(v, column.number_format) for v in [column.header, *cells]),
                       default=0)
-        width = max(NARROWEST, min(WIDEST, longest + 2))
-        if len(texts) < len([v for v in values if v is not None]):
-            width = max(width, NUMBER_WIDTH)
         letter = get_column_letter(number)
-        sheet.column_dimensions[letter].width = width
+        sheet.column_dimensions[letter].width = max(NARROWEST, min(WIDEST, longest + 2))
         if longest + 2 > WIDEST:
             for cell in sheet[letter][1:]:
                 cell.alignment = WRAPPED

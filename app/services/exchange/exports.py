@@ -18,10 +18,16 @@ from sqlmodel.sql.expression import SelectOfScalar
 
 from app.db.ids import read_row_id
 from app.db.models import Study
+from app.services.exchange.export_audit_tables import audit_tables
 from app.services.exchange.export_csv import table_csv
 from app.services.exchange.export_tables import all_tables, scenario_table
 from app.services.exchange.export_xlsx import workbook_bytes
-from app.services.exchange.report import report_pdf
+from app.services.exchange.report import html_to_pdf
+from app.services.exchange.report_source import (
+    get_frozen_revision,
+    live_report_html,
+    working_copy_label,
+)
 from app.services.exchange.study_file import export_study
 from app.services.study.tree import NotFoundError, get_study, load_study_tree
 
@@ -48,17 +54,21 @@ class FormatInfo:
 FORMATS = (
     FormatInfo(ExportFormat.XLSX, "Workbook (.xlsx)",
                "application/vnd.openxmlformats-officedocument.spreadsheetml.sheet",
-               "A cover sheet, then scenarios, steps, actions, criteria, attendance and the "
-               "change log, each on its own sheet. Numbers are real numbers."),
+               "An About sheet (revision, sign-off, cautions), then scenarios, steps with their "
+               "basis, actions, criteria, attendance, the change log, safeguards not credited, "
+               "scenario notes, IPL warnings with sources and added functions, each on its own "
+               "sheet. Numbers are real numbers."),
     FormatInfo(ExportFormat.CSV, "Scenario table (.csv)", "text/csv; charset=utf-8",
                "One row per scenario with the same columns as the workbook's Scenarios sheet. "
-               "UTF-8 with a byte-order mark, so spreadsheet programs read every script."),
+               "UTF-8 with a byte-order mark, so spreadsheet programs read every script; the "
+               "last row holds the cautions."),
     FormatInfo(ExportFormat.JSON, "Study file (.json)", "application/json",
-               "The whole study, its change log and revisions in the versioned study-file "
-               "format. Import it back from the study list or with `tallyroom import`."),
+               "The whole study, its change log, revisions and the cautions in the versioned "
+               "study-file format. Import it back from the study list or with `tallyroom import`."),
     FormatInfo(ExportFormat.PDF, "Report (.pdf)", "application/pdf",
-               "A printable report: cover, scope and criteria, attendance, every node's "
-               "scenarios with their ladders, the risk picture and the actions."),
+               "A printable report: cover, scope and criteria, attendance, every scenario's steps "
+               "with basis and warnings, ladders, the risk picture, the actions, the added "
+               "functions and the warnings by rule. Made in the background."),
 )  # fmt: skip
 FORMAT_INFO = {info.format: info for info in FORMATS}
 
@@ -95,6 +105,17 @@ def export_filename(study: Study, export_format: ExportFormat) -> str:
     return f"tallyroom-{study.id}{'-' + slug if slug else ''}.{export_format}"
 
 
+def report_filename(*, session: Session, study_id: int, revision_id: int | None) -> str:
+    """The report's file name; a revision's carries its label ('…-rev-a.pdf')."""
+    name = export_filename(get_study(session, study_id), ExportFormat.PDF)
+    if revision_id is None:
+        return name
+    label = get_frozen_revision(session, study_id, revision_id).label
+    slug = re.sub(r"[^a-z0-9]+", "-", unicodedata.normalize("NFKD", label).encode(
+        "ascii", "ignore").decode().lower()).strip("-")
+    return name.removesuffix(".pdf") + (f"-{slug}" if slug else "-revision") + ".pdf"
+
+
 def study_json_bytes(data: dict[str, Any]) -> bytes:
     """A study file as UTF-8 JSON text: every character as itself, indented for diffs."""
     return (json.dumps(data, ensure_ascii=False, indent=2) + "\n").encode("utf-8")
@@ -107,19 +128,24 @@ def build_export(
     info = FORMAT_INFO[export_format]
     name = export_filename(get_study(session, study_id), export_format)
     # Each format loads only what it writes: the file needs no computed tree, the CSV no history.
+    cautions: str = env.globals["cautions"]  # type: ignore[assignment]
     if export_format is ExportFormat.JSON:
-        return ExportFile(name, info.media_type, study_json_bytes(export_study(session, study_id)))
+        data = {**export_study(session, study_id), "cautions": cautions}
+        return ExportFile(name, info.media_type, study_json_bytes(data))
+    now = datetime.now(UTC).replace(microsecond=0)
+    if export_format is ExportFormat.PDF:
+        return ExportFile(name, info.media_type,
+                          html_to_pdf(live_report_html(session, study_id, env=env, when=now)))
     tree = load_study_tree(session, study_id)
     if export_format is ExportFormat.CSV:
-        return ExportFile(name, info.media_type, table_csv(scenario_table(tree)))
+        return ExportFile(name, info.media_type,
+                          table_csv(scenario_table(tree), cautions=cautions))
     data = export_study(session, study_id)
-    now = datetime.now(UTC).replace(microsecond=0)
-    if export_format is ExportFormat.XLSX:
-        content = workbook_bytes(all_tables(tree, data), data,
-                                 cautions=env.globals["cautions"],  # type: ignore[arg-type]
-                                 exported_at=now.replace(tzinfo=None))
-        return ExportFile(name, info.media_type, content)
-    return ExportFile(name, info.media_type, report_pdf(tree, data, env=env, when=now))
+    content = workbook_bytes((*all_tables(tree, data), *audit_tables(tree)), data,
+                             cautions=cautions, exported_at=now.replace(tzinfo=None),
+                             revision=f"{working_copy_label(session, study_id)}: working copy, "
+                                      f"not signed")
+    return ExportFile(name, info.media_type, content)
 
 
 def studies_titled(title: str) -> SelectOfScalar[Study]:

@@ -1,12 +1,20 @@
 """The printable study report: display-ready data, its HTML, and the PDF WeasyPrint makes of it."""
 
+from collections import defaultdict
 from dataclasses import dataclass
-from datetime import datetime
+from datetime import date, datetime
 
 from jinja2 import Environment
 from weasyprint import HTML, URLFetcher
 
-from app.db.models import Node, Study
+from app.db.models import Node, Step, Study
+from app.likelihood.check_base import CheckWarning
+from app.likelihood.numbers import format_number
+from app.services.exchange.export_audit_tables import (
+    AddedFunction,
+    added_functions,
+    warning_source,
+)
 from app.services.exchange.export_tables import (
     DEMAND_LABELS,
     StudyData,
@@ -15,9 +23,12 @@ from app.services.exchange.export_tables import (
     attendance_table,
     criteria_table,
     deviation_label,
+    file_ref_numbers,
     node_label,
     scenario_refs,
+    typical_words,
 )
+from app.services.risk.ipl_checks import scenario_warnings
 from app.services.risk.picture import RiskPicture, build_risk_picture
 from app.services.study.listing import NodeTotals, totals_of
 from app.services.study.tree import ScenarioBranch, StudyTree
@@ -28,13 +39,44 @@ REPORT_TEMPLATE = "exchange/report/study.html"
 
 @dataclass(frozen=True)
 class ReportStep:
-    """One step as the report lists it."""
+    """One step as the report lists it: the value as typed and as a number, its basis, the
+    typical-value row picked (with its source), and whether it is credited and why not."""
 
     kind: str
     description: str
     value: float
+    value_text: str
     credited: bool
     basis: str
+    typical: str = ""
+    not_credited_because: str = ""
+
+
+@dataclass(frozen=True)
+class RuleCount:
+    """One IPL-check rule: how many warnings, in which scenarios, and its source."""
+
+    rule: str
+    count: int
+    scenarios: str
+    source: str
+
+
+@dataclass(frozen=True)
+class Signature:
+    """Whose record the report is: a frozen revision's label and sign-off, or the working copy."""
+
+    label: str
+    signed_off_by: str = ""
+    signed_off_at: datetime | None = None
+
+    @property
+    def footer(self) -> str:
+        """The line every page's footer carries."""
+        if not self.signed_off_by:
+            return f"{self.label}: working copy, not signed"
+        when = self.signed_off_at.strftime("%Y-%m-%d") if self.signed_off_at else "date not given"
+        return f"{self.label}, signed off by {self.signed_off_by} on {when}"
 
 
 @dataclass(frozen=True)
@@ -47,6 +89,7 @@ class ReportScenario:
     steps: tuple[ReportStep, ...]
     ladder: LadderView | None
     demand_mode: str
+    warnings: tuple[CheckWarning, ...] = ()
 
 
 @dataclass(frozen=True)
@@ -72,9 +115,14 @@ class Report:
     actions: Table
     nodes: tuple[ReportNode, ...]
     picture: RiskPicture
+    functions: tuple[AddedFunction, ...] = ()
+    rules: tuple[RuleCount, ...] = ()
+    overdue: frozenset[str] = frozenset()
+    signature: Signature = Signature("Working copy")
 
 
-def build_report(tree: StudyTree, data: StudyData, *, when: datetime) -> Report:
+def build_report(tree: StudyTree, data: StudyData, *, when: datetime,
+                 signature: Signature | None = None) -> Report:
     """The report's data for a loaded study and its exported study file."""
     refs = scenario_refs(tree)
     nodes = tuple(
@@ -92,23 +140,53 @@ def build_report(tree: StudyTree, data: StudyData, *, when: datetime) -> Report:
         study=tree.study, session_days=tuple(day["day"] for day in data["session_days"]),
         generated_at=when, totals=totals_of(tree.scenario_branches()),
         criteria=criteria_table(data), attendance=attendance_table(data),
-        actions=action_table(data),
+        actions=(actions := action_table(data, file_ref_numbers(tree))),
         nodes=nodes, picture=build_risk_picture(tree),
+        functions=tuple(added_functions(tree)), rules=warnings_by_rule(nodes),
+        overdue=overdue_actions(actions, when.date()),
+        signature=signature or Signature(f"{tree.study.revision_label}"),
     )
+
+
+def warnings_by_rule(nodes: tuple[ReportNode, ...]) -> tuple[RuleCount, ...]:
+    """The IPL-check warnings counted by rule, with the scenarios raising them."""
+    scenarios: dict[str, list[str]] = defaultdict(list)
+    sources: dict[str, str] = {}
+    for node in nodes:
+        for entry in node.scenarios:
+            for warning in entry.warnings:
+                scenarios[warning.rule].append(entry.ref)
+                sources[warning.rule] = warning_source(warning)
+    return tuple(RuleCount(rule, len(refs), ", ".join(dict.fromkeys(refs)), sources[rule])
+                 for rule, refs in scenarios.items())
+
+
+def overdue_actions(actions: Table, today: date) -> frozenset[str]:
+    """The numbers (A1, A2, ...) of open actions whose due date has passed."""
+    return frozenset(str(row[0]) for row in actions.rows
+                     if isinstance(row[3], date) and row[3] < today
+                     and row[4] not in ("done", "rejected"))
 
 
 def _report_scenario(ref: str, deviation: str, item: ScenarioBranch) -> ReportScenario:
     result = item.outcome.result
-    steps = tuple(
-        ReportStep(s.kind.label, s.description, s.value, s.credited,
-                   s.basis)
-        for s in item.steps
-    )
+    steps = tuple(_report_step(s) for s in item.steps)
     return ReportScenario(
         ref=ref, deviation=deviation, item=item, steps=steps,
         ladder=build_ladder(result) if result is not None else None,
         demand_mode=DEMAND_LABELS[result.sil_target.demand_mode] if result else "",
+        warnings=tuple(scenario_warnings(item)),
     )
+
+
+def _report_step(step: Step) -> ReportStep:
+    typical = typical_words(step.typical_key)
+    reason = "" if step.credited else (
+        "the team did not credit it; see its basis" if step.basis.strip()
+        else "the team did not credit it; no reason recorded")
+    return ReportStep(step.kind.label, step.description, step.value,
+                      step.value_text or format_number(step.value), step.credited, step.basis,
+                      typical, reason)
 
 
 def report_html(report: Report, *, env: Environment) -> str:
@@ -123,8 +201,3 @@ def html_to_pdf(html: str) -> bytes:
     pdf: bytes | None = HTML(string=html, base_url=".", url_fetcher=fetcher).write_pdf()
     assert pdf is not None
     return pdf
-
-
-def report_pdf(tree: StudyTree, data: StudyData, *, env: Environment, when: datetime) -> bytes:
-    """The study report as PDF bytes."""
-    return html_to_pdf(report_html(build_report(tree, data, when=when), env=env))

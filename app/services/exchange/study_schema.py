@@ -262,6 +262,8 @@ class StudySnapshot(FileRow):
     format: Literal["tallyroom-study"] = FILE_FORMAT
     schema_version: Literal[2] = SCHEMA_VERSION
     invented: bool = Field(default=False, description="true for made-up demo data")
+    cautions: str = Field(default="", description="the cautions every export carries; read "
+                                                  "them before using the numbers")
     study: StudyHeader
     severity_categories: list[CategoryRow] = Field(min_length=1)
     nodes: list[NodeRow] = []

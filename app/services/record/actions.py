@@ -5,12 +5,13 @@ the field and the rule, so nothing invalid reaches the database.
 """
 
 from collections.abc import Iterable, Mapping
-from dataclasses import dataclass
+from dataclasses import dataclass, replace
 from datetime import date
 from typing import Any
 
 from sqlmodel import Session, col, select
 
+from app.db.compare_and_set import SaveOutcome
 from app.db.models import ActionStatus, Recommendation, RecommendationScenario, Scenario, saved_id
 from app.db.queries import lock_study_order
 from app.services.record.action_inputs import (
@@ -21,6 +22,14 @@ from app.services.record.action_inputs import (
     read_direction,
 )
 from app.services.record.change_log import record_link_change
+from app.services.study.conflicts import (
+    FieldConflict,
+    PageEdit,
+    as_text,
+    changed_fields,
+    guarded_save,
+    log_resolution,
+)
 from app.services.study.tree import NotFoundError, get_study
 
 # Any in this module: form values arrive raw (the form boundary).
@@ -80,20 +89,60 @@ def _next_position(session: Session, study_id: int) -> int:
     return max(positions, default=-1) + 1
 
 
+class ActionConflictError(Exception):
+    """Someone saved the same fields of this action since the page loaded it (409)."""
+
+    def __init__(self, conflicts: tuple[FieldConflict, ...]) -> None:
+        super().__init__("changed since the page was loaded")
+        self.conflicts = conflicts
+
+
 def save_action(
     *, session: Session, action_id: int, changes: Mapping[str, Any],
-    study_id: int | None = None,
+    study_id: int | None = None, edit: PageEdit | None = None, resolution: str = "",
+    seen: Mapping[str, str] | None = None,
 ) -> Recommendation:
-    """Change only the sent fields; a rejected action must carry a reason."""
+    """Save the fields the person changed; a rejected action must carry a reason.
+
+    A field someone else changed since the page loaded raises ActionConflictError (nothing
+    saved); `resolution` "keep"/"take" answers it with the other person's values it showed
+    (`seen`), and is logged.
+    """
     action = get_action(session=session, action_id=action_id, study_id=study_id)
     values = read_changes(changes)
     check_reason(values.get("status", action.status),
-                  values.get("status_reason", action.status_reason))
-    action.sqlmodel_update(values)
-    session.add(action)
+                 values.get("status_reason", action.status_reason))
+    edit = edit or PageEdit()
+    originals = _readable(edit.originals)
+    if resolution in ("keep", "take") and seen:
+        theirs = _readable(seen)
+        originals.update(theirs)
+        if resolution == "take":
+            values.update(theirs)
+        for name, value in theirs.items():
+            log_resolution(session, action, name, kept_mine=resolution == "keep",
+                           theirs=as_text(value), mine=as_text(values.get(name)))
+    result = guarded_save(session, Recommendation, action_id,
+                          replace(edit, originals=originals), changed_fields(values, originals))
+    if result.outcome is SaveOutcome.CHANGED_SINCE:
+        session.rollback()
+        raise ActionConflictError(result.conflicts)
+    if result.outcome is SaveOutcome.DELETED:
+        raise NotFoundError(f"Action {action_id} was deleted since.")
     session.commit()
     session.refresh(action)
     return action
+
+
+def _readable(texts: Mapping[str, Any]) -> dict[str, Any]:
+    """Loaded or shown text read like the person's own (a field that does not read: unknown)."""
+    known: dict[str, Any] = {}
+    for name, text in texts.items():
+        try:
+            known.update(read_changes({name: text}))
+        except ActionInputError:
+            continue
+    return known
 
 
 def remove_action(*, session: Session, action_id: int, study_id: int | None = None) -> None:

@@ -14,6 +14,7 @@ from sqlmodel import Session
 from app.db.models import Study
 from app.services.record.action_inputs import ActionOrder
 from app.services.record.actions import STATUS_LABELS, ActionEntry, list_actions
+from app.services.study.conflicts import FieldConflict
 from app.services.study.tree import ScenarioBranch, load_study_tree
 
 # Products of decimals sit a hair off exact powers of ten; a closure within this is a closure.
@@ -143,6 +144,9 @@ class ActionForm:
     values: dict[str, str] | None = None
     error_field: str = ""
     error: str = ""
+    conflicts: tuple[FieldConflict, ...] = ()  # someone saved these fields since (409)
+    page_version: int | None = None  # what the page was loaded with, kept through a conflict
+    originals: dict[str, str] | None = None
 
     def value(self, name: str, default: str = "") -> str:
         """The typed text of a field, or the default when nothing was typed."""

@@ -3,9 +3,10 @@
 Rows are matched by a stable key within their parent, never by database id:
 node by number; deviation by guideword + parameter within its node; scenario by cause text
 within its deviation; step by kind + description within its scenario; severity category by
-name. Keys compare with case and runs of spaces ignored. A row whose key finds no partner is
-paired with the unmatched row at the same position in its list, if there is one (so an edited
-cause reads as a change, not as a removal and an addition); otherwise it is added or removed.
+name; action by its text; participant by name; session day by date. Keys compare with case
+and runs of spaces ignored. A row whose key finds no partner is paired with the unmatched row
+at the same position in its list, if there is one (so an edited cause reads as a change, not
+as a removal and an addition); otherwise it is added or removed.
 """
 
 import math
@@ -31,6 +32,9 @@ SCENARIO_FIELDS = ("cause", "consequence", "notes")
 SEVERITY_FIELDS = ("severity", "environment_severity", "asset_severity")
 STEP_FIELDS = ("kind", "description", "value", "credited", "basis", "ipl_type", "system_tag",
                "sil_claimed", "response_time_minutes")
+ACTION_FIELDS = ("owner", "due_date", "status", "status_reason", "expected_rrf", "scenarios")
+PARTICIPANT_FIELDS = ("role", "discipline", "company")
+DAY_FIELDS = ("note", "attendees")
 # Joins the parts of a row's place in the study, as in a breadcrumb trail.
 SEP = " \N{SINGLE RIGHT-POINTING ANGLE QUOTATION MARK} "
 
@@ -188,7 +192,50 @@ class _Differ:
         for old, new in match_rows(self.before.get("nodes", []), self.after.get("nodes", []),
                                    lambda n: normalised(n["number"])):
             self._node(old, new)
+        self._actions()
+        self._attendance()
         return self.diff
+
+    def _actions(self) -> None:
+        old_causes, new_causes = _scenario_causes(self.before), _scenario_causes(self.after)
+        pairs = match_rows(self.before.get("recommendations", []),
+                           self.after.get("recommendations", []), lambda a: normalised(a["text"]))
+        for old, new in pairs:
+            either = new or old
+            assert either is not None
+            where = f"Action '{either['text'][:80]}'"
+            if old is None or new is None:
+                _added_or_removed(self.diff, "Actions", "", old, where)
+                continue
+            _compare_fields(self.diff, "Actions", where,
+                            _addressed(old, old_causes), _addressed(new, new_causes),
+                            ACTION_FIELDS)
+            if normalised(old["text"]) != normalised(new["text"]):
+                _compare_fields(self.diff, "Actions", where, old, new, ("text",))
+
+    def _attendance(self) -> None:
+        for old, new in match_rows(self.before.get("participants", []),
+                                   self.after.get("participants", []),
+                                   lambda p: normalised(p["name"])):
+            either = new or old
+            assert either is not None
+            where = f"Participant {either['name']}"
+            if old is None or new is None:
+                _added_or_removed(self.diff, "Participants", "", old, where)
+            else:
+                _compare_fields(self.diff, "Participants", where, old, new,
+                                ("name", *PARTICIPANT_FIELDS))
+        old_names, new_names = _people(self.before), _people(self.after)
+        for old, new in match_rows(self.before.get("session_days", []),
+                                   self.after.get("session_days", []), lambda d: d["day"]):
+            either = new or old
+            assert either is not None
+            where = f"Session day {either['day']}"
+            if old is None or new is None:
+                _added_or_removed(self.diff, "Session days", "", old, where)
+            else:
+                _compare_fields(self.diff, "Session days", where, _present(old, old_names),
+                                _present(new, new_names), ("day", *DAY_FIELDS))
 
     def _categories(self) -> None:
         pairs = match_rows(self.before.get("severity_categories", []),
@@ -276,6 +323,29 @@ class _Differ:
         for text in new_texts:
             if text not in old_texts:
                 self.diff.changes.append(Change("Safeguards", "added", f"{where}{SEP}'{text}'"))
+
+
+def _scenario_causes(study: Row) -> dict[str, str]:
+    """Scenario ref -> its cause text: refs are renumbered per file, the cause is the key."""
+    return {s["ref"]: s.get("cause") or s.get("consequence") or s["ref"]
+            for n in study.get("nodes", []) for d in n.get("deviations", [])
+            for s in d.get("scenarios", [])}
+
+
+def _addressed(action: Row, causes: dict[str, str]) -> Row:
+    """The action with the scenarios it addresses as their causes, in a stable order."""
+    named = sorted(causes.get(ref, ref) for ref in action.get("scenarios", []))
+    return {**action, "scenarios": "; ".join(named)}
+
+
+def _people(study: Row) -> dict[str, str]:
+    return {p["ref"]: p["name"] for p in study.get("participants", [])}
+
+
+def _present(day: Row, names: dict[str, str]) -> Row:
+    """The session day with its attendees as names, in a stable order."""
+    return {**day, "attendees": ", ".join(sorted(names.get(r, r)
+                                                 for r in day.get("attendees", [])))}
 
 
 def _deviation_key(row: Row) -> Hashable:

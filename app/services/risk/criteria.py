@@ -4,15 +4,25 @@ Changing a category re-evaluates every scenario rated with it at once (the study
 again from the stored rows), and the change reports how the scenarios' status moved.
 """
 
-from dataclasses import dataclass, fields
+from collections.abc import Mapping
+from dataclasses import dataclass, fields, replace
 from typing import Any
 
 from sqlmodel import Session, col, func, or_, select
 from sqlmodel.sql.expression import SelectOfScalar
 
+from app.db.compare_and_set import SaveOutcome
 from app.db.models import Receptor, Scenario, SeverityCategory, Study, text_limit
 from app.likelihood.numbers import parse_frequency
 from app.likelihood.types import LikelihoodInputError
+from app.services.study.conflicts import (
+    FieldConflict,
+    PageEdit,
+    as_text,
+    changed_fields,
+    guarded_save,
+    log_resolution,
+)
 from app.services.study.errors import length_problem
 from app.services.study.results import governing_category
 from app.services.study.tree import NotFoundError, StudyTree, get_study, load_study_tree
@@ -64,6 +74,7 @@ class CategoryUse:
     governed_count: int
     short_count: int
     errors: dict[str, str]
+    loaded: CategoryForm  # the stored row as text: what the page sends back as its originals
 
 
 @dataclass(frozen=True)
@@ -98,6 +109,28 @@ class CriteriaPage:
     basis_error: str
     message: str = ""
     refusal: str = ""
+    conflict: "CategoryConflict | None" = None
+
+
+@dataclass(frozen=True)
+class CategoryConflict:
+    """A category save stopped because someone changed the same fields since the page loaded."""
+
+    category_id: int
+    fields: tuple[FieldConflict, ...]
+    page_version: int | None
+    originals: Mapping[str, str]  # the page's loaded text, for the fields not in conflict
+
+    def original_of(self, name: str) -> str:
+        """What the "keep mine"/"take theirs" forms send as this field's original."""
+        for clash in self.fields:
+            if clash.field == name:
+                return clash.theirs
+        return self.originals.get(name, "")
+
+    def clash(self, name: str) -> FieldConflict | None:
+        """The conflict on this field, if any."""
+        return next((c for c in self.fields if c.field == name), None)
 
 
 def _rated_with(scenario: Scenario, category_id: int) -> bool:
@@ -116,6 +149,7 @@ def _use(tree: StudyTree, row: SeverityCategory, form: CategoryForm | None = Non
         plain=parse_frequency(repr(row.tolerable_frequency)).plain,
         rated_count=sum(_rated_with(s.scenario, row.id or 0) for s in items),
         governed_count=len(governed), short_count=len(short), errors=errors or {},
+        loaded=CategoryForm.from_row(row),
     )
 
 
@@ -125,7 +159,8 @@ Edited = dict[int, tuple[CategoryForm, dict[str, str]]]
 def _criteria_page(session: Session, study_id: int, *, edited: Edited | None = None,
                    new_form: CategoryForm | None = None, new_errors: dict[str, str] | None = None,
                    basis_text: str | None = None, basis_error: str = "", message: str = "",
-                   refusal: str = "", tree: StudyTree | None = None) -> CriteriaPage:
+                   refusal: str = "", tree: StudyTree | None = None,
+                   conflict: CategoryConflict | None = None) -> CriteriaPage:
     tree = tree or load_study_tree(session, study_id)
     edited = edited or {}
     uses = tuple(_use(tree, row, *edited.get(row.id or 0, (None, None)))
@@ -134,13 +169,30 @@ def _criteria_page(session: Session, study_id: int, *, edited: Edited | None = N
         study=tree.study, categories=uses, new_form=new_form or CategoryForm(),
         new_errors=new_errors or {},
         basis_text=tree.study.criteria_basis if basis_text is None else basis_text,
-        basis_error=basis_error, message=message, refusal=refusal,
+        basis_error=basis_error, message=message, refusal=refusal, conflict=conflict,
     )
 
 
-def build_criteria_page(*, session: Session, study_id: int) -> CriteriaPage:
-    """The study's categories with how many scenarios each governs."""
-    return _criteria_page(session, study_id)
+def build_criteria_page(*, session: Session, study_id: int,
+                        added_id: int | None = None) -> CriteriaPage:
+    """The study's categories with how many scenarios each governs (and, after an add, which
+    one was added: the create form redirects here so a reload cannot add it twice)."""
+    added = session.get(SeverityCategory, added_id) if added_id is not None else None
+    if added is None or added.study_id != study_id:
+        return _criteria_page(session, study_id)
+    return _criteria_page(session, study_id,
+                          message=f"'{added.name}' added. No scenario is rated with it yet.")
+
+
+def name_taken(session: Session, study_id: int, name: str, except_id: int | None = None) -> str:
+    """The rule's message when another category of the study has this name (case and outer
+    spaces ignored), else ""."""
+    wanted = name.strip().casefold()
+    for row in session.exec(select(SeverityCategory).where(
+            SeverityCategory.study_id == study_id)).all():
+        if row.id != except_id and row.name.strip().casefold() == wanted:
+            return f"Name: the study already has a category called '{row.name}'; names must differ."
+    return ""
 
 
 def validate_category(form: CategoryForm) -> tuple[dict[str, Any], dict[str, str]]:
@@ -181,17 +233,43 @@ def _short_and_governed(tree: StudyTree, category_id: int) -> tuple[list[bool], 
     return short, governed
 
 
-def save_category(*, session: Session, study_id: int, category_id: int,
-                    form: CategoryForm) -> CriteriaPage:
-    """Save one category and re-evaluate the scenarios rated with it; errors save nothing."""
+def save_category(*, session: Session, study_id: int, category_id: int, form: CategoryForm,
+                  edit: PageEdit | None = None, resolution: str = "",
+                  seen: Mapping[str, str] | None = None) -> CriteriaPage:
+    """Save the fields the person changed and re-evaluate the scenarios rated with the category.
+
+    Errors save nothing; a field someone else changed since the page loaded stops the save with
+    both values (409). `resolution` ("keep"/"take") answers such a conflict: the other
+    person's values the conflict showed (`seen`) become the originals, and "take" also the
+    values; the choice is logged.
+    """
     row = _get_category(session, study_id, category_id)
     values, errors = validate_category(form)
+    if "name" not in errors and (taken := name_taken(session, study_id, form.name, category_id)):
+        errors["name"] = taken
     if errors:
         return _criteria_page(session, study_id, edited={category_id: (form, errors)})
+    edit = edit or PageEdit()
+    originals = _original_values(edit.originals)
+    if resolution in ("keep", "take") and seen:
+        theirs = _original_values(seen)
+        originals.update(theirs)
+        if resolution == "take":
+            values.update(theirs)
+        _log_resolved(session, row, values, theirs, kept_mine=resolution == "keep")
     short_before, governed_before = _short_and_governed(load_study_tree(session, study_id),
                                                         category_id)
-    row.sqlmodel_update(values)
-    session.add(row)
+    touched = changed_fields(values, originals)
+    result = guarded_save(session, SeverityCategory, category_id,
+                          replace(edit, originals=originals), touched)
+    if result.outcome is SaveOutcome.CHANGED_SINCE:
+        session.rollback()
+        conflict = CategoryConflict(category_id, result.conflicts, edit.version,
+                                    {k: str(v) for k, v in edit.originals.items()})
+        return _criteria_page(session, study_id, edited={category_id: (form, {})},
+                              conflict=conflict)
+    if result.outcome is SaveOutcome.DELETED:
+        raise NotFoundError(f"Severity category {category_id} was deleted since.")
     session.commit()
     after = load_study_tree(session, study_id)
     short_after, governed_after = _short_and_governed(after, category_id)
@@ -200,23 +278,42 @@ def save_category(*, session: Session, study_id: int, category_id: int,
     return _criteria_page(session, study_id, message=change.sentence, tree=after)
 
 
+def _original_values(originals: Mapping[str, Any]) -> dict[str, Any]:
+    """The page's loaded text read like the person's own (a field that does not read: unknown)."""
+    form = CategoryForm.from_mapping(originals)
+    values, errors = validate_category(form)
+    return {name: value for name, value in values.items()
+            if name in originals and name not in errors}
+
+
+def _log_resolved(session: Session, row: SeverityCategory, values: Mapping[str, Any],
+                  theirs: Mapping[str, Any], *, kept_mine: bool) -> None:
+    for name, value in theirs.items():
+        log_resolution(session, row, name, kept_mine=kept_mine, theirs=as_text(value),
+                       mine=as_text(values.get(name)))
+
+
 def _next_category_position(session: Session, study_id: int) -> int:
     statement = select(func.max(SeverityCategory.position)).where(
         SeverityCategory.study_id == study_id)
     return (session.exec(statement).one() or 0) + 1
 
 
-def add_category(*, session: Session, study_id: int, form: CategoryForm) -> CriteriaPage:
-    """Add a category at the end; errors save nothing and keep the typed text."""
+def add_category(*, session: Session, study_id: int,
+                 form: CategoryForm) -> CriteriaPage | SeverityCategory:
+    """Add a category at the end and return it; errors save nothing and answer the page with
+    the typed text kept."""
     get_study(session, study_id)
     values, errors = validate_category(form)
+    if "name" not in errors and (taken := name_taken(session, study_id, form.name)):
+        errors["name"] = taken
     if errors:
         return _criteria_page(session, study_id, new_form=form, new_errors=errors)
     position = _next_category_position(session, study_id)
-    session.add(SeverityCategory(study_id=study_id, position=position, **values))
+    row = SeverityCategory(study_id=study_id, position=position, **values)
+    session.add(row)
     session.commit()
-    return _criteria_page(session, study_id,
-                          message=f"'{form.name}' added. No scenario is rated with it yet.")
+    return row
 
 
 def scenarios_rated_with(category_id: int) -> SelectOfScalar[int]:

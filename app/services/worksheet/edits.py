@@ -1,31 +1,50 @@
-"""Field edits on the worksheet, read top-down: parse → guard against stale requests → save → reply.
+"""Field edits on the worksheet, read top-down: parse → guard → save (or 409) → reply.
 
 `edit_step_value` is the keystroke path of a step's typed value; `edit_field` saves any other
-field of a worksheet row. Both answer with one flat `FieldReply` for worksheet/field_reply.html.
+field of a worksheet row, and every field of a whole-row form (only the ones the person
+changed). Both save through `services/study/conflicts.guarded_save` and answer with one flat
+`FieldReply` for worksheet/field_reply.html: saved, invalid (422), changed by someone else since
+the page loaded (409, with both values), or the row is gone (409, who deleted it and when).
 """
 
-from collections import OrderedDict
 from collections.abc import Mapping
-from dataclasses import dataclass
-from threading import Lock
+from dataclasses import dataclass, replace
 from typing import Any
 
 from sqlmodel import Session
 
+from app.db.compare_and_set import SaveOutcome
 from app.db.models import Step
-from app.likelihood.numbers import ParsedNumber, format_number
+from app.likelihood.numbers import format_number
 from app.likelihood.types import LikelihoodInputError
+from app.likelihood.word_scale import WordedNumber
+from app.services.study.conflicts import (
+    FieldConflict,
+    GoneRow,
+    GuardedResult,
+    PageEdit,
+    as_text,
+    changed_fields,
+    claim_keystroke,
+    gone_row,
+    guarded_save,
+    log_resolution,
+    remember_written,
+)
 from app.services.study.listing import NodeTotals
 from app.services.study.totals import study_totals
+from app.services.study.tree import NotFoundError
+from app.services.study.word_scale import basis_with_word, read_step_text
 from app.services.worksheet.page import ScenarioView, located_scenario, plain_value
 from app.services.worksheet.structure import (
+    RowKind,
     StructureInputError,
     get_row,
     kind_of,
     node_id_of,
     parse_step_value,
+    read_row_changes,
     step_label,
-    update_row,
 )
 
 # Any in this module: a row is one of five table models and form changes are raw values (both
@@ -34,13 +53,18 @@ from app.services.worksheet.structure import (
 FIELD_PREFIX = {"node": "node", "deviation": "dev", "scenario": "sc", "step": "step",
                 "safeguard": "sg"}
 SAVED = "saved"
+# A step's number is shown and compared as the text typed; `value` follows from it.
+SHOWN_FIELD = {"value": "value_text"}
+KEEP_MINE, TAKE_THEIRS = "keep", "take"
 
 
 @dataclass(frozen=True)
 class FieldReply:
     """The answer to one field edit: the field's line, the recomputed scenario and the totals.
 
-    `scenario` is None for node and deviation fields, whose edits change no figure.
+    `scenario` is None for node and deviation fields, whose edits change no figure. `conflict`
+    or `gone` (409) replace the line with what happened; `version` (after a clean save) and
+    `saved_text` update the page's hidden version and original of the field.
     """
 
     field_id: str
@@ -48,8 +72,23 @@ class FieldReply:
     error: str
     node_id: int
     scenario: ScenarioView | None
-    node_totals: NodeTotals
-    study_totals: NodeTotals
+    node_totals: NodeTotals | None
+    study_totals: NodeTotals | None
+    study_id: int = 0
+    row_key: str = ""
+    field: str = ""
+    conflict: FieldConflict | None = None
+    gone: GoneRow | None = None
+    version: int | None = None
+    page_version: int | None = None
+    saved_text: str | None = None
+
+    @property
+    def status_code(self) -> int:
+        """409 for a conflict or a deleted row, 422 for invalid text, else 200."""
+        if self.conflict or self.gone:
+            return 409
+        return 422 if self.error else 200
 
 
 def field_id(kind_name: str, row_id: int, field: str) -> str:
@@ -58,79 +97,172 @@ def field_id(kind_name: str, row_id: int, field: str) -> str:
 
 
 def edit_step_value(*, session: Session, study_id: int, step_id: int, text: str,
-                    client: str = "", seq: int | None = None) -> FieldReply | None:
+                    edit: PageEdit | None = None) -> FieldReply | None:
     """Save a step's value if it parses; None when a newer edit of it was already seen."""
-    step: Step = get_row(session, kind_of("step"), study_id, step_id)
+    edit = edit or PageEdit()
+    step: Step | None = _existing(session, "step", study_id, step_id)
+    if step is None:
+        return _gone_reply(session, "step", study_id, step_id, "value_text")
     fid = field_id("step", step_id, "value_text")
-    parsed = _parse_typed_value(step, text)
-    if not LATEST_EDITS.accept(step_id, client, seq):
-        return None
-    if isinstance(parsed, LikelihoodInputError):
+    worded = _parse_typed_value(session, step, text)
+    accepted, written = _claim(session, study_id, step_id, edit)
+    if not accepted:
         session.rollback()
+        return None
+    if isinstance(worded, LikelihoodInputError):
+        session.commit()  # keeps the sequence number: an older keystroke stays older
         fallback = f"{step_label(step)}: using last valid value {format_number(step.value)}"
-        return _reply(session, "step", step, fid, error=parsed.message, fallback=fallback)
-    if (step.value, step.value_text) != (parsed.value, parsed.text):
-        step.value, step.value_text = parsed.value, parsed.text
-        session.add(step)
-        session.commit()
-    return _reply(session, "step", step, fid, said=parsed.plain)
+        return _reply(session, "step", step, fid, error=worded.message, fallback=fallback)
+    parsed = worded.number
+    word_note = {"basis": basis_with_word(step.basis, worded)} if worded.word else {}
+    originals = _original_value(step, edit)
+    result = guarded_save(session, Step, step_id, replace(edit, originals=originals),
+                          {"value": parsed.value, "value_text": parsed.text, **word_note},
+                          {"value_text": written, "value": _number_text(step, written)})
+    if result.outcome is SaveOutcome.SAVED and edit.client:
+        remember_written(session, entity="step", row_id=step_id, name="value_text",
+                         client=edit.client, text=parsed.text)
+    return _after_save(session, "step", step, fid, result, said=parsed.plain,
+                       page_version=edit.version)
 
 
-def _parse_typed_value(step: Step, text: str) -> ParsedNumber | LikelihoodInputError:
-    """The typed text read as the step's kind needs (a frequency or a probability), or why not."""
+def _claim(session: Session, study_id: int, step_id: int,
+           edit: PageEdit) -> tuple[bool, str | None]:
+    if not edit.client or edit.seq is None:
+        return True, None  # a plain form post carries no sequence: always current
+    return claim_keystroke(session, study_id=study_id, entity="step", row_id=step_id,
+                           name="value_text", client=edit.client, seq=edit.seq)
+
+
+def _number_text(step: Step, text: str | None) -> str | None:
+    """The number a page's own earlier text stands for, as compared text."""
+    if text is None:
+        return None
+    return as_text(parse_step_value(step.kind, text).value)
+
+
+def _original_value(step: Step, edit: PageEdit) -> dict[str, Any]:
+    """The page's original text read as a number, so `value` and `value_text` compare alike."""
+    if "value_text" not in edit.originals:
+        return {}
     try:
-        return parse_step_value(step.kind, text, step_label(step))
+        parsed = parse_step_value(step.kind, str(edit.originals["value_text"]))
+    except LikelihoodInputError:
+        return {}
+    return {"value": parsed.value, "value_text": parsed.text}
+
+
+def _parse_typed_value(session: Session, step: Step,
+                       text: str) -> WordedNumber | LikelihoodInputError:
+    """The typed text read as the step's kind needs (a frequency or a probability, or a word
+    on the team's adopted scale), or why not."""
+    try:
+        return read_step_text(session, step, text, step_label(step))
     except LikelihoodInputError as err:
         return err
 
 
-class LatestEdits:
-    """The newest sequence number seen per (step, browser page), so an older edit is dropped.
-
-    It lives in the server process, so it is not shared across several workers.
-    """
-
-    def __init__(self, capacity: int = 10_000) -> None:
-        self._seen: OrderedDict[tuple[int, str], int] = OrderedDict()
-        self._lock = Lock()
-        self._capacity = capacity
-
-    def accept(self, step_id: int, client: str, seq: int | None) -> bool:
-        """True when this edit is newer than every one seen from that page for that step."""
-        if not client or seq is None:
-            return True  # a plain form post carries no sequence: always current
-        with self._lock:
-            key = (step_id, client)
-            if seq <= self._seen.get(key, -1):
-                return False
-            self._seen[key] = seq
-            self._seen.move_to_end(key)
-            while len(self._seen) > self._capacity:
-                self._seen.popitem(last=False)
-            return True
-
-
-LATEST_EDITS = LatestEdits()
-
-
 def edit_field(*, session: Session, study_id: int, kind_name: str, row_id: int,
-               changes: Mapping[str, Any]) -> FieldReply:
-    """Save the sent fields of a row, or say which rule the first bad one breaks."""
-    row = get_row(session, kind_of(kind_name), study_id, row_id)
+               changes: Mapping[str, Any], edit: PageEdit | None = None,
+               resolution: str = "") -> FieldReply:
+    """Save the fields the person changed, or say which rule the first bad one breaks.
+
+    `resolution` answers an earlier conflict: "keep" saves the sent value over the other
+    person's (the sent originals are theirs), "take" saves nothing; both are logged.
+    """
+    edit = edit or PageEdit()
+    kind = kind_of(kind_name)
+    row = _existing(session, kind_name, study_id, row_id)
     sent = next(iter(changes), "")
+    if row is None:
+        return _gone_reply(session, kind_name, study_id, row_id, sent)
     try:
-        row = update_row(session=session, study_id=study_id, kind_name=kind_name,
-                         row_id=row_id, changes=changes)
+        values = read_row_changes(session, kind, row, changes)
+        originals = _read_originals(session, kind, row, edit.originals)
     except StructureInputError as err:
         session.rollback()
         return _reply(session, kind_name, row, field_id(kind_name, row_id, err.field),
                       error=err.message)
+    if resolution in (KEEP_MINE, TAKE_THEIRS):
+        _log_choice(session, row, values, originals, kept_mine=resolution == KEEP_MINE)
+    values = {} if resolution == TAKE_THEIRS else changed_fields(values, originals)
+    result = (guarded_save(session, kind.model, row_id, replace(edit, originals=originals),
+                           values) if values else GuardedResult(SaveOutcome.SAVED))
     said = plain_value(row) if (kind_name, sent) == ("step", "value_text") else SAVED
-    return _reply(session, kind_name, row, field_id(kind_name, row_id, sent), said=said)
+    return _after_save(session, kind_name, row, field_id(kind_name, row_id, sent), result,
+                       said=said, page_version=edit.version)
+
+
+def _existing(session: Session, kind_name: str, study_id: int, row_id: int) -> Any:
+    """The row, or None when it no longer exists (another study's row is NotFoundError)."""
+    if session.get(kind_of(kind_name).model, row_id) is None:
+        return None
+    return get_row(session, kind_of(kind_name), study_id, row_id)
+
+
+def _read_originals(session: Session, kind: RowKind, row: Any,
+                    originals: Mapping[str, Any]) -> dict[str, Any]:
+    """The values the page was loaded with, read like the person's own (unreadable: unknown)."""
+    known: dict[str, Any] = {}
+    for name, text in originals.items():
+        try:
+            known.update(read_row_changes(session, kind, row, {name: text}))
+        except StructureInputError:
+            continue
+    return known
+
+
+def _log_choice(session: Session, row: Any, values: Mapping[str, Any],
+                originals: Mapping[str, Any], *, kept_mine: bool) -> None:
+    for name, value in values.items():
+        if name not in SHOWN_FIELD:
+            log_resolution(session, row, name, kept_mine=kept_mine,
+                           theirs=as_text(originals.get(name)), mine=as_text(value))
+
+
+def _after_save(session: Session, kind_name: str, row: Any, fid: str, result: GuardedResult,
+                *, said: str, page_version: int | None) -> FieldReply:
+    """Commit a save and reply, or roll back and say what stopped it."""
+    row_id = int(row.id)
+    if result.outcome is SaveOutcome.DELETED:
+        session.rollback()
+        return _gone_reply(session, kind_name, int(row.study_id), row_id, fid.split("-", 2)[2])
+    if result.outcome is SaveOutcome.CHANGED_SINCE:
+        session.rollback()
+        conflict = _shown_conflict(result.conflicts)
+        field = SHOWN_FIELD.get(conflict.field, conflict.field)
+        return _reply(session, kind_name, row, field_id(kind_name, row_id, field),
+                      conflict=conflict, page_version=page_version)
+    session.commit()
+    session.refresh(row)
+    field = fid.split("-", 2)[2]
+    return _reply(session, kind_name, row, fid, said=said,
+                  version=int(row.version) if result.clean else None,
+                  saved_text=as_text(getattr(row, field, None)))
+
+
+def _shown_conflict(conflicts: tuple[FieldConflict, ...]) -> FieldConflict:
+    """The conflict to show at a field: the typed text rather than the number behind it."""
+    shown = [c for c in conflicts if c.field not in SHOWN_FIELD]
+    return (shown or list(conflicts))[0]
+
+
+def _gone_reply(session: Session, kind_name: str, study_id: int, row_id: int,
+                field: str) -> FieldReply:
+    """The answer to an edit of a row someone deleted: who, when, and whether undo can help."""
+    gone = gone_row(session, study_id, kind_of(kind_name).model, row_id)
+    if gone is None:
+        raise NotFoundError(f"There is no {kind_name} {row_id} in study {study_id}.")
+    fid = field_id(kind_name, row_id, field or "row")
+    return FieldReply(fid, "", "", 0, None, None, None, study_id=study_id,
+                      row_key=f"{FIELD_PREFIX[kind_name]}-{row_id}",
+                      field=field, gone=gone)
 
 
 def _reply(session: Session, kind_name: str, row: Any, fid: str, *, said: str = "",
-           error: str = "", fallback: str = "") -> FieldReply:
+           error: str = "", fallback: str = "", conflict: FieldConflict | None = None,
+           version: int | None = None, page_version: int | None = None,
+           saved_text: str | None = None) -> FieldReply:
     """The reply from what is saved: the row's scenario recomputed (if any) and the totals.
 
     `row` is any worksheet row (its model depends on `kind_name`).
@@ -145,7 +277,11 @@ def _reply(session: Session, kind_name: str, row: Any, fid: str, *, said: str = 
                                           scenario_id=scenario_id, fallback=fallback)
         node_id = node.id or 0
     totals = study_totals(session, study_id)
-    return FieldReply(fid, said, error, node_id, scenario, totals.of_node(node_id), totals.study)
+    return FieldReply(fid, said, error, node_id, scenario, totals.of_node(node_id),
+                      totals.study, study_id=study_id,
+                      row_key=f"{FIELD_PREFIX[kind_name]}-{row.id}",
+                      field=fid.split("-", 2)[2], conflict=conflict, version=version,
+                      page_version=page_version, saved_text=saved_text)
 
 
 def _scenario_id_of(kind_name: str, row: Any) -> int | None:

@@ -5,7 +5,7 @@ from dataclasses import dataclass
 
 from sqlmodel import Session
 
-from app.db.models import DeletedItem, Node, Recommendation, SeverityCategory, Step, Study
+from app.db.models import Node, Recommendation, SeverityCategory, Step, Study
 from app.db.queries import fetch_first_node_id, fetch_node_links, fetch_recommendations_of_node
 from app.likelihood.checks import CheckWarning
 from app.likelihood.numbers import format_number
@@ -29,7 +29,7 @@ from app.services.worksheet.structure import (
     parse_step_value,
     step_label,
 )
-from app.services.worksheet.undo import DeleteCounts, delete_question, last_deleted
+from app.services.worksheet.undo import DeleteCounts, UndoState, delete_question, undo_state
 
 
 @dataclass(frozen=True)
@@ -56,6 +56,14 @@ class ScenarioView:
     recommendations: tuple[Recommendation, ...]
     delete_question: str
     fallback: str = ""
+
+    @property
+    def state(self) -> int:
+        """How far the saved scenario has come: every save bumps one of these versions by one,
+        so of two replies the one computed from more saves has the larger number. The page
+        keeps the figures with the largest (replies can arrive out of order)."""
+        rows = [self.item.scenario, *self.item.steps, *self.item.safeguards]
+        return sum(row.version for row in rows)
 
 
 @dataclass(frozen=True)
@@ -88,7 +96,7 @@ class WorksheetPage:
     deviations: tuple[DeviationView, ...]
     node_totals: NodeTotals
     study_totals: NodeTotals
-    undo: DeletedItem | None
+    undo: UndoState
     node_delete_question: str
 
 
@@ -163,7 +171,8 @@ def node_delete_question(node_branch: NodeBranch) -> str:
     return delete_question("node", node_branch.node.number, counts)
 
 
-def build_worksheet_page(*, session: Session, study_id: int, node_id: int) -> WorksheetPage:
+def build_worksheet_page(*, session: Session, study_id: int, node_id: int,
+                         author: str = "") -> WorksheetPage:
     """The node's deviations and scenarios, every scenario computed, with node and study totals.
 
     Only this node's rows are loaded as objects; the totals come from plain rows.
@@ -179,7 +188,7 @@ def build_worksheet_page(*, session: Session, study_id: int, node_id: int) -> Wo
         study=tree.study, node=node_branch.node, nodes=node_links(session, study_id),
         categories=tuple(tree.categories), deviations=deviations,
         node_totals=totals.of_node(node_id), study_totals=totals.study,
-        undo=last_deleted(session=session, study_id=study_id),
+        undo=undo_state(session=session, study_id=study_id, author=author),
         node_delete_question=node_delete_question(node_branch),
     )
 
@@ -188,6 +197,13 @@ def node_links(session: Session, study_id: int) -> tuple[NodeLink, ...]:
     """Every node of the study for the node switcher, in display order."""
     return tuple(NodeLink(row.id, row.number, row.name)
                  for row in fetch_node_links(session, study_id))
+
+
+def picked_node_id(*, session: Session, study_id: int, picked: str) -> int | None:
+    """The node chosen in the node picker when it belongs to the study, else the first node."""
+    ids = [link.id for link in node_links(session, study_id)] if picked else []
+    chosen = int(picked) if picked.isdigit() else None
+    return chosen if chosen in ids else first_node_id(session=session, study_id=study_id)
 
 
 def first_node_id(*, session: Session, study_id: int) -> int | None:

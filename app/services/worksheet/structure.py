@@ -255,21 +255,6 @@ def read_row_changes(session: Session, kind: RowKind, row: Any,
     return values
 
 
-def update_row(*, session: Session, study_id: int, kind_name: str, row_id: int,
-               changes: Mapping[str, Any]) -> Any:
-    """Change only the sent fields of one row, after validating all of them."""
-    kind = kind_of(kind_name)
-    row = get_row(session, kind, study_id, row_id)
-    values = read_row_changes(session, kind, row, changes)
-    for field, value in values.items():
-        if getattr(row, field) != value:
-            setattr(row, field, value)
-    session.add(row)
-    session.commit()
-    session.refresh(row)
-    return row
-
-
 def move_row(*, session: Session, study_id: int, kind_name: str, row_id: int,
              offset: int) -> Any:
     """Move a row up (offset -1) or down (+1) among its siblings; at an end it stays put."""

@@ -1,20 +1,38 @@
-"""Deleting worksheet rows with everything under them, and undoing the last delete.
+"""Deleting worksheet rows with everything under them, and undoing deletes, per person.
 
-A delete stores the removed subtree as JSON in DeletedItem; undo re-creates it (with new ids,
-children re-linked) and drops the stored item, so each delete can be undone once.
+A delete stores the removed subtree as JSON in DeletedItem with its author; undo brings back
+that person's newest delete: it re-creates the rows (with new ids, children re-linked, the top
+row back at its old position among its present siblings) and drops the stored item. When what
+the rows depend on is gone (their parent, or a scenario's risk category, deleted since) the
+undo refuses, naming what is missing; the item is set aside with that reason, so it never
+stands in the way of the person's older deletes or anyone else's.
 """
 
 import json
 from collections import Counter
-from dataclasses import dataclass
+from dataclasses import dataclass, field
 from typing import Any
 
 from sqlmodel import Session, col, select
 
-from app.db.models import DeletedItem, Recommendation, RecommendationScenario, utc_now
+from app.db.models import (
+    ChangeLogEntry,
+    DeletedItem,
+    Recommendation,
+    RecommendationScenario,
+    SeverityCategory,
+    utc_now,
+)
 from app.likelihood.types import StepKind
 from app.services.study.tree import NotFoundError, get_study
-from app.services.worksheet.structure import KINDS, StructureInputError, get_row, kind_of
+from app.services.worksheet.structure import (
+    CATEGORY_FIELDS,
+    KINDS,
+    StructureInputError,
+    get_row,
+    kind_of,
+    siblings,
+)
 
 # Any in this module: a removed subtree mixes five table models and is stored as JSON (both
 # boundaries).
@@ -29,7 +47,21 @@ NOT_COPIED = {"id", "version", "updated_at"}
 
 
 class NothingToUndoError(LookupError):
-    """There is no stored delete to undo."""
+    """There is no stored delete to undo, or this one cannot come back (the message says why)."""
+
+
+@dataclass(frozen=True)
+class UndoState:
+    """What the undo bar shows one person: their newest delete and whose deletes remain."""
+
+    mine: DeletedItem | None = None
+    others: tuple[tuple[str, int], ...] = ()  # (author, count of deletes they can undo)
+    set_aside: tuple[DeletedItem, ...] = field(default=())  # this person's, cannot come back
+
+    @property
+    def shown(self) -> bool:
+        """True when there is anything to say."""
+        return bool(self.mine or self.others or self.set_aside)
 
 
 @dataclass(frozen=True)
@@ -107,8 +139,35 @@ def _check_parent(session: Session, entry: dict[str, Any], stamp: dict[str, Any]
         return
     parent = session.get(KINDS[stamp["kind"]].model, stamp["id"])
     if parent is None or parent.model_dump(mode="json")["created_at"] != stamp["created_at"]:
-        raise NothingToUndoError(f"The {entry['kind']} cannot come back: its {stamp['kind']} "
-                                 "has been deleted since.")
+        raise NothingToUndoError(f"The {entry['kind']} cannot come back: "
+                                 f"{_deleted_since(session, stamp['kind'], stamp['id'])}; "
+                                 "undo that delete first.")
+
+
+def _check_categories(session: Session, rows: list[dict[str, Any]]) -> None:
+    """Every risk category a restored scenario is rated against must still exist."""
+    for entry in rows:
+        if entry["kind"] != "scenario":
+            continue
+        for category_field in CATEGORY_FIELDS:
+            category_id = entry["data"].get(category_field)
+            if category_id is not None and session.get(SeverityCategory, category_id) is None:
+                raise NothingToUndoError(
+                    f"The scenario '{entry['data'].get('cause', '')[:60]}' cannot come back: "
+                    f"{_deleted_since(session, 'severity category', category_id)}; add the "
+                    "category again under Risk criteria, or rate the scenario afresh.")
+
+
+def _deleted_since(session: Session, entity: str, row_id: int) -> str:
+    """'its … was deleted since by … at …', read from the change log."""
+    entry = session.exec(select(ChangeLogEntry).where(
+        ChangeLogEntry.entity == entity, ChangeLogEntry.entity_id == row_id,
+        ChangeLogEntry.action == "delete").order_by(col(ChangeLogEntry.id).desc())).first()
+    if entry is None:
+        return f"{entity} #{row_id} no longer exists"
+    who = entry.author or "someone without a name"
+    return (f"{entry.summary or entity} was deleted since by {who} at "
+            f"{entry.at:%Y-%m-%d %H:%M} UTC")
 
 
 def delete_row(*, session: Session, study_id: int, kind_name: str, row_id: int,
@@ -138,10 +197,22 @@ def delete_row(*, session: Session, study_id: int, kind_name: str, row_id: int,
     return item
 
 
-def last_deleted(*, session: Session, study_id: int) -> DeletedItem | None:
-    """The newest delete of the study that can still be undone."""
-    return session.exec(select(DeletedItem).where(DeletedItem.study_id == study_id)
-                        .order_by(col(DeletedItem.id).desc()).limit(1)).first()
+def last_deleted(*, session: Session, study_id: int, author: str) -> DeletedItem | None:
+    """This person's newest delete that can still be tried (set-aside ones are skipped)."""
+    return session.exec(select(DeletedItem).where(
+        DeletedItem.study_id == study_id, DeletedItem.author == author,
+        DeletedItem.blocked_reason == "").order_by(col(DeletedItem.id).desc()).limit(1)).first()
+
+
+def undo_state(*, session: Session, study_id: int, author: str) -> UndoState:
+    """The undo bar for one person: their newest delete, others' counts, what was set aside."""
+    items = session.exec(select(DeletedItem).where(DeletedItem.study_id == study_id)
+                         .order_by(col(DeletedItem.id).desc())).all()
+    waiting = [i for i in items if not i.blocked_reason]
+    mine = next((i for i in waiting if i.author == author), None)
+    others = Counter(i.author for i in waiting if i.author != author)
+    return UndoState(mine=mine, others=tuple(sorted(others.items())),
+                     set_aside=tuple(i for i in items if i.blocked_reason and i.author == author))
 
 
 def _restore_row(session: Session, entry: dict[str, Any], new_ids: dict[tuple[str, int], int]
@@ -159,14 +230,34 @@ def _restore_row(session: Session, entry: dict[str, Any], new_ids: dict[tuple[st
     return row
 
 
-def undo_last_delete(*, session: Session, study_id: int) -> tuple[str, Any]:
-    """Re-create what the study's last delete removed; returns its kind and its top row."""
+def undo_last_delete(*, session: Session, study_id: int, author: str) -> tuple[str, Any]:
+    """Re-create this person's newest delete; returns its kind and its top row.
+
+    NothingToUndoError when there is none, or when it cannot come back: then it is set aside
+    with the reason (committed), so the next undo goes on to the person's older deletes.
+    """
     get_study(session, study_id)
-    item = last_deleted(session=session, study_id=study_id)
+    item = last_deleted(session=session, study_id=study_id, author=author)
     if item is None:
-        raise NothingToUndoError("There is no delete to undo.")
+        raise NothingToUndoError("You have no delete to undo.")
     payload = json.loads(item.payload)
-    _check_parent(session, payload["rows"][0], payload.get("parent"))
+    try:
+        _check_parent(session, payload["rows"][0], payload.get("parent"))
+        _check_categories(session, payload["rows"])
+    except NothingToUndoError as err:
+        item.blocked_reason = str(err)[:500]
+        session.add(item)
+        session.commit()
+        raise
+    restored = _restore(session, payload)
+    session.delete(item)
+    session.commit()
+    session.refresh(restored)
+    return payload["rows"][0]["kind"], restored
+
+
+def _restore(session: Session, payload: dict[str, Any]) -> Any:
+    """The stored rows back, the top one at its old place among its siblings; returns it."""
     new_ids: dict[tuple[str, int], int] = {}
     restored = [_restore_row(session, entry, new_ids) for entry in payload["rows"]]
     for link in payload["links"]:
@@ -174,11 +265,21 @@ def undo_last_delete(*, session: Session, study_id: int) -> tuple[str, Any]:
         if session.get(Recommendation, link["recommendation_id"]) is not None:
             session.add(RecommendationScenario(recommendation_id=link["recommendation_id"],
                                                scenario_id=scenario_id))
-    session.delete(item)
-    session.commit()
-    session.refresh(restored[0])
-    return payload["rows"][0]["kind"], restored[0]
+    top = restored[0]
+    _put_back_in_place(session, payload["rows"][0]["kind"], top,
+                       int(payload["rows"][0]["data"].get("position", 0)))
+    return top
 
+
+def _put_back_in_place(session: Session, kind_name: str, row: Any, position: int) -> None:
+    """Renumber the siblings 0, 1, 2 … with the row at its old position (or last)."""
+    others = [r for r in siblings(session, KINDS[kind_name], row) if r is not row]
+    index = min(max(position, 0), len(others))
+    for number, sibling in enumerate([*others[:index], row, *others[index:]]):
+        if sibling.position != number:
+            sibling.position = number
+            session.add(sibling)
+    session.flush()
 
 
 def question_for(*, session: Session, study_id: int, kind_name: str, row_id: int) -> str:

@@ -30,8 +30,10 @@ def test_an_edit_appears_in_the_change_log_under_the_masthead_name(
     page.get_by_role("link", name="Change log").click()
     newest = page.locator("#change-log tbody tr").first
     expect(newest).to_contain_text("Wren Halvorsen-Pike")
-    expect(newest).to_contain_text("owner")
+    expect(newest).to_contain_text("Owner")
     expect(newest).to_contain_text("A. Okafor → R. Quillfeather")
+    expect(newest).to_contain_text("Check the relief valve sizing")  # the action by its text
+    page.screenshot(path=str(artifacts / "change-log-in-words.png"), full_page=False)
 
 
 def test_actions_are_added_with_enter_and_edits_cancelled_with_escape(

@@ -9,6 +9,7 @@ from openpyxl import load_workbook
 from sqlmodel import Session
 
 from app.db.models import Study
+from app.routes.rendering import CAUTIONS
 from app.services.exchange.study_file import export_study
 from app.services.exchange.study_schema import study_json_schema
 from tests.factories import make_scenario_tree, make_step
@@ -35,13 +36,16 @@ def test_the_export_page_offers_every_format_with_its_command(
     assert rows[0] == ["Format", "What the file holds", "Download", "Command line"]
     name = f"tallyroom-{study_id}-export-check-invented"
     assert [(row[0], row[2], row[3]) for row in rows[1:]] == [
-        (label, f"Download {fmt}",
+        (label, "Make the report" if fmt == "pdf" else f"Download {fmt}",
          f"tallyroom export {study_id} --format {fmt} --out {name}.{fmt}")
         for label, fmt in [("Workbook (.xlsx)", "xlsx"), ("Scenario table (.csv)", "csv"),
                            ("Study file (.json)", "json"), ("Report (.pdf)", "pdf")]
     ]
-    for fmt in ("xlsx", "csv", "json", "pdf"):
+    for fmt in ("xlsx", "csv", "json"):
         assert f'href="http://testserver/studies/{study_id}/export.{fmt}"' in page.text
+    # The PDF is made in the background, with its progress shown (tests/routes/exchange/
+    # test_report_jobs.py); /export.pdf still answers for scripts.
+    assert f'hx-post="http://testserver/studies/{study_id}/report-jobs"' in page.text
     assert 'href="http://testserver/schema/study-v2.json"' in page.text
 
 
@@ -79,7 +83,8 @@ def test_the_downloaded_json_is_the_study_file(
     client: TestClient, session: Session, small_study: Study
 ) -> None:
     response = client.get(f"/studies/{small_study.id}/export.json")
-    assert response.json() == json.loads(json.dumps(export_study(session, small_study.id or 0)))
+    expected = {**export_study(session, small_study.id or 0), "cautions": CAUTIONS}
+    assert response.json() == json.loads(json.dumps(expected))
 
 
 @pytest.mark.parametrize("path", ["export", "export.xlsx", "export.csv", "export.json",

@@ -1,4 +1,5 @@
-"""The change log pages: who changed what and when, newest first, filtered by date and scenario."""
+"""The change log pages: who changed what and when in words, newest first, filtered by date,
+node, scenario and person, and downloadable as CSV."""
 
 from datetime import UTC, datetime
 
@@ -34,10 +35,10 @@ def test_an_edit_shows_who_when_what_field_and_old_to_new_newest_first(
     rows = _log_rows(client.get(f"/studies/{scenario.study_id}/changes").text)
     newest = rows[0]
     assert (newest["Who"], newest["Change"], newest["Field"], newest["Old → new"]) == (
-        TEST_AUTHOR, "edit", "consequence", "Overfill and spill → Toxic release")
-    assert newest["What"].startswith("scenario 'Level control fails high'")
+        TEST_AUTHOR, "changed", "Consequence", "Overfill and spill → Toxic release")
+    assert newest["Item"] == "Scenario 1.1.1 — Level control fails high"
     assert newest["When (UTC)"].startswith(datetime.now(UTC).strftime("%Y-%m-%d"))
-    assert [r["Change"] for r in rows][-1] == "create"  # the study's first row, oldest last
+    assert [r["Change"] for r in rows][-1] == "added"  # the study's first row, oldest last
 
 
 def test_a_value_typed_on_the_worksheet_is_logged_under_this_browsers_name(
@@ -50,8 +51,8 @@ def test_a_value_typed_on_the_worksheet_is_logged_under_this_browsers_name(
     assert response.status_code == 200
     rows = _log_rows(client.get(f"/studies/{scenario.study_id}/changes").text)
     assert [(r["Who"], r["Field"], r["Old → new"]) for r in rows[:2]] == [
-        (TEST_AUTHOR, "value_text", "(empty) → 1 in 100"), (TEST_AUTHOR, "value", "0.1 → 0.01")]
-    assert rows[0]["What"] == rows[1]["What"] == "step 'High level alarm'"
+        (TEST_AUTHOR, "Value as typed", "(empty) → 1 in 100"), (TEST_AUTHOR, "Value", "0.1 → 0.01")]
+    assert rows[0]["Item"] == rows[1]["Item"] == "Step IPL 1 of scenario 1.1.1 — High level alarm"
 
 
 def test_values_typed_while_the_field_was_invalid_are_not_logged(
@@ -87,7 +88,10 @@ def test_the_date_filter_keeps_both_ends_of_the_range(client: TestClient, sessio
                f"change on the {day}th")
     html = client.get(f"/studies/{study_id}/changes",
                       params={"from": "2026-11-10", "to": "2026-11-11"}).text
-    assert [r["What"] for r in _log_rows(html)] == ["change on the 11th", "change on the 10th"]
+    assert [r["Item"] for r in _log_rows(html)] == [  # invented entries name no live row
+        "Scenario change on the 11th (no longer in the study)",
+        "Scenario change on the 10th (no longer in the study)"]
+    assert [r["When (UTC)"][:10] for r in _log_rows(html)] == ["2026-11-11", "2026-11-10"]
     assert "2 changes · newest first · times in UTC" in html
 
 
@@ -101,10 +105,11 @@ def test_the_scenario_view_shows_only_that_scenarios_changes(
     other.notes = "not this one"
     session.commit()
     html = client.get(f"/studies/{scenario.study_id}/changes?scenario_id={scenario.id}").text
-    assert "Change log · scenario &#39;Level control fails high&#39;" in html
-    whats = [r["What"] for r in _log_rows(html)]
-    assert whats == ["step 'Relief valve'", "step 'Control loop failure'",
-                     "scenario 'Level control fails high'"]
+    assert "Change log · Scenario 1.1.1 — Level control fails high" in html
+    items = [r["Item"] for r in _log_rows(html)]
+    assert items == ["Step IPL 1 of scenario 1.1.1 — Relief valve",
+                     "Step IE 1 of scenario 1.1.1 — Control loop failure",
+                     "Scenario 1.1.1 — Level control fails high"]
 
 
 def test_a_deleted_scenarios_history_stays_reachable(client: TestClient, session: Session) -> None:
@@ -113,8 +118,10 @@ def test_a_deleted_scenarios_history_stays_reachable(client: TestClient, session
     session.delete(scenario)
     session.commit()
     html = client.get(f"/studies/{study_id}/changes?scenario_id={scenario_id}").text
-    assert f"scenario #{scenario_id} (deleted or not in this study)" in html
-    assert _log_rows(html)[0]["Change"] == "delete"
+    assert "Change log · a scenario no longer in the study" in html
+    newest = _log_rows(html)[0]
+    assert (newest["Change"], newest["Item"]) == (
+        "deleted", "Scenario 'Level control fails high' (no longer in the study)")
 
 
 @pytest.mark.parametrize(
@@ -125,7 +132,8 @@ def test_a_deleted_scenarios_history_stays_reachable(client: TestClient, session
         ({"to": "yesterday"}, "filter-to", "the &#39;to&#39; date must be written YYYY-MM-DD"),
         ({"from": "2026-11-12", "to": "2026-11-10"}, "filter-to",
          "the &#39;to&#39; date 2026-11-10 is before the &#39;from&#39; date 2026-11-12."),
-        ({"scenario_id": "S5"}, "filter-scenario", "the scenario must be a scenario number"),
+        ({"scenario_id": "S5"}, "filter-scenario", "the scenario must be chosen from the list"),
+        ({"node_id": "one"}, "filter-node", "the node must be chosen from the list"),
     ],
 )
 def test_an_unreadable_filter_is_a_422_with_the_typed_text_kept(
@@ -140,10 +148,13 @@ def test_an_unreadable_filter_is_a_422_with_the_typed_text_kept(
     assert 'id="change-log"' not in response.text
 
 
-def test_the_log_links_each_scenarios_own_view(client: TestClient, session: Session) -> None:
+def test_the_scenario_list_names_each_scenario_by_its_number(
+    client: TestClient, session: Session
+) -> None:
     scenario = make_scenario_tree(session)
     html = client.get(f"/studies/{scenario.study_id}/changes").text
-    assert f'/studies/{scenario.study_id}/changes?scenario_id={scenario.id}" title=' in html
+    option = f'<option value="{scenario.id}">Scenario 1.1.1 — Level control fails high</option>'
+    assert option in html
 
 
 def test_a_deviation_edit_made_by_a_nameless_browser_says_so(
@@ -155,4 +166,4 @@ def test_a_deviation_edit_made_by_a_nameless_browser_says_so(
     deviation.description = "Tank overfills"
     session.commit()
     newest = _log_rows(client.get(f"/studies/{scenario.study_id}/changes").text)[0]
-    assert (newest["Who"], newest["Field"]) == ("(no name given)", "description")
+    assert (newest["Who"], newest["Field"]) == ("(no name given)", "Description")

@@ -2,12 +2,24 @@
 
 import json
 import math
+import re
+from datetime import date
 
 import pytest
 from fastapi.testclient import TestClient
 from sqlmodel import Session, select
 
-from app.db.models import ChangeLogEntry, Deviation, Revision, Scenario, Study
+from app.db.models import (
+    ActionStatus,
+    ChangeLogEntry,
+    Deviation,
+    Participant,
+    Recommendation,
+    Revision,
+    Scenario,
+    SessionDay,
+    Study,
+)
 from app.services.record.comparison import SEP
 from app.services.record.revisions import freeze_revision
 from tests.factories import make_deviation, make_node, make_scenario, make_scenario_tree, make_step
@@ -91,8 +103,10 @@ def test_the_frozen_view_shows_the_live_numbers_at_freeze_time_and_no_edit_contr
     assert _numbers_by_row(frozen, "frozen-scenarios") == _numbers_by_row(live, "scenario-table")
     assert len(_numbers_by_row(frozen, "frozen-scenarios")) >= 15
     assert "signed off by Ilse Marrow-Quaye" in frozen and "Frozen " in frozen
-    assert "<form" not in frozen.split('<main id="main">')[1]
-    assert "hx-post" not in frozen
+    # The one form makes the revision's report; nothing on the page edits it.
+    forms = re.findall(r'<form[^>]*action="([^"]+)"', frozen.split('<main id="main">')[1])
+    assert forms == [f"http://testserver/studies/{demo_study.id}/report-jobs"]
+    assert re.findall(r'hx-post="([^"]+)"', frozen) == forms
 
 
 def test_the_frozen_view_keeps_its_numbers_after_the_live_study_changes(
@@ -121,7 +135,7 @@ def test_comparing_after_a_step_value_change_shows_the_hand_computed_effect(
     assert page.status_code == 200
     steps = table_rows(page.text, "changes-steps")
     assert steps[1] == ["changed", f"Node 1{SEP}More Level{SEP}'Level control fails high'{SEP}IPL "
-                        "'Operator response to alarm'", "value", "1.0e-1", "1.0e-2"]
+                        "'Operator response to alarm'", "Value", "1.0e-1", "1.0e-2"]
     # Before: 0.1 x 0.1 = 1e-2/yr, gap log10(1e-2/1e-5) = +3.0.
     # After: 0.1 x 0.01 = 1e-3/yr, gap +2.0; change log10(1e-3 / 1e-2) = -1.0 orders.
     assert math.isclose(math.log10(1e-3 / 1e-2), -1.0)
@@ -139,7 +153,7 @@ def test_an_uncredited_layer_shows_as_a_credited_change(
     session.commit()
     page = client.get(f"/studies/{scenario.study_id}/revisions/compare",
                       params={"from": revision.id}).text
-    assert table_rows(page, "changes-steps")[1][2:] == ["credited", "yes", "no"]
+    assert table_rows(page, "changes-steps")[1][2:] == ["Credited", "yes", "no"]
     assert table_rows(page, "scenario-effects")[1][1:4] == [
         "1.0e-2 → 1.0e-1", "+3.0 → +4.0", "+1.0"]
 
@@ -184,7 +198,7 @@ def test_an_edited_cause_reads_as_a_change_not_a_removal(
     session.commit()
     page = client.get(f"/studies/{study.id}/revisions/compare", params={"from": old.id}).text
     assert table_rows(page, "changes-scenarios")[1:] == [
-        ["changed", f"Node 2{SEP}No Flow{SEP}'Pump trips on low suction pressure'", "cause",
+        ["changed", f"Node 2{SEP}No Flow{SEP}'Pump trips on low suction pressure'", "Cause",
          "Pump trips", "Pump trips on low suction pressure"]]
     assert "scenario-effects" not in page
 
@@ -214,3 +228,26 @@ def test_a_revision_of_another_study_is_a_404(client: TestClient, session: Sessi
     revision = _freeze(session, make_scenario_tree(session).study_id)
     other = make_scenario_tree(session).study_id
     assert client.get(f"/studies/{other}/revisions/{revision.id}").status_code == 404
+
+
+def test_actions_participants_and_session_days_are_part_of_the_comparison(
+    client: TestClient, session: Session
+) -> None:
+    scenario = make_scenario_tree(session)
+    study_id = scenario.study_id
+    action = Recommendation(study_id=study_id, text="Add a high-level trip", owner="A. Vale")
+    person = Participant(study_id=study_id, name="Tom Reed", role="Operator")
+    session.add_all([action, person])
+    session.commit()
+    old = _freeze(session, study_id, "Rev A")
+    action.status = ActionStatus.DONE
+    person.role = "Shift supervisor"
+    session.add(SessionDay(study_id=study_id, day=date(2026, 11, 11)))
+    session.commit()
+    page = client.get(f"/studies/{study_id}/revisions/compare", params={"from": old.id}).text
+    assert table_rows(page, "changes-actions")[1:] == [
+        ["changed", "Action 'Add a high-level trip'", "Status", "open", "done"]]
+    assert table_rows(page, "changes-participants")[1:] == [
+        ["changed", "Participant Tom Reed", "Role", "Operator", "Shift supervisor"]]
+    assert table_rows(page, "changes-session-days")[1:] == [
+        ["added", "Session day 2026-11-11", "—", "—", "—"]]

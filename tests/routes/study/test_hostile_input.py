@@ -65,13 +65,15 @@ def test_impossible_ids_in_queries_are_refused(
     assert client.get(f"/studies/{scenario.study_id}/proof-test?{query}").status_code == 422
 
 
-@pytest.mark.parametrize("query", [f"scenario_id={2**63}", "scenario_id=\u0661"])
+@pytest.mark.parametrize("query", [f"scenario_id={2**63}", "scenario_id=\u0661",
+                                   f"node_id={2**63}"])
 def test_an_impossible_change_log_filter_is_refused_naming_the_rule(
     client: TestClient, scenario: Scenario, query: str
 ) -> None:
-    response = client.get(f"/studies/{scenario.study_id}/changes?{query}")
-    assert response.status_code == 422
-    assert "the scenario must be a scenario number" in response.text
+    for page in ("changes", "changes.csv"):
+        response = client.get(f"/studies/{scenario.study_id}/{page}?{query}")
+        assert response.status_code == 422
+        assert "must be chosen from the list" in response.text
 
 
 @pytest.mark.parametrize("name", ["Ŝtefan Łukasz", "李小龍", "Αθηνά", "أمينة", "😀 Kai"])

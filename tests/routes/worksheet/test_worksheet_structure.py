@@ -317,7 +317,7 @@ def test_deleting_a_scenario_and_undoing_it_brings_everything_back(
     response = client.post(f"/studies/{study_id}/scenarios/{scenario.id}/delete", headers=HX)
     assert response.status_code == 200
     assert rows(session, Scenario) == [] and rows(session, Step) == []
-    assert text_of(response.text, "undo-button") == "Undo delete (Alt+Z)"
+    assert text_of(response.text, "undo-button") == "Undo my delete (Alt+Z)"
     assert attrs_of(response.text, "undo-button").get("autofocus") == ""
     undone = client.post(f"/studies/{study_id}/undo", headers=HX)
     assert undone.status_code == 200
@@ -350,7 +350,7 @@ def test_deleting_a_node_goes_to_the_next_one_and_undo_restores_the_whole_subtre
     node, study_id = node_of(session, scenario), scenario.study_id
     make_step(session, scenario)
     response = client.post(f"/studies/{study_id}/nodes/{node.id}/delete", headers=HX)
-    assert response.headers["HX-Redirect"] == f"/studies/{study_id}"
+    assert response.headers["HX-Redirect"] == f"/studies/{study_id}/worksheet"
     assert rows(session, Node) == [] and rows(session, Step) == []
     client.post(f"/studies/{study_id}/undo", headers=HX)
     [node_back] = rows(session, Node)
@@ -363,7 +363,7 @@ def test_undo_with_nothing_deleted_says_so(client: TestClient, session: Session,
                                           scenario: Scenario) -> None:
     response = client.post(f"/studies/{scenario.study_id}/undo", headers=HX)
     assert response.status_code == 409
-    assert text_of(response.text, "worksheet-notice") == "There is no delete to undo."
+    assert text_of(response.text, "worksheet-notice") == "You have no delete to undo."
 
 
 def test_undo_refuses_a_row_whose_parent_went_since(client: TestClient, session: Session,
@@ -376,7 +376,9 @@ def test_undo_refuses_a_row_whose_parent_went_since(client: TestClient, session:
     client.post(f"/studies/{study_id}/undo", headers=HX)  # the scenario comes back
     response = client.post(f"/studies/{study_id}/undo", headers=HX)
     assert response.status_code == 409
-    assert "its scenario has been deleted since" in text_of(response.text, "worksheet-notice")
+    notice = text_of(response.text, "worksheet-notice")
+    assert "The step cannot come back: scenario" in notice
+    assert "was deleted since by Test Scribe" in notice and "undo that delete first" in notice
 
 
 def test_without_javascript_delete_goes_through_the_question_page(

@@ -46,9 +46,11 @@ def write_pdf(session: Session, study: Study, folder: Path) -> Path:
     return path
 
 
-def page_texts(pdf: Path) -> list[str]:
-    """The text of each page (pdftotext separates pages with a form feed)."""
-    text = subprocess.run(["pdftotext", "-layout", str(pdf), "-"], check=True,
+def page_texts(pdf: Path, layout: bool = True) -> list[str]:
+    """The text of each page (pdftotext separates pages with a form feed); without `layout`
+    in reading order, so a table cell's wrapped lines stay together."""
+    options = ["-layout"] if layout else []
+    text = subprocess.run(["pdftotext", *options, str(pdf), "-"], check=True,
                           capture_output=True, text=True).stdout
     return [words(page) for page in text.split("\f") if page.strip()]
 
@@ -94,7 +96,7 @@ def test_the_report_draws_a_ladder_per_computed_scenario_and_the_risk_picture(
         assert f"Node {node_branch.node.number} · {node_branch.node.name}" in html
     assert "2026-11-12 15:30 UTC" in html
     assert all(f"<td>{p['name']}</td>" in html for p in data["participants"])
-    assert html.count('id="scenario-S') == len(tree.scenario_branches())
+    assert html.count('id="scenario-') == len(tree.scenario_branches())
 
 
 def test_hostile_text_is_escaped_in_the_report_source_and_the_pdf_still_renders(
@@ -115,3 +117,37 @@ def test_hostile_text_is_escaped_in_the_report_source_and_the_pdf_still_renders(
     assert SCRIPTS["arabic"].split()[0] in whole
     assert SCRIPTS["chinese"] in whole and SCRIPTS["devanagari"] in whole
     assert all("page " in text for text in texts)
+
+
+def test_the_demo_report_carries_every_basis_warning_and_added_function(
+    session: Session, demo_study: Study, tmp_path: Path, poppler: None
+) -> None:
+    """pdftotext finds every step's basis, every warning's title and the added-function table;
+    every page's footer says whose record it is."""
+    from app.services.exchange.report import build_report
+    from app.services.risk.ipl_checks import scenario_warnings
+
+    tree = load_study_tree(session, demo_study.id or 0)
+    pages = page_texts(write_pdf(session, demo_study, tmp_path), layout=False)
+    text = " ".join(pages)
+    # pdftotext joins a word wrapped after its hyphen without the hyphen: compare without them.
+    joined = text.replace("-", "").replace("  ", " ")
+    steps = [s for item in tree.scenario_branches() for s in item.steps]
+    for step in steps:
+        if step.basis.strip():
+            assert words(step.basis).replace("-", "")[:60] in joined, step.basis
+    # The worksheet's own titles (templates/risk/_warnings.html), the words a user knows.
+    titles = templates.env.get_template("risk/_warnings.html").module.check_titles  # type: ignore[attr-defined]
+    raised = {w.rule for item in tree.scenario_branches() for w in scenario_warnings(item)}
+    assert raised, "the demo raises IPL warnings"
+    for rule in raised:
+        assert titles.get(rule, rule.replace("_", " ").capitalize()) in text
+    assert "6 · Added safety functions" in text and "SCENARIO SERVED" not in text
+    assert "Scenario served Required SIL Mode" in text
+    report = build_report(tree, export_study(session, demo_study.id or 0), when=WHEN)
+    assert report.functions
+    for function in report.functions:
+        assert function.scenario[:20] in text
+    assert "EXPECTE D" not in text and "Expected RRF" in text
+    for page in pages:
+        assert "Draft A: working copy, not signed" in page

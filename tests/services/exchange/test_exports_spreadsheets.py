@@ -43,7 +43,9 @@ def csv_rows(session: Session, study: Study) -> list[list[str]]:
     export = build_export(session=session, study_id=study.id or 0,
                           export_format=ExportFormat.CSV, env=ENV)
     assert export.content.startswith(b"\xef\xbb\xbf")  # UTF-8 byte-order mark
-    return list(csv.reader(io.StringIO(export.content.decode("utf-8-sig"), newline="")))
+    rows = list(csv.reader(io.StringIO(export.content.decode("utf-8-sig"), newline="")))
+    assert rows[-1] == ["Cautions", CAUTIONS]  # the file's last row carries the cautions
+    return rows[:-1]
 
 
 def sheet_records(sheet: Worksheet) -> list[dict[str, Any]]:
@@ -57,14 +59,15 @@ def test_the_workbook_has_our_sheets_with_frozen_headers(
 ) -> None:
     book = workbook_of(session, demo_study)
     assert book.sheetnames == ["About", "Scenarios", "Steps", "Actions", "Criteria",
-                               "Attendance", "Change log"]
-    assert [book[name].freeze_panes for name in book.sheetnames] == ["A2", "B2", *["A2"] * 5]
+                               "Attendance", "Change log", "Safeguards", "Notes", "Warnings",
+                               "Added functions"]
+    assert [book[name].freeze_panes for name in book.sheetnames] == ["A2", "B2", *["A2"] * 9]
     assert [c.value for c in book["Scenarios"][1]] == HEADERS
     about = {row[0]: row[1] for row in book["About"].iter_rows(min_row=2, values_only=True)}
     assert about["Study"] == demo_study.title and about["Cautions"] == CAUTIONS
     widths = [book["Scenarios"].column_dimensions[letter].width for letter in "ADEN"]
     assert widths[0] < widths[1]
-    assert min(widths) >= 8 and max(widths) <= 60
+    assert min(widths) >= 8 and max(widths) <= 80
 
 
 def test_scenario_numbers_are_the_apps_own_results_as_real_numbers(
@@ -114,7 +117,7 @@ def test_the_steps_actions_and_attendance_sheets_follow_the_study_file(
     steps = sheet_records(book["Steps"])
     assert len(steps) == sum(len(item.steps) for item in tree.scenario_branches())
     first = tree.scenario_branches()[0].steps[0]
-    assert steps[0]["Scenario"] == "S1"
+    assert steps[0]["Scenario"] == "1.1.1"  # as the worksheet numbers it
     assert steps[0]["Value"] == pytest.approx(first.value, rel=SAME)
     actions = sheet_records(book["Actions"])
     expected = [spreadsheet_text(action.text) for action in tree.recommendations]

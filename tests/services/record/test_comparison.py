@@ -120,3 +120,55 @@ def test_safeguards_and_header_fields_are_compared() -> None:
         ("Study", "changed", "title"),
         ("Safeguards", "added", f"Node 1{SEP}More Level{SEP}'Pump runs on'{SEP}'Sight glass'"),
     ]
+
+
+def _record(**changes: Any) -> dict[str, Any]:
+    """The minimal study with actions, participants and session days (invented)."""
+    return _study(
+        recommendations=[{"text": "Add a high-level trip", "owner": "A. Vale",
+                          "due_date": "2027-01-31", "status": "open", "status_reason": "",
+                          "expected_rrf": 100, "scenarios": ["S1"]}],
+        participants=[{"ref": "P1", "name": "Ilse Marr", "role": "Facilitator",
+                       "discipline": "", "company": ""},
+                      {"ref": "P2", "name": "Tom Reed", "role": "Operator", "discipline": "",
+                       "company": ""}],
+        session_days=[{"day": "2026-11-10", "note": "Node 1", "attendees": ["P1"]}],
+        **changes)
+
+
+def test_actions_participants_and_session_days_are_compared() -> None:
+    before = _record()
+    after = copy.deepcopy(before)
+    action = after["recommendations"][0]
+    action.update(status="done", owner="B. Stroud", scenarios=["S1", "S2"])
+    after["recommendations"].append({"text": "Write an operating procedure", "owner": "",
+                                     "due_date": None, "status": "open", "status_reason": "",
+                                     "expected_rrf": None, "scenarios": []})
+    after["participants"][1]["role"] = "Shift supervisor"
+    del after["participants"][0]
+    after["session_days"][0]["attendees"] = ["P2"]
+    after["session_days"].append({"day": "2026-11-11", "note": "", "attendees": []})
+    changes = {(c.section, c.kind, c.where, c.field, c.before, c.after)
+               for c in diff_studies(before, after).changes}
+    assert changes == {
+        ("Actions", "changed", "Action 'Add a high-level trip'", "owner", "A. Vale", "B. Stroud"),
+        ("Actions", "changed", "Action 'Add a high-level trip'", "status", "open", "done"),
+        ("Actions", "changed", "Action 'Add a high-level trip'", "scenarios",
+         "Valve sticks open", "Pump runs on; Valve sticks open"),
+        ("Actions", "added", "Action 'Write an operating procedure'", "", "", ""),
+        ("Participants", "removed", "Participant Ilse Marr", "", "", ""),
+        ("Participants", "changed", "Participant Tom Reed", "role", "Operator",
+         "Shift supervisor"),
+        ("Session days", "changed", "Session day 2026-11-10", "attendees", "Ilse Marr",
+         "Tom Reed"),
+        ("Session days", "added", "Session day 2026-11-11", "", "", ""),
+    }
+
+
+def test_scenario_refs_renumbered_between_files_are_not_a_change() -> None:
+    before = _record()
+    after = copy.deepcopy(before)
+    scenarios = after["nodes"][0]["deviations"][0]["scenarios"]
+    scenarios[0]["ref"], scenarios[1]["ref"] = "S9", "S8"
+    after["recommendations"][0]["scenarios"] = ["S9"]
+    assert [c for c in diff_studies(before, after).changes if c.section == "Actions"] == []

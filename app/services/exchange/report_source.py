@@ -1,0 +1,74 @@
+"""What a report is made of: the live study, or a frozen revision read back from its snapshot.
+
+A revision's snapshot is a study file; it is imported into a private in-memory database, so the
+report of Rev A is computed by exactly the code that computes the live one, from Rev A's own
+steps and criteria, and nothing is written to the study's database.
+"""
+
+from collections.abc import Callable
+from datetime import datetime
+
+from jinja2 import Environment
+from sqlmodel import Session, SQLModel, col, select
+
+from app.db.models import Revision
+from app.db.session import build_db_engine
+from app.services.exchange.report import Signature, build_report, report_html
+from app.services.exchange.study_file import export_study
+from app.services.exchange.study_import import import_study_text
+from app.services.study.tree import NotFoundError, get_study, load_study_tree
+
+Progress = Callable[[int, str], None]
+
+
+def _quiet(_percent: int, _step: str) -> None:
+    return None
+
+
+def get_frozen_revision(session: Session, study_id: int, revision_id: int) -> Revision:
+    """The study's revision, or NotFoundError."""
+    revision = session.get(Revision, revision_id)
+    if revision is None or revision.study_id != study_id:
+        raise NotFoundError(f"There is no revision {revision_id} of this study.")
+    return revision
+
+
+def working_copy_label(session: Session, study_id: int) -> str:
+    """'Draft A', or 'working copy since Rev A' once a revision has been frozen."""
+    study = get_study(session, study_id)
+    latest = session.exec(select(Revision.label).where(Revision.study_id == study_id)
+                          .order_by(col(Revision.id).desc()).limit(1)).first()
+    return f"working copy since {latest}" if latest else study.revision_label
+
+
+def live_report_html(session: Session, study_id: int, *, env: Environment, when: datetime,
+                     progress: Progress = _quiet) -> str:
+    """The live study's report as HTML, signed as the working copy."""
+    progress(10, "reading the study")
+    tree = load_study_tree(session, study_id)
+    data = export_study(session, study_id)
+    progress(30, "computing every scenario and check")
+    report = build_report(tree, data, when=when,
+                          signature=Signature(working_copy_label(session, study_id)))
+    return report_html(report, env=env)
+
+
+def revision_report_html(session: Session, study_id: int, revision_id: int, *,
+                         env: Environment, when: datetime, progress: Progress = _quiet) -> str:
+    """A frozen revision's report as HTML, with its label and sign-off."""
+    revision = get_frozen_revision(session, study_id, revision_id)
+    signature = Signature(revision.label, revision.signed_off_by, revision.signed_off_at)
+    progress(10, f"reading revision {revision.label}")
+    scratch_engine = build_db_engine("sqlite://")
+    SQLModel.metadata.create_all(scratch_engine)
+    try:
+        with Session(scratch_engine) as scratch:
+            frozen = import_study_text(scratch, revision.snapshot)
+            frozen_id = frozen.id or 0
+            tree = load_study_tree(scratch, frozen_id)
+            progress(30, "computing every scenario and check")
+            report = build_report(tree, export_study(scratch, frozen_id), when=when,
+                                  signature=signature)
+            return report_html(report, env=env)
+    finally:
+        scratch_engine.dispose()

@@ -1,0 +1,251 @@
+"""Saves several people can make at once without losing anyone's words.
+
+A page sends, with each save, the version of the row it was loaded with and the value each
+sent field had when loaded (its "original"). `guarded_save` writes through
+`app/db/compare_and_set.save_if_version`:
+
+- the row still has that version: saved (a *clean* save: the page has seen every change);
+- someone saved the row since: each sent field is compared with what is stored now. A field
+  that still holds its original (nobody touched it), already holds the person's value, or
+  holds the text this very page wrote last (its own earlier keystroke) is no conflict, and the
+  save is retried against the row's present version (a *merged* save). Any other field is a
+  conflict: nothing is written and the caller answers 409 with the other person's value, who
+  saved it and when (from the change log);
+- the row is gone: `gone_row` says who deleted it and when, and whether undo can bring it back.
+
+The keystroke guard (`claim_keystroke`) is a per-field sequence in `field_edit`, compared and
+set with one guarded UPDATE in the same transaction as the value, so an older keystroke never
+overwrites a newer one whichever worker serves it.
+"""
+
+import json
+from collections.abc import Mapping
+from dataclasses import dataclass, field
+from datetime import datetime
+from enum import Enum
+from typing import Any
+
+from sqlalchemy import insert, update
+from sqlalchemy import select as table_select
+from sqlalchemy.exc import IntegrityError
+from sqlmodel import Session, col, select
+
+from app.db.compare_and_set import SaveOutcome, save_if_version
+from app.db.models import ChangeLogEntry, DeletedItem, FieldEdit, TrackedRow
+from app.db.tracking import AUTHOR_KEY, LOGGED_TYPES, describe
+
+# Any in this module: a guarded row is any tracked table model and its field values are of any
+# column type (the ORM boundary).
+
+# A merged save retries against the row's present version; a row saved this often in between
+# is reported as a conflict rather than retried for ever.
+MERGE_ATTEMPTS = 5
+RESOLUTION_ACTION = "conflict"  # change-log action of a "keep mine" / "take theirs" choice
+
+
+@dataclass(frozen=True)
+class PageEdit:
+    """What the page knew when it sent the save."""
+
+    version: int | None = None  # None: a client that sends no version (scripts) saves as is
+    originals: Mapping[str, Any] = field(default_factory=dict)  # field -> value when loaded
+    client: str = ""  # the page's random id (live edits only)
+    seq: int | None = None  # its sequence number for this field
+
+
+@dataclass(frozen=True)
+class FieldConflict:
+    """One field someone else changed since the page loaded it."""
+
+    field: str
+    theirs: str
+    mine: str
+    author: str
+    at: datetime | None
+    version: int  # the row's version now: "keep mine" saves against it
+
+
+@dataclass(frozen=True)
+class GoneRow:
+    """A row that no longer exists: who deleted it, when, and whether undo can bring it back."""
+
+    entity: str
+    author: str
+    at: datetime | None
+    undoable: bool
+
+
+@dataclass(frozen=True)
+class GuardedResult:
+    """The outcome of a guarded save; `clean` when the page had seen every change before it."""
+
+    outcome: SaveOutcome
+    conflicts: tuple[FieldConflict, ...] = ()
+    clean: bool = False
+
+
+def as_text(value: Any) -> str:
+    """A stored or sent value as comparable text (None and '' alike)."""
+    if value is None:
+        return ""
+    if isinstance(value, bool):
+        return "true" if value else "false"
+    if isinstance(value, Enum):
+        return str(value.value)
+    return str(value)
+
+
+def changed_fields(values: Mapping[str, Any], originals: Mapping[str, Any]) -> dict[str, Any]:
+    """Only the fields the person changed: a field still as loaded is not written, so a
+    whole-row form never puts back a field someone else changed meanwhile."""
+    return {name: value for name, value in values.items()
+            if name not in originals or as_text(originals[name]) != as_text(value)}
+
+
+def guarded_save(session: Session, model: type[Any], row_id: int, edit: PageEdit,
+                 changes: Mapping[str, Any], written: Mapping[str, str | None] | None = None
+                 ) -> GuardedResult:
+    """Write `changes` unless someone else changed one of those fields since the page loaded.
+
+    `written`: per field, the text this page itself saved there last (from `claim_keystroke`).
+    The caller commits (or rolls back on a conflict).
+    """
+    if edit.version is None:
+        return _unguarded(session, model, row_id, changes)
+    outcome = save_if_version(session, model, row_id, edit.version, changes)
+    if outcome is not SaveOutcome.CHANGED_SINCE:
+        return GuardedResult(outcome, clean=True)
+    for _ in range(MERGE_ATTEMPTS):
+        row = session.get(model, row_id, populate_existing=True)
+        if row is None:
+            return GuardedResult(SaveOutcome.DELETED)
+        clashing = [f for f in changes if _clashes(row, f, changes[f], edit, written or {})]
+        if clashing:
+            return GuardedResult(SaveOutcome.CHANGED_SINCE, tuple(
+                conflict_at(session, row, f, changes[f]) for f in clashing))
+        outcome = save_if_version(session, model, row_id, row.version, changes)
+        if outcome is not SaveOutcome.CHANGED_SINCE:
+            return GuardedResult(outcome)
+    row = session.get(model, row_id, populate_existing=True)
+    if row is None:
+        return GuardedResult(SaveOutcome.DELETED)
+    return GuardedResult(SaveOutcome.CHANGED_SINCE,
+                         tuple(conflict_at(session, row, f, v) for f, v in changes.items()))
+
+
+def _unguarded(session: Session, model: type[Any], row_id: int,
+               changes: Mapping[str, Any]) -> GuardedResult:
+    row = session.get(model, row_id)
+    if row is None:
+        return GuardedResult(SaveOutcome.DELETED)
+    for name, value in changes.items():
+        setattr(row, name, value)
+    session.add(row)
+    session.flush()
+    return GuardedResult(SaveOutcome.SAVED)
+
+
+def _clashes(row: Any, name: str, mine: Any, edit: PageEdit,
+             written: Mapping[str, str | None]) -> bool:
+    """True when the stored value is neither the original, nor mine, nor this page's own."""
+    stored = as_text(getattr(row, name))
+    harmless = {as_text(mine)}
+    if name in edit.originals:
+        harmless.add(as_text(edit.originals[name]))
+    if written.get(name) is not None:
+        harmless.add(str(written[name]))
+    return stored not in harmless
+
+
+def conflict_at(session: Session, row: Any, name: str, mine: Any) -> FieldConflict:
+    """The other person's value of one field, with who saved it and when (the change log)."""
+    entry = _last_entry(session, row, "edit", name)
+    return FieldConflict(field=name, theirs=as_text(getattr(row, name)), mine=as_text(mine),
+                         author=entry.author if entry else "",
+                         at=entry.at if entry else None, version=int(row.version))
+
+
+def _last_entry(session: Session, row: Any, action: str, name: str = "") -> ChangeLogEntry | None:
+    statement = select(ChangeLogEntry).where(
+        ChangeLogEntry.entity == LOGGED_TYPES[type(row)], ChangeLogEntry.entity_id == row.id,
+        ChangeLogEntry.action == action)
+    if name:
+        statement = statement.where(ChangeLogEntry.field == name)
+    return session.exec(statement.order_by(col(ChangeLogEntry.id).desc()).limit(1)).first()
+
+
+def gone_row(session: Session, study_id: int, model: type[Any], row_id: int) -> GoneRow | None:
+    """Who deleted row `row_id` and when (the change log), and whether undo can bring it back.
+
+    None when the study's log has no such delete (the row never existed here).
+    """
+    entity = LOGGED_TYPES[model]
+    entry = session.exec(
+        select(ChangeLogEntry).where(
+            ChangeLogEntry.study_id == study_id, ChangeLogEntry.entity == entity,
+            ChangeLogEntry.entity_id == row_id, ChangeLogEntry.action == "delete")
+        .order_by(col(ChangeLogEntry.id).desc()).limit(1)
+    ).first()
+    if entry is None:
+        return None
+    return GoneRow(entity=entity, author=entry.author, at=entry.at,
+                   undoable=_in_undo_store(session, study_id, row_id))
+
+
+def _in_undo_store(session: Session, study_id: int, row_id: int) -> bool:
+    items = session.exec(select(DeletedItem.payload).where(DeletedItem.study_id == study_id)).all()
+    return any(entry["old_id"] == row_id for payload in items
+               for entry in json.loads(payload)["rows"])
+
+
+def claim_keystroke(session: Session, *, study_id: int, entity: str, row_id: int, name: str,
+                    client: str, seq: int) -> tuple[bool, str | None]:
+    """(accepted, text this page last saved in the field); not accepted when a newer one came.
+
+    One guarded UPDATE sets the sequence only if it is higher; the row stays locked (on SQLite
+    the database) until the caller commits, so two workers cannot both accept old and new.
+    """
+    table = FieldEdit.__table__  # type: ignore[attr-defined]
+    key = (table.c.entity == entity, table.c.row_id == row_id, table.c.field == name,
+           table.c.client == client)
+    for _ in range(2):
+        raised = session.execute(update(table).where(*key, table.c.seq < seq).values(seq=seq))
+        if raised.rowcount == 1:  # type: ignore[attr-defined]
+            written = session.execute(table_select(table.c.written).where(*key)).scalar_one()
+            return True, written
+        if session.execute(table_select(table.c.seq).where(*key)).first() is not None:
+            return False, None
+        try:
+            with session.begin_nested():
+                session.execute(insert(table).values(study_id=study_id, entity=entity,
+                                                     row_id=row_id, field=name, client=client,
+                                                     seq=seq))
+            return True, None
+        except IntegrityError:  # the same page's other keystroke inserted first: compare again
+            continue
+    return False, None
+
+
+def remember_written(session: Session, *, entity: str, row_id: int, name: str, client: str,
+                     text: str) -> None:
+    """Note the text this page has just saved in the field (see `guarded_save`'s `written`)."""
+    table = FieldEdit.__table__  # type: ignore[attr-defined]
+    session.execute(update(table).where(
+        table.c.entity == entity, table.c.row_id == row_id, table.c.field == name,
+        table.c.client == client).values(written=text))
+
+
+def log_resolution(session: Session, row: TrackedRow, name: str, *, kept_mine: bool,
+                   theirs: str, mine: str) -> None:
+    """Write the person's choice after a conflict to the change log."""
+    choice = "kept their own value" if kept_mine else "took the other person's value"
+    session.add(ChangeLogEntry(
+        study_id=_study_of(row), author=str(session.info.get(AUTHOR_KEY, "")),
+        action=RESOLUTION_ACTION, entity=LOGGED_TYPES[type(row)], entity_id=row.id,  # type: ignore[attr-defined]
+        scenario_id=getattr(row, "scenario_id", None), field=name, old_value=theirs,
+        new_value=mine if kept_mine else theirs,
+        summary=f"{describe(row)}: {choice} after a conflict"[:500]))
+
+
+def _study_of(row: Any) -> int:
+    return int(getattr(row, "study_id", None) or row.id)

@@ -1,0 +1,91 @@
+"""The PDF report is made in the background: start, poll, download; a frozen revision's report
+prints its label and sign-off on every page."""
+
+import shutil
+import subprocess
+import time
+from pathlib import Path
+
+import pytest
+from fastapi.testclient import TestClient
+from sqlmodel import Session, select
+
+from app.db.models import Revision, Study
+from app.services.exchange import report_jobs
+from tests.helpers import HX
+
+
+def _pages(pdf: bytes, folder: Path) -> list[str]:
+    path = folder / "report.pdf"
+    path.write_bytes(pdf)
+    text = subprocess.run(["pdftotext", str(path), "-"], check=True, capture_output=True,
+                          text=True).stdout
+    return [" ".join(page.split()) for page in text.split("\f") if page.strip()]
+
+
+def _finished(client: TestClient, study_id: int, job_url: str) -> str:
+    """Poll the job as the page does until it stops polling; the last fragment."""
+    for _ in range(240):
+        fragment = client.get(job_url, headers=HX).text
+        if "hx-get" not in fragment:
+            return fragment
+        time.sleep(0.5)
+    raise AssertionError("the report job did not finish in two minutes")
+
+
+def _start(client: TestClient, study_id: int, data: dict[str, str]) -> str:
+    response = client.post(f"/studies/{study_id}/report-jobs", data=data, headers=HX)
+    assert response.status_code == 200
+    assert "Making the report" in response.text and 'hx-trigger="every 1s"' in response.text
+    job_id = response.text.split("/report-jobs/")[1].split('"')[0]
+    return f"/studies/{study_id}/report-jobs/{job_id}"
+
+
+@pytest.mark.skipif(shutil.which("pdftotext") is None, reason="poppler-utils not installed")
+def test_a_frozen_revisions_report_prints_its_label_and_sign_off_on_every_page(
+    client: TestClient, session: Session, demo_study: Study, tmp_path: Path
+) -> None:
+    study_id = demo_study.id or 0
+    frozen = client.post(f"/studies/{study_id}/revisions",
+                         data={"label": "Rev A", "signed_off_by": "Dana Whitlock", "note": ""})
+    assert frozen.status_code == 200
+    revision_id = str(session.exec(select(Revision.id).where(Revision.study_id == study_id)).one())
+    job_url = _start(client, study_id, {"revision_id": revision_id})
+    # Other requests are answered while the report is being made.
+    assert client.get(f"/studies/{study_id}/changes").status_code == 200
+    fragment = _finished(client, study_id, job_url)
+    assert "The report is ready" in fragment, fragment
+    download = client.get(f"{job_url}/file")
+    assert download.headers["content-type"] == "application/pdf"
+    assert "-rev-a.pdf" in download.headers["content-disposition"]
+    pages = _pages(download.content, tmp_path)
+    assert len(pages) > 5
+    for page in pages:
+        assert "Rev A, signed off by Dana Whitlock on 20" in page
+    assert pages[0].count("Rev A, signed off by Dana Whitlock") == 2  # the cover and its footer
+
+
+@pytest.mark.skipif(shutil.which("pdftotext") is None, reason="poppler-utils not installed")
+def test_the_working_copys_report_says_since_which_revision_and_not_signed(
+    client: TestClient, session: Session, demo_study: Study, tmp_path: Path
+) -> None:
+    study_id = demo_study.id or 0
+    client.post(f"/studies/{study_id}/revisions",
+                data={"label": "Rev A", "signed_off_by": "Dana Whitlock", "note": ""})
+    job_url = _start(client, study_id, {})
+    assert "The report is ready" in _finished(client, study_id, job_url)
+    for page in _pages(client.get(f"{job_url}/file").content, tmp_path):
+        assert "working copy since Rev A: working copy, not signed" in page
+
+
+def test_an_unknown_job_is_404_and_an_unfinished_one_409(
+    client: TestClient, demo_study: Study
+) -> None:
+    study_id = demo_study.id or 0
+    assert client.get(f"/studies/{study_id}/report-jobs/nope").status_code == 404
+    job = report_jobs.start_report_job(engine=None, env=None, study_id=study_id,  # type: ignore[arg-type]
+                                       revision_id=None, filename="x.pdf",
+                                       runner=lambda *_: None)
+    response = client.get(f"/studies/{study_id}/report-jobs/{job.job_id}/file")
+    assert response.status_code == 409 and "not ready yet (queued)" in response.text
+    assert client.get(f"/studies/{study_id + 1}/report-jobs/{job.job_id}").status_code == 404
