@@ -1,6 +1,5 @@
 """Study listing and the study overview page's data."""
 
-import math
 from collections.abc import Sequence
 from dataclasses import dataclass
 
@@ -36,8 +35,6 @@ class NodeTotals:
     scenario_count: int
     short_count: int
     unresolved_count: int
-    # Kept for the PDF's study page until issue 12 restructures it; pages show per-category sums.
-    summed_frequency: float
     flagged_count: int = 0
     """Scenarios with a credit an IPL check doubts."""
     short_withdrawn_count: int = 0
@@ -70,8 +67,6 @@ def totals_of_results(assessments: Sequence[Assessment | None]) -> NodeTotals:
         scenario_count=len(assessments),
         short_count=sum(not a.as_credited.result.meets_target for a in computed),
         unresolved_count=len(assessments) - len(computed),
-        # fsum is exact, so the sum does not depend on the order the scenarios were read in.
-        summed_frequency=math.fsum(a.as_credited.result.mitigated_frequency for a in computed),
         flagged_count=sum(a.withdrawn is not None for a in computed),
         short_withdrawn_count=sum(not _withdrawn_result(a).meets_target for a in computed),
     )
