@@ -2,8 +2,11 @@
 // - a sequence number per value field, so a reply older than the newest text is never shown
 //   (the server keeps the same order in the database: services/study/conflicts.py);
 // - "keep mine" / "take theirs" put the chosen value in the field after a conflict;
-// - keyboard: Enter to the next field (or a new row), Escape to cancel, Alt+arrows to move,
-//   Alt+Delete to delete (asks first), Alt+Z to undo, Alt+N to add an IPL, ? for help;
+// - keyboard: Enter to the next field (after a kind's last row: its add button, which adds
+//   only with its own Enter), Escape to cancel, Alt+arrows to move, Alt+Delete to delete
+//   (asks first), Alt+Z to undo, Alt+N to add an IPL, Alt+R for an estimate round,
+//   ? for help; Alt shortcuts match the
+//   physical key (event.code), so Option on macOS, which changes the character, works;
 // - tell the server which scenario the scribe is on, for the room view.
 (function () {
   "use strict";
@@ -25,6 +28,22 @@
     if (!field || !field.matches || !field.matches("[data-value-field]")) return;
     event.detail.parameters.client = client;
     event.detail.parameters.seq = nextSeq(field);
+  });
+
+  // A scenario's figures carry the state they were computed from (data-state grows with every
+  // save). The target was found when the request left; another reply may have replaced it
+  // since, and a swap into that detached element would be lost, so aim at the one now on the
+  // page; and drop a reply computed from an older state than the one shown, so a slow reply
+  // never brings back old figures. (htmx reads the target before this event and fires
+  // beforeSwap on the old one, so this is the event that sees every such reply.)
+  document.addEventListener("htmx:beforeOnLoad", function (event) {
+    const target = event.detail.target;
+    if (!target || !target.matches || !target.matches(".scenario-results[data-state]")) return;
+    const live = target.isConnected ? target : document.getElementById(target.id);
+    if (!live) return;
+    event.detail.target = live;
+    const found = /data-state="(\d+)"/.exec(event.detail.xhr.response || "");
+    if (found && Number(found[1]) < Number(live.dataset.state)) event.preventDefault();
   });
 
   // A reply carries the sequence number it answers; drop it if the field has moved on.
@@ -112,22 +131,28 @@
     const isLast = fields.indexOf(field) === fields.length - 1;
     const addNext = row && Array.from(row.querySelectorAll("[data-add-next]"))
       .find(function (form) { return rowOf(form) === row; });
-    if (!(isLast && addNext)) {
+    const nextRow = row && row.nextElementSibling;
+    if (!(isLast && addNext) || (nextRow && nextRow.matches("[data-row]"))) {
       focusNextField(field);  // leaving the field saves it (its change event)
       return;
     }
-    const unsaved = field.type !== "checkbox" && !field.matches("[data-value-field]") &&
-      field.value !== field.dataset.before;
-    if (!unsaved) {
-      addNext.requestSubmit();
-      return;
-    }
-    // Save the text first, then add the row, so the new worksheet shows what was typed.
-    field.addEventListener("htmx:afterRequest", function () { addNext.requestSubmit(); },
-      { once: true });
-    field.dataset.before = field.value;
-    field.dispatchEvent(new Event("change", { bubbles: true }));
+    // The last field of the last row: never add a row from a key meant for the text. Focus
+    // goes to the labelled add button of this kind, which adds only with its own Enter.
+    const scenario = field.closest("[data-scenario]");
+    const add = scenario && scenario.querySelector(
+      '[data-add="' + row.dataset.kind + '"] button');
+    if (add) add.focus();
   }
+
+  // An add button takes Enter pressed on it, not Space and not a held-down Enter: a space or
+  // a repeated Enter typed just after leaving a field never adds a blank row.
+  function guardAddButton(event) {
+    const button = event.target;
+    if (!button.matches || !button.matches("[data-add] button, [data-add-next] button")) return;
+    if (event.key === " " || (event.key === "Enter" && event.repeat)) event.preventDefault();
+  }
+  document.addEventListener("keydown", guardAddButton, true);
+  document.addEventListener("keyup", guardAddButton, true);
 
   function onEscape(event, field) {
     if (field.dataset.before === undefined || field.value === field.dataset.before) return;
@@ -157,6 +182,15 @@
     link.click();
   }
 
+  function onOpenRound(event, field) {
+    // Alt+R in a value field: open an estimate round on that value (the row's "ask the room").
+    const cell = field.closest(".value-cell");
+    const link = cell && cell.querySelector("[data-open-round]");
+    if (!link) return;
+    event.preventDefault();
+    window.location.href = link.href;
+  }
+
   function onAddIpl(event, field) {
     const scenario = field.closest("[data-scenario]");
     const form = scenario && scenario.querySelector('[data-add="ipl"]');
@@ -168,7 +202,7 @@
   document.addEventListener("keydown", function (event) {
     const target = event.target;
     const inField = target.matches && target.matches("[data-field]");
-    if (event.altKey && event.key.toLowerCase() === "z") {
+    if (event.altKey && event.code === "KeyZ") {
       const undo = document.getElementById("undo-button");
       if (undo) { event.preventDefault(); undo.click(); }
       return;
@@ -184,7 +218,8 @@
     if (event.altKey && event.key === "ArrowUp") onMove(event, target, -1);
     else if (event.altKey && event.key === "ArrowDown") onMove(event, target, 1);
     else if (event.altKey && (event.key === "Delete" || event.key === "Backspace")) onDelete(event, target);
-    else if (event.altKey && event.key.toLowerCase() === "n") onAddIpl(event, target);
+    else if (event.altKey && event.code === "KeyN") onAddIpl(event, target);
+    else if (event.altKey && event.code === "KeyR") onOpenRound(event, target);
     else if (event.key === "Enter" && !event.altKey && !event.shiftKey) onEnter(event, target);
     else if (event.key === "Escape") onEscape(event, target);
   });

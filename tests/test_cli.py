@@ -12,7 +12,7 @@ from app.routes.rendering import CAUTIONS
 from app.services.exchange.exports import study_json_bytes
 from app.services.exchange.study_file import export_study
 from tests.factories import make_scenario_tree, make_study
-from tests.samples import study_count
+from tests.samples import free_the_title, study_count
 
 
 @pytest.fixture
@@ -92,6 +92,7 @@ def test_import_prints_the_new_id_and_the_new_study_exports_the_same_file(
     original = study_json_bytes(export_study(session, study.id or 0))
     path = tmp_path / "study.json"
     path.write_bytes(original)
+    free_the_title(session, study)
     assert main(["import", str(path)]) == 0
     new_id = int(capsys.readouterr().out)
     assert new_id != study.id

@@ -361,6 +361,86 @@ class FieldEdit(SQLModel, table=True):
     written: str | None = Field(default=None, sa_column=Column(Text, nullable=True))
 
 
+class RoundState(StrEnum):
+    """Where an estimate round stands: answers hidden, shown to the room, or agreed."""
+
+    OPEN = "open"
+    REVEALED = "revealed"
+    AGREED = "agreed"
+
+
+class EstimateRound(SQLModel, table=True):
+    """One private round of estimates on a step's value or a word, and its outcome.
+
+    Not a TrackedRow: rounds and estimates stay out of the change log, which editors read
+    while a round is open; agreeing writes the step, and that edit is logged.
+    """
+
+    __tablename__ = "estimate_round"
+    id: int | None = Field(default=None, primary_key=True)
+    study_id: int = _study_fk()
+    # A round is on a step's value, or (step None) on a word of the team's word scale.
+    step_id: int | None = Field(default=None, foreign_key="step.id", ondelete="CASCADE",
+                                index=True)
+    word: str | None = Field(default=None, max_length=60)
+    number: int = Field(ge=1)
+    question: str = Field(min_length=1, max_length=300)
+    unit: str = Field(max_length=20)
+    state: RoundState = Field(default=RoundState.OPEN, sa_type=AutoString(length=20))
+    names_shown: bool = True
+    opened_by: str = Field(default="", max_length=120)
+    created_at: datetime = Field(default_factory=utc_now, nullable=False)
+    updated_at: datetime = Field(default_factory=utc_now, nullable=False)
+    agreed_method: str | None = Field(default=None, max_length=20)
+    agreed_value: float | None = Field(default=None, gt=0)
+    agreed_basis: str = Field(default="", max_length=2000)
+
+
+class RoundEstimate(SQLModel, table=True):
+    """One person's estimate in one round; `session_id` is the device that gave it ('' for
+    the scribe typing it), so only that device may change it."""
+
+    __tablename__ = "round_estimate"
+    __table_args__ = (Index("uq_round_estimate_person", "round_id", "person", unique=True),)
+    id: int | None = Field(default=None, primary_key=True)
+    study_id: int = _study_fk()
+    round_id: int = Field(foreign_key="estimate_round.id", ondelete="CASCADE", index=True)
+    person: str = Field(min_length=1, max_length=120)
+    value: float = Field(gt=0)
+    value_text: str = Field(default="", max_length=100)
+    entered_by: str = Field(default="self", max_length=10)
+    session_id: str = Field(default="", max_length=100)
+    updated_at: datetime = Field(default_factory=utc_now, nullable=False)
+
+
+class RoundDissent(SQLModel, table=True):
+    """A person who does not accept a round's agreed value, and why."""
+
+    __tablename__ = "round_dissent"
+    id: int | None = Field(default=None, primary_key=True)
+    study_id: int = _study_fk()
+    round_id: int = Field(foreign_key="estimate_round.id", ondelete="CASCADE", index=True)
+    person: str = Field(min_length=1, max_length=120)
+    reason: str = Field(default="", max_length=1000)
+    position: int = 0
+
+
+class ScaleWord(SQLModel, table=True):
+    """A word the team uses for a likelihood ("unlikely") and, once adopted, its number.
+
+    `unit` is the estimate unit (per_year or probability); a word without `value` is on the
+    team's list but not adopted, so typing it in a value field is refused.
+    """
+
+    __tablename__ = "scale_word"
+    id: int | None = Field(default=None, primary_key=True)
+    study_id: int = _study_fk()
+    unit: str = Field(max_length=20)
+    word: str = Field(min_length=1, max_length=60)
+    value: float | None = Field(default=None, gt=0)
+    position: int = 0
+
+
 class AccessState(SQLModel, table=True):
     """Who may use a served Tallyroom: one row, never part of a study, an export or the log."""
 

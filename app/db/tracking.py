@@ -15,6 +15,7 @@ from app.db.models import (
     Recommendation,
     RecommendationScenario,
     Safeguard,
+    ScaleWord,
     Scenario,
     SessionDay,
     SeverityCategory,
@@ -38,6 +39,7 @@ LOGGED_TYPES: dict[type, str] = {
     Recommendation: "recommendation",
     Participant: "participant",
     SessionDay: "session date",
+    ScaleWord: "word on the scale",
 }
 UNLOGGED_FIELDS = {"version", "created_at", "updated_at", "focus_scenario_id", "focus_changed_at",
                    "content_version"}
@@ -52,7 +54,7 @@ CLAIMED_KEY = "claimed_rows"
 
 def describe(row: Any) -> str:
     """A short human label for a logged row."""
-    for attribute in ("title", "name", "description", "cause", "text"):
+    for attribute in ("title", "name", "description", "cause", "text", "word"):
         value = getattr(row, attribute, None)
         if value:
             return f"{LOGGED_TYPES.get(type(row), 'row')} '{str(value)[:80]}'"

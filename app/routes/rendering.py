@@ -23,8 +23,9 @@ from app.settings import PROJECT_ROOT
 
 CAUTIONS = (
     "Tallyroom is decision support for a competent review team. Its results are only as good "
-    "as the inputs the team agrees. Follow your company's standards, local regulations, the "
-    "IEC 61511 safety lifecycle and licensed professional judgement."
+    "as the inputs the team agrees. LOPA is an order-of-magnitude method: read each figure to "
+    "its decade, not its digits. Follow your company's standards, local regulations, the "
+    "IEC 61511 safety lifecycle and competent professional judgement."
 )
 
 # Explicit bidirectional formatting characters: embeddings and overrides (closed by PDF,
@@ -119,7 +120,10 @@ def render(
 # so each area adds itself by registering a route with this name.
 STUDY_NAV = [
     ("Overview", "read_study"),
+    ("Worksheet", "read_first_worksheet"),
     ("Room view", "read_room"),
+    ("Estimate rounds", "read_rounds"),
+    ("Word scale", "read_word_scale"),
     ("Risk criteria", "read_criteria"),
     ("Risk picture", "read_risk_picture"),
     ("SIF proof test", "read_proof_test"),
@@ -131,17 +135,26 @@ STUDY_NAV = [
 ]
 
 
-def study_nav(request: Request, study_id: int) -> list[tuple[str, str]]:
-    """(label, url) of every study page that exists in this app."""
+def study_nav(request: Request, study_id: int) -> list[tuple[str, str, bool]]:
+    """(label, url, current) of every study page that exists in this app."""
     # Ask the router itself: FastAPI 0.16x wraps included routers, hiding route names.
     # Paths, not full URLs, so the template can mark the current page.
     links = []
     for label, name in STUDY_NAV:
         try:
-            links.append((label, request.url_for(name, study_id=study_id).path))
+            path = request.url_for(name, study_id=study_id).path
         except NoMatchFound:
             continue
+        links.append((label, path, _is_current(request, name, path)))
     return links
+
+
+def _is_current(request: Request, name: str, path: str) -> bool:
+    """The tab of this page; every node's worksheet belongs to the Worksheet tab."""
+    here = request.url.path
+    if name == "read_first_worksheet":
+        return here == path or "/nodes/" in here
+    return here == path
 
 
 templates.env.globals.update(study_nav=study_nav)

@@ -48,6 +48,6 @@ def worksheet_url(request: Request, study_id: int, node_id: int, anchor: str = "
     return path + (f"#{anchor}" if anchor else "")
 
 
-def overview_url(request: Request, study_id: int) -> str:
-    """The study overview (where the worksheet goes when the study has no node)."""
-    return path_for(request, "read_study", study_id=study_id)
+def empty_worksheet_url(request: Request, study_id: int) -> str:
+    """The study's worksheet entry: the first node, or the page that adds one when it has none."""
+    return path_for(request, "read_first_worksheet", study_id=study_id)

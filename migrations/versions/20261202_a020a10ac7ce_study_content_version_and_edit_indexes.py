@@ -6,7 +6,7 @@ ix_change_log_entry_target serves the keystroke's search for the same person's l
 the same field; ix_recommendation_scenario_scenario_id serves one scenario's action lookup.
 
 Revision ID: a020a10ac7ce
-Revises: e34263c242e3
+Revises: fa5e8b5ffa3b
 Create Date: 2026-12-02 08:10:00.000000
 """
 from collections.abc import Sequence
@@ -15,7 +15,7 @@ import sqlalchemy as sa
 from alembic import op
 
 revision: str = 'a020a10ac7ce'
-down_revision: str | None = 'e34263c242e3'
+down_revision: str | None = 'fa5e8b5ffa3b'
 branch_labels: str | Sequence[str] | None = None
 depends_on: str | Sequence[str] | None = None
 

@@ -10,7 +10,7 @@ from pathlib import Path
 REPO_ROOT = Path(__file__).resolve().parents[2]
 SERVICES = REPO_ROOT / "app" / "services"
 CORE = "study"
-AREAS = {"study", "worksheet", "record", "risk", "exchange"}
+AREAS = {"study", "worksheet", "record", "risk", "exchange", "estimates"}
 
 # (importing area, imported module) → why
 NAMED_EXCEPTIONS = {

@@ -1,10 +1,11 @@
 """Risk criteria: the study's severity categories, their tolerable frequencies and basis."""
 
 from fastapi import APIRouter, Request
-from starlette.responses import Response
+from starlette.responses import RedirectResponse, Response
 
 from app.routes.deps import SessionDep, read_page_edit, read_seen
 from app.routes.rendering import render
+from app.routes.urls import path_for
 from app.services.risk import criteria as service
 
 router = APIRouter(prefix="/studies/{study_id}")
@@ -18,9 +19,11 @@ def _answer(request: Request, page: service.CriteriaPage) -> Response:
 
 
 @router.get("/criteria", name="read_criteria")
-def read_criteria(request: Request, study_id: int, session: SessionDep) -> Response:
+def read_criteria(request: Request, study_id: int, session: SessionDep,
+                  added: int | None = None) -> Response:
     """The categories, how many scenarios each governs, and the criteria basis."""
-    return _answer(request, service.build_criteria_page(session=session, study_id=study_id))
+    return _answer(request, service.build_criteria_page(session=session, study_id=study_id,
+                                                        added_id=added))
 
 
 @router.post("/criteria/basis", name="update_criteria_basis")
@@ -35,8 +38,11 @@ async def update_criteria_basis(request: Request, study_id: int, session: Sessio
 async def create_category(request: Request, study_id: int, session: SessionDep) -> Response:
     """Add a severity category."""
     form = service.CategoryForm.from_mapping(await request.form())
-    return _answer(request, service.add_category(session=session, study_id=study_id,
-                                                    form=form))
+    result = service.add_category(session=session, study_id=study_id, form=form)
+    if isinstance(result, service.CriteriaPage):
+        return _answer(request, result)
+    url = path_for(request, "read_criteria", study_id=study_id)
+    return RedirectResponse(f"{url}?added={result.id}", status_code=303)
 
 
 @router.post("/criteria/categories/{category_id}", name="update_category")

@@ -1,13 +1,18 @@
-"""Studies: the list and one study's overview."""
+"""Studies: the list, one study's overview, and a study's own life (new, edit, copy, delete)."""
 
 from fastapi import APIRouter, Request
-from starlette.responses import Response
+from starlette.responses import RedirectResponse, Response
 
+from app.access.roles import Role, allow
 from app.routes.deps import SessionDep
 from app.routes.rendering import render
+from app.routes.urls import path_for
+from app.services.exchange.study_import import duplicate_study as copy_whole_study
+from app.services.study import lifecycle
 from app.services.study import listing as study_service
 
 router = APIRouter()
+FORM_PAGE = "study/form.html"
 
 
 @router.get("/", name="read_studies")
@@ -17,8 +22,76 @@ def read_studies(request: Request, session: SessionDep) -> Response:
     return render(request, "study/list.html", {"studies": listing})
 
 
+def _study_form(request: Request, session: SessionDep, form: lifecycle.StudyForm, *,
+                study_id: int | None = None, errors: dict[str, str] | None = None) -> Response:
+    """The new-study or edit-study form, with each field's problem beside it."""
+    context = {"form": form, "errors": errors or {}, "study_id": study_id,
+               "sources": study_service.list_studies(session=session)}
+    return render(request, FORM_PAGE, context, status_code=422 if errors else 200)
+
+
+@router.get("/studies/new", name="new_study")
+def new_study(request: Request, session: SessionDep) -> Response:
+    """An empty new-study form."""
+    return _study_form(request, session, lifecycle.StudyForm())
+
+
+@router.post("/studies", name="create_study")
+async def create_study(request: Request, session: SessionDep) -> Response:
+    """Create a study and open its (empty) worksheet, where the first node is added."""
+    form = lifecycle.StudyForm.from_mapping(await request.form())
+    try:
+        study = lifecycle.create_study(session=session, form=form)
+    except lifecycle.StudyFormError as err:
+        return _study_form(request, session, form, errors=err.errors)
+    return RedirectResponse(path_for(request, "read_first_worksheet", study_id=study.id),
+                            status_code=303)
+
+
 @router.get("/studies/{study_id}", name="read_study")
 def read_study(request: Request, study_id: int, session: SessionDep) -> Response:
     """One study: its nodes and every scenario's frequency, target and gap."""
     overview = study_service.read_study_overview(session=session, study_id=study_id)
     return render(request, "study/detail.html", {"page": overview})
+
+
+@router.get("/studies/{study_id}/edit", name="edit_study")
+def edit_study(request: Request, study_id: int, session: SessionDep) -> Response:
+    """The study's title, facility, scope and revision label, ready to change."""
+    study = lifecycle.study_contents(session=session, study_id=study_id).study
+    return _study_form(request, session, lifecycle.StudyForm.from_study(study),
+                       study_id=study_id)
+
+
+@router.post("/studies/{study_id}/edit", name="update_study")
+async def update_study(request: Request, study_id: int, session: SessionDep) -> Response:
+    """Save the heading fields and go back to the overview."""
+    form = lifecycle.StudyForm.from_mapping(await request.form())
+    try:
+        lifecycle.update_study(session=session, study_id=study_id, form=form)
+    except lifecycle.StudyFormError as err:
+        return _study_form(request, session, form, study_id=study_id, errors=err.errors)
+    return RedirectResponse(path_for(request, "read_study", study_id=study_id), status_code=303)
+
+
+@router.post("/studies/{study_id}/duplicate", name="duplicate_study")
+def duplicate_study(request: Request, study_id: int, session: SessionDep) -> Response:
+    """Copy the whole study under a new title and open the copy."""
+    copy = copy_whole_study(session=session, study_id=study_id)
+    return RedirectResponse(path_for(request, "read_study", study_id=copy.id), status_code=303)
+
+
+@router.get("/studies/{study_id}/delete", name="read_study_delete")
+@allow(Role.FACILITATOR)
+def read_study_delete(request: Request, study_id: int, session: SessionDep) -> Response:
+    """Ask before deleting, naming everything that goes with the study."""
+    contents = lifecycle.study_contents(session=session, study_id=study_id)
+    return render(request, "study/confirm_delete.html", {"contents": contents})
+
+
+@router.post("/studies/{study_id}/delete", name="delete_study")
+@allow(Role.FACILITATOR)
+def delete_study(request: Request, study_id: int, session: SessionDep) -> Response:
+    """Delete the study and everything in it (this cannot be undone; export first)."""
+    lifecycle.delete_study(session=session, study_id=study_id)
+    return RedirectResponse(path_for(request, "read_studies"), status_code=303)

@@ -8,8 +8,9 @@ from starlette.routing import NoMatchFound
 
 from app.routes.deps import SessionDep, author_name
 from app.routes.rendering import is_htmx, render
-from app.routes.urls import overview_url, worksheet_url
+from app.routes.urls import empty_worksheet_url, worksheet_url
 from app.services.study.conflicts import PageEdit
+from app.services.study.tree import get_study
 from app.services.worksheet import page as worksheet_service
 from app.services.worksheet.edits import FieldReply, edit_step_value
 
@@ -33,7 +34,8 @@ def render_worksheet(request: Request, session: SessionDep, study_id: int, node_
                                                   node_id=node_id, author=author_name(request))
     links = {"step_details": route_exists(request, "read_step_details", study_id=0, step_id=0),
              "proof_test": route_exists(request, "read_proof_test", study_id=0),
-             "actions": route_exists(request, "read_actions", study_id=0)}
+             "actions": route_exists(request, "read_actions", study_id=0),
+             "estimate_round": route_exists(request, "read_new_round", study_id=0, step_id=0)}
     context = {"page": page, "study": page.study, "focus_id": "", "notice": "", "typed": {},
                "links": links, **extra}
     return render(request, "worksheet/page.html", context, block=block,
@@ -62,13 +64,15 @@ def read_worksheet(request: Request, study_id: int, node_id: int, session: Sessi
 
 
 @router.get("/worksheet", name="read_first_worksheet")
-def read_first_worksheet(request: Request, study_id: int,
-                         session: SessionDep) -> RedirectResponse:
-    """Open the worksheet at the study's first node (the overview when it has none)."""
-    node_id = worksheet_service.first_node_id(session=session, study_id=study_id)
-    target = (worksheet_url(request, study_id, node_id) if node_id
-              else overview_url(request, study_id))
-    return RedirectResponse(target, status_code=303)
+def read_first_worksheet(request: Request, study_id: int, session: SessionDep,
+                         node: str = "") -> Response:
+    """Open the worksheet at the chosen node, else the first; a study with none gets the
+    empty worksheet, where the first node is added."""
+    node_id = worksheet_service.picked_node_id(session=session, study_id=study_id, picked=node)
+    if node_id is None:
+        study = get_study(session, study_id)
+        return render(request, "worksheet/empty.html", {"study": study, "focus_id": "add-node"})
+    return RedirectResponse(worksheet_url(request, study_id, node_id), status_code=303)
 
 
 @router.post("/steps/{step_id}/value", name="update_step_value")
@@ -100,7 +104,7 @@ def answer_without_script(request: Request, session: SessionDep, study_id: int,
         node_id = reply.node_id or worksheet_service.first_node_id(session=session,
                                                                    study_id=study_id)
         if node_id is None:
-            return RedirectResponse(overview_url(request, study_id), status_code=303)
+            return RedirectResponse(empty_worksheet_url(request, study_id), status_code=303)
         return render_worksheet(request, session, study_id, node_id, status_code=409,
                                 edit=reply, focus_id=reply.field_id)
     if reply.error:

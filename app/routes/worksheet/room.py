@@ -7,20 +7,34 @@ from starlette.responses import Response
 
 from app.access.roles import Role, allow
 from app.routes.deps import ID_BOUNDS, SessionDep
+from app.routes.estimates.join import join_panel
 from app.routes.rendering import render
+from app.services.estimates import views as rounds_view
 from app.services.worksheet import room as room_service
 from app.settings import get_settings
 
 router = APIRouter(prefix="/studies/{study_id}")
 
 
+def _stamp(session: SessionDep, study_id: int) -> str:
+    """The worksheet's stamp joined with the estimate rounds' (a round shows on this view)."""
+    worksheet = room_service.change_stamp(session=session, study_id=study_id)
+    return f"{worksheet}-{rounds_view.rounds_stamp(session=session, study_id=study_id)}"
+
+
+def _context(request: Request, session: SessionDep, study_id: int) -> dict[str, object]:
+    room = room_service.build_room_view(session=session, study_id=study_id)
+    return {"room": room, "study": room.study, "poll": get_settings().room_poll_seconds,
+            "stamp": _stamp(session, study_id),
+            "rounds": rounds_view.room_rounds(session=session, study_id=study_id),
+            "join": join_panel(request, session, study_id)}
+
+
 @router.get("/room", name="read_room")
 @allow(Role.VIEWER)
 def read_room(request: Request, study_id: int, session: SessionDep) -> Response:
     """Read-only, large-type view of the scenario the scribe is working on."""
-    room = room_service.build_room_view(session=session, study_id=study_id)
-    context = {"room": room, "study": room.study, "poll": get_settings().room_poll_seconds}
-    return render(request, "worksheet/room.html", context)
+    return render(request, "worksheet/room.html", _context(request, session, study_id))
 
 
 @router.get("/room/live", name="read_room_live")
@@ -28,11 +42,10 @@ def read_room(request: Request, study_id: int, session: SessionDep) -> Response:
 def read_room_live(request: Request, study_id: int, session: SessionDep,
                    stamp: str = "") -> Response:
     """204 while nothing changed since `stamp`; the room's live region once something did."""
-    if room_service.change_stamp(session=session, study_id=study_id) == stamp:
+    if _stamp(session, study_id) == stamp:
         return Response(status_code=204)
-    room = room_service.build_room_view(session=session, study_id=study_id)
-    context = {"room": room, "study": room.study, "poll": get_settings().room_poll_seconds}
-    return render(request, "worksheet/room.html", context, block="live")
+    return render(request, "worksheet/room.html", _context(request, session, study_id),
+                  block="live")
 
 
 @router.post("/focus", name="update_focus")

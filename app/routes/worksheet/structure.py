@@ -12,7 +12,7 @@ from starlette.responses import RedirectResponse, Response
 from app.db.ids import read_row_id
 from app.routes.deps import ORIGINAL_PREFIX, PAGE_FIELDS, AuthorDep, SessionDep, read_page_edit
 from app.routes.rendering import is_htmx, render
-from app.routes.urls import overview_url, path_for, worksheet_url
+from app.routes.urls import empty_worksheet_url, path_for, worksheet_url
 from app.routes.worksheet.page import answer_without_script, render_field_reply, render_worksheet
 from app.services.study.tree import NotFoundError
 from app.services.worksheet import structure
@@ -48,7 +48,7 @@ def _after_change(request: Request, session: SessionDep, study_id: int, node_id:
     if node_id is None:
         node_id = first_node_id(session=session, study_id=study_id)
         if node_id is None:
-            return _go(request, overview_url(request, study_id))
+            return _go(request, empty_worksheet_url(request, study_id))
     if is_htmx(request) or status_code >= 400:
         block = "worksheet" if is_htmx(request) else None
         return render_worksheet(request, session, study_id, node_id, block=block,
@@ -135,7 +135,7 @@ def _delete(request: Request, session: SessionDep, author: str, study_id: int, k
     if kind == "node":
         node_id = first_node_id(session=session, study_id=study_id)
         return _go(request, worksheet_url(request, study_id, node_id) if node_id
-                   else overview_url(request, study_id))
+                   else empty_worksheet_url(request, study_id))
     return _after_change(request, session, study_id, node_id, focus_id="undo-button")
 
 

@@ -1,11 +1,12 @@
 """Create a study from a validated study file, all in one transaction."""
 
 import json
+from datetime import UTC, date, datetime
 from typing import Any
 
 from sqlalchemy import insert
 from sqlalchemy.exc import SQLAlchemyError
-from sqlmodel import Session, SQLModel
+from sqlmodel import Session, SQLModel, select
 
 from app.db.models import (
     Attendance,
@@ -26,7 +27,7 @@ from app.db.models import (
 )
 from app.db.queries import fetch_plain_rows, placed_rows_of_study
 from app.db.tracking import SUPPRESS_LOG_KEY
-from app.services.exchange.study_file import StudyFileError, parse_study_file
+from app.services.exchange.study_file import StudyFileError, export_study, parse_study_file
 from app.services.exchange.study_schema import StudyFile
 from app.services.study.step_fields import receptors_text
 
@@ -36,6 +37,7 @@ from app.services.study.step_fields import receptors_text
 # Larger uploads are refused before they are read as JSON.
 STUDY_FILE_BYTES_PER_SCENARIO = 1_800
 MAX_FILE_BYTES = 200 * 1024 * 1024
+TITLE_LIMIT = 200  # Study.title's column limit
 
 
 def import_study_upload(*, session: Session, raw: bytes) -> Study:
@@ -62,7 +64,9 @@ def import_study_file(session: Session, data: StudyFile) -> Study:
     """Write a whole study from a validated file and commit once; on any failure write nothing."""
     session.info[SUPPRESS_LOG_KEY] = True
     try:
-        study = Study(**data.study.model_dump(), invented=data.invented)
+        header = data.study.model_dump()
+        header["title"] = distinct_title(session, header["title"], "imported")
+        study = Study(**header, invented=data.invented)
         session.add(study)
         session.flush()
         assert study.id is not None
@@ -84,6 +88,31 @@ def import_study_file(session: Session, data: StudyFile) -> Study:
         session.info.pop(SUPPRESS_LOG_KEY, None)
     session.refresh(study)
     return study
+
+
+def distinct_title(session: Session, title: str, verb: str, today: date | None = None) -> str:
+    """The title, or "title (imported 2026-12-02)" when a study already has it (then " 2", …).
+
+    Two studies with one title would be told apart only by their ids; the date says which
+    copy came in when.
+    """
+    taken = set(session.exec(select(Study.title)).all())
+    if title not in taken:
+        return title
+    stamp = f" ({verb} {(today or datetime.now(UTC).date()).isoformat()})"
+    room = TITLE_LIMIT - len(stamp) - 4  # leave room for " 99" as well
+    base = title[:room] + stamp
+    candidates = (base if n == 1 else f"{base} {n}" for n in range(1, len(taken) + 2))
+    return next(c for c in candidates if c not in taken)
+
+
+def duplicate_study(*, session: Session, study_id: int) -> Study:
+    """A copy of the whole study (criteria, nodes, actions, people; not its history)."""
+    data = parse_study_file(json.dumps(export_study(session, study_id, with_history=False)))
+    source_title = data.study.title
+    copy = data.model_copy(update={"study": data.study.model_copy(
+        update={"title": distinct_title(session, source_title, "copy")})})
+    return import_study_file(session, copy)
 
 
 def _first_line(err: SQLAlchemyError) -> str:

@@ -173,9 +173,26 @@ def _criteria_page(session: Session, study_id: int, *, edited: Edited | None = N
     )
 
 
-def build_criteria_page(*, session: Session, study_id: int) -> CriteriaPage:
-    """The study's categories with how many scenarios each governs."""
-    return _criteria_page(session, study_id)
+def build_criteria_page(*, session: Session, study_id: int,
+                        added_id: int | None = None) -> CriteriaPage:
+    """The study's categories with how many scenarios each governs (and, after an add, which
+    one was added: the create form redirects here so a reload cannot add it twice)."""
+    added = session.get(SeverityCategory, added_id) if added_id is not None else None
+    if added is None or added.study_id != study_id:
+        return _criteria_page(session, study_id)
+    return _criteria_page(session, study_id,
+                          message=f"'{added.name}' added. No scenario is rated with it yet.")
+
+
+def name_taken(session: Session, study_id: int, name: str, except_id: int | None = None) -> str:
+    """The rule's message when another category of the study has this name (case and outer
+    spaces ignored), else ""."""
+    wanted = name.strip().casefold()
+    for row in session.exec(select(SeverityCategory).where(
+            SeverityCategory.study_id == study_id)).all():
+        if row.id != except_id and row.name.strip().casefold() == wanted:
+            return f"Name: the study already has a category called '{row.name}'; names must differ."
+    return ""
 
 
 def validate_category(form: CategoryForm) -> tuple[dict[str, Any], dict[str, str]]:
@@ -228,6 +245,8 @@ def save_category(*, session: Session, study_id: int, category_id: int, form: Ca
     """
     row = _get_category(session, study_id, category_id)
     values, errors = validate_category(form)
+    if "name" not in errors and (taken := name_taken(session, study_id, form.name, category_id)):
+        errors["name"] = taken
     if errors:
         return _criteria_page(session, study_id, edited={category_id: (form, errors)})
     edit = edit or PageEdit()
@@ -280,17 +299,21 @@ def _next_category_position(session: Session, study_id: int) -> int:
     return (session.exec(statement).one() or 0) + 1
 
 
-def add_category(*, session: Session, study_id: int, form: CategoryForm) -> CriteriaPage:
-    """Add a category at the end; errors save nothing and keep the typed text."""
+def add_category(*, session: Session, study_id: int,
+                 form: CategoryForm) -> CriteriaPage | SeverityCategory:
+    """Add a category at the end and return it; errors save nothing and answer the page with
+    the typed text kept."""
     get_study(session, study_id)
     values, errors = validate_category(form)
+    if "name" not in errors and (taken := name_taken(session, study_id, form.name)):
+        errors["name"] = taken
     if errors:
         return _criteria_page(session, study_id, new_form=form, new_errors=errors)
     position = _next_category_position(session, study_id)
-    session.add(SeverityCategory(study_id=study_id, position=position, **values))
+    row = SeverityCategory(study_id=study_id, position=position, **values)
+    session.add(row)
     session.commit()
-    return _criteria_page(session, study_id,
-                          message=f"'{form.name}' added. No scenario is rated with it yet.")
+    return row
 
 
 def scenarios_rated_with(category_id: int) -> SelectOfScalar[int]:

@@ -15,8 +15,9 @@ from sqlmodel import Session
 
 from app.db.compare_and_set import SaveOutcome
 from app.db.models import Step
-from app.likelihood.numbers import ParsedNumber, format_number
+from app.likelihood.numbers import format_number
 from app.likelihood.types import LikelihoodInputError
+from app.likelihood.word_scale import WordedNumber
 from app.services.study.conflicts import (
     FieldConflict,
     GoneRow,
@@ -33,6 +34,7 @@ from app.services.study.conflicts import (
 from app.services.study.listing import NodeTotals
 from app.services.study.totals import study_totals
 from app.services.study.tree import NotFoundError
+from app.services.study.word_scale import basis_with_word, read_step_text
 from app.services.worksheet.page import ScenarioView, located_scenario, plain_value
 from app.services.worksheet.structure import (
     RowKind,
@@ -102,18 +104,20 @@ def edit_step_value(*, session: Session, study_id: int, step_id: int, text: str,
     if step is None:
         return _gone_reply(session, "step", study_id, step_id, "value_text")
     fid = field_id("step", step_id, "value_text")
-    parsed = _parse_typed_value(step, text)
+    worded = _parse_typed_value(session, step, text)
     accepted, written = _claim(session, study_id, step_id, edit)
     if not accepted:
         session.rollback()
         return None
-    if isinstance(parsed, LikelihoodInputError):
+    if isinstance(worded, LikelihoodInputError):
         session.commit()  # keeps the sequence number: an older keystroke stays older
         fallback = f"{step_label(step)}: using last valid value {format_number(step.value)}"
-        return _reply(session, "step", step, fid, error=parsed.message, fallback=fallback)
+        return _reply(session, "step", step, fid, error=worded.message, fallback=fallback)
+    parsed = worded.number
+    word_note = {"basis": basis_with_word(step.basis, worded)} if worded.word else {}
     originals = _original_value(step, edit)
     result = guarded_save(session, Step, step_id, replace(edit, originals=originals),
-                          {"value": parsed.value, "value_text": parsed.text},
+                          {"value": parsed.value, "value_text": parsed.text, **word_note},
                           {"value_text": written, "value": _number_text(step, written)})
     if result.outcome is SaveOutcome.SAVED and edit.client:
         remember_written(session, entity="step", row_id=step_id, name="value_text",
@@ -148,10 +152,12 @@ def _original_value(step: Step, edit: PageEdit) -> dict[str, Any]:
     return {"value": parsed.value, "value_text": parsed.text}
 
 
-def _parse_typed_value(step: Step, text: str) -> ParsedNumber | LikelihoodInputError:
-    """The typed text read as the step's kind needs (a frequency or a probability), or why not."""
+def _parse_typed_value(session: Session, step: Step,
+                       text: str) -> WordedNumber | LikelihoodInputError:
+    """The typed text read as the step's kind needs (a frequency or a probability, or a word
+    on the team's adopted scale), or why not."""
     try:
-        return parse_step_value(step.kind, text, step_label(step))
+        return read_step_text(session, step, text, step_label(step))
     except LikelihoodInputError as err:
         return err
 

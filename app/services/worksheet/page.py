@@ -57,6 +57,14 @@ class ScenarioView:
     delete_question: str
     fallback: str = ""
 
+    @property
+    def state(self) -> int:
+        """How far the saved scenario has come: every save bumps one of these versions by one,
+        so of two replies the one computed from more saves has the larger number. The page
+        keeps the figures with the largest (replies can arrive out of order)."""
+        rows = [self.item.scenario, *self.item.steps, *self.item.safeguards]
+        return sum(row.version for row in rows)
+
 
 @dataclass(frozen=True)
 class DeviationView:
@@ -189,6 +197,13 @@ def node_links(session: Session, study_id: int) -> tuple[NodeLink, ...]:
     """Every node of the study for the node switcher, in display order."""
     return tuple(NodeLink(row.id, row.number, row.name)
                  for row in fetch_node_links(session, study_id))
+
+
+def picked_node_id(*, session: Session, study_id: int, picked: str) -> int | None:
+    """The node chosen in the node picker when it belongs to the study, else the first node."""
+    ids = [link.id for link in node_links(session, study_id)] if picked else []
+    chosen = int(picked) if picked.isdigit() else None
+    return chosen if chosen in ids else first_node_id(session=session, study_id=study_id)
 
 
 def first_node_id(*, session: Session, study_id: int) -> int | None:

@@ -32,7 +32,7 @@ def layers(session: Session, scenario: Scenario) -> list[Step]:
         .order_by(Step.position, Step.id)).all())  # type: ignore[arg-type]
 
 
-def test_enter_in_the_last_field_adds_the_next_step_and_tab_walks_its_fields(
+def test_enter_after_the_last_field_goes_to_the_add_button_which_adds_with_its_own_enter(
     page: Page, live_server: str, session: Session, scenario: Scenario
 ) -> None:
     open_worksheet(page, live_server, session, scenario)
@@ -41,6 +41,10 @@ def test_enter_in_the_last_field_adds_the_next_step_and_tab_walks_its_fields(
     page.keyboard.type("Trip tested yearly")
     page.keyboard.press("Enter")
     expect(page.locator(f"#step-{first.id}-credited")).to_be_focused()
+    page.keyboard.press("Enter")
+    add_ipl = page.locator(f"#scenario-{scenario.id} [data-add='ipl'] button")
+    expect(add_ipl).to_be_focused()
+    assert len(layers(session, scenario)) == 1  # nothing added yet
     page.keyboard.press("Enter")
     new_description = page.locator(f"#steps-{scenario.id} tr[data-kind='ipl']").nth(1).locator(
         "[name='description']")
@@ -146,3 +150,34 @@ def test_space_on_the_credited_box_takes_the_layer_out_of_the_sum(
     assert [s.credited for s in layers(session, scenario)] == [False]
     page.keyboard.press("Space")
     expect(mitigated).to_have_text("1.0e-2 /yr")
+
+
+def test_keys_typed_as_text_never_add_a_blank_step(
+    page: Page, live_server: str, session: Session, scenario: Scenario
+) -> None:
+    """Enter at the end of a row, then more words with spaces: no new row (on the old page the
+    second Enter itself added a blank step)."""
+    open_worksheet(page, live_server, session, scenario)
+    [first] = layers(session, scenario)
+    page.locator(f"#step-{first.id}-basis").click()
+    page.keyboard.type("Trip tested yearly")
+    page.keyboard.press("Enter")  # to Credited
+    page.keyboard.press("Enter")  # to the add button: nothing added
+    add_ipl = page.locator(f"#scenario-{scenario.id} [data-add='ipl'] button")
+    expect(add_ipl).to_be_focused()
+    page.keyboard.type(" and after each turnaround ")  # spaces land on the button
+    page.wait_for_timeout(500)
+    saved = layers(session, scenario)
+    assert [(s.description, s.basis) for s in saved] == [("High level trip",
+                                                          "Trip tested yearly")]
+
+
+def test_space_on_an_add_button_adds_nothing(
+    page: Page, live_server: str, session: Session, scenario: Scenario
+) -> None:
+    open_worksheet(page, live_server, session, scenario)
+    add_ipl = page.locator(f"#scenario-{scenario.id} [data-add='ipl'] button")
+    add_ipl.focus()
+    page.keyboard.press(" ")
+    page.wait_for_timeout(500)
+    assert len(layers(session, scenario)) == 1

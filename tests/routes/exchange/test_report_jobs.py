@@ -36,7 +36,7 @@ def _finished(client: TestClient, study_id: int, job_url: str) -> str:
 def _start(client: TestClient, study_id: int, data: dict[str, str]) -> str:
     response = client.post(f"/studies/{study_id}/report-jobs", data=data, headers=HX)
     assert response.status_code == 200
-    assert "Making the report" in response.text and 'hx-trigger="load delay:700ms"' in response.text
+    assert "Making the report" in response.text and 'hx-trigger="every 1s"' in response.text
     job_id = response.text.split("/report-jobs/")[1].split('"')[0]
     return f"/studies/{study_id}/report-jobs/{job_id}"
 

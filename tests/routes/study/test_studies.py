@@ -12,7 +12,7 @@ def test_the_study_list_shows_each_study_with_its_size(
     client: TestClient, demo_study: Study
 ) -> None:
     rows = table_rows(client.get("/").text, "study-list")
-    assert rows[0] == ["Study", "Facility", "Revision", "Nodes", "Scenarios"]
+    assert rows[0] == ["Study", "Facility", "Revision", "Nodes", "Scenarios", "Copy"]
     assert rows[1][0] == f"{demo_study.title} ✎ invented"
     assert int(rows[1][3]) >= 3 and int(rows[1][4]) >= 15
 

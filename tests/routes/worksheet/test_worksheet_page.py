@@ -1,9 +1,12 @@
 """The node worksheet page, read as the scribe sees it."""
 # ruff: noqa: RUF001 - the multiplication sign is what the page shows
 
+import re
+
 from fastapi.testclient import TestClient
 from sqlmodel import Session
 
+from app.db.models import Study
 from app.likelihood.types import StepKind
 from tests.factories import (
     make_deviation,
@@ -87,14 +90,45 @@ def test_an_unknown_node_or_a_node_of_another_study_is_a_404(
     assert client.get(f"/studies/{scenario.study_id}/nodes/999").status_code == 404
 
 
-def test_a_study_without_nodes_opens_its_overview(client: TestClient, session: Session) -> None:
+def test_a_study_without_nodes_opens_a_worksheet_that_adds_the_first(
+    client: TestClient, session: Session
+) -> None:
     study = make_study(session)
     response = client.get(f"/studies/{study.id}/worksheet", follow_redirects=False)
-    assert response.status_code == 303
-    assert response.headers["location"] == f"/studies/{study.id}"
+    assert response.status_code == 200
+    assert "This study has no nodes yet" in response.text
+    assert 'id="add-node" name="name"' in response.text
+
+
+def test_the_node_picker_opens_the_chosen_node(client: TestClient, session: Session) -> None:
+    scenario = make_scenario_tree(session)
+    study = session.get(Study, scenario.study_id)
+    assert study is not None
+    second = make_node(session, study, name="Second", number="2")
+    picked = client.get(f"/studies/{study.id}/worksheet?node={second.id}",
+                        follow_redirects=False)
+    assert picked.headers["location"] == f"/studies/{study.id}/nodes/{second.id}"
+    other = client.get(f"/studies/{study.id}/worksheet?node=99999", follow_redirects=False)
+    assert other.headers["location"] != picked.headers["location"]  # not this study's: first
 
 
 def test_the_keyboard_help_lists_the_shortcuts(client: TestClient, session: Session) -> None:
     page = client.get("/help/keys").text
     for keys in ("Enter", "Esc", "Alt</kbd>+<kbd>↑", "Alt</kbd>+<kbd>Delete", "Alt</kbd>+<kbd>Z"):
         assert keys in page
+
+
+def test_step_details_proof_test_and_actions_links_are_on_the_keyboard_route(
+    client: TestClient, session: Session
+) -> None:
+    scenario = make_scenario_tree(session)
+    make_step(session, scenario, description="Trip")
+    study = session.get(Study, scenario.study_id)
+    assert study is not None
+    node_id = client.get(f"/studies/{study.id}/worksheet", follow_redirects=False)
+    page = client.get(node_id.headers["location"]).text
+    links = re.findall(r'<a class="step-link[^>]*>', page)
+    assert len(links) >= 3  # details, proof test, actions
+    assert not [a for a in links if 'tabindex="-1"' in a]
+    labels = set(re.findall(r'aria-label="([^"]*) in scenario 1\.1\.1', page))
+    assert {"Details of step 2", "Proof test of step 2"} <= labels

@@ -350,7 +350,7 @@ def test_deleting_a_node_goes_to_the_next_one_and_undo_restores_the_whole_subtre
     node, study_id = node_of(session, scenario), scenario.study_id
     make_step(session, scenario)
     response = client.post(f"/studies/{study_id}/nodes/{node.id}/delete", headers=HX)
-    assert response.headers["HX-Redirect"] == f"/studies/{study_id}"
+    assert response.headers["HX-Redirect"] == f"/studies/{study_id}/worksheet"
     assert rows(session, Node) == [] and rows(session, Step) == []
     client.post(f"/studies/{study_id}/undo", headers=HX)
     [node_back] = rows(session, Node)

@@ -18,6 +18,7 @@ from tests.samples import (
     MARKUP,
     SCRIPTS,
     edit_demo_study,
+    free_the_title,
     make_hostile_study,
     study_count,
 )
@@ -38,6 +39,7 @@ def test_an_edited_demo_study_with_a_revision_survives_export_import_export(
     assert {e["action"] for e in data["change_log"]} >= {"create", "edit", "delete"}
     assert any(e["field"] == "cause" and e["scenario"] == "S1" for e in data["change_log"])
     assert [r["label"] for r in data["revisions"]] == ["Rev 1"]
+    free_the_title(session, demo_study)
 
     copy = import_study_text(session, first)
 
@@ -64,6 +66,7 @@ def test_hostile_text_is_exact_in_the_file_and_survives_a_round_trip(session: Se
     assert [s["cause"] for s in scenarios][:2] == [FORMULA_TEXTS[0], FORMULA_TEXTS[2]]
     assert scenarios[0]["consequence"] == MARKUP
     assert SCRIPTS["emoji"] in first.decode("utf-8")  # as itself, not \\u escapes
+    free_the_title(session, study)
     assert exported(session, import_study_text(session, first)) == first
 
 

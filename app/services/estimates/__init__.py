@@ -1,0 +1,1 @@
+"""Estimate rounds: each person's number before the agreed one, the spread, and the agreement."""
