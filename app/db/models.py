@@ -104,6 +104,9 @@ class Study(StudyBase, TrackedRow, table=True):
     # Which scenario the scribe is on; shown by the room view. Not part of the record.
     focus_scenario_id: int | None = Field(default=None)
     focus_changed_at: datetime | None = Field(default=None)
+    # Raised by one in the transaction of every content change (app/db/tracking.py), so the
+    # room view's poll asks one row whether anything changed. Not part of the record.
+    content_version: int = Field(default=0, sa_column_kwargs={"server_default": "0"})
 
 
 class SeverityCategoryBase(SQLModel):
@@ -253,7 +256,9 @@ class RecommendationScenario(SQLModel, table=True):
     recommendation_id: int = Field(
         foreign_key="recommendation.id", ondelete="CASCADE", primary_key=True
     )
-    scenario_id: int = Field(foreign_key="scenario.id", ondelete="CASCADE", primary_key=True)
+    # Indexed: the worksheet and the room view look up one scenario's actions.
+    scenario_id: int = Field(foreign_key="scenario.id", ondelete="CASCADE", primary_key=True,
+                             index=True)
 
 
 class ParticipantBase(SQLModel):
@@ -288,6 +293,9 @@ class ChangeLogEntry(SQLModel, table=True):
     """One recorded create, edit or delete of study content."""
 
     __tablename__ = "change_log_entry"
+    # Every keystroke looks for the same person's last edit of the same field to fold into;
+    # without this index that search walks the whole log when there is none.
+    __table_args__ = (Index("ix_change_log_entry_target", "entity", "entity_id", "field", "at"),)
     id: int | None = Field(default=None, primary_key=True)
     study_id: int = _study_fk()
     at: datetime = Field(default_factory=utc_now, index=True)

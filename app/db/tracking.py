@@ -13,6 +13,7 @@ from app.db.models import (
     Node,
     Participant,
     Recommendation,
+    RecommendationScenario,
     Safeguard,
     ScaleWord,
     Scenario,
@@ -40,7 +41,8 @@ LOGGED_TYPES: dict[type, str] = {
     SessionDay: "session date",
     ScaleWord: "word on the scale",
 }
-UNLOGGED_FIELDS = {"version", "created_at", "updated_at", "focus_scenario_id", "focus_changed_at"}
+UNLOGGED_FIELDS = {"version", "created_at", "updated_at", "focus_scenario_id", "focus_changed_at",
+                   "content_version"}
 # Keystrokes of one person on one field within this window read as one edit in the log.
 COALESCE_WINDOW = timedelta(seconds=60)
 
@@ -78,6 +80,7 @@ def _study_of(row: Any) -> int | None:
 def _bump_versions(session: OrmSession, _flush: UOWTransaction, _instances: Any) -> None:
     now = utc_now()
     claimed = session.info.get(CLAIMED_KEY, set())
+    _bump_content_versions(session)
     for row in session.dirty:
         if isinstance(row, TrackedRow) and _has_tracked_change(row):
             if (type(row), row.id) in claimed:  # type: ignore[attr-defined]
@@ -87,6 +90,32 @@ def _bump_versions(session: OrmSession, _flush: UOWTransaction, _instances: Any)
             # and commit one after the other end two higher, never one.
             row.version = type(row).__table__.c.version + 1  # type: ignore[attr-defined]
             row.updated_at = now
+
+
+def _bump_content_versions(session: OrmSession) -> None:
+    """Raise the content version of every study this flush changes, in the same transaction.
+
+    The room view's poll compares this one number (with the focus) instead of scanning tables.
+    """
+    study_ids: set[int] = set()
+    for row in [*session.new, *session.deleted, *session.dirty]:
+        if isinstance(row, RecommendationScenario):
+            study_ids.add(_study_of_action(session, row.recommendation_id))
+        elif isinstance(row, TrackedRow) and (row not in session.dirty
+                                              or _has_tracked_change(row)):
+            study_id = _study_of(row)
+            if study_id is not None:
+                study_ids.add(study_id)
+    if study_ids:
+        table = Study.__table__  # type: ignore[attr-defined]
+        session.connection().execute(
+            update(table).where(table.c.id.in_(sorted(study_ids)))
+            .values(content_version=table.c.content_version + 1))
+
+
+def _study_of_action(session: OrmSession, action_id: int) -> int:
+    action = session.get(Recommendation, action_id)
+    return action.study_id if action is not None else 0
 
 
 def _has_tracked_change(row: Any) -> bool:

@@ -55,14 +55,23 @@ def test_the_migration_keeps_every_row_id_and_link_of_an_existing_database(
 
 
 def _write_two_studies(path: Path) -> None:
-    from app.db.session import build_db_engine
-
-    db_engine = build_db_engine(sqlite_url(path))
-    with Session(db_engine) as session:
-        first, second = make_study(session, title="A"), make_study(session, title="B")
-        for study, number in ((first, "1"), (second, "1"), (second, "2")):
-            make_node(session, study, number=number)
-    db_engine.dispose()
+    """Two studies with a category and nodes, written as plain SQL in the old revision's columns
+    (today's models may have columns that revision lacks)."""
+    now = "2026-12-01 00:00:00"
+    tracked = "version, created_at, updated_at"
+    with sqlite3.connect(path) as raw:
+        for title in ("A", "B"):
+            study_id = raw.execute(
+                f"INSERT INTO study ({tracked}, title, facility, scope, revision_label, "
+                "frequency_unit, criteria_basis, invented) VALUES (1, ?, ?, ?, '', '', "
+                "'Draft', 'per year', '', 0)", (now, now, title)).lastrowid
+            raw.execute(f"INSERT INTO severity_category ({tracked}, study_id, name, description, "
+                        "tolerable_frequency, receptor, position) VALUES (1, ?, ?, ?, "
+                        "'Single fatality', '', 1e-5, 'people', 0)", (now, now, study_id))
+        for study_id, number in ((1, "1"), (2, "1"), (2, "2")):
+            raw.execute(f"INSERT INTO node ({tracked}, study_id, number, name, design_intent, "
+                        "drawing_reference, position) VALUES (1, ?, ?, ?, ?, 'Feed drum', '', "
+                        "'', 0)", (now, now, study_id, number))
 
 
 def _contents(path: Path) -> list[tuple[object, ...]]:

@@ -31,8 +31,12 @@ from app.services.exchange.study_file import StudyFileError, export_study, parse
 from app.services.exchange.study_schema import StudyFile
 from app.services.study.step_fields import receptors_text
 
-# Far above any real study (the invented demo is under 100 kB); refuses runaway uploads early.
-MAX_FILE_BYTES = 20 * 1024 * 1024
+# Set from the largest study an import accepts (Settings.max_import_scenarios, 50,000): its
+# compact study file measures about 1.8 kB a scenario (the invented bench studies: 17.6 MB at
+# 10,000), so about 90 MB; twice that leaves room for one frozen revision inside the file.
+# Larger uploads are refused before they are read as JSON.
+STUDY_FILE_BYTES_PER_SCENARIO = 1_800
+MAX_FILE_BYTES = 200 * 1024 * 1024
 TITLE_LIMIT = 200  # Study.title's column limit
 
 

@@ -6,27 +6,14 @@ from typing import Any
 
 from sqlalchemy import Select
 from sqlalchemy import select as select_columns
-from sqlmodel import Session, col, func, select
+from sqlmodel import Session
 
-from app.db.models import (
-    Deviation,
-    Node,
-    Recommendation,
-    RecommendationScenario,
-    Safeguard,
-    Scenario,
-    SeverityCategory,
-    Step,
-    Study,
-    utc_now,
-)
+from app.db.models import Deviation, Node, Scenario, Study, utc_now
 from app.db.queries import fetch_first_scenario_id, fetch_scenario_count
 from app.services.study.tree import NotFoundError, get_study
 from app.services.worksheet.page import ScenarioView, located_scenario
 
-# Any in this module: the stamp query mixes columns of seven table models (the ORM boundary).
-
-WATCHED = (Node, Deviation, Scenario, Step, Safeguard, SeverityCategory, Recommendation)
+# Any in this module: the stamp query's columns carry no types (the ORM boundary).
 
 
 @dataclass(frozen=True)
@@ -42,23 +29,19 @@ class RoomView:
 
 
 def change_stamp_query(study_id: int) -> Select[Any]:
-    """Counts and newest edit times of the study's rows, its focus, and its action links."""
-    columns: list[Any] = []
-    for model in WATCHED:
-        table: Any = model
-        columns.append(select(func.count()).where(table.study_id == study_id).scalar_subquery())
-        columns.append(select(func.max(table.updated_at)).where(table.study_id == study_id)
-                       .scalar_subquery())
-    links = (select(func.count()).select_from(RecommendationScenario)
-             .join(Recommendation,
-                   col(Recommendation.id) == col(RecommendationScenario.recommendation_id))
-             .where(Recommendation.study_id == study_id).scalar_subquery())
-    head: list[Any] = [Study.updated_at, Study.focus_scenario_id, Study.focus_changed_at, links]
-    return select_columns(*head, *columns).where(col(Study.id) == study_id)
+    """The study's content version and the scribe's focus: one row by primary key."""
+    study: Any = Study
+    statement: Select[Any] = select_columns(study.content_version, study.focus_scenario_id,
+                                            study.focus_changed_at).where(study.id == study_id)
+    return statement
 
 
 def change_stamp(*, session: Session, study_id: int) -> str:
-    """A short fingerprint of the study's content and focus; it changes with any edit."""
+    """A short fingerprint of the study's content and focus; it changes with any edit.
+
+    Every flush that changes the study's content raises `content_version` in the same
+    transaction (app/db/tracking.py), so one row answers whether anything changed.
+    """
     row = session.exec(change_stamp_query(study_id)).first()  # type: ignore[call-overload]
     if row is None:
         raise NotFoundError(f"There is no study {study_id}.")

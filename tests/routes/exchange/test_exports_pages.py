@@ -52,7 +52,7 @@ def test_the_export_page_offers_every_format_with_its_command(
 @pytest.mark.parametrize(("fmt", "media_type", "magic"), [
     ("xlsx", "application/vnd.openxmlformats-officedocument.spreadsheetml.sheet", b"PK"),
     ("csv", "text/csv; charset=utf-8", b"\xef\xbb\xbfScenario,Node,"),
-    ("json", "application/json", b'{\n  "format": "tallyroom-study"'),
+    ("json", "application/json", b'{"format":"tallyroom-study"'),
     ("pdf", "application/pdf", b"%PDF-"),
 ])  # fmt: skip
 def test_each_download_is_an_attachment_of_its_type(

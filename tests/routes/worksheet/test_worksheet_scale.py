@@ -7,6 +7,7 @@ equal those of the whole-study path (load_study_tree + totals_of) on the same da
 """
 
 import json
+import re
 from collections import Counter
 from collections.abc import Callable, Iterator
 from contextlib import contextmanager
@@ -102,10 +103,14 @@ def trip_of_first_node(session: Session, study: Study) -> Step:
 
 @dataclass
 class Cost:
-    """What one request did: SQL statements sent and the content rows it loaded as objects."""
+    """What one request did: SQL statements sent, the content rows it loaded as objects, and
+    (on SQLite) the rows its SELECTs returned and the full table scans among them."""
 
     statements: int = 0
     rows: set[tuple[str, int]] = field(default_factory=set)
+    rows_returned: int = 0
+    full_scans: list[str] = field(default_factory=list)
+    vm_steps: int = 0
 
     @property
     def loaded(self) -> Counter[str]:
@@ -113,13 +118,47 @@ class Cost:
         return Counter(name for name, _ in self.rows)
 
 
+FULL_SCAN = re.compile(r"^SCAN (\w+)(?! USING)")
+
+
+def read_by_statement(cursor: Any, statement: str, parameters: Any, cost: Cost) -> None:
+    """Add the rows a SELECT returns and any full table scan in its plan (SQLite only).
+
+    Both are asked on the statement's own connection, so they see its transaction.
+    """
+    if not statement.lstrip().upper().startswith("SELECT") or not hasattr(
+            cursor.connection, "create_function"):
+        return
+    connection = cursor.connection
+    # Every step of SQLite's virtual machine running the statement, so rows walked through an
+    # index count too (asked here, on a copy of the statement, before the driver runs it).
+    connection.set_progress_handler(lambda: _count_step(cost), 1)
+    try:
+        connection.execute(statement, parameters).fetchall()
+    finally:
+        connection.set_progress_handler(None, 1)
+    cost.rows_returned += connection.execute(
+        f"SELECT count(*) FROM ({statement})", parameters).fetchone()[0]
+    for plan in connection.execute(f"EXPLAIN QUERY PLAN {statement}", parameters):
+        scanned = FULL_SCAN.match(plan[-1])
+        if scanned:
+            cost.full_scans.append(f"{scanned.group(1)} in {statement[:300]}")
+
+
+def _count_step(cost: Cost) -> int:
+    cost.vm_steps += 1
+    return 0  # carry on
+
+
 @contextmanager
 def measured(db_engine: Engine) -> Iterator[Cost]:
-    """Count statements and loaded content objects while the block runs."""
+    """Count statements, loaded content objects and (SQLite) rows returned while it runs."""
     cost = Cost()
 
-    def count_statement(*_args: Any) -> None:
+    def count_statement(_conn: Any, cursor: Any, statement: str, parameters: Any,
+                        *_args: Any) -> None:
         cost.statements += 1
+        read_by_statement(cursor, statement, parameters, cost)
 
     def count_load(target: Any, _context: Any) -> None:
         cost.rows.add((type(target).__name__, target.id))
@@ -182,6 +221,30 @@ def test_a_request_costs_the_same_on_1_node_as_on_40_nodes(
     assert large.loaded["Step"] == large_steps and small.loaded["Step"] == small_steps
     assert large.loaded["Scenario"] == small.loaded["Scenario"] == 3
     assert large.loaded["Node"] == small.loaded["Node"] == 1
+
+
+def test_the_room_poll_reads_one_row_at_any_size(client: TestClient, session: Session,
+                                                 db_engine: Engine) -> None:
+    if db_engine.dialect.name != "sqlite":
+        pytest.skip("rows returned, plans and machine steps are asked of SQLite")
+    costs = []
+    for node_count in (1, LARGE):
+        study = imported_study(session, node_count)
+        stamp_page = client.get(f"/studies/{study.id}/room").text
+        stamp = re.search(r"stamp=([0-9a-f-]+)", stamp_page)
+        assert stamp is not None
+        with measured(db_engine) as cost:
+            answer = client.get(f"/studies/{study.id}/room/live?stamp={stamp.group(1)}",
+                                headers=HX)
+        assert answer.status_code == 204
+        costs.append(cost)
+    small, large = costs
+    # One row each: the access state (who may ask), the study's stamp columns, and the two
+    # aggregates of the study's estimate rounds and answers (a round shows on the room view).
+    assert large.statements == large.rows_returned == 4 and large.full_scans == []
+    # The database does the same work whatever the study's size: counting a study's rows
+    # through an index would walk 40 times more of them.
+    assert large.vm_steps == small.vm_steps
 
 
 class ShownTotals(HTMLParser):

@@ -207,3 +207,18 @@ def test_the_default_limits_are_the_ones_the_readme_states() -> None:
     settings = get_settings()
     assert f"{settings.max_import_scenarios:,} scenarios" in readme
     assert f"{settings.max_import_scenarios_per_node:,} scenarios per node" in readme
+
+
+def test_the_file_size_limit_holds_the_largest_study_twice_and_the_readme_states_it() -> None:
+    # Twice the largest study's compact file (bytes per scenario measured on the invented
+    # bench studies): room for one frozen revision snapshot inside the file.
+    from app.services.exchange.study_import import (
+        MAX_FILE_BYTES,
+        STUDY_FILE_BYTES_PER_SCENARIO,
+    )
+    from app.settings import PROJECT_ROOT, Settings
+
+    largest = Settings.model_fields["max_import_scenarios"].default
+    assert 2 * largest * STUDY_FILE_BYTES_PER_SCENARIO <= MAX_FILE_BYTES
+    readme = (PROJECT_ROOT / "README.md").read_text(encoding="utf-8")
+    assert f"at most {MAX_FILE_BYTES // 2**20} MB" in readme
