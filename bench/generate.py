@@ -190,7 +190,7 @@ def build_study(total: int, seed: int = DEFAULT_SEED) -> Row:
              "attendees": [p["ref"] for p in participants]}
             for month in range(1, 13) for day in (5, 12, 19)][: max(1, total // 500)]
     return {
-        "format": "tallyroom-study", "schema_version": 1, "invented": True,
+        "format": "tallyroom-study", "schema_version": 2, "invented": True,
         "study": {"title": f"Benchmark study of {total:,} scenarios (invented, seed {seed})",
                   "facility": "Invented benchmark works (no real site)",
                   "scope": "Generated for `make bench`; every name and number is invented."},

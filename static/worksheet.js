@@ -223,4 +223,28 @@
     else if (event.key === "Enter" && !event.altKey && !event.shiftKey) onEnter(event, target);
     else if (event.key === "Escape") onEscape(event, target);
   });
+
+  // A typed value is saved before any request that redraws the worksheet (add, move, delete,
+  // undo): leaving the field sends it at once (hx-trigger "change"), and a redraw asked for
+  // while a value is still on its way waits for it (at most two seconds), so the redraw never
+  // drops the value nor shows the old one.
+  var valuesInFlight = 0;
+  function isValueField(elt) { return elt && elt.matches && elt.matches("[data-value-field]"); }
+  document.addEventListener("htmx:beforeRequest", function (event) {
+    if (isValueField(event.detail.elt)) valuesInFlight += 1;
+  });
+  document.addEventListener("htmx:afterRequest", function (event) {
+    if (isValueField(event.detail.elt)) valuesInFlight = Math.max(0, valuesInFlight - 1);
+  });
+  document.addEventListener("htmx:confirm", function (event) {
+    var elt = event.detail.elt;
+    if (valuesInFlight === 0 || isValueField(elt)) return;
+    if (!elt.closest || !elt.closest("#worksheet") || elt.getAttribute("hx-target") !== "#worksheet") return;
+    event.preventDefault();
+    var started = Date.now();
+    (function issueWhenSettled() {
+      if (valuesInFlight === 0 || Date.now() - started > 2000) event.detail.issueRequest(true);
+      else setTimeout(issueWhenSettled, 25);
+    })();
+  });
 })();
