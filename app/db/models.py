@@ -4,7 +4,8 @@ from datetime import UTC, date, datetime
 from enum import StrEnum
 from typing import Any
 
-from sqlalchemy import Column, Dialect, Index, MetaData, Text, false, text
+from sqlalchemy import Column, Dialect, Index, MetaData, Text, false, select, text
+from sqlalchemy.orm import column_property
 from sqlalchemy.types import TypeDecorator
 from sqlmodel import AutoString, Field, SQLModel
 
@@ -323,6 +324,23 @@ class Revision(SQLModel, table=True):
     signed_off_by: str = Field(default="", max_length=120)
     signed_off_at: datetime | None = None
     snapshot: str = Field(sa_column=Column(Text, nullable=False))
+
+
+# The newest frozen revision's label, read with the study in one correlated subquery, so every
+# study page can say "working copy since Rev A" (the study's revision label and its frozen
+# revisions are one concept) without a query of its own. Not a column: nothing to migrate.
+Study.latest_revision_label = column_property(
+    select(Revision.label)  # type: ignore[call-overload]
+    .where(Revision.study_id == Study.id)
+    .order_by(Revision.id.desc())  # type: ignore[union-attr]
+    .limit(1).correlate_except(Revision).scalar_subquery()
+)
+
+
+def latest_revision_label(study: Study) -> str | None:
+    """The label of the study's newest frozen revision, or None while none is frozen."""
+    label: str | None = getattr(study, "latest_revision_label", None)
+    return label
 
 
 class DeletedItem(SQLModel, table=True):

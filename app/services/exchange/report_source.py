@@ -9,9 +9,9 @@ from collections.abc import Callable
 from datetime import datetime
 
 from jinja2 import Environment
-from sqlmodel import Session, SQLModel, col, select
+from sqlmodel import Session, SQLModel
 
-from app.db.models import Revision
+from app.db.models import Revision, latest_revision_label
 from app.db.session import build_db_engine
 from app.services.exchange.report import Signature, build_report, report_html
 from app.services.exchange.study_file import export_study
@@ -36,8 +36,7 @@ def get_frozen_revision(session: Session, study_id: int, revision_id: int) -> Re
 def working_copy_label(session: Session, study_id: int) -> str:
     """'Draft A', or 'working copy since Rev A' once a revision has been frozen."""
     study = get_study(session, study_id)
-    latest = session.exec(select(Revision.label).where(Revision.study_id == study_id)
-                          .order_by(col(Revision.id).desc()).limit(1)).first()
+    latest = latest_revision_label(study)
     return f"working copy since {latest}" if latest else study.revision_label
 
 
