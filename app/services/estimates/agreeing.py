@@ -15,7 +15,7 @@ from app.likelihood.numbers import format_number
 from app.likelihood.types import LikelihoodInputError
 from app.services.estimates.reading import parse_estimate
 from app.services.estimates.rounds import estimates_of, get_round, get_step, stats_of, unit_for
-from app.services.study.errors import FieldInputError
+from app.services.study.errors import FieldInputError, nul_problem
 
 
 @dataclass(frozen=True)
@@ -29,6 +29,8 @@ class AgreementForm:
 
 def parse_dissents(lines: str) -> tuple[Dissent, ...]:
     """One dissent per line, 'Name: reason' (the reason may be left out)."""
+    if problem := nul_problem(lines):
+        raise FieldInputError("dissents", f"Dissents {problem}")
     found = []
     for line in lines.splitlines():
         person, _, reason = line.partition(":")

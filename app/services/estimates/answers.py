@@ -12,7 +12,7 @@ from app.db.models import EstimateRound, RoundEstimate, RoundState, utc_now
 from app.likelihood.numbers import ParsedNumber
 from app.services.estimates.reading import parse_estimate
 from app.services.estimates.rounds import get_round, unit_for
-from app.services.study.errors import FieldInputError
+from app.services.study.errors import FieldInputError, nul_problem
 
 SELF = "self"
 SCRIBE = "scribe"
@@ -35,6 +35,8 @@ def _open(session: Session, study_id: int, round_id: int) -> EstimateRound:
 
 
 def _person(name: str) -> str:
+    if problem := nul_problem(name):
+        raise FieldInputError("person", f"Name {problem}")
     person = " ".join(name.split())[:120]
     if not person:
         raise FieldInputError("person", "Name: an estimate needs the name of the person "

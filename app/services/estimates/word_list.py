@@ -16,7 +16,7 @@ from app.likelihood.types import LikelihoodInputError
 from app.likelihood.word_scale import adopt_word_scale, normalise_word
 from app.services.estimates.reading import parse_estimate
 from app.services.estimates.rounds import estimates_of, stats_of
-from app.services.study.errors import FieldInputError
+from app.services.study.errors import FieldInputError, nul_problem
 from app.services.study.tree import get_study
 
 WORD_LIMIT = 60
@@ -44,6 +44,8 @@ def _line(text: str, unit: EstimateUnit, field: str) -> WordLine:
 
 def read_word_lines(text: str, unit: EstimateUnit, field: str) -> tuple[WordLine, ...]:
     """The lines as words and numbers, checked as one scale; FieldInputError names the rule."""
+    if problem := nul_problem(text):
+        raise FieldInputError(field, f"The word list {problem}")
     try:
         lines = tuple(_line(raw, unit, field) for raw in text.splitlines() if raw.strip())
         # Words not yet adopted obey the same word rules (not empty, not repeated, not a
