@@ -1,0 +1,83 @@
+// Tallyroom, every page: the page's one live region (#page-status, role=status, polite).
+// Screen readers hear one short status, never the text still being typed:
+// - worksheet: once typing pauses (no input for PAUSE_MS and no value on its way), the scenario
+//   the person is in: mitigated frequency, gap and required SIL, or why the value was not read;
+// - room view: the shown scenario's figures, only when they change (the poll replaces the
+//   figures, never this region).
+(function () {
+  "use strict";
+
+  const PAUSE_MS = 1200;
+  let lastSaid = "";
+  let pauseTimer = null;
+  let lastField = null;
+
+  function say(text) {
+    const region = document.getElementById("page-status");
+    if (!region || !text || text === lastSaid) return;
+    lastSaid = text;
+    region.textContent = text;
+  }
+
+  function textOf(root, selector) {
+    const found = root && root.querySelector(selector);
+    return found ? found.textContent.replace(/\s+/g, " ").trim() : "";
+  }
+
+  function scenarioStatus(field) {
+    const scenario = field.closest("[data-scenario]");
+    if (!scenario) return "";
+    const name = textOf(scenario, "h4") || "Scenario";
+    if (field.getAttribute("aria-invalid") === "true") {
+      const why = textOf(document, "#" + CSS.escape(field.id) + "-said");
+      return (field.getAttribute("aria-label") || name) + ": not read. " + why;
+    }
+    const results = document.getElementById("scenario-" + scenario.dataset.scenario + "-results");
+    const error = textOf(results, "[data-figure='error']");
+    if (error) return name + ": " + error;
+    const mitigated = textOf(results, "[data-figure='mitigated']");
+    if (!mitigated) return "";
+    return name + ": mitigated " + mitigated + ", gap " + textOf(results, "[data-figure='gap']") +
+      ", " + textOf(results, ".verdict .badge") + ", additional SIF " +
+      textOf(results, "[data-figure='sil']") + ".";
+  }
+
+  function busy(field) {
+    return field.classList.contains("htmx-request") ||
+      document.querySelector("#worksheet .htmx-request") !== null;
+  }
+
+  function afterPause() {
+    clearTimeout(pauseTimer);
+    pauseTimer = setTimeout(function () {
+      if (!lastField || !lastField.isConnected) return;
+      if (busy(lastField)) { afterPause(); return; }
+      say(scenarioStatus(lastField));
+    }, PAUSE_MS);
+  }
+
+  function onEdit(event) {
+    const field = event.target;
+    if (!field.matches || !field.matches("#worksheet [data-field]")) return;
+    lastField = field;
+    afterPause();
+  }
+  document.addEventListener("input", onEdit);
+  document.addEventListener("change", onEdit);
+
+  function roomStatus() {
+    const live = document.getElementById("room-live");
+    if (!live) return "";
+    const mitigated = textOf(live, "#room-mitigated");
+    if (!mitigated) return textOf(live, ".room-title");
+    return textOf(live, ".room-where") + ": mitigated " + mitigated + ", gap " +
+      textOf(live, "#room-gap") + ", additional SIF " + textOf(live, "#room-sil") + ".";
+  }
+
+  document.addEventListener("htmx:afterSettle", function () {
+    if (document.getElementById("room-live")) say(roomStatus());
+  });
+  document.addEventListener("DOMContentLoaded", function () {
+    lastSaid = roomStatus();  // what is on screen at load is read with the page, not announced
+  });
+})();
