@@ -98,7 +98,8 @@ def test_worksheet_room_risk_and_actions_reflow_at_320_px(
     for name in ["worksheet", "room view", "risk picture", "actions", "study list", "overview",
                  "criteria", "exports"]:
         page.goto(f"{live_server}{pages[name]}")
-        page.screenshot(path=str(artifacts / f"reflow-320-{name.replace(' ', '-')}.png"))
+        shot = artifacts / f"reflow-320-{name.replace(' ', '-')}.png"
+        page.screenshot(path=str(shot), full_page=True)
         if sideways := horizontal_overflow(page):
             overflow[name] = sideways
     context.close()
