@@ -2,8 +2,8 @@
 // Screen readers hear one short status, never the text still being typed:
 // - worksheet: once typing pauses (no input for PAUSE_MS and no value on its way), the scenario
 //   the person is in: mitigated frequency, gap and required SIL, or why the value was not read;
-// - room view: the shown scenario's figures, only when they change (the poll replaces the
-//   figures, never this region).
+// - room view: the shown scenario's figures once they have changed and stood still for
+//   PAUSE_MS (the poll replaces the figures, never this region).
 (function () {
   "use strict";
 
@@ -74,8 +74,12 @@
       textOf(live, "#room-gap") + ", additional SIF " + textOf(live, "#room-sil") + ".";
   }
 
+  // The room's figures follow the scribe's typing: speak once they have stood still a moment.
+  let roomTimer = null;
   document.addEventListener("htmx:afterSettle", function () {
-    if (document.getElementById("room-live")) say(roomStatus());
+    if (!document.getElementById("room-live")) return;
+    clearTimeout(roomTimer);
+    roomTimer = setTimeout(function () { say(roomStatus()); }, PAUSE_MS);
   });
   document.addEventListener("DOMContentLoaded", function () {
     lastSaid = roomStatus();  // what is on screen at load is read with the page, not announced

@@ -11,10 +11,10 @@ from collections import Counter
 from typing import Any
 
 import pytest
-from playwright.sync_api import Page, expect
+from playwright.sync_api import Browser, Page, expect
 from sqlmodel import Session, select
 
-from app.db.models import Node, Step, Study
+from app.db.models import Deviation, Node, Step, Study
 from app.likelihood.types import StepKind
 from tests.browser.accessibility import axe_violations
 from tests.factories import make_safeguard, make_scenario_tree, make_step
@@ -204,3 +204,34 @@ def test_an_unreadable_value_is_said_once_typing_pauses_not_as_an_alert(
         "Scenario 1.1.1, step 5, PFD: not read.", timeout=5000)
     assert page.evaluate("() => window.__alerts") == []
     assert axe_violations(page) == []
+
+
+def test_the_room_views_poll_keeps_its_one_live_region_and_says_a_change_once(
+    page: Page, browser: Browser, live_server: str, session: Session
+) -> None:
+    scenario = make_scenario_tree(session)
+    layer = make_step(session, scenario, value=0.1, value_text="1 in 10", description="Trip")
+    room_context = browser.new_context()
+    room = room_context.new_page()
+    room.goto(f"{live_server}/studies/{scenario.study_id}/room")
+    expect(room.locator("#room-mitigated")).to_have_text("1.0e-2 /yr")
+    assert room.evaluate(LIVE_REGIONS) == 1
+    room.evaluate("() => { document.getElementById('page-status').dataset.mark = 'kept'; }")
+    room.evaluate(_WATCH)
+    room.wait_for_timeout(1500)  # a few polls with nothing new: nothing is said
+    assert room.evaluate("() => window.__said") == []
+    deviation = session.get(Deviation, scenario.deviation_id)
+    assert deviation is not None
+    page.goto(f"{live_server}/studies/{scenario.study_id}/nodes/{deviation.node_id}")
+    value = page.locator(f"#step-{layer.id}-value_text")
+    value.fill("")
+    value.press_sequentially("1 in 1000", delay=20)
+    # 0.1/yr x 0.001 = 1.0e-4 per year
+    expect(room.locator("#room-mitigated")).to_have_text("1.0e-4 /yr")
+    expect(room.locator("#page-status")).to_contain_text("mitigated 1.0e-4 /yr")
+    room.wait_for_timeout(1500)
+    assert room.locator("#page-status").get_attribute("data-mark") == "kept"
+    assert room.evaluate(LIVE_REGIONS) == 1
+    assert room.evaluate("() => window.__alerts") == []
+    assert len(room.evaluate("() => window.__said")) == 1  # said once, not per keystroke
+    room_context.close()
