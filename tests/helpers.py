@@ -14,6 +14,7 @@ from sqlmodel import Session
 from app.db.tracking import AUTHOR_KEY
 
 TEST_AUTHOR = "Test Scribe"
+OTHER_AUTHOR = "Ben Other (invented)"  # the second person in tests of two editors
 
 HX = {"HX-Request": "true"}
 VOID = {"input", "br", "img", "meta", "link", "hr", "area", "base", "col", "source", "wbr"}

@@ -242,3 +242,27 @@ def test_the_picture_drawn_with_flagged_credits_withdrawn_changes_the_headline(
     row = table_rows(withdrawn, "ranked-table")[1]
     assert row[5:] == ["1.0e-4", "1.0e-5", "+1.0", "Below SIL 1 (RRF ≤ 10)", "▲ short"]
     assert 'data-drawn="withdrawn"' in withdrawn and 'data-drawn="as-credited"' in credited
+
+
+def test_matrix_links_keep_the_drawing_with_flagged_credits_withdrawn(
+    client: TestClient, session: Session
+) -> None:
+    """Same case as above: withdrawn, the scenario sits at 1e-4 /yr (decade -4), so its cell
+    link must ask for the withdrawn drawing again, and the listed row shows 1.0e-4."""
+    study, _, _ = _study(session)
+    deviation = make_deviation(session, make_node(session, study))
+    scenario = make_scenario(session, deviation, cause="Feed valve opens",
+                             initiating_frequency=1e-4)
+    make_step(session, scenario, value=0.01, description="DCS trip", ipl_type="bpcs",
+              system_tag="DCS-2")
+    url = f"/studies/{study.id}/risk"
+    withdrawn = client.get(f"{url}?credits=withdrawn").text
+
+    links = re.findall(r'<a href="(\?cell=[^"]+)"', withdrawn)
+    assert len(links) == 1 and links[0].endswith("&amp;credits=withdrawn#cell-scenarios")
+    listed = client.get(url + unescape(links[0]).split("#")[0]).text
+    assert 'data-drawn="withdrawn"' in listed
+    assert table_rows(listed, "cell-table")[1][2] == "1.0e-4"
+    assert '<a href="?credits=withdrawn#risk-matrix">Clear the selection</a>' in listed
+    credited = client.get(url).text
+    assert all("credits=" not in link for link in re.findall(r'<a href="(\?cell=[^"]+)"', credited))
