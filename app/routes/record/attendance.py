@@ -159,21 +159,22 @@ def delete_participant(request: Request, study_id: int, participant_id: int,
     return _done(request, session, study_id)
 
 
-def _marks_list(text: str | None) -> list[str] | None:
+def _marks_list(text: object) -> list[str] | None:
     """The marks the matrix was loaded with ("3:7,3:8"); None when the form sent none."""
-    if text is None:
+    if not isinstance(text, str):
         return None
     return [mark for mark in text.split(",") if mark.strip()]
 
 
 @router.post("/attendance/marks", name="save_attendance")
-def save_attendance(request: Request, study_id: int, session: SessionDep,
-                    present: Marks = [],  # noqa: B006 (FastAPI copies defaults)
-                    loaded_marks: Annotated[str | None, Form()] = None) -> Response:
+async def save_attendance(request: Request, study_id: int, session: SessionDep,
+                          present: Marks = []) -> Response:  # noqa: B006 (FastAPI copies defaults)
     """Save the boxes changed since the matrix was loaded (the form without JavaScript)."""
+    # Read raw: an empty list of loaded marks ("") must stay apart from none sent.
+    loaded = (await request.form()).get("loaded_marks")
     try:
         attendance_service.record_attendance(session=session, study_id=study_id, typed=present,
-                                             loaded=_marks_list(loaded_marks))
+                                             loaded=_marks_list(loaded))
     except AttendanceInputError as error:
         return _refused(request, session, study_id, "matrix", None, {}, error)
     return _done(request, session, study_id)

@@ -11,7 +11,7 @@ import pytest
 from fastapi.testclient import TestClient
 from sqlmodel import Session, col, select
 
-from app.db.models import ChangeLogEntry, Participant, SessionDay
+from app.db.models import Attendance, ChangeLogEntry, Participant, SessionDay
 from tests.factories import make_study
 from tests.helpers import HX, OTHER_AUTHOR, TEST_AUTHOR, text_of
 
@@ -159,3 +159,29 @@ def test_a_post_without_a_version_saves_as_before(
     reply = save_person(client, person, {"name": "Dana Field (invented)", "role": "Engineer"})
     assert reply.startswith("200")
     assert stored(session, Participant, person.id).role == "Engineer"  # type: ignore[union-attr]
+
+
+def test_the_matrix_form_writes_only_the_boxes_changed_since_it_was_loaded(
+    client: TestClient, ben: TestClient, session: Session, day: SessionDay,
+) -> None:
+    """Ada's page (loaded with no marks) ticks Dana; meanwhile Ben ticked Eli. Ada's
+    no-JavaScript save must not untick Eli, and unticking a box she loaded ticked still works."""
+    dana, eli = (Participant(study_id=day.study_id, name=name) for name in ("Dana", "Eli"))
+    session.add_all([dana, eli])
+    session.commit()
+    page = client.get(f"/studies/{day.study_id}/attendance").text
+    loaded = re.search(r'name="loaded_marks" value="([^"]*)"', page)
+    assert loaded is not None and loaded[1] == ""
+    marks = f"/studies/{day.study_id}/attendance/marks"
+    assert ben.post(f"{marks}/{day.id}/{eli.id}",
+                    data={"present": f"{day.id}:{eli.id}"}).status_code == 200
+
+    saved = client.post(marks, data={"present": [f"{day.id}:{dana.id}"], "loaded_marks": ""})
+
+    assert saved.status_code == 200
+    session.expire_all()
+    present = {m.participant_id for m in session.exec(select(Attendance)).all()}
+    assert present == {dana.id, eli.id}
+    client.post(marks, data={"present": [], "loaded_marks": f"{day.id}:{dana.id}"})
+    session.expire_all()
+    assert {m.participant_id for m in session.exec(select(Attendance)).all()} == {eli.id}
