@@ -8,12 +8,8 @@ from starlette.responses import RedirectResponse, Response
 from app.routes.deps import SessionDep, read_page_edit, read_seen
 from app.routes.rendering import is_htmx, render
 from app.services.record import attendance as attendance_service
-from app.services.record.attendance import (
-    Answer,
-    AttendanceConflictError,
-    AttendanceForm,
-    AttendanceInputError,
-)
+from app.services.record.attendance import Answer, AttendanceForm, AttendanceInputError
+from app.services.study.conflicts import ConflictError
 
 router = APIRouter(prefix="/studies/{study_id}")
 TEMPLATE = "record/attendance/page.html"
@@ -50,7 +46,7 @@ async def _answer(request: Request) -> Answer:
 
 
 def _conflict(request: Request, session: SessionDep, study_id: int, kind: str, item_id: int,
-              values: dict[str, str], answer: Answer, error: AttendanceConflictError) -> Response:
+              values: dict[str, str], answer: Answer, error: ConflictError) -> Response:
     """409: the row's form again with the typed text, the other person's values and the choice."""
     originals = {name: str(value) for name, value in answer.edit.originals.items()}
     form = AttendanceForm(kind, item_id, values, conflicts=error.conflicts,
@@ -93,7 +89,7 @@ async def update_session_day(request: Request, study_id: int, day_id: int, sessi
                                       day=day, note=note, answer=answer)
     except AttendanceInputError as error:
         return _refused(request, session, study_id, "day", day_id, values, error)
-    except AttendanceConflictError as error:
+    except ConflictError as error:
         return _conflict(request, session, study_id, "day", day_id, values, answer, error)
     return _done(request, session, study_id)
 
@@ -143,7 +139,7 @@ async def update_participant(request: Request, study_id: int, participant_id: in
                                             answer=answer)
     except AttendanceInputError as error:
         return _refused(request, session, study_id, "participant", participant_id, values, error)
-    except AttendanceConflictError as error:
+    except ConflictError as error:
         return _conflict(request, session, study_id, "participant", participant_id, values,
                          answer, error)
     return _done(request, session, study_id)

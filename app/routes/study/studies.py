@@ -12,6 +12,7 @@ from app.routes.urls import path_for
 from app.services.exchange.study_import import duplicate_study as copy_whole_study
 from app.services.study import lifecycle
 from app.services.study import listing as study_service
+from app.services.study.conflicts import ConflictError
 
 router = APIRouter()
 FORM_PAGE = "study/form.html"
@@ -83,7 +84,7 @@ async def update_study(request: Request, study_id: int, session: SessionDep) -> 
     except lifecycle.StudyFormError as err:
         return _study_form(request, session, form, study_id=study_id, errors=err.errors,
                            loaded=loaded)
-    except lifecycle.StudyConflictError as err:
+    except ConflictError as err:
         return _study_form(request, session, form, study_id=study_id,
                            loaded=replace(loaded, conflicts=err.conflicts))
     return RedirectResponse(path_for(request, "read_study", study_id=study_id), status_code=303)

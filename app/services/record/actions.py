@@ -22,7 +22,7 @@ from app.services.record.action_inputs import (
     read_direction,
 )
 from app.services.record.change_log import record_link_change
-from app.services.study.conflicts import FieldConflict, PageEdit, save_form
+from app.services.study.conflicts import ConflictError, PageEdit, save_form
 from app.services.study.tree import NotFoundError, get_study
 
 # Any in this module: form values arrive raw (the form boundary).
@@ -82,12 +82,8 @@ def _next_position(session: Session, study_id: int) -> int:
     return max(positions, default=-1) + 1
 
 
-class ActionConflictError(Exception):
+class ActionConflictError(ConflictError):
     """Someone saved the same fields of this action since the page loaded it (409)."""
-
-    def __init__(self, conflicts: tuple[FieldConflict, ...]) -> None:
-        super().__init__("changed since the page was loaded")
-        self.conflicts = conflicts
 
 
 def save_action(

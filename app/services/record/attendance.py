@@ -14,7 +14,13 @@ from app.db.compare_and_set import SaveOutcome
 from app.db.ids import read_row_id
 from app.db.models import Attendance, Participant, SessionDay, Study, text_limit
 from app.db.queries import fetch_rows_of_study
-from app.services.study.conflicts import FieldConflict, GuardedResult, PageEdit, save_form
+from app.services.study.conflicts import (
+    ConflictError,
+    FieldConflict,
+    GuardedResult,
+    PageEdit,
+    save_form,
+)
 from app.services.study.errors import FieldInputError, length_problem
 from app.services.study.tree import NotFoundError, get_study
 
@@ -29,14 +35,6 @@ NOTE_LIMIT = text_limit(SessionDay, "note")
 
 class AttendanceInputError(FieldInputError):
     """Bad input for a date or a participant: `field` is the form field, `message` the rule."""
-
-
-class AttendanceConflictError(Exception):
-    """Someone saved the same fields of this date or participant since the page loaded it."""
-
-    def __init__(self, conflicts: tuple[FieldConflict, ...]) -> None:
-        super().__init__("changed since the page was loaded")
-        self.conflicts = conflicts
 
 
 @dataclass(frozen=True)
@@ -155,7 +153,7 @@ def _finish(session: Session, row: Saved, result: GuardedResult) -> Saved:
     """Commit a guarded save, or roll back and say what stopped it."""
     if result.outcome is SaveOutcome.CHANGED_SINCE:
         session.rollback()
-        raise AttendanceConflictError(result.conflicts)
+        raise ConflictError(result.conflicts)
     if result.outcome is SaveOutcome.DELETED:
         session.rollback()
         raise NotFoundError("This row was deleted since the page was loaded.")
@@ -190,7 +188,7 @@ def save_participant(
     answer: Answer = Answer(),
 ) -> Participant:
     """Change a participant's name, role, discipline or company (only what the person changed;
-    a field someone else saved since the page loaded raises AttendanceConflictError)."""
+    a field someone else saved since the page loaded raises ConflictError)."""
     row = _row(session, Participant, participant_id, study_id, "participant")
     result = save_form(session, row, read_participant(values), answer.edit,
                        read=_participant_texts, resolution=answer.resolution, seen=answer.seen)

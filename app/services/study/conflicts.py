@@ -85,6 +85,14 @@ class FieldConflict:
                        mine_label=names.get(self.mine, ""))
 
 
+class ConflictError(Exception):
+    """Someone saved the same fields of a row since the page loaded it (409): nothing saved."""
+
+    def __init__(self, conflicts: tuple[FieldConflict, ...]) -> None:
+        super().__init__("changed since the page was loaded")
+        self.conflicts = conflicts
+
+
 @dataclass(frozen=True)
 class GoneRow:
     """A row that no longer exists: who deleted it, when, and whether undo can bring it back."""

@@ -23,7 +23,7 @@ from app.db.models import (
 )
 from app.db.queries import fetch_rows_of_study
 from app.services.study import listing
-from app.services.study.conflicts import FieldConflict, PageEdit, save_form
+from app.services.study.conflicts import ConflictError, FieldConflict, PageEdit, save_form
 from app.services.study.errors import length_problem
 from app.services.study.tree import NotFoundError, get_study
 
@@ -38,14 +38,6 @@ class StudyFormError(ValueError):
     def __init__(self, errors: dict[str, str]) -> None:
         super().__init__("; ".join(f"{k}: {v}" for k, v in errors.items()))
         self.errors = errors
-
-
-class StudyConflictError(Exception):
-    """Someone saved the same heading fields since the edit form was loaded (409)."""
-
-    def __init__(self, conflicts: tuple[FieldConflict, ...]) -> None:
-        super().__init__("changed since the page was loaded")
-        self.conflicts = conflicts
 
 
 @dataclass(frozen=True)
@@ -172,7 +164,7 @@ def update_study(*, session: Session, study_id: int, form: StudyForm,
                  edit: PageEdit | None = None, resolution: str = "",
                  seen: Mapping[str, str] | None = None) -> Study:
     """Save the heading fields the person changed; a refused form changes nothing, and a field
-    someone else saved since the form was loaded raises StudyConflictError (nothing saved).
+    someone else saved since the form was loaded raises ConflictError (nothing saved).
     `resolution` ("keep"/"take") answers such a conflict with the values it showed (`seen`)."""
     study = get_study(session, study_id)
     errors = validate_study_form(form)
@@ -184,7 +176,7 @@ def update_study(*, session: Session, study_id: int, form: StudyForm,
         raise NotFoundError(f"Study {study_id} was deleted since.")
     if result.outcome is SaveOutcome.CHANGED_SINCE:
         session.rollback()
-        raise StudyConflictError(result.conflicts)
+        raise ConflictError(result.conflicts)
     session.commit()
     session.refresh(study)
     return study

@@ -10,19 +10,13 @@ from sqlmodel import Session, select
 
 from app.db.models import ChangeLogEntry, Step
 from tests.factories import make_scenario_tree, make_step
+from tests.helpers import reloaded
 
 
 @pytest.fixture
 def step(session: Session) -> Step:
     return make_step(session, make_scenario_tree(session), value=0.1, description="Level alarm",
                      ipl_type="operator_response", basis="Alarm LAH-1 (invented)")
-
-
-def stored(session: Session, step: Step) -> Step:
-    session.expire_all()
-    row = session.get(Step, step.id)
-    assert row is not None
-    return row
 
 
 def test_two_people_on_one_details_form(
@@ -47,12 +41,12 @@ def test_two_people_on_one_details_form(
     expect(ben.locator("#basis")).to_have_value("Vendor data sheet (invented)")
     expect(ben.locator("[data-conflict]")).to_have_count(1)  # only the clashing field
     ben.screenshot(path=str(artifacts / "step-details-conflict.png"), full_page=True)
-    assert stored(session, step).basis == "Trip test record 12 (invented)"
+    assert reloaded(session, Step, step.id).basis == "Trip test record 12 (invented)"
 
     box.get_by_role("button", name="Keep mine").click()
     expect(ben.locator(".saved-note")).to_have_text("✓ Saved.")
     expect(ben.locator("#system_tag")).to_have_value("DCS-1")  # Ada's field, kept
-    row = stored(session, step)
+    row = reloaded(session, Step, step.id)
     assert (row.basis, row.system_tag, row.crew) == (
         "Vendor data sheet (invented)", "DCS-1", "Shift A (invented)")
     choice = session.exec(select(ChangeLogEntry).where(ChangeLogEntry.action == "conflict")).one()

@@ -13,7 +13,7 @@ from sqlmodel import Session, col, select
 
 from app.db.models import Attendance, ChangeLogEntry, Participant, SessionDay
 from tests.factories import make_study
-from tests.helpers import HX, OTHER_AUTHOR, TEST_AUTHOR, text_of
+from tests.helpers import HX, OTHER_AUTHOR, TEST_AUTHOR, reloaded, text_of
 
 _INPUT = re.compile(r'<input\b[^>]*\bname="([^"]+)"[^>]*\bvalue="([^"]*)"')
 
@@ -65,14 +65,6 @@ def save_person(http: TestClient, person: Participant, form: dict[str, str]) -> 
     return f"{reply.status_code} {reply.text}"
 
 
-def stored(session: Session, model: type[Participant] | type[SessionDay],
-           row_id: int | None) -> Participant | SessionDay:
-    session.expire_all()
-    row = session.get(model, row_id)
-    assert row is not None
-    return row
-
-
 @pytest.mark.parametrize("first_is_ben", [False, True])
 def test_the_second_save_of_a_participants_field_gets_409_with_both_values(
     client: TestClient, ben: TestClient, session: Session, person: Participant,
@@ -87,7 +79,7 @@ def test_the_second_save_of_a_participants_field_gets_409_with_both_values(
     reply = save_person(second, person, {**second_form, "role": "Panel operator"})
 
     assert reply.startswith("409")
-    assert stored(session, Participant, person.id).role == "Shift lead"  # type: ignore[union-attr]
+    assert reloaded(session, Participant, person.id).role == "Shift lead"
     box = text_of(reply, "edit-person-conflict")
     assert f"Role was changed by {first_name}" in box
     assert "Theirs: Shift lead · yours: Panel operator" in box and "Nothing was saved." in box
@@ -107,8 +99,8 @@ def test_a_participant_save_keeps_the_field_the_other_person_changed(
     assert save_person(first, person, {**first_form, "role": "Shift lead"}).startswith("200")
     assert save_person(second, person, {**second_form, "company": "Other Co"}).startswith("200")
 
-    row = stored(session, Participant, person.id)
-    assert (row.role, row.company, row.name) == (  # type: ignore[union-attr]
+    row = reloaded(session, Participant, person.id)
+    assert (row.role, row.company, row.name) == (
         "Shift lead", "Other Co", "Dana Field (invented)")
 
 
@@ -122,9 +114,9 @@ def test_keep_mine_and_take_theirs_on_a_participant_are_logged(
     assert resend["seen_role"] == "Shift lead" and resend["version"] == ben_form["version"]
 
     assert save_person(ben, person, {**resend, "resolution": "take"}).startswith("200")
-    assert stored(session, Participant, person.id).role == "Shift lead"  # type: ignore[union-attr]
+    assert reloaded(session, Participant, person.id).role == "Shift lead"
     assert save_person(ben, person, {**resend, "resolution": "keep"}).startswith("200")
-    assert stored(session, Participant, person.id).role == "Panel operator"  # type: ignore[union-attr]
+    assert reloaded(session, Participant, person.id).role == "Panel operator"
     choices = session.exec(select(ChangeLogEntry).where(ChangeLogEntry.action == "conflict")
                            .order_by(col(ChangeLogEntry.id))).all()
     assert [(c.author, c.entity, c.old_value, c.new_value) for c in choices] == [
@@ -148,8 +140,8 @@ def test_the_second_save_of_a_session_dates_note_gets_409_and_other_fields_merge
     assert clash.status_code == 409
     assert "Theirs: Node 1 only · yours: Nodes 1 to 3" in text_of(clash.text, "edit-day-conflict")
     assert moved.status_code == 200
-    row = stored(session, SessionDay, day.id)
-    assert (row.day, row.note) == (date(2026, 3, 3), "Node 1 only")  # type: ignore[union-attr]
+    row = reloaded(session, SessionDay, day.id)
+    assert (row.day, row.note) == (date(2026, 3, 3), "Node 1 only")
 
 
 def test_a_post_without_a_version_saves_as_before(
@@ -158,7 +150,7 @@ def test_a_post_without_a_version_saves_as_before(
     """Scripts that send no version save unguarded (as the worksheet's forms do)."""
     reply = save_person(client, person, {"name": "Dana Field (invented)", "role": "Engineer"})
     assert reply.startswith("200")
-    assert stored(session, Participant, person.id).role == "Engineer"  # type: ignore[union-attr]
+    assert reloaded(session, Participant, person.id).role == "Engineer"
 
 
 def test_the_matrix_form_writes_only_the_boxes_changed_since_it_was_loaded(

@@ -11,7 +11,7 @@ from sqlmodel import Session, col, select
 
 from app.db.models import ChangeLogEntry, Step
 from tests.factories import make_scenario_tree, make_step
-from tests.helpers import HX, OTHER_AUTHOR, TEST_AUTHOR, text_of
+from tests.helpers import HX, OTHER_AUTHOR, TEST_AUTHOR, reloaded, text_of
 
 _HIDDEN = re.compile(r'<input type="hidden" name="([^"]+)" value="([^"]*)"')
 
@@ -39,13 +39,6 @@ def loaded_form(http: TestClient, step: Step) -> dict[str, str]:
     return {**typed, **hidden}
 
 
-def stored(session: Session, step: Step) -> Step:
-    session.expire_all()
-    row = session.get(Step, step.id)
-    assert row is not None
-    return row
-
-
 @pytest.mark.parametrize("first_is_ben", [False, True])
 def test_the_second_save_of_one_field_gets_409_at_that_field(
     client: TestClient, ben: TestClient, session: Session, step: Step, first_is_ben: bool,
@@ -60,7 +53,7 @@ def test_the_second_save_of_one_field_gets_409_at_that_field(
                         headers=HX)
 
     assert reply.status_code == 409
-    assert stored(session, step).basis == "Trip test record 12 (invented)"
+    assert reloaded(session, Step, step.id).basis == "Trip test record 12 (invented)"
     box = text_of(reply.text, "basis-conflict")
     assert box.startswith(f"⚠ Basis was changed by {first_name} at ")
     assert "Theirs: Trip test record 12 (invented) · yours: Vendor data (invented)" in box
@@ -83,7 +76,7 @@ def test_a_whole_form_save_keeps_the_field_the_other_person_changed(
     reply = second.post(url(step), data={**second_form, "crew": "Shift A (invented)"})
 
     assert reply.status_code == 200
-    row = stored(session, step)
+    row = reloaded(session, Step, step.id)
     assert (row.system_tag, row.crew, row.basis) == ("DCS-1", "Shift A (invented)",
                                                      "Alarm LAH-1 (invented)")
 
@@ -101,9 +94,9 @@ def test_a_choice_conflict_names_the_choices_then_keep_mine_and_take_theirs_are_
             in text_of(reply.text, "ipl_type-conflict"))
     again = {**ben_form, "ipl_type": "bpcs", "seen_ipl_type": "relief_device"}
     assert ben.post(url(step), data={**again, "resolution": "take"}).status_code == 200
-    assert stored(session, step).ipl_type == "relief_device"
+    assert reloaded(session, Step, step.id).ipl_type == "relief_device"
     assert ben.post(url(step), data={**again, "resolution": "keep"}).status_code == 200
-    assert stored(session, step).ipl_type == "bpcs"
+    assert reloaded(session, Step, step.id).ipl_type == "bpcs"
     choices = session.exec(select(ChangeLogEntry).where(ChangeLogEntry.action == "conflict")
                            .order_by(col(ChangeLogEntry.id))).all()
     assert [(c.author, c.field, c.old_value, c.new_value) for c in choices] == [

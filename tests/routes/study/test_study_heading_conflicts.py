@@ -11,7 +11,7 @@ from sqlmodel import Session
 
 from app.db.models import Study
 from tests.factories import make_study
-from tests.helpers import OTHER_AUTHOR, TEST_AUTHOR, text_of
+from tests.helpers import OTHER_AUTHOR, TEST_AUTHOR, reloaded, text_of
 
 _INPUT = re.compile(r'<input\b[^>]*\bname="([^"]+)"[^>]*\bvalue="([^"]*)"')
 
@@ -28,13 +28,6 @@ def form_fields(page: str) -> dict[str, str]:
               if name != "csrf_token"}
     scope = re.search(r'<textarea id="study-scope"[^>]*>([^<]*)</textarea>', form)
     return {**fields, "scope": html.unescape(scope[1]) if scope else ""}
-
-
-def stored(session: Session, study: Study) -> Study:
-    session.expire_all()
-    row = session.get(Study, study.id)
-    assert row is not None
-    return row
 
 
 @pytest.mark.parametrize("first_is_ben", [False, True])
@@ -58,7 +51,7 @@ def test_the_second_save_of_one_heading_field_gets_409_and_other_fields_merge(
     box = text_of(clash.text, "study-conflict")
     assert f"Facility was changed by {first_name}" in box
     assert "Theirs: Tank farm B (invented) · yours: Jetty 2 (invented)" in box
-    row = stored(session, study)
+    row = reloaded(session, Study, study.id)
     assert (row.facility, row.scope) == ("Tank farm B (invented)", "Nodes 1 to 4 (invented)")
 
 
@@ -76,4 +69,4 @@ def test_keep_mine_after_a_heading_conflict_saves_over_theirs(
     kept = ben.post(url, data={**resend, "resolution": "keep"}, follow_redirects=False)
 
     assert kept.status_code == 303
-    assert stored(session, study).revision_label == "Rev C"
+    assert reloaded(session, Study, study.id).revision_label == "Rev C"
