@@ -19,6 +19,7 @@ from app.services.study.conflicts import (
     FieldConflict,
     GuardedResult,
     PageEdit,
+    missing_row,
     save_form,
 )
 from app.services.study.errors import FieldInputError, length_problem
@@ -79,7 +80,10 @@ def read_participant(values: dict[str, str]) -> dict[str, str]:
 
 def _row(session: Session, model: type[Saved], row_id: int, study_id: int, what: str) -> Saved:
     row = session.get(model, row_id)
-    if row is None or row.study_id != study_id:
+    if row is None:
+        raise missing_row(session, study_id, model, row_id,
+                          f"There is no {what} {row_id} in this study.")
+    if row.study_id != study_id:
         raise NotFoundError(f"There is no {what} {row_id} in this study.")
     return row
 

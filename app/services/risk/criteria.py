@@ -15,7 +15,7 @@ from app.db.compare_and_set import SaveOutcome
 from app.db.models import Receptor, Scenario, SeverityCategory, Study, text_limit
 from app.likelihood.numbers import parse_frequency
 from app.likelihood.types import LikelihoodInputError
-from app.services.study.conflicts import FieldConflict, PageEdit, save_form
+from app.services.study.conflicts import FieldConflict, PageEdit, missing_row, save_form
 from app.services.study.errors import length_problem
 from app.services.study.results import governing_category
 from app.services.study.tree import (
@@ -249,8 +249,11 @@ def validate_category(form: CategoryForm) -> tuple[dict[str, Any], dict[str, str
 
 def _get_category(session: Session, study_id: int, category_id: int) -> SeverityCategory:
     row = session.get(SeverityCategory, category_id)
-    if row is None or row.study_id != study_id:
-        raise NotFoundError(f"There is no severity category {category_id} in study {study_id}.")
+    message = f"There is no severity category {category_id} in study {study_id}."
+    if row is None:
+        raise missing_row(session, study_id, SeverityCategory, category_id, message)
+    if row.study_id != study_id:
+        raise NotFoundError(message)
     return row
 
 

@@ -25,7 +25,7 @@ from app.likelihood.types import (
 )
 from app.likelihood.typical import TypicalValue, typical_by_key, typical_for_kind
 from app.services.risk.ipl_checks import checked_steps
-from app.services.study.conflicts import FieldConflict, PageEdit, save_form
+from app.services.study.conflicts import FieldConflict, PageEdit, missing_row, save_form
 from app.services.study.errors import length_problem
 from app.services.study.results import compute_outcome
 from app.services.study.step_fields import receptors_text
@@ -94,7 +94,10 @@ def fetch_steps_of_scenario(session: Session, scenario_id: int) -> list[Step]:
 def locate_step(session: Session, study_id: int, step_id: int) -> StepPlace:
     """The step of this study with its scenario and node, or NotFoundError."""
     step = session.get(Step, step_id)
-    if step is None or step.study_id != study_id:
+    if step is None:
+        raise missing_row(session, study_id, Step, step_id,
+                          f"There is no step {step_id} in study {study_id}.")
+    if step.study_id != study_id:
         raise NotFoundError(f"There is no step {step_id} in study {study_id}.")
     scenario = session.get(Scenario, step.scenario_id)
     deviation = session.get(Deviation, scenario.deviation_id) if scenario else None

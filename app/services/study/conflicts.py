@@ -33,6 +33,7 @@ from sqlmodel import Session, col, select
 from app.db.compare_and_set import SaveOutcome, save_if_version
 from app.db.models import ChangeLogEntry, DeletedItem, FieldEdit, TrackedRow
 from app.db.tracking import AUTHOR_KEY, LOGGED_TYPES, describe
+from app.services.study.tree import NotFoundError
 
 # Any in this module: a guarded row is any tracked table model and its field values are of any
 # column type (the ORM boundary).
@@ -101,6 +102,31 @@ class GoneRow:
     author: str
     at: datetime | None
     undoable: bool
+
+    @property
+    def sentence(self) -> str:
+        """'This participant was deleted by Ada at 09:31:43 UTC on 2026-12-02. It cannot …'."""
+        who = self.author or "someone without a name"
+        when = f"{self.at:%H:%M:%S} UTC on {self.at:%Y-%m-%d}" if self.at else "an unknown time"
+        undo = ("Undo is available: “Undo delete” (Alt+Z) in the browser of the person who "
+                "deleted it brings it back." if self.undoable else "It cannot be undone.")
+        return f"This {self.entity} was deleted by {who} at {when}. {undo}"
+
+
+class DeletedSinceError(NotFoundError):
+    """An edit of a row someone deleted since the page was loaded (409, or 404 for a page)."""
+
+    def __init__(self, gone: GoneRow) -> None:
+        super().__init__(f"{gone.sentence} Your changes were not saved.")
+        self.gone = gone
+
+
+def missing_row(session: Session, study_id: int, model: type[Any], row_id: int,
+                message: str) -> NotFoundError:
+    """The error for a row that is not there: who deleted it and when, when the study's change
+    log says so (ids are never reused, so the entry is this row's), else plainly not found."""
+    gone = gone_row(session, study_id, model, row_id)
+    return DeletedSinceError(gone) if gone else NotFoundError(message)
 
 
 @dataclass(frozen=True)

@@ -177,3 +177,18 @@ def test_the_matrix_form_writes_only_the_boxes_changed_since_it_was_loaded(
     client.post(marks, data={"present": [], "loaded_marks": f"{day.id}:{dana.id}"})
     session.expire_all()
     assert {m.participant_id for m in session.exec(select(Attendance)).all()} == {eli.id}
+
+
+def test_saving_a_participant_someone_deleted_says_who_and_when(
+    client: TestClient, ben: TestClient, person: Participant,
+) -> None:
+    form = person_form(client, person)
+    assert ben.post(f"/studies/{person.study_id}/attendance/participants/{person.id}/delete",
+                    headers=HX).status_code == 200
+
+    reply = save_person(client, person, {**form, "role": "Shift lead"})
+
+    assert reply.startswith("409")
+    message = text_of(reply.split(" ", 1)[1], "error-message")
+    assert f"This participant was deleted by {OTHER_AUTHOR} at " in message
+    assert "It cannot be undone. Your changes were not saved." in message

@@ -117,3 +117,24 @@ def test_the_conflict_form_sends_the_pages_version_and_originals_again(
     assert hidden["version"] == ben_form["version"]
     assert html.unescape(hidden["orig_basis"]) == "Alarm LAH-1 (invented)"
     assert html.unescape(hidden["seen_basis"]) == "Ada's basis (invented)"
+
+
+def test_saving_details_of_a_step_someone_deleted_says_who_and_when(
+    client: TestClient, ben: TestClient, step: Step,
+) -> None:
+    """Not a silent 404: the form's place shows who deleted the step, when, and that undo
+    can bring it back (the worksheet's delete keeps it in the undo store)."""
+    form = loaded_form(client, step)
+    deleted = ben.post(f"/studies/{step.study_id}/steps/{step.id}/delete", headers=HX)
+    assert deleted.status_code == 200
+
+    reply = client.post(url(step), data={**form, "basis": "Too late (invented)"}, headers=HX)
+
+    assert reply.status_code == 409
+    assert "<html" not in reply.text  # the message takes the form's place
+    message = text_of(reply.text, "error-message")
+    assert f"This step was deleted by {OTHER_AUTHOR} at " in message
+    assert "Undo is available" in message and "Your changes were not saved." in message
+    page = client.get(url(step))
+    assert page.status_code == 404
+    assert f"This step was deleted by {OTHER_AUTHOR}" in text_of(page.text, "error-message")
