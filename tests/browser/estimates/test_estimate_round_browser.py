@@ -11,7 +11,7 @@ from collections.abc import Iterator
 from pathlib import Path
 
 import pytest
-from playwright.sync_api import Browser, BrowserContext, Page, Route, expect
+from playwright.sync_api import Browser, BrowserContext, Page, Response, expect
 from scipy.stats import gmean
 from sqlalchemy import Engine
 from sqlmodel import Session
@@ -28,7 +28,7 @@ from tests.security.conftest import PASSPHRASE
 
 PHONE = {"width": 390, "height": 844}
 README_SHOTS = PROJECT_ROOT / "static" / "screenshots"
-ANSWERS = {"A. Lind": ("1 in 1000", 1e-3), "B. Osei": ("0.7%", 7e-3),
+ANSWERS = {"A. Lind": ("0.1%", 1e-3), "B. Osei": ("0.7%", 7e-3),
            "C. Ruiz": ("1 in 20000", 5e-5)}
 SENT_TO: dict[str, list[str]] = {}  # every response each phone received, as text
 
@@ -78,15 +78,15 @@ def _open_round_with_the_key(page: Page, step: Step) -> None:
 
 
 def _record_app_responses(context: BrowserContext) -> list[str]:
-    """Every page and fragment the app sends to this browser, as text (passed on unchanged)."""
+    """Every page and fragment the app sends to this browser with a body, as text (redirects
+    and the poll's empty 204s carry none)."""
     bodies: list[str] = []
 
-    def keep(route: Route) -> None:
-        response = route.fetch(max_redirects=0)  # a 303 goes back to the browser as it came
-        bodies.append(response.text())
-        route.fulfill(response=response)
+    def keep(response: Response) -> None:
+        if "/studies/" in response.url and response.status == 200:
+            bodies.append(response.text())
 
-    context.route("**/studies/**", keep)
+    context.on("response", keep)
     return bodies
 
 
