@@ -119,11 +119,20 @@ def study_rounds(*, session: Session, study_id: int) -> tuple[RoundView, ...]:
 
 
 def _latest(session: Session, study_id: int, *states: RoundState) -> EstimateRound | None:
-    return session.exec(select(EstimateRound)
-                        .where(EstimateRound.study_id == study_id,
-                               col(EstimateRound.state).in_(list(states)))
-                        .order_by(col(EstimateRound.updated_at).desc(),
-                                  col(EstimateRound.id).desc())).first()
+    """The newest round in one of the states that the team has not moved on from."""
+    candidates = session.exec(select(EstimateRound)
+                              .where(EstimateRound.study_id == study_id,
+                                     col(EstimateRound.state).in_(list(states)))
+                              .order_by(col(EstimateRound.updated_at).desc(),
+                                        col(EstimateRound.id).desc())).all()
+    return next((r for r in candidates if not _superseded(session, r)), None)
+
+
+def _superseded(session: Session, found: EstimateRound) -> bool:
+    """A later round asks the same question: a revealed round 1 stays a record, and once
+    round 2 is agreed the room view no longer shows round 1 as the round in hand."""
+    return session.exec(select(EstimateRound.id).where(
+        *_same_question(found), EstimateRound.number > found.number)).first() is not None
 
 
 def room_rounds(*, session: Session, study_id: int) -> tuple[RoundView, ...]:
