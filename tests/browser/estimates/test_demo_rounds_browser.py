@@ -15,6 +15,17 @@ from app.likelihood.numbers import format_number
 
 # The demo's nitrogen-outage ignition round 2 (invented): six estimates, one dissent.
 WIDE = [3e-3, 1e-2, 0.1, 1e-2, 1e-2, 3e-2]
+# Each estimate label's box on screen, and the drawing's, as the browser laid them out.
+LABEL_BOXES_JS = """(svg) => {
+  const outer = svg.getBoundingClientRect();
+  const boxes = Array.from(svg.querySelectorAll('[data-mark="estimate"] text')).map(t => {
+    const b = t.getBoundingClientRect(); return [b.left, b.right, b.top, b.bottom]; });
+  return {outer: [outer.left, outer.right], boxes: boxes};
+}"""
+
+
+def _overlap(a: list[float], b: list[float]) -> bool:
+    return a[0] < b[1] and b[0] < a[1] and a[2] < b[3] and b[2] < a[3]
 
 
 def test_the_demo_study_shows_its_rounds_dissent_and_word_scale(
@@ -32,6 +43,13 @@ def test_the_demo_study_shows_its_rounds_dissent_and_word_scale(
     expect(page.locator("#agreed")).to_contain_text("1.0e-2")
     expect(page.locator(".dissents")).to_contain_text("Desmond Achterberg dissents")
     page.screenshot(path=str(artifacts / "demo-round-dissent.png"), full_page=True)
+    for drawing in page.locator("svg.spread-axis").all():  # this round's and round 1's
+        laid = drawing.evaluate(LABEL_BOXES_JS)
+        left, right = laid["outer"]
+        boxes = laid["boxes"]
+        assert len(boxes) == 6
+        assert all(left <= box[0] and box[1] <= right for box in boxes), "a label runs off"
+        assert not any(_overlap(a, b) for i, a in enumerate(boxes) for b in boxes[i + 1:])
     page.goto(f"{live_server}/studies/{demo_study.id}/word-scale")
     expect(page.locator("body")).to_contain_text("rare = 1.0e-3")
     page.goto(f"{live_server}/studies/{demo_study.id}/room")
