@@ -15,7 +15,12 @@ from playwright.sync_api import Browser, Page
 from sqlmodel import Session, select
 
 from app.db.models import Node, Study
-from tests.browser.accessibility import contrast_ratio, focus_ring, horizontal_overflow
+from tests.browser.accessibility import (
+    axe_violations,
+    contrast_ratio,
+    focus_ring,
+    horizontal_overflow,
+)
 
 
 def test_the_contrast_formula_gives_wcags_extremes_and_a_hand_computed_pair() -> None:
@@ -94,7 +99,7 @@ def test_worksheet_room_risk_and_actions_reflow_at_320_px(
     context = browser.new_context(viewport=NARROW)
     page = context.new_page()
     pages = pages_of(demo_study, first_node(session, demo_study))
-    overflow = {}
+    overflow: dict[str, object] = {}
     for name in ["worksheet", "room view", "risk picture", "actions", "study list", "overview",
                  "criteria", "exports"]:
         page.goto(f"{live_server}{pages[name]}")
@@ -102,6 +107,8 @@ def test_worksheet_room_risk_and_actions_reflow_at_320_px(
         page.screenshot(path=str(shot), full_page=True)
         if sideways := horizontal_overflow(page):
             overflow[name] = sideways
+        if violations := axe_violations(page):  # a table that scrolls must be on the Tab route
+            overflow[name] = violations
     context.close()
     assert overflow == {}
 

@@ -1,11 +1,36 @@
-// Tallyroom, every page: the page's one live region (#page-status, role=status, polite).
-// Screen readers hear one short status, never the text still being typed:
+// Tallyroom, every page: what keyboard and screen-reader users need beyond the HTML.
+// 1. A table that scrolls sideways inside its own box (narrow screens, the receptor lines) is
+//    put on the Tab route, so it can be scrolled with the arrow keys; it leaves the route when
+//    it fits again.
+// 2. The page's one live region (#page-status, role=status, polite). Screen readers hear one
+//    short status, never the text still being typed:
 // - worksheet: once typing pauses (no input for PAUSE_MS and no value on its way), the scenario
 //   the person is in: mitigated frequency, gap and required SIL, or why the value was not read;
 // - room view: the shown scenario's figures once they have changed and stood still for
 //   PAUSE_MS (the poll replaces the figures, never this region).
 (function () {
   "use strict";
+
+  function markScrollingTables() {
+    document.querySelectorAll("table").forEach(function (table) {
+      const scrolls = table.scrollWidth > table.clientWidth + 1 &&
+        getComputedStyle(table).overflowX !== "visible";
+      if (scrolls && !table.hasAttribute("tabindex")) {
+        table.setAttribute("tabindex", "0");
+        table.dataset.scrollFocus = "";
+      } else if (!scrolls && table.dataset.scrollFocus !== undefined) {
+        table.removeAttribute("tabindex");
+        delete table.dataset.scrollFocus;
+      }
+    });
+  }
+  let resizeTimer = null;
+  window.addEventListener("resize", function () {
+    clearTimeout(resizeTimer);
+    resizeTimer = setTimeout(markScrollingTables, 150);
+  });
+  document.addEventListener("DOMContentLoaded", markScrollingTables);
+  document.addEventListener("htmx:afterSettle", markScrollingTables);
 
   const PAUSE_MS = 1200;
   let lastSaid = "";
