@@ -69,7 +69,7 @@
 
   function busy(field) {
     return field.classList.contains("htmx-request") ||
-      document.querySelector("#worksheet .htmx-request") !== null;
+      document.querySelector(".htmx-request") !== null;
   }
 
   function afterPause() {
@@ -77,15 +77,24 @@
     pauseTimer = setTimeout(function () {
       if (!lastField || !lastField.isConnected) return;
       if (busy(lastField)) { afterPause(); return; }
-      say(scenarioStatus(lastField));
+      say(fieldStatus(lastField));
     }, PAUSE_MS);
   }
 
   function onEdit(event) {
     const field = event.target;
-    if (!field.matches || !field.matches("#worksheet [data-field]")) return;
+    if (!field.matches || !field.matches("input, select, textarea")) return;
+    if (!field.matches("#worksheet [data-field]") && !document.querySelector("[data-status]")) return;
     lastField = field;
     afterPause();
+  }
+
+  // Outside the worksheet a page that updates as one types marks its short status in
+  // data-status (the proof-test calculator's result).
+  function fieldStatus(field) {
+    if (field.matches("#worksheet [data-field]")) return scenarioStatus(field);
+    const marked = document.querySelector("[data-status]");
+    return marked ? marked.dataset.status : "";
   }
   document.addEventListener("input", onEdit);
   document.addEventListener("change", onEdit);
