@@ -148,7 +148,7 @@ def _scenario_row(
     ]
     if result is None or outcome.assessment is None:
         return [*head, None, None, len(credited), None, None, None, None, None, "", "",
-                f"not computed: {outcome.error}", *[None] * len(METHOD_COLUMNS)]
+                outcome.no_figures_words, *[None] * len(METHOD_COLUMNS)]
     target = result.sil_target
     return [
         *head, result.enabling_product, result.modifier_product, len(credited),
