@@ -33,4 +33,4 @@ def left_out_words(count: int) -> str:
     if count == 0:
         return ""
     noun = "scenario" if count == 1 else "scenarios"
-    return f"leaves out {count} incomplete {noun} (no initiating frequency or severity yet)"
+    return f"{count} incomplete {noun} left out (no initiating frequency or severity yet)"

@@ -79,21 +79,21 @@ def test_adding_a_step_puts_it_after_the_row_and_focuses_its_first_field(
     assert last.id is not None
 
 
-def test_a_new_scenario_comes_with_its_initiating_event_and_the_previous_severity(
+def test_a_new_scenario_comes_with_an_empty_initiating_event_and_no_severity(
     client: TestClient, session: Session, scenario: Scenario
 ) -> None:
-    study = session.get(Study, scenario.study_id)
-    assert study is not None
-    make_category(session, study, name="Major", tolerable_frequency=1e-6)  # not the default
+    """No stand-in numbers: the scenario is incomplete until the team gives both."""
     response = client.post(f"/studies/{scenario.study_id}/scenarios", headers=HX,
                            data={"parent_id": scenario.deviation_id})
     assert response.status_code == 200
     created = rows(session, Scenario, deviation_id=scenario.deviation_id)[-1]
-    assert created.severity_category_id == scenario.severity_category_id
+    assert created.severity_category_id is None
     steps = rows(session, Step, scenario_id=created.id)
     assert [(s.kind, s.value, s.value_text) for s in steps] == [
-        (StepKind.INITIATING_EVENT, 1.0, "1")]
-    assert figures(response.text, created.id or 0)["mitigated"] == "1.0e0 /yr"
+        (StepKind.INITIATING_EVENT, None, "")]
+    shown = figures(response.text, created.id or 0)
+    assert "mitigated" not in shown and "sil" not in shown
+    assert "Incomplete: no initiating event frequency and no severity yet" in shown["incomplete"]
 
 
 def test_adding_a_deviation_and_a_safeguard(client: TestClient, session: Session,
