@@ -12,11 +12,11 @@ INITIATING_FREQUENCY = "initiating event frequency"
 SEVERITY = "severity"
 
 
-def missing_inputs(*, initiating_frequency: float | None,
+def missing_inputs(*, initiating_frequency_given: bool,
                    severity_given: bool) -> tuple[str, ...]:
     """The inputs still to give, in the order a team gives them (empty when complete)."""
     missing = []
-    if initiating_frequency is None:
+    if not initiating_frequency_given:
         missing.append(INITIATING_FREQUENCY)
     if not severity_given:
         missing.append(SEVERITY)

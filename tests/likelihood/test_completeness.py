@@ -14,18 +14,18 @@ from app.likelihood.completeness import (
 
 
 def test_a_new_scenario_lacks_both_inputs_in_the_order_a_team_gives_them() -> None:
-    assert missing_inputs(initiating_frequency=None, severity_given=False) == (
+    assert missing_inputs(initiating_frequency_given=False, severity_given=False) == (
         INITIATING_FREQUENCY, SEVERITY)
 
 
 def test_each_input_given_on_its_own_leaves_the_other_missing() -> None:
-    assert missing_inputs(initiating_frequency=0.1, severity_given=False) == (SEVERITY,)
-    assert missing_inputs(initiating_frequency=None, severity_given=True) == (
+    assert missing_inputs(initiating_frequency_given=True, severity_given=False) == (SEVERITY,)
+    assert missing_inputs(initiating_frequency_given=False, severity_given=True) == (
         INITIATING_FREQUENCY,)
 
 
-def test_both_given_is_complete_whatever_the_frequency() -> None:
-    assert missing_inputs(initiating_frequency=1e-9, severity_given=True) == ()
+def test_both_given_is_complete() -> None:
+    assert missing_inputs(initiating_frequency_given=True, severity_given=True) == ()
 
 
 def test_the_words_name_what_is_missing() -> None:

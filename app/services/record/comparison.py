@@ -92,12 +92,11 @@ def governing_tolerable(scenario: Row, categories: dict[str, Row]) -> float | No
 def file_scenario_missing(scenario: Row) -> tuple[str, ...]:
     """What a study file's scenario still needs (the rule of services/study/completeness.py,
     read from the file's fields)."""
-    initiating = next((step.get("value") for step in scenario.get("steps", [])
-                       if step.get("kind") == StepKind.INITIATING_EVENT.value), None)
-    rated = (("environment_severity", "asset_severity") if scenario.get("people_not_rated")
-             else ("severity",))
-    return missing_inputs(initiating_frequency=initiating,
-                          severity_given=any(scenario.get(name) for name in rated))
+    frequency_given = all(step.get("value") is not None for step in scenario.get("steps", [])
+                          if step.get("kind") == StepKind.INITIATING_EVENT.value)
+    return missing_inputs(initiating_frequency_given=frequency_given,
+                          severity_given=bool(scenario.get("severity")
+                                              or scenario.get("people_not_rated")))
 
 
 def scenario_numbers(scenario: Row, categories: dict[str, Row]) -> ScenarioNumbers:

@@ -35,21 +35,20 @@ class ValuedStep(Protocol):
 
 
 def severity_given(scenario: CompletableScenario) -> bool:
-    """The main severity, or (people not rated) an environment or asset severity, is given."""
-    if not scenario.people_not_rated:
-        return scenario.severity_category_id is not None
-    return (scenario.environment_category_id is not None
-            or scenario.asset_category_id is not None)
+    """The main severity is given, or the team said people are not rated (then the
+    environment and asset ratings decide, and none at all is a rule broken, not a gap)."""
+    return scenario.severity_category_id is not None or bool(scenario.people_not_rated)
 
 
-def initiating_frequency(steps: Iterable[ValuedStep]) -> float | None:
-    """The initiating event's frequency, None while not given (or with no initiating event)."""
-    return next((s.value for s in steps if s.kind == StepKind.INITIATING_EVENT), None)
+def initiating_frequency_given(steps: Iterable[ValuedStep]) -> bool:
+    """No initiating event holds an empty value. A scenario without any initiating event
+    breaks the one-event rule, which the arithmetic reports; that is not "incomplete"."""
+    return all(s.value is not None for s in steps if s.kind == StepKind.INITIATING_EVENT)
 
 
 def missing_of(scenario: CompletableScenario, steps: Iterable[ValuedStep]) -> tuple[str, ...]:
     """What the scenario still needs before it has figures (empty when complete)."""
-    return missing_inputs(initiating_frequency=initiating_frequency(steps),
+    return missing_inputs(initiating_frequency_given=initiating_frequency_given(steps),
                           severity_given=severity_given(scenario))
 
 

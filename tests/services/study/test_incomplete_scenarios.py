@@ -10,7 +10,7 @@ import pytest
 from jinja2 import Environment
 from sqlmodel import Session
 
-from app.db.models import Scenario, SeverityCategory, Step, Study
+from app.db.models import Scenario, Step, Study
 from app.likelihood.types import StepKind
 from app.routes.rendering import templates
 from app.services.exchange.exports import ExportFormat, build_export
@@ -113,20 +113,30 @@ def test_giving_both_inputs_brings_the_figures(session: Session) -> None:
     assert (totals.incomplete_count, totals.short_count) == (0, 2)  # 1e-3 /yr > 1e-5 /yr
 
 
-def test_people_not_rated_needs_an_environment_or_asset_severity(session: Session) -> None:
+def test_people_not_rated_counts_as_a_severity_decision(session: Session) -> None:
+    """With people not rated the environment and asset ratings decide; none at all is the
+    rule the arithmetic names (not computed), not an input still to give."""
     study, _, added = _new_scenario(session)
     event = _initiating_event(session, added)
     scenario = session.get(Scenario, added.id)
     assert scenario is not None
     scenario.people_not_rated = True
-    scenario.severity_category_id = first_category(session, study).id
-    assert missing_of(scenario, [event]) == ("initiating event frequency", "severity")
-    environment = SeverityCategory(study_id=study.id, name="Local spill", receptor="environment",
-                                   tolerable_frequency=1e-3)
-    session.add(environment)
-    session.commit()
-    scenario.environment_category_id = environment.id
     assert missing_of(scenario, [event]) == ("initiating event frequency",)
+    event.value = 0.1
+    session.add_all([scenario, event])
+    session.commit()
+    branch = next(b for b in load_study_tree(session, study.id or 0).scenario_branches()
+                  if b.scenario.id == added.id)
+    assert not branch.outcome.incomplete
+    assert branch.outcome.no_figures_words == (
+        "not computed: no severity category: no target to compare with")
+
+
+def test_a_scenario_without_any_initiating_event_is_not_computed_rather_than_incomplete(
+    session: Session
+) -> None:
+    _, complete, _ = _new_scenario(session)
+    assert missing_of(complete, []) == ()
 
 
 def test_the_study_file_keeps_the_missing_values_and_imports_them_back(
