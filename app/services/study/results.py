@@ -33,6 +33,7 @@ from app.services.study.completeness import CompletableScenario, missing_of
 from app.services.study.step_fields import cause_type_of, modifier_kind_of, receptor_set
 
 NO_CATEGORY = "no severity category: no target to compare with"
+NONE_NEEDED = "none needed"
 INCOMPLETE = "incomplete"
 
 
@@ -351,3 +352,9 @@ def compute_outcome(
     rated = receptor_categories(scenario, categories, people_not_rated=scenario.people_not_rated)
     return ScenarioOutcome(assessment.as_credited.result, category, "", assessment,
                            tuple((r, rated[r]) for r in Receptor if r in rated))
+
+
+def required_rrf_cell(result: ScenarioResult) -> float | str:
+    """The added risk reduction a scenario asks for, as the screen and every file show it:
+    the factor when short of target, "none needed" when it meets target (never a bare 1)."""
+    return NONE_NEEDED if result.meets_target else result.required_rrf
