@@ -192,7 +192,7 @@ def test_changing_the_severity_recomputes_against_the_new_target(
     response = client.post(f"/studies/{study_id}/scenarios/{scenario.id}", headers=HX,
                            data={"severity_category_id": str(minor.id)})
     shown = figures(response.text, scenario.id or 0)
-    assert shown["tolerable"] == "1.0e-2 /yr" and shown["gap"] == "× 10 · +1.0 orders"
+    assert shown["tolerable"] == "1.0e-2 /yr" and shown["gap"] == "× 1.0e1 · +1.0 orders"
 
 
 @pytest.mark.parametrize("category", ["abc", "99999"])
