@@ -56,3 +56,22 @@ def test_a_new_scenario_is_incomplete_until_frequency_and_severity_are_given(
     expect(room.locator("#room-sil")).to_contain_text("SIL")
     page.screenshot(path=artifacts / "worksheet-incomplete-then-complete.png", full_page=True)
     room_context.close()
+
+
+def test_the_overview_and_the_risk_picture_say_what_they_leave_out(
+    page: Page, live_server: str, session: Session, artifacts: Path
+) -> None:
+    first = make_scenario_tree(session)
+    deviation = session.get(Deviation, first.deviation_id)
+    assert deviation is not None
+    page.goto(f"{live_server}/studies/{first.study_id}/nodes/{deviation.node_id}")
+    page.locator("form[data-add='scenario'] button").click()
+    expect(page.locator("article.scenario")).to_have_count(2)
+    page.goto(f"{live_server}/studies/{first.study_id}")
+    expect(page.locator("[data-total='incomplete']")).to_have_text("1")
+    expect(page.locator("[data-incomplete]")).to_have_text("◌ incomplete")
+    page.screenshot(path=artifacts / "overview-incomplete.png", full_page=True)
+    page.goto(f"{live_server}/studies/{first.study_id}/risk")
+    expect(page.locator("[data-left-out]")).to_have_count(3)
+    expect(page.locator("#incomplete-list [data-incomplete]")).to_have_count(1)
+    page.screenshot(path=artifacts / "risk-incomplete.png", full_page=True)
