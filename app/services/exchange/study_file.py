@@ -269,7 +269,7 @@ def _export_scenario(
         "cause": scenario.cause,
         "consequence": scenario.consequence,
         "notes": scenario.notes,
-        "severity": category_refs[scenario.severity_category_id],
+        "severity": category_refs.get(scenario.severity_category_id),
         "environment_severity": category_refs.get(scenario.environment_category_id),
         "asset_severity": category_refs.get(scenario.asset_category_id),
         "people_not_rated": scenario.people_not_rated,
