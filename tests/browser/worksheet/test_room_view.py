@@ -110,4 +110,9 @@ def test_room_view_is_large_high_contrast_and_photographed(
     assert float(caution.evaluate("e => parseFloat(getComputedStyle(e).fontSize)")) >= 21
     expect(caution).to_contain_text("Decision support for a competent team")
     expect(caution).to_contain_text("decision support for a competent review team")  # in full
+    page.screenshot(path=str(artifacts / "room-1920x1080.png"))
+    # The README shows a common projector's 1366x768 (test_room_fit.py checks all four sizes).
+    page.set_viewport_size({"width": 1366, "height": 768})
+    page.reload()
+    expect(page.locator("body")).to_have_attribute("data-room-fitted", "yes")
     _save_shot(page, artifacts, "room.png")
