@@ -3,15 +3,16 @@
 // texts. A scenario with many steps or long extra lines can still need more room; then, in
 // this order, until nothing overflows:
 //   1. step descriptions take one line instead of two (body.room-compact);
-//   2. the page's type scale (--room-scale on <body>) steps down to a floor;
+//   2. the page's type scale (--room-scale on <body>) steps down to a floor (0.82: type a
+//      room can still read; pages of steps are easier on it than smaller type);
 //   3. the step table pages: as many rows as fit, a button says which and turns the page
 //      (it turns on its own every PAGE_SECONDS too);
 //   4. the scale goes on down to the last floor, paging again at each size.
 (function () {
   "use strict";
 
-  const FIRST_SCALES = [1, 0.94, 0.88, 0.82, 0.76];
-  const LAST_SCALES = [0.7, 0.64];
+  const FIRST_SCALES = [1, 0.94, 0.88, 0.82];
+  const LAST_SCALES = [0.76, 0.7, 0.64];
   const FEWEST_ROWS = 3;
   const PAGE_SECONDS = 10;
   let pageSize = 0;
