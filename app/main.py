@@ -14,6 +14,7 @@ from app.db.tracking import install_tracking
 from app.lifecycle import server_lifespan
 from app.routes import errors
 from app.routes.deps import check_path_ids
+from app.services.study.conflicts import DeletedSinceError
 from app.services.study.tree import NotFoundError
 from app.settings import PROJECT_ROOT, Settings, get_settings
 
@@ -43,6 +44,7 @@ def create_app(settings: Settings | None = None) -> FastAPI:
         application.include_router(router)
     # A page in the app's style for a browser, JSON for API clients (app/routes/errors.py).
     application.add_exception_handler(NotFoundError, errors.not_found)
+    application.add_exception_handler(DeletedSinceError, errors.deleted_since)
     application.add_exception_handler(StarletteHTTPException, errors.http_error)
     application.add_exception_handler(RequestValidationError, errors.invalid_input)
     return application

@@ -16,6 +16,7 @@ from starlette.exceptions import HTTPException as StarletteHTTPException
 from starlette.responses import JSONResponse, Response
 
 from app.routes.rendering import is_htmx, render
+from app.services.study.conflicts import DeletedSinceError
 
 API_PREFIXES = ("/api/", "/openapi.json")
 # Starlette's own words for its errors, said as the rest of the app says things.
@@ -37,11 +38,11 @@ def wants_page(request: Request) -> bool:
     return "text/html" in accept and not is_htmx(request) and not wants_json(request)
 
 
-def error_page(request: Request, status: int, message: str,
-               rules: Sequence[str] = ()) -> Response:
+def error_page(request: Request, status: int, message: str, rules: Sequence[str] = (),
+               *, block: str | None = None) -> Response:
     """error.html with the status, one sentence and the rules broken (if any)."""
     return render(request, "error.html", {"status": status, "message": message,
-                                          "rules": list(rules)}, status_code=status)
+                                          "rules": list(rules)}, status_code=status, block=block)
 
 
 def not_found(request: Request, exc: Exception) -> Response:
@@ -49,6 +50,18 @@ def not_found(request: Request, exc: Exception) -> Response:
     if wants_json(request):
         return JSONResponse({"detail": str(exc)}, status_code=404)
     return error_page(request, 404, str(exc))
+
+
+def deleted_since(request: Request, exc: Exception) -> Response:
+    """An edit of a row someone deleted: who and when, in the form's place for htmx (409);
+    a page of such a row is not found (404) and says the same."""
+    assert isinstance(exc, DeletedSinceError)
+    status, message = (404, exc.gone.sentence) if request.method in ("GET", "HEAD") \
+        else (409, str(exc))
+    if wants_json(request):
+        return JSONResponse({"detail": message}, status_code=status)
+    block = "message" if status == 409 and is_htmx(request) else None
+    return error_page(request, status, message, block=block)
 
 
 def http_error(request: Request, exc: Exception) -> Response:
