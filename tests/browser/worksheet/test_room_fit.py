@@ -15,9 +15,11 @@ from playwright.sync_api import Browser, Page, expect
 from sqlmodel import Session
 
 from app.db.models import Scenario, Study
+from app.likelihood.estimates import EstimateUnit
 from app.likelihood.types import StepKind
 from app.services.estimates.answers import Answerer, give_estimate
-from app.services.estimates.rounds import open_round, reveal_round
+from app.services.estimates.rounds import open_round, open_word_rounds, reveal_round
+from app.services.estimates.word_list import save_word_list
 from app.services.study.tree import ScenarioBranch, load_study_tree
 from app.services.worksheet.room import set_focus
 from tests.factories import make_scenario_tree, make_step
@@ -26,7 +28,7 @@ SIZES = [(1024, 768), (1280, 720), (1366, 768), (1920, 1080)]
 # What must be in plain view: each figure, each step row, the caution line and the ladder.
 SHOWN = ("[data-figure], #room-steps tbody tr:not([hidden]), #room-title-cause, "
          "#room-title-consequence, footer.cautions, .room-ladder, #room-round .spread-axis, "
-         "#room-pager:not([hidden])")
+         "#room-pager:not([hidden]), #room-words tbody tr")
 COVERED_JS = """(selector) => {
   const problems = [];
   for (const element of document.querySelectorAll(selector)) {
@@ -163,6 +165,19 @@ def test_a_revealed_estimate_round_and_its_scenario_fit_each_projector_size(
     set_focus(session=session, study_id=demo_study.id or 0, scenario_id=scenario.id or 0)
     _check_fits(browser, f"{live_server}/studies/{demo_study.id}/room", scenario, artifacts,
                 "round")
+
+
+def test_open_word_rounds_and_the_scenario_fit_each_projector_size(
+    browser: Browser, live_server: str, demo_study: Study, session: Session, artifacts: Path
+) -> None:
+    study_id = demo_study.id or 0
+    for unit, words in ((EstimateUnit.PROBABILITY, "rare\nunlikely\npossible\nlikely"),
+                        (EstimateUnit.PER_YEAR, "remote\noccasional\nfrequent")):
+        save_word_list(session=session, study_id=study_id, unit=unit, text=words)
+    assert open_word_rounds(session=session, study_id=study_id) == 7
+    scenario = _longest_demo_branch(session, demo_study).scenario
+    set_focus(session=session, study_id=study_id, scenario_id=scenario.id or 0)
+    _check_fits(browser, f"{live_server}/studies/{study_id}/room", scenario, artifacts, "words")
 
 
 @pytest.mark.parametrize("action", ["hover", "focus"])
