@@ -52,7 +52,9 @@
   function scenarioStatus(field) {
     const scenario = field.closest("[data-scenario]");
     if (!scenario) return "";
-    const name = textOf(scenario, "h4") || "Scenario";
+    const heading = scenario.querySelector("h4");  // its first text: "Scenario 1.2.3"
+    const name = (heading && heading.firstChild ? heading.firstChild.textContent.trim() : "") ||
+      "Scenario";
     if (field.getAttribute("aria-invalid") === "true") {
       const why = textOf(document, "#" + CSS.escape(field.id) + "-said");
       return (field.getAttribute("aria-label") || name) + ": not read. " + why;

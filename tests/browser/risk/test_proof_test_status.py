@@ -7,7 +7,8 @@ from sqlmodel import Session
 from tests.factories import make_scenario_tree
 
 LIVE_REGIONS = """() => document.querySelectorAll(
-  '[aria-live], [role=status], [role=alert], [role=log], [role=marquee], [role=timer]').length"""
+  '[aria-live]:not([aria-live=off]), [role=status], [role=alert], [role=log], [role=marquee],' +
+  '[role=timer]').length"""
 _WATCH_ALERTS = """() => {
   window.__alerts = [];
   new MutationObserver(() => {

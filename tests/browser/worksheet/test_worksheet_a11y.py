@@ -141,7 +141,8 @@ def test_a_fields_name_does_not_change_while_typing(page: Page, node_page: dict[
 
 
 LIVE_REGIONS = """() => document.querySelectorAll(
-  '[aria-live], [role=status], [role=alert], [role=log], [role=marquee], [role=timer]').length"""
+  '[aria-live]:not([aria-live=off]), [role=status], [role=alert], [role=log], [role=marquee],' +
+  '[role=timer]').length"""
 
 # Record every alert that appears (added, or an attribute turned into one) and every text the
 # page's status region takes.
