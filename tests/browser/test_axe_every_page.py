@@ -68,7 +68,7 @@ def every_page(session: Session, study: Study) -> dict[str, str]:
         "round": f"{base}/rounds/{estimate_round.id}", "word scale": f"{base}/word-scale",
         "estimate (scribe)": f"{base}/estimate", "keyboard help": "/help/keys",
         "access": "/access", "rooms": "/rooms",
-        "missing study (404)": "/studies/2147483000", "malformed id": "/studies/x1/worksheet",
+        "missing study (404)": "/studies/2147483000", "malformed id (400)": "/studies/x1/worksheet",
     }
 
 
@@ -83,7 +83,7 @@ def test_every_page_has_no_axe_violation(page: Page, live_server: str, session: 
         if violations := axe_violations(page):
             found[name] = violations
     assert {name: status for name, status in statuses.items() if status != 200} == {
-        "missing study (404)": 404, "malformed id": 404}
+        "missing study (404)": 404, "malformed id (400)": 400}
     assert found == {}
 
 
