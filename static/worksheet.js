@@ -7,7 +7,8 @@
 //   (asks first), Alt+Z to undo, Alt+N to add an IPL, Alt+R for an estimate round,
 //   ? for help; Alt shortcuts match the
 //   physical key (event.code), so Option on macOS, which changes the character, works;
-// - tell the server which scenario the scribe is on, for the room view.
+// - tell the server which scenario the scribe is on, for the room view;
+// - on a large node, keep the scenarios opened in full across redraws.
 (function () {
   "use strict";
 
@@ -28,6 +29,17 @@
     if (!field || !field.matches || !field.matches("[data-value-field]")) return;
     event.detail.parameters.client = client;
     event.detail.parameters.seq = nextSeq(field);
+  });
+
+  // A redraw of a large node keeps the scenarios this page has open in full (the server draws
+  // the others as slim lines).
+  document.addEventListener("htmx:configRequest", function (event) {
+    const sheet = document.getElementById("worksheet");
+    if (!sheet || !sheet.hasAttribute("data-paged")) return;
+    if (event.detail.elt.getAttribute("hx-target") !== "#worksheet") return;
+    const open = Array.from(sheet.querySelectorAll("article.scenario:not(.slim)"))
+      .map(function (article) { return article.dataset.scenario; });
+    if (open.length) event.detail.headers["X-Tallyroom-Open"] = open.slice(-5).join(",");
   });
 
   // A scenario's figures carry the state they were computed from (data-state grows with every
@@ -117,8 +129,11 @@
     return row.querySelector('[data-controls="' + row.dataset.row + "-" + row.dataset.rowId + '"]');
   }
 
+  // On a large node the next scenario may be a slim line: its link takes the focus (Enter
+  // on it opens the scenario in full).
   function focusNextField(field) {
-    const all = Array.from(document.querySelectorAll("#worksheet [data-field]"));
+    const all = Array.from(document.querySelectorAll(
+      "#worksheet [data-field], #worksheet [data-open-scenario]"));
     const next = all[all.indexOf(field) + 1];
     if (next) next.focus();
   }
