@@ -42,6 +42,24 @@
     if (open.length) event.detail.headers["X-Tallyroom-Open"] = open.slice(-5).join(",");
   });
 
+  // A large node's remaining rows: each part is asked for once, as soon as its line is in or
+  // above the view (a quick scroll that jumps past a line still brings its rows; rows added
+  // above the view do not move what the scribe is looking at, the browser anchors the scroll).
+  function askForRows() {
+    document.querySelectorAll("[data-more-rows]:not([data-asked])").forEach(function (line) {
+      if (line.getBoundingClientRect().top > window.innerHeight + 400) return;
+      line.setAttribute("data-asked", "");
+      line.dispatchEvent(new CustomEvent("tallyroom:more"));
+    });
+  }
+  let rowsFrame = 0;
+  function askForRowsSoon() {
+    if (!rowsFrame) rowsFrame = requestAnimationFrame(function () { rowsFrame = 0; askForRows(); });
+  }
+  window.addEventListener("scroll", askForRowsSoon, { passive: true });
+  document.addEventListener("htmx:afterSettle", askForRowsSoon);
+  document.addEventListener("DOMContentLoaded", askForRowsSoon);
+
   // A scenario's figures carry the state they were computed from (data-state grows with every
   // save). The target was found when the request left; another reply may have replaced it
   // since, and a swap into that detached element would be lost, so aim at the one now on the
