@@ -185,9 +185,16 @@ def _deviation_view(deviation_branch: DeviationBranch, number: str,
     counts = DeleteCounts(scenarios=len(scenarios),
                           steps=sum(len(s.item.steps) for s in scenarios),
                           safeguards=sum(len(s.item.safeguards) for s in scenarios))
-    label = f"{number} '{deviation.guideword} {deviation.parameter}'".rstrip(" '")
+    label = deviation_label(deviation, number)
     return DeviationView(deviation_branch, number, scenarios,
                          delete_question("deviation", label, counts))
+
+
+def deviation_label(deviation: Deviation, number: str) -> str:
+    """How a delete question names a deviation: "1.2 'More pressure'" (its number alone when
+    it has no words yet)."""
+    words = f"{deviation.guideword} {deviation.parameter}".strip()
+    return f"{number} '{words}'" if words else number
 
 
 def node_delete_question(node_branch: NodeBranch) -> str:
@@ -270,7 +277,7 @@ def _paged_deviation(deviation: Deviation, number: str, outline: NodeOutline,
     delete_counts = DeleteCounts(scenarios=len(rows),
                                  steps=counts["steps"].get(deviation_id, 0),
                                  safeguards=counts["safeguards"].get(deviation_id, 0))
-    label = f"{number} '{deviation.guideword} {deviation.parameter}'".rstrip(" '")
+    label = deviation_label(deviation, number)
     return DeviationView(DeviationBranch(deviation), number,
                          tuple(views[row.id] for row in rows[:shown]),
                          delete_question("deviation", label, delete_counts),

@@ -1,3 +1,4 @@
+# ruff: noqa: RUF001, RUF003 - the multiplication sign is what the page shows
 """In a real browser, a node of 180 scenarios: slim lines first, the rest as the scribe
 scrolls, and a scenario far down opened and edited with the keyboard."""
 
