@@ -41,6 +41,13 @@ def rows_of_study(model: type[Row], study_id: int) -> SelectOfScalar[Row]:
     return _in_display_order(select(model).where(table.study_id == study_id), model)
 
 
+def plain_rows_of_study(model: type[Any], study_id: int) -> Any:
+    """rows_of_study as plain rows of every column (no ORM objects built)."""
+    table: Any = model  # Any: the table model's columns
+    statement = select_columns(*table.__table__.columns).where(table.study_id == study_id)
+    return _in_display_order(statement, model)
+
+
 def fetch_rows_of_study(session: Session, model: type[Row], study_id: int) -> list[Row]:
     """Run rows_of_study."""
     return list(session.exec(rows_of_study(model, study_id)).all())
