@@ -26,7 +26,13 @@ from app.db.queries import (
     step_figures_of_scenarios,
 )
 from app.likelihood.types import ScenarioResult
-from app.services.study.results import assessment_of_rows, compute_outcome, outcome_of
+from app.services.study.completeness import missing_of
+from app.services.study.results import (
+    INCOMPLETE,
+    assessment_of_rows,
+    compute_outcome,
+    outcome_of,
+)
 from app.services.study.tree import NotFoundError, ScenarioBranch
 
 # Any in this module: plain result rows from SQLAlchemy carry no column types (the ORM boundary).
@@ -57,6 +63,14 @@ class SlimScenario:
     category_name: str
     flagged: bool
     error: str
+    incomplete: bool = False
+
+    @property
+    def no_figures_words(self) -> str:
+        """Why there are no figures, worded as ScenarioOutcome.no_figures_words."""
+        if self.result is not None:
+            return ""
+        return f"{INCOMPLETE}: {self.error}" if self.incomplete else f"not computed: {self.error}"
 
 
 @dataclass(frozen=True)
@@ -167,7 +181,8 @@ def _slim(row: Any, number: str, steps: list[Any],
     result = assessment.as_credited.result if assessment is not None else None
     return SlimScenario(row.id, number, row.cause, row.consequence, result,
                         category.name if category is not None else "",
-                        assessment is not None and assessment.withdrawn is not None, error)
+                        assessment is not None and assessment.withdrawn is not None, error,
+                        incomplete=bool(missing_of(row, steps)))
 
 
 def scenario_branches(session: Session, scenario_ids: Iterable[int],

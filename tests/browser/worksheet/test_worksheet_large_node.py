@@ -55,7 +55,7 @@ def test_a_large_node_paints_slim_lines_first_and_the_rest_arrives_as_the_scribe
     first = page.locator("article.scenario.slim").first
     expect(first).to_contain_text("1.1.1 Cause 1.1 → Overfill")
     expect(first).to_contain_text("1.0e-1 /yr")  # 1/yr × 0.1
-    expect(first).to_contain_text("▲ short ×1e+04")  # 0.1 against 1e-5
+    expect(first).to_contain_text("▲ short ×1.0e4")  # 0.1 against 1e-5
     page.locator(f"#scenario-{scenarios_of(session, big_node)[0].id}").scroll_into_view_if_needed()
     page.screenshot(path=f"{artifacts}/worksheet-large-node-first-paint.png")
     scenarios = scenarios_of(session, big_node)

@@ -90,7 +90,7 @@ def test_the_first_paint_of_a_large_node_is_slim_lines_with_the_figures_worked_o
     first = text_of(html, f"scenario-{scenarios[0].id}")
     # 1/yr × 0.1 = 0.1/yr against 1e-5/yr: short by a factor of 1e4 (hand computation)
     assert first == ("7.1.1 Cause 1.1 → Overfill 1.0e-1 /yr · Single fatality 1.0e-5 /yr "
-                     "▲ short ×1e+04 ⚑ flagged")
+                     "▲ short ×1.0e4 ⚑ flagged")
     drawn = FIRST_PAINT_ROWS - PER_DEVIATION
     assert f"7.2.{drawn + 1} to 7.2.{PER_DEVIATION}" in html  # the part still to come
     assert f'rows?start={drawn}"' in html
@@ -144,7 +144,7 @@ def test_a_slim_line_opens_in_full_with_the_cursor_in_its_cause(
     assert full_ids(opened.text) == [scenario.id]
     assert "Scenario 7.2.28" in opened.text
     assert "autofocus" in attrs_of(opened.text, f"sc-{scenario.id}-cause")
-    assert figures(opened.text, scenario.id)["gap"] == "× 1e+04 · +4.0 orders"
+    assert figures(opened.text, scenario.id)["gap"] == "× 1.0e4 · +4.0 orders"
     plain = client.get(path, follow_redirects=False)
     assert plain.status_code == 303
     assert plain.headers["location"].endswith(f"?focus=sc-{scenario.id}-cause")
@@ -163,3 +163,17 @@ def test_the_delete_questions_of_a_large_node_count_what_the_whole_tree_counts(
     assert f'hx-confirm="{expected}"' in html
     assert ('hx-confirm="Delete deviation 7.2 &#39;More Level 2&#39; and its 30 scenarios, '
             '60 steps, 30 safeguards?"') in html
+
+
+def test_a_slim_line_says_what_an_incomplete_scenario_still_needs(
+    client: TestClient, session: Session, big_node: Node
+) -> None:
+    second = scenarios_of(session, big_node)[1]
+    [initiating] = [s for s in session.exec(select(Step).where(Step.scenario_id == second.id))
+                    if s.kind == StepKind.INITIATING_EVENT]
+    initiating.value = None
+    session.add(initiating)
+    session.commit()
+    line = text_of(page_of(client, big_node), f"scenario-{second.id}")
+    assert line.startswith("7.1.2 Cause 1.2 → Overfill incomplete: ")
+    assert line.endswith("◌ incomplete")
