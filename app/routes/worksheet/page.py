@@ -6,6 +6,7 @@ from fastapi import APIRouter, Form, Request
 from starlette.responses import RedirectResponse, Response
 from starlette.routing import NoMatchFound
 
+from app.db.ids import read_row_id
 from app.routes.deps import SessionDep, author_name
 from app.routes.rendering import is_htmx, render
 from app.routes.urls import empty_worksheet_url, worksheet_url
@@ -54,8 +55,8 @@ def worksheet_links(request: Request) -> dict[str, bool]:
 
 def open_scenarios(request: Request) -> tuple[int, ...]:
     """The scenario ids the page says it has open (digits only; anything else is ignored)."""
-    sent = request.headers.get(OPEN_HEADER, "")[:200]
-    return tuple(int(part) for part in sent.split(",") if part.strip().isdigit())
+    ids = (read_row_id(part) for part in request.headers.get(OPEN_HEADER, "")[:200].split(","))
+    return tuple(row_id for row_id in ids if row_id is not None)
 
 
 def render_field_reply(request: Request, reply: FieldReply) -> Response:

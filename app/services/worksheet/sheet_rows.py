@@ -16,6 +16,7 @@ from typing import Any, ClassVar
 
 from sqlmodel import Session, col, select
 
+from app.db.ids import read_row_id
 from app.db.models import Deviation, Node, Safeguard, Scenario, SeverityCategory, Step
 from app.db.queries import (
     child_counts_by_deviation,
@@ -46,8 +47,8 @@ ROWS_PER_PART = 50
 OPEN_AT_MOST = 5
 """Scenarios a redraw keeps open because the scribe's page had them open."""
 
-_SCENARIO_OF_FIELD = re.compile(r"^(?:sc|add-sg|add-rec|scenario)-(\d+)(?:-|$)")
-_CHILD_OF_FIELD = re.compile(r"^(step|sg)-(\d+)-")
+_SCENARIO_OF_FIELD = re.compile(r"^(?:sc|add-sg|add-rec|scenario)-([0-9]+)(?:-|$)", re.ASCII)
+_CHILD_OF_FIELD = re.compile(r"^(step|sg)-([0-9]+)-", re.ASCII)
 
 
 @dataclass(frozen=True)
@@ -139,11 +140,12 @@ def scenario_of_field(session: Session, field_id: str) -> int | None:
     """The scenario a worksheet element id belongs to ("step-12-value_text": step 12's)."""
     found = _SCENARIO_OF_FIELD.match(field_id)
     if found:
-        return int(found.group(1))
+        return read_row_id(found.group(1))
     child = _CHILD_OF_FIELD.match(field_id)
-    if child is None:
+    row_id = read_row_id(child.group(2)) if child else None
+    if child is None or row_id is None:
         return None
-    row = session.get(Step if child.group(1) == "step" else Safeguard, int(child.group(2)))
+    row = session.get(Step if child.group(1) == "step" else Safeguard, row_id)
     return row.scenario_id if isinstance(row, Step | Safeguard) else None
 
 

@@ -177,3 +177,13 @@ def test_a_slim_line_says_what_an_incomplete_scenario_still_needs(
     line = text_of(page_of(client, big_node), f"scenario-{second.id}")
     assert line.startswith("7.1.2 Cause 1.2 → Overfill incomplete: ")
     assert line.endswith("◌ incomplete")
+
+
+@pytest.mark.parametrize("focus", ["step-99999999999999999999999-value_text", "sc-²-cause",
+                                   "sg-0-description", "step--1-basis", "add-sg-4294967296"])
+def test_a_focus_or_open_list_that_names_no_row_draws_the_first_paint(
+    client: TestClient, session: Session, big_node: Node, focus: str
+) -> None:
+    html = page_of(client, big_node, f"?focus={focus}",
+                   headers={"X-Tallyroom-Open": "x,99999999999999999999999,-3,0, 7 7"})
+    assert full_ids(html) == [] and len(slim_ids(html)) == FIRST_PAINT_ROWS
