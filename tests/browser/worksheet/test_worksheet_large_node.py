@@ -76,9 +76,11 @@ def test_a_scenario_far_down_opens_in_full_and_its_value_edits_live(
     scenarios = scenarios_of(session, big_node)
     far, before_far = scenarios[-1], scenarios[-2]
     page.goto(f"{live_server}/studies/{big_node.study_id}/nodes/{big_node.id}")
-    while not page.locator(f"#scenario-{far.id}").count():
-        page.locator("[data-more-rows]").last.scroll_into_view_if_needed()
-        page.wait_for_timeout(100)
+    for _ in range(60):  # to the end of the page until the last scenario has arrived
+        if page.locator(f"#scenario-{far.id}").count():
+            break
+        page.evaluate("window.scrollTo(0, document.body.scrollHeight)")
+        page.wait_for_timeout(150)
     page.locator(f"#scenario-{before_far.id} [data-open-scenario]").focus()
     page.keyboard.press("Enter")  # Enter on a slim line opens it, the cursor in its cause
     expect(page.locator(f"#sc-{before_far.id}-cause")).to_be_focused()
