@@ -28,6 +28,12 @@ CAUTIONS = (
     "its decade, not its digits. Follow your company's standards, local regulations, the "
     "IEC 61511 safety lifecycle and competent professional judgement."
 )
+# The room view's one line (a projector has no room for the paragraph, which it keeps in the
+# line's title): the same cautions, each in a word or two.
+ROOM_CAUTION = (
+    "Decision support for a competent team · order-of-magnitude figures from agreed inputs · "
+    "company standards, regulations, IEC 61511 and judgement decide"
+)
 
 # Explicit bidirectional formatting characters: embeddings and overrides (closed by PDF,
 # U+202C) and isolates (closed by PDI, U+2069).
@@ -100,7 +106,8 @@ def worksheet_path(context: Mapping[str, Any], spot: WorksheetSpot) -> str:
 templates.env.filters.update(sci=sci, one_in=format_one_in, orders=orders, rrf=rrf,
                              required_rrf=required_rrf,
                              kind_words=step_kind_words)
-templates.env.globals.update(cautions=CAUTIONS, step_kinds=tuple(StepKind),
+templates.env.globals.update(cautions=CAUTIONS, room_caution=ROOM_CAUTION,
+                             step_kinds=tuple(StepKind),
                              path_for=_template_path_for, worksheet_path=worksheet_path)
 
 

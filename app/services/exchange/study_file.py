@@ -124,10 +124,12 @@ def _check_size(data: dict[str, Any]) -> None:
 
 
 def _check_round_count(where: str, study: Any, limit: int) -> None:
-    """As many estimate rounds, and as many estimates, as a file may have scenarios."""
+    """As many estimate rounds, estimates and words, each, as a file may have scenarios."""
     rounds = _items(study, "estimate_rounds")
     estimates = sum(len(_items(found, "estimates")) for found in rounds)
-    for count, what in ((len(rounds), "estimate rounds"), (estimates, "estimates")):
+    words = len(_items(study, "word_scale"))
+    for count, what in ((len(rounds), "estimate rounds"), (estimates, "estimates"),
+                        (words, "words on the word scale")):
         if count > limit:
             raise StudyFileError(f"{where} has {count:,} {what}; a study file may have at "
                                  f"most {limit:,} (as many as scenarios)")
