@@ -90,7 +90,7 @@ def test_the_environment_line_governs_when_people_modifiers_do_not_apply_to_it(
     page = _page(client, scenario.study_id)
     lines = {row[0]: row for row in _receptor_rows(page, scenario.id or 0)}
     assert lines["People"][2:5] == ["5.0e-3", "1.0e-5", "5.0e2"]
-    assert lines["Environment ◆ governs"][2:5] == ["1.0e-1", "1.0e-4", "1e+03"]
+    assert lines["Environment ◆ governs"][2:5] == ["1.0e-1", "1.0e-4", "1.0e3"]
     assert lines["Asset"][1] == "not rated"
     shown = figures(page, scenario.id or 0)
     assert shown["mitigated"] == "1.0e-1 /yr" and shown["tolerable"] == "1.0e-4 /yr"
