@@ -23,6 +23,7 @@ from app.db.models import (
     Step,
     saved_id,
 )
+from app.db.queries import fetch_plain_rows, plain_rows_of_study
 from app.services.exchange.study_file_rounds import export_rounds, export_word_scale
 from app.services.exchange.study_schema import (
     FILE_FORMAT,
@@ -189,12 +190,9 @@ def _by_parent(rows: list[Any], parent: str) -> dict[int, list[Any]]:
 
 
 def _ordered(session: Session, model: Any, study_id: int) -> list[Any]:
-    statement = select(model).where(model.study_id == study_id)
-    if hasattr(model, "position"):
-        statement = statement.order_by(model.position, model.id)
-    else:
-        statement = statement.order_by(model.id)
-    return list(session.exec(statement).all())
+    """The study's rows of `model` in display order, as plain rows: the file reads only
+    columns, and building ORM objects was half the time of exporting a large study."""
+    return fetch_plain_rows(session, plain_rows_of_study(model, study_id))
 
 
 def export_study(session: Session, study_id: int, *, with_history: bool = True) -> dict[str, Any]:

@@ -164,7 +164,8 @@ def test_added_functions_are_counted_per_sil_band(client: TestClient, session: S
                       "SIL 3": ("0", "0"), "SIL 4": ("0", "0"),
                       "Beyond one function": ("0", "0")}
     needs = [row[1:7] for row in table_rows(page, "sil-needs-table")[1:]]
-    # RRF 200 and 100; target PFD 1/RRF; low demand (demand at most once a year).
+    # RRF 200 and 100 (a required RRF is shown whole); target PFD 1/RRF; low demand (demand
+    # at most once a year).
     assert needs == [["2.0e-3", "200", "low demand", "SIL 2", "5.0e-3", "—"],
                      ["1.0e-3", "100", "low demand", "SIL 1", "1.0e-2", "—"]]
 
