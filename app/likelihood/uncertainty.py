@@ -65,6 +65,40 @@ def validate_error_factor(value: float, label: str = "Error factor") -> float:
     return float(value)
 
 
+MAX_TYPED_ERROR_FACTOR = 100.0
+"""The largest EF a team may type: EF 100 spreads the 5th to 95th percentile over four orders
+of magnitude, beyond what LOPA's order-of-magnitude numbers mean (common practice, no source)."""
+
+
+def read_typed_error_factor(text: str, label: str = "Error factor") -> float | None:
+    """A typed error factor: blank for none, else a number from 1 to 100 ("EF 3" reads as 3)."""
+    cleaned = text.strip().removeprefix("EF").removeprefix("ef").strip()
+    if not cleaned:
+        return None
+    try:
+        value = float(cleaned)
+    except ValueError:
+        raise input_error(
+            "error_factor_number",
+            f"an error factor is a number from 1 to {MAX_TYPED_ERROR_FACTOR:g}, "
+            f"such as 3 or 10 (got '{text.strip()[:40]}').",
+            label=label,
+        ) from None
+    return validate_typed_error_factor(value, label)
+
+
+def validate_typed_error_factor(value: float, label: str = "Error factor") -> float:
+    """Return value if it is an error factor the team may type: 1 <= EF <= 100."""
+    if not (math.isfinite(value) and 1 <= value <= MAX_TYPED_ERROR_FACTOR):
+        raise input_error(
+            "error_factor_bounds",
+            f"an error factor (95th over 50th percentile) must be at least 1 and at most "
+            f"{MAX_TYPED_ERROR_FACTOR:g} (got {value:g}); 1 means no uncertainty.",
+            label=label,
+        )
+    return float(value)
+
+
 def sigma_from_error_factor(error_factor: float) -> float:
     """The lognormal's log standard deviation: sigma = ln(EF) / 1.6448536..."""
     return math.log(validate_error_factor(error_factor)) / Z95
