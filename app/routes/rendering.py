@@ -12,9 +12,16 @@ from markupsafe import Markup
 from starlette.responses import Response
 from starlette.routing import NoMatchFound
 
-from app.likelihood.numbers import format_number, format_one_in
+from app.likelihood.numbers import (
+    format_error_factor,
+    format_number,
+    format_one_in,
+    probability_text,
+)
 from app.likelihood.types import StepKind, step_kind_words
+from app.likelihood.uncertainty import VERDICT_CONFIDENCE_LABELS
 from app.routes import urls
+from app.services.study.spread import MEDIAN_NOTE
 from app.services.study.tree import WorksheetSpot
 from app.settings import PROJECT_ROOT
 
@@ -86,7 +93,9 @@ def worksheet_path(context: Mapping[str, Any], spot: WorksheetSpot) -> str:
 
 
 templates.env.filters.update(sci=sci, one_in=format_one_in, orders=orders,
+                             percent=probability_text, ef=format_error_factor,
                              kind_words=step_kind_words)
+templates.env.globals.update(confidence_words=VERDICT_CONFIDENCE_LABELS, median_note=MEDIAN_NOTE)
 templates.env.globals.update(cautions=CAUTIONS, step_kinds=tuple(StepKind),
                              path_for=_template_path_for, worksheet_path=worksheet_path)
 

@@ -14,7 +14,7 @@ from typing import Any
 from sqlmodel import Session, col, select
 
 from app.db.models import EstimateRound, RoundEstimate, RoundState, Study
-from app.likelihood.numbers import format_number
+from app.likelihood.numbers import format_error_factor, format_number
 from app.likelihood.receptors import assess_receptors
 from app.likelihood.types import LikelihoodInputError, Receptor, StepInput, StepKind
 from app.likelihood.typical import typical_by_key
@@ -99,11 +99,6 @@ def step_error_factor(step: StoredStep, inputs: ErrorFactorInputs) -> ErrorFacto
         study_defaults=inputs.defaults)
 
 
-def format_error_factor(value: float) -> str:
-    """An EF to two significant figures, as people say it ("3", "4.1", "32")."""
-    return f"{float(f'{value:.2g}'):g}"
-
-
 def error_factor_note(factor: ErrorFactor, kind: StepKind, round_number: int | None) -> str:
     """Which source gave a step's EF, in words: "EF 3, typed", "EF 4.1, from round 2's spread"."""
     if factor.value is None:
@@ -136,6 +131,8 @@ class StepSpreadNote:
     """One step's EF and where it came from, keyed by the stored step's id."""
 
     step_id: int | None
+    kind: StepKind
+    label: str
     factor: ErrorFactor
     note: str
 
@@ -185,8 +182,9 @@ def scenario_spread(steps: Iterable[StoredStep], targets: Targets,
         governing, lines = _lines(tuple(zip(inputs_of, factors, strict=True)), targets)
     except LikelihoodInputError:
         return None
-    notes = tuple(StepSpreadNote(s.id, f, error_factor_note(
-        f, s.kind, _round_number(inputs, s.id))) for s, f in zip(ordered, factors, strict=True))
+    notes = tuple(StepSpreadNote(s.id, s.kind, s.description or s.kind.label, f,
+                                 error_factor_note(f, s.kind, _round_number(inputs, s.id)))
+                  for s, f in zip(ordered, factors, strict=True))
     line = next(x for x in lines if x.receptor is governing)
     return ScenarioSpread(line, lines, notes)
 
@@ -224,16 +222,6 @@ def uncertain_first(spreads: Sequence[tuple[Any, ScenarioSpread]]) -> list[tuple
     found = [(item, s.governing.distribution.probability_meets_target)
              for item, s in spreads if s.governing.uncertain]
     return sorted(found, key=lambda pair: pair[1])
-
-
-def probability_text(probability: float) -> str:
-    """P(meets) in percent as people read it: "73 %", "< 1 %", "> 99 %"."""
-    percent = probability * 100
-    if 0 < percent < 1:
-        return "< 1 %"
-    if 99 < percent < 100:
-        return "> 99 %"
-    return f"{percent:.0f} %"
 
 
 def band_text(distribution: ScenarioDistribution) -> str:

@@ -13,6 +13,7 @@ from scipy import stats
 from sqlmodel import Session, select
 
 from app.db.models import Step, Study
+from app.likelihood.numbers import probability_text
 from app.likelihood.types import Receptor, StepKind
 from app.likelihood.uncertainty import ErrorFactorSource
 from app.services.estimates import answers, rounds
@@ -20,7 +21,6 @@ from app.services.estimates.answers import Answerer
 from app.services.study.spread import (
     action_effect,
     load_error_factor_inputs,
-    probability_text,
     scenario_spread,
 )
 from app.services.study.tree import load_study_tree
