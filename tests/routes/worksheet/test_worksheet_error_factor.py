@@ -84,6 +84,7 @@ def test_an_ef_typed_on_a_stale_page_answers_409(client: TestClient, session: Se
     # The same page (old version, original blank) now types another EF: someone saved since.
     status, html = save_ef(client, layer, "5", version).split("\n", 1)
     assert status == "409"
+    assert "3" in html  # the other value is shown
     session.expire_all()
     assert session.get(Step, layer.id).error_factor == 3.0  # type: ignore[union-attr]
 
@@ -93,10 +94,11 @@ def test_clearing_the_ef_falls_back_to_the_next_source(client: TestClient, sessi
     scenario = session.get(Scenario, layer.scenario_id)
     assert scenario is not None
     version = attrs_of(page_of(client, layer), f"step-{layer.id}-version")["value"]
-    status, _ = save_ef(client, layer, "3", version).split("\n", 1)
+    assert save_ef(client, layer, "3", version).startswith("200")
     page = page_of(client, layer)
     version = attrs_of(page, f"step-{layer.id}-version")["value"]
     status, html = save_ef(client, layer, "", version, orig="3").split("\n", 1)
     assert status == "200"
+    assert "no EF: taken as exact" in html
     session.expire_all()
     assert session.get(Step, layer.id).error_factor is None  # type: ignore[union-attr]
