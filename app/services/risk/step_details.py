@@ -22,9 +22,15 @@ from app.likelihood.types import (
     StepKind,
 )
 from app.likelihood.typical import TypicalValue, typical_by_key, typical_for_kind
+from app.likelihood.uncertainty import read_typed_error_factor
 from app.services.risk.ipl_checks import checked_steps
 from app.services.study.errors import length_problem
 from app.services.study.results import compute_outcome
+from app.services.study.spread import (
+    error_factor_note,
+    load_error_factor_inputs,
+    step_error_factor,
+)
 from app.services.study.step_fields import receptors_text
 from app.services.study.tree import NotFoundError, WorksheetSpot, get_study
 
@@ -134,6 +140,7 @@ class StepDetailsForm:
     cause_type: str = ""
     per_opportunity_probability: str = ""
     opportunities_per_year: str = ""
+    error_factor: str = ""
 
     @classmethod
     def from_step(cls, step: Step) -> "StepDetailsForm":
@@ -155,6 +162,7 @@ class StepDetailsForm:
             cause_type=step.cause_type or "",
             per_opportunity_probability=_text(step.per_opportunity_probability),
             opportunities_per_year=_text(step.opportunities_per_year),
+            error_factor=_text(step.error_factor),
         )
 
     @classmethod
@@ -189,18 +197,31 @@ class StepDetailsPage:
         default_factory=lambda: dict(MODIFIER_KIND_LABELS))
     cause_types: dict[CauseType, str] = field(default_factory=lambda: dict(CAUSE_TYPE_LABELS))
     receptors: tuple[Receptor, ...] = tuple(Receptor)
+    error_factor_note: str = ""
+    """Which EF applies now and where it came from ("EF 3.2, from the typical-value range")."""
 
 
 def _details_page(session: Session, place: StepPlace, form: StepDetailsForm,
           errors: dict[str, str], *, saved: bool = False) -> StepDetailsPage:
     kind = place.step.kind
     steps = fetch_steps_of_scenario(session, place.scenario.id or 0)
+    study = get_study(session, place.step.study_id)
     return StepDetailsPage(
-        study=get_study(session, place.step.study_id), place=place,
+        study=study, place=place, error_factor_note=_error_factor_note(session, study, place),
         kind_label=kind.label, is_ipl=kind is StepKind.IPL, form=form, errors=errors,
         typical_options=typical_for_kind(kind), chosen_typical=typical_by_key(form.typical_key),
         ipl_types=IPL_TYPE_LABELS, warnings=check_scenario(checked_steps(steps)), saved=saved,
     )
+
+
+def _error_factor_note(session: Session, study: Study, place: StepPlace) -> str:
+    inputs = load_error_factor_inputs(session, study)
+    try:
+        factor = step_error_factor(place.step, inputs)
+    except LikelihoodInputError:
+        return ""
+    last = inputs.last_rounds.get(place.step.id or 0)
+    return error_factor_note(factor, place.step.kind, last.number if last else None)
 
 
 def build_step_details_page(*, session: Session, study_id: int, step_id: int) -> StepDetailsPage:
@@ -288,6 +309,13 @@ def _typical(text: str, kind: StepKind) -> str | None:
     return text
 
 
+def _error_factor(text: str) -> float | None:
+    try:
+        return read_typed_error_factor(text)
+    except LikelihoodInputError as err:
+        raise ValueError(err.message) from None
+
+
 def _form_text(text: str, limit: int, label: str) -> str:
     if problem := length_problem(text, limit):
         raise ValueError(f"{label}: {problem}")
@@ -299,6 +327,7 @@ def _readers(kind: StepKind) -> dict[str, Any]:
     readers: dict[str, Any] = {
         "typical_key": lambda t: _typical(t, kind),
         "basis": lambda t: _form_text(t, BASIS_LIMIT, "Basis"),
+        "error_factor": _error_factor,
     }
     if kind in (StepKind.IPL, StepKind.INITIATING_EVENT):
         readers |= {
