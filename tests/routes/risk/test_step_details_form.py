@@ -178,8 +178,8 @@ def test_the_error_factor_is_saved_and_its_source_named(client: TestClient,
     assert "Now: EF 3, typed." in unescape(page)
     session.refresh(step)
     assert step.error_factor == 3.0
-    # Blank: the typical-value row's range 1e-2 to 1e-1 read as 5th to 95th percentile gives
-    # EF = sqrt(1e-1 / 1e-2) = 3.16, shown as 3.2 (by hand).
+    # Blank: the typical-value row's range 1e-1 to 1 read as 5th to 95th percentile gives
+    # EF = sqrt(1 / 1e-1) = 3.16, shown as 3.2 (by hand).
     page = client.post(_url(step), data={**VALID, "error_factor": ""}).text
     assert "Now: EF 3.2, from the typical-value range." in unescape(page)
 
