@@ -92,7 +92,8 @@ UNCERTAINTY_WORDS = {"meets": "meets (P >= 95 %)", "uncertain": "uncertain (5 % 
 def uncertainty_cells(spread: ScenarioSpread | None) -> list[Cell]:
     """The governing line's median, percentiles, mean, EF, P(meets) and certainty."""
     if spread is None:
-        return [None] * (len(UNCERTAINTY_COLUMNS) - 1) + [""]
+        blank: list[Cell] = [None] * (len(UNCERTAINTY_COLUMNS) - 1)
+        return [*blank, ""]
     d = spread.governing.distribution
     return [d.median, d.p05, d.p95, d.mean, d.error_factor, d.probability_meets_target,
             UNCERTAINTY_WORDS[d.confidence.value]]
