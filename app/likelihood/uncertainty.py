@@ -10,7 +10,7 @@ from __future__ import annotations
 import math
 import statistics
 from collections.abc import Mapping, Sequence
-from dataclasses import dataclass, replace
+from dataclasses import dataclass
 from enum import StrEnum
 
 from app.likelihood.frequency import compute_scenario
@@ -253,8 +253,11 @@ def _probability_at_most(mu: float, sigma: float, tolerable: float, meets: bool)
 
 def _with_shares(parts: Sequence[StepSpread]) -> tuple[StepSpread, ...]:
     total = math.fsum(part.sigma**2 for part in parts)
+    # Built directly rather than with dataclasses.replace: a fifth of a whole study's spread.
     return tuple(
-        replace(part, variance_share=part.sigma**2 / total if total > 0 else 0.0) for part in parts
+        StepSpread(part.label, part.kind, part.median, part.error_factor, part.sigma,
+                   part.sigma**2 / total if total > 0 else 0.0)
+        for part in parts
     )
 
 
@@ -291,13 +294,24 @@ def scenario_distribution(
     Uncredited IPLs count neither in the median nor in the spread, as in compute_scenario.
     """
     result = compute_scenario([item.step for item in steps], tolerable_frequency)
+    return line_distribution(
+        steps, result.mitigated_frequency, result.tolerable_frequency, result.meets_target
+    )
+
+
+def line_distribution(
+    steps: Sequence[UncertainStep], median: float, tolerable_frequency: float, meets: bool
+) -> ScenarioDistribution:
+    """The lognormal of a line whose median and exact verdict are already computed.
+
+    `median` is compute_scenario's mitigated frequency for these steps (the product of the
+    medians, uncredited IPLs left out) and `meets` its verdict; only the spread is added here.
+    """
     counted = [item for item in steps if item.step.credited or item.step.kind != StepKind.IPL]
     # Summed logs: no underflow, unlike the product of the medians.
     mu = math.fsum(math.log(item.step.value) for item in counted)
     parts = [_spread_of(item) for item in counted]
-    return _distribution(
-        result.mitigated_frequency, mu, parts, result.tolerable_frequency, result.meets_target
-    )
+    return _distribution(median, mu, parts, tolerable_frequency, meets)
 
 
 @dataclass(frozen=True)

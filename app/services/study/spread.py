@@ -8,14 +8,13 @@ the median of a lognormal; the engine is `app/likelihood/uncertainty.py`.
 
 from collections.abc import Iterable, Mapping, Sequence
 from dataclasses import dataclass, field
-from functools import lru_cache
 from typing import Any
 
 from sqlmodel import Session, col, select
 
 from app.db.models import EstimateRound, RoundEstimate, RoundState, Study
 from app.likelihood.numbers import format_error_factor, format_number
-from app.likelihood.receptors import assess_receptors
+from app.likelihood.receptors import ReceptorAssessment, assess_receptors
 from app.likelihood.types import LikelihoodInputError, Receptor, StepInput, StepKind
 from app.likelihood.typical import typical_by_key
 from app.likelihood.uncertainty import (
@@ -26,9 +25,10 @@ from app.likelihood.uncertainty import (
     VerdictConfidence,
     choose_error_factor,
     judge_action,
-    scenario_distribution,
+    line_distribution,
 )
-from app.services.study.results import StoredStep, Targets, checked_steps, steps_for_receptor
+from app.services.study.results import StoredStep, Targets, steps_for_receptor
+from app.services.study.step_fields import modifier_kind_of, receptor_set
 
 MEDIAN_NOTE = "Each entered value is taken as the median (50th percentile) of a lognormal."
 
@@ -134,7 +134,12 @@ class StepSpreadNote:
     kind: StepKind
     label: str
     factor: ErrorFactor
-    note: str
+    round_number: int | None = None
+
+    @property
+    def note(self) -> str:
+        """"EF 3, typed" and so on (worded only when shown: most scenarios never are)."""
+        return error_factor_note(self.factor, self.kind, self.round_number)
 
 
 @dataclass(frozen=True)
@@ -154,39 +159,49 @@ class ScenarioSpread:
         return next((line for line in self.lines if line.receptor is receptor), None)
 
 
-Paired = tuple[tuple[StepInput, ErrorFactor], ...]
-
-
-@lru_cache(maxsize=65_536)
-def _lines(paired: Paired, targets: Targets) -> tuple[Receptor, tuple[LineSpread, ...]]:
-    """Each rated receptor's distribution (cached: frozen inputs) and the governing receptor."""
+def _lines(paired: Sequence[tuple[StepInput, ErrorFactor]],
+           receptors: ReceptorAssessment) -> tuple[LineSpread, ...]:
+    """Each rated receptor's distribution around its already computed line."""
     steps = [step for step, _ in paired]
-    governing = assess_receptors(steps, dict(targets)).governing.receptor
     lines = []
-    for receptor, tolerable in targets:
-        kept = set(map(id, steps_for_receptor(steps, receptor)))
+    for line in receptors.lines:
+        kept = set(map(id, steps_for_receptor(steps, line.receptor)))
         uncertain = [UncertainStep(step, factor) for step, factor in paired if id(step) in kept]
-        lines.append(LineSpread(receptor, scenario_distribution(uncertain, tolerable)))
-    return governing, tuple(lines)
+        lines.append(LineSpread(line.receptor, line_distribution(
+            uncertain, line.mitigated_frequency, line.tolerable_frequency, line.meets_target)))
+    return tuple(lines)
 
 
 def scenario_spread(steps: Iterable[StoredStep], targets: Targets,
-                    inputs: ErrorFactorInputs = NO_INPUTS) -> ScenarioSpread | None:
-    """The scenario's lognormal per receptor line; None without targets or with invalid steps."""
+                    inputs: ErrorFactorInputs = NO_INPUTS,
+                    receptors: ReceptorAssessment | None = None) -> ScenarioSpread | None:
+    """The scenario's lognormal per receptor line; None without targets or with invalid steps.
+
+    `receptors` is the scenario's computed assessment as credited when the caller has it (the
+    medians and verdicts are not computed twice); otherwise it is computed here.
+    """
     ordered = sorted(steps, key=lambda s: (s.position, s.id or 0))
     if not targets or any(getattr(s, "value", None) is None for s in ordered):
         return None
     try:
-        inputs_of = [c.to_step_input() for c in checked_steps(ordered)]
+        inputs_of = [_step_input(s) for s in ordered]
         factors = [step_error_factor(s, inputs) for s in ordered]
-        governing, lines = _lines(tuple(zip(inputs_of, factors, strict=True)), targets)
+        found = receptors or assess_receptors(inputs_of, dict(targets))
+        lines = _lines(list(zip(inputs_of, factors, strict=True)), found)
     except LikelihoodInputError:
         return None
-    notes = tuple(StepSpreadNote(s.id, s.kind, s.description or s.kind.label, f,
-                                 error_factor_note(f, s.kind, _round_number(inputs, s.id)))
+    notes = tuple(StepSpreadNote(s.id, s.kind, s.description, f, _round_number(inputs, s.id))
                   for s, f in zip(ordered, factors, strict=True))
-    line = next(x for x in lines if x.receptor is governing)
+    line = next(x for x in lines if x.receptor is found.governing.receptor)
     return ScenarioSpread(line, lines, notes)
+
+
+def _step_input(step: StoredStep) -> StepInput:
+    """What the spread reads of a stored step: as checked_step gives it, without the checks'
+    fields (a fifth of the time on a 10,000-scenario page)."""
+    return StepInput(step.kind, step.value, step.description, step.credited,
+                     modifier_kind=modifier_kind_of(getattr(step, "modifier_kind", None)),
+                     receptors=receptor_set(getattr(step, "receptors", None)))
 
 
 def _round_number(inputs: ErrorFactorInputs, step_id: int | None) -> int | None:

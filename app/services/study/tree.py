@@ -164,19 +164,22 @@ def _assemble(nodes: list[Node], rows: _ContentRows, categories: list[SeverityCa
             deviation_branch = DeviationBranch(deviation)
             for scenario in rows.scenarios[deviation.id or 0]:
                 steps = rows.steps[scenario.id or 0]
+                outcome = compute_outcome(scenario, steps, by_id)
                 deviation_branch.scenarios.append(ScenarioBranch(
-                    scenario, steps, rows.safeguards[scenario.id or 0],
-                    compute_outcome(scenario, steps, by_id),
-                    _spread_of(scenario, steps, by_id, inputs)))
+                    scenario, steps, rows.safeguards[scenario.id or 0], outcome,
+                    _spread_of(scenario, steps, by_id, inputs, outcome)))
             node_branch.deviations.append(deviation_branch)
         assembled.append(node_branch)
     return assembled
 
 
 def _spread_of(scenario: Scenario, steps: list[Step], categories: dict[int, SeverityCategory],
-               inputs: ErrorFactorInputs) -> ScenarioSpread | None:
+               inputs: ErrorFactorInputs, outcome: ScenarioOutcome) -> ScenarioSpread | None:
+    if outcome.assessment is None:
+        return None  # no figures: nothing to spread
     rated = receptor_categories(scenario, categories, people_not_rated=scenario.people_not_rated)
-    return scenario_spread(steps, targets_of(rated), inputs)
+    return scenario_spread(steps, targets_of(rated), inputs,
+                           outcome.assessment.as_credited.receptors)
 
 
 def _group(rows: list, key: str) -> dict[int, list]:  # type: ignore[type-arg]
