@@ -8,6 +8,7 @@ the median of a lognormal; the engine is `app/likelihood/uncertainty.py`.
 
 from collections.abc import Iterable, Mapping, Sequence
 from dataclasses import dataclass, field
+from functools import lru_cache
 from typing import Any
 
 from sqlmodel import Session, col, select
@@ -159,16 +160,25 @@ class ScenarioSpread:
         return next((line for line in self.lines if line.receptor is receptor), None)
 
 
-def _lines(paired: Sequence[tuple[StepInput, ErrorFactor]],
-           receptors: ReceptorAssessment) -> tuple[LineSpread, ...]:
-    """Each rated receptor's distribution around its already computed line."""
+LineKey = tuple[tuple[Receptor, float, float, bool], ...]
+"""Each computed line as (receptor, mitigated, tolerable, meets): what the spread reads of it."""
+
+
+@lru_cache(maxsize=65_536)
+def _lines(paired: tuple[tuple[StepInput, ErrorFactor], ...],
+           computed: LineKey) -> tuple[LineSpread, ...]:
+    """Each rated receptor's distribution around its already computed line.
+
+    Cached on its frozen inputs, like results.assess: a page showing a whole study recomputes
+    only the scenarios whose numbers or error factors changed.
+    """
     steps = [step for step, _ in paired]
     lines = []
-    for line in receptors.lines:
-        kept = set(map(id, steps_for_receptor(steps, line.receptor)))
+    for receptor, mitigated, tolerable, meets in computed:
+        kept = set(map(id, steps_for_receptor(steps, receptor)))
         uncertain = [UncertainStep(step, factor) for step, factor in paired if id(step) in kept]
-        lines.append(LineSpread(line.receptor, line_distribution(
-            uncertain, line.mitigated_frequency, line.tolerable_frequency, line.meets_target)))
+        lines.append(LineSpread(receptor, line_distribution(uncertain, mitigated, tolerable,
+                                                            meets)))
     return tuple(lines)
 
 
@@ -187,7 +197,9 @@ def scenario_spread(steps: Iterable[StoredStep], targets: Targets,
         inputs_of = [_step_input(s) for s in ordered]
         factors = [step_error_factor(s, inputs) for s in ordered]
         found = receptors or assess_receptors(inputs_of, dict(targets))
-        lines = _lines(list(zip(inputs_of, factors, strict=True)), found)
+        computed = tuple((line.receptor, line.mitigated_frequency, line.tolerable_frequency,
+                          line.meets_target) for line in found.lines)
+        lines = _lines(tuple(zip(inputs_of, factors, strict=True)), computed)
     except LikelihoodInputError:
         return None
     notes = tuple(StepSpreadNote(s.id, s.kind, s.description, f, _round_number(inputs, s.id))

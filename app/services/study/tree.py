@@ -3,6 +3,7 @@
 from collections import defaultdict
 from collections.abc import Callable
 from dataclasses import dataclass, field
+from functools import cached_property, partial
 from typing import Any
 
 from sqlmodel import Session
@@ -60,8 +61,17 @@ class ScenarioBranch:
     steps: list[Step]
     safeguards: list[Safeguard]
     outcome: ScenarioOutcome
-    spread: ScenarioSpread | None = None
-    """The mitigated frequency's lognormal per receptor line (issue 13); None: no figures."""
+    spread_source: Callable[[], ScenarioSpread | None] | None = field(
+        default=None, repr=False, compare=False)
+
+    @cached_property
+    def spread(self) -> ScenarioSpread | None:
+        """The mitigated frequency's lognormal per receptor line (issue 13); None: no figures.
+
+        Worked out on first use: a page that shows no uncertainty (the actions of a few
+        scenarios, a node's totals) does not pay for every scenario's.
+        """
+        return self.spread_source() if self.spread_source else None
 
 
 @dataclass
@@ -167,7 +177,7 @@ def _assemble(nodes: list[Node], rows: _ContentRows, categories: list[SeverityCa
                 outcome = compute_outcome(scenario, steps, by_id)
                 deviation_branch.scenarios.append(ScenarioBranch(
                     scenario, steps, rows.safeguards[scenario.id or 0], outcome,
-                    _spread_of(scenario, steps, by_id, inputs, outcome)))
+                    partial(_spread_of, scenario, steps, by_id, inputs, outcome)))
             node_branch.deviations.append(deviation_branch)
         assembled.append(node_branch)
     return assembled
