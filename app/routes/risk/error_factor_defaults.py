@@ -3,7 +3,7 @@
 from fastapi import APIRouter, Request
 from starlette.responses import RedirectResponse, Response
 
-from app.routes.deps import SessionDep
+from app.routes.deps import SessionDep, read_page_edit
 from app.routes.rendering import render
 from app.routes.urls import path_for
 from app.services.risk import error_factor_defaults as service
@@ -25,9 +25,8 @@ async def update_error_factor_defaults(request: Request, study_id: int,
                                        session: SessionDep) -> Response:
     """Save the defaults; 422 with the typed text kept, 409 on a stale page, else redirect."""
     form = await request.form()
-    version_text = str(form.get("version", "")).strip()
     page = service.save_defaults(session=session, study_id=study_id, form=form,
-                                 version=int(version_text) if version_text.isdigit() else None)
+                                 version=read_page_edit(form).version)
     if page.saved:
         url = path_for(request, "read_error_factor_defaults", study_id=study_id)
         return RedirectResponse(f"{url}?saved=1", status_code=303)
