@@ -14,7 +14,7 @@ from playwright.sync_api import Page, expect
 from scipy import stats
 from sqlmodel import Session
 
-from app.db.models import Step
+from app.db.models import Step, Study
 from app.likelihood.numbers import format_number, probability_text
 from tests.browser.worksheet.test_worksheet_live import open_worksheet, retype, saved
 from tests.factories import make_scenario_tree, make_step
@@ -62,3 +62,17 @@ def test_typing_an_ef_moves_the_band_and_p_meets(page: Page, live_server: str,
     assert row is not None and row.error_factor == 3.0
     assert saved(session, layer) == (1e-3, "1e-3")  # the value itself untouched
     page.screenshot(path=str(artifacts / "worksheet-uncertainty.png"), full_page=False)
+
+
+def test_the_risk_picture_lists_uncertain_verdicts_in_the_demo(
+        page: Page, live_server: str, demo_study: Study, artifacts: Path) -> None:
+    """The invented demo study's error factors (defaults, a typed EF, rounds, typical ranges)
+    leave some verdicts uncertain; the list shows each with its P(meets target), lowest first."""
+    page.goto(f"{live_server}/studies/{demo_study.id}/risk")
+    section = page.locator("#uncertain-verdicts")
+    cells = section.locator("[data-p-meets]")
+    expect(cells.first).to_be_visible()
+    shown = cells.all_inner_texts()
+    numbers = [float(text.strip(" %<>")) for text in shown]
+    assert numbers == sorted(numbers) and all(0 < n < 100 for n in numbers)
+    section.screenshot(path=str(artifacts / "risk-uncertain-verdicts.png"))
