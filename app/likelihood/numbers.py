@@ -64,6 +64,16 @@ def format_number(x: float) -> str:
     return f"{mantissa}e{int(exponent)}"
 
 
+def format_orders(x: float) -> str:
+    """A gap in orders of magnitude with its sign and one decimal: 1.39 -> "+1.4"."""
+    return f"{x:+.1f}"
+
+
+def format_rrf(x: float) -> str:
+    """A risk reduction factor as a whole number with thousands separators: "1,200"."""
+    return f"{x:,.0f}"
+
+
 def format_error_factor(value: float) -> str:
     """An EF to two significant figures, as people say it ("3", "4.1", "32")."""
     return f"{float(f'{value:.2g}'):g}"

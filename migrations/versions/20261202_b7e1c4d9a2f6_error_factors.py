@@ -7,7 +7,7 @@ spread and no typical-value range. Nullable columns only: existing rows keep the
 (no uncertainty recorded).
 
 Revision ID: b7e1c4d9a2f6
-Revises: a020a10ac7ce
+Revises: b7c4e1f0a935
 Create Date: 2026-12-02 09:30:00.000000
 """
 from collections.abc import Sequence
@@ -16,7 +16,7 @@ import sqlalchemy as sa
 from alembic import op
 
 revision: str = 'b7e1c4d9a2f6'
-down_revision: str | None = 'a020a10ac7ce'
+down_revision: str | None = 'b7c4e1f0a935'
 branch_labels: str | Sequence[str] | None = None
 depends_on: str | Sequence[str] | None = None
 
