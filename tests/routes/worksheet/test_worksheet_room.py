@@ -121,8 +121,8 @@ def contrast(foreground: str, background: str) -> float:
 
 
 def room_colours() -> dict[str, str]:
-    """The room view's colour variables, read from the stylesheet it uses."""
-    css = (PROJECT_ROOT / "static" / "worksheet.css").read_text()
+    """The room view's colour variables, read from its own stylesheet."""
+    css = (PROJECT_ROOT / "static" / "room.css").read_text()
     block = css[css.index("body.room {"):]
     block = block[:block.index("}")]
     return dict(re.findall(r"--room-([a-z]+):\s*(#[0-9a-fA-F]{6})", block))
