@@ -5,6 +5,7 @@ from dataclasses import dataclass
 
 from sqlmodel import Session
 
+from app.db.ids import read_row_id
 from app.db.models import Deviation, Node, Recommendation, SeverityCategory, Step, Study
 from app.db.queries import (
     fetch_first_node_id,
@@ -314,7 +315,7 @@ def node_links(session: Session, study_id: int) -> tuple[NodeLink, ...]:
 def picked_node_id(*, session: Session, study_id: int, picked: str) -> int | None:
     """The node chosen in the node picker when it belongs to the study, else the first node."""
     ids = [link.id for link in node_links(session, study_id)] if picked else []
-    chosen = int(picked) if picked.isdigit() else None
+    chosen = read_row_id(picked)
     return chosen if chosen in ids else first_node_id(session=session, study_id=study_id)
 
 
