@@ -5,6 +5,7 @@ from dataclasses import dataclass
 
 from sqlmodel import Session
 
+from app.db.ids import read_row_id
 from app.db.models import Deviation, Node, Recommendation, SeverityCategory, Step, Study
 from app.db.queries import (
     fetch_first_node_id,
@@ -26,7 +27,7 @@ from app.services.study.tree import (
     get_study,
     load_node_tree,
 )
-from app.services.worksheet.ladder import LadderView, build_ladder
+from app.services.worksheet.ladder import LadderBand, LadderView, build_ladder, ladder_band
 from app.services.worksheet.sheet_rows import (
     MoreRows,
     NodeOutline,
@@ -83,6 +84,15 @@ class ScenarioView:
         keeps the figures with the largest (replies can arrive out of order)."""
         rows = [self.item.scenario, *self.item.steps, *self.item.safeguards]
         return sum(row.version for row in rows)
+
+    @property
+    def band(self) -> LadderBand | None:
+        """The governing line's 5-95 % band on the ladder (None: no figures or no spread)."""
+        spread = self.item.spread
+        if self.ladder is None or spread is None or spread.governing.distribution.sigma == 0:
+            return None
+        found = spread.governing.distribution
+        return ladder_band(self.ladder, found.p05, found.p95)
 
     @property
     def slim(self) -> bool:
@@ -305,7 +315,7 @@ def node_links(session: Session, study_id: int) -> tuple[NodeLink, ...]:
 def picked_node_id(*, session: Session, study_id: int, picked: str) -> int | None:
     """The node chosen in the node picker when it belongs to the study, else the first node."""
     ids = [link.id for link in node_links(session, study_id)] if picked else []
-    chosen = int(picked) if picked.isdigit() else None
+    chosen = read_row_id(picked)
     return chosen if chosen in ids else first_node_id(session=session, study_id=study_id)
 
 
