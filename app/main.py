@@ -14,6 +14,7 @@ from app.db.tracking import install_tracking
 from app.lifecycle import server_lifespan
 from app.routes.deps import check_path_ids
 from app.routes.rendering import render
+from app.services.study.stored_results import install_stored_results
 from app.services.study.tree import NotFoundError
 from app.settings import PROJECT_ROOT, Settings, get_settings
 
@@ -32,6 +33,7 @@ def discover_routers() -> list[APIRouter]:
 def create_app(settings: Settings | None = None) -> FastAPI:
     """Build the app; the database must already be migrated (`make run` does it)."""
     install_tracking()
+    install_stored_results()
     # No docs page: it would load its scripts from a CDN. /openapi.json stays.
     application = FastAPI(title="Tallyroom", docs_url=None, redoc_url=None,
                           lifespan=server_lifespan)

@@ -62,19 +62,27 @@ def fetch_rows_of_node(session: Session, model: type[Row], node_id: int) -> list
     return list(session.exec(rows_of_node(model, node_id)).all())
 
 
-def step_figures_of_study(study_id: int) -> Any:
-    """The columns of a study's steps that the arithmetic reads, as plain rows."""
+def _step_figure_columns() -> list[Any]:
     # Every column the IPL checks read too: totals show the figures with flagged credits
     # withdrawn. Any: ORM attributes as columns.
-    columns: list[Any] = [Step.scenario_id, Step.id, Step.position, Step.kind, Step.value,
-                          Step.credited, Step.description, Step.ipl_type, Step.system_tag,
-                          Step.response_time_minutes, Step.sil_claimed, Step.typical_key,
-                          Step.acts_after_sif, Step.modifier_kind, Step.receptors,
-                          Step.cause_type, Step.final_element_tag, Step.alarm_on_bpcs,
-                          Step.crew, Step.per_opportunity_probability,
-                          Step.opportunities_per_year, Step.time_available_minutes,
-                          Step.time_to_detect_and_act_minutes]
-    return select_columns(*columns).where(col(Step.study_id) == study_id)
+    return [Step.scenario_id, Step.id, Step.position, Step.kind, Step.value,
+            Step.credited, Step.description, Step.ipl_type, Step.system_tag,
+            Step.response_time_minutes, Step.sil_claimed, Step.typical_key,
+            Step.acts_after_sif, Step.modifier_kind, Step.receptors,
+            Step.cause_type, Step.final_element_tag, Step.alarm_on_bpcs,
+            Step.crew, Step.per_opportunity_probability,
+            Step.opportunities_per_year, Step.time_available_minutes,
+            Step.time_to_detect_and_act_minutes]
+
+
+def step_figures_of_study(study_id: int) -> Any:
+    """The columns of a study's steps that the arithmetic reads, as plain rows."""
+    return select_columns(*_step_figure_columns()).where(col(Step.study_id) == study_id)
+
+
+def step_figures_of_scenarios(scenario_ids: list[int]) -> Any:
+    """step_figures_of_study for a few scenarios (found through the scenario_id index)."""
+    return select_columns(*_step_figure_columns()).where(col(Step.scenario_id).in_(scenario_ids))
 
 
 def scenario_ratings_of_study(study_id: int) -> Any:
@@ -86,6 +94,17 @@ def scenario_ratings_of_study(study_id: int) -> Any:
     return (select_columns(*columns)
             .join(Deviation, col(Deviation.id) == col(Scenario.deviation_id))
             .where(col(Scenario.study_id) == study_id))
+
+
+def scenario_ratings_of_scenarios(scenario_ids: list[int]) -> Any:
+    """scenario_ratings_of_study for a few scenarios, with each one's study."""
+    columns: list[Any] = [Scenario.id, Scenario.study_id, Scenario.deviation_id, Deviation.node_id,
+                          Scenario.severity_category_id, Scenario.environment_category_id,
+                          Scenario.asset_category_id,
+                          Scenario.people_not_rated]  # Any: ORM attributes as columns
+    return (select_columns(*columns)
+            .join(Deviation, col(Deviation.id) == col(Scenario.deviation_id))
+            .where(col(Scenario.id).in_(scenario_ids)))
 
 
 def category_targets_of_study(study_id: int) -> Any:

@@ -12,7 +12,7 @@ from app.likelihood.numbers import format_number
 from app.likelihood.types import LikelihoodInputError, StepKind
 from app.services.risk.ipl_checks import scenario_warnings
 from app.services.study.listing import NodeTotals
-from app.services.study.totals import study_totals
+from app.services.study.stored_results import stored_totals
 from app.services.study.tree import (
     DeviationBranch,
     NodeBranch,
@@ -183,11 +183,11 @@ def build_worksheet_page(*, session: Session, study_id: int, node_id: int,
     recommendations = recommendations_by_scenario(session, node_id)
     deviations = tuple(_deviation_view(d, f"{number}.{i}", recommendations)
                        for i, d in enumerate(node_branch.deviations, start=1))
-    totals = study_totals(session, study_id)
+    node_totals, study_totals = stored_totals(session, study_id, node_id)
     return WorksheetPage(
         study=tree.study, node=node_branch.node, nodes=node_links(session, study_id),
         categories=tuple(tree.categories), deviations=deviations,
-        node_totals=totals.of_node(node_id), study_totals=totals.study,
+        node_totals=node_totals, study_totals=study_totals,
         undo=undo_state(session=session, study_id=study_id, author=author),
         node_delete_question=node_delete_question(node_branch),
     )

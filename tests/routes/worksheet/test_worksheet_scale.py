@@ -25,6 +25,7 @@ from app.db.models import Deviation, Node, Safeguard, Scenario, Step, Study
 from app.likelihood.types import StepKind
 from app.services.exchange.study_import import import_study_text
 from app.services.study.listing import NodeTotals, totals_of
+from app.services.study.stored_results import ensure_current
 from app.services.study.totals import study_totals
 from app.services.study.tree import load_node_tree, load_study_tree
 from tests.helpers import HX
@@ -86,6 +87,7 @@ def imported_study(session: Session, node_count: int) -> Study:
     assert last is not None
     session.delete(last)
     session.commit()
+    ensure_current(session, study.id or 0)  # a study in use: its stored results are built
     return study
 
 
