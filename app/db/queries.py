@@ -62,6 +62,13 @@ def fetch_rows_of_node(session: Session, model: type[Row], node_id: int) -> list
     return list(session.exec(rows_of_node(model, node_id)).all())
 
 
+def fetch_rows_of_scenario(session: Session, model: type[Row], scenario_id: int) -> list[Row]:
+    """A scenario's steps or safeguards, in display order."""
+    table: Any = model
+    return list(session.exec(_in_display_order(
+        select(model).where(table.scenario_id == scenario_id), model)).all())
+
+
 def _step_figure_columns() -> list[Any]:
     # Every column the IPL checks read too: totals show the figures with flagged credits
     # withdrawn. Any: ORM attributes as columns.
@@ -180,6 +187,27 @@ def recommendations_of_node(node_id: int) -> Any:
             .where(Deviation.node_id == node_id)
             .order_by(col(RecommendationScenario.scenario_id), col(Recommendation.position),
                       col(Recommendation.id)))
+
+
+def fetch_recommendations_of_scenario(session: Session, scenario_id: int
+                                      ) -> tuple[Recommendation, ...]:
+    """The actions linked to one scenario, in the actions' order."""
+    return tuple(session.exec(
+        select(Recommendation)
+        .join(RecommendationScenario,
+              col(Recommendation.id) == col(RecommendationScenario.recommendation_id))
+        .where(RecommendationScenario.scenario_id == scenario_id)
+        .order_by(col(Recommendation.position), col(Recommendation.id))).all())
+
+
+def ordinal_of(session: Session, model: type[Any], parent_field: str, parent_id: int,
+               row_id: int) -> int:
+    """The row's place (from 1) among its siblings in display order (0 when not among them)."""
+    table: Any = model
+    ids = list(session.connection().execute(_in_display_order(
+        select_columns(table.id).where(getattr(table, parent_field) == parent_id),
+        model)).scalars())
+    return ids.index(row_id) + 1 if row_id in ids else 0
 
 
 def fetch_recommendations_of_node(session: Session,

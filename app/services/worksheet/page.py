@@ -6,7 +6,12 @@ from dataclasses import dataclass
 from sqlmodel import Session
 
 from app.db.models import Node, Recommendation, SeverityCategory, Step, Study
-from app.db.queries import fetch_first_node_id, fetch_node_links, fetch_recommendations_of_node
+from app.db.queries import (
+    fetch_first_node_id,
+    fetch_node_links,
+    fetch_recommendations_of_node,
+    fetch_recommendations_of_scenario,
+)
 from app.likelihood.checks import CheckWarning
 from app.likelihood.numbers import format_number
 from app.likelihood.types import LikelihoodInputError, StepKind
@@ -16,16 +21,13 @@ from app.services.study.stored_results import stored_totals
 from app.services.study.tree import (
     DeviationBranch,
     NodeBranch,
-    NotFoundError,
     ScenarioBranch,
     get_study,
     load_node_tree,
+    load_scenario_branch,
 )
 from app.services.worksheet.ladder import LadderView, build_ladder
 from app.services.worksheet.structure import (
-    get_row,
-    kind_of,
-    node_id_of,
     parse_step_value,
     step_label,
 )
@@ -214,19 +216,7 @@ def first_node_id(*, session: Session, study_id: int) -> int | None:
 
 def located_scenario(*, session: Session, study_id: int, scenario_id: int,
                      fallback: str = "") -> tuple[ScenarioView, Node]:
-    """One scenario recomputed and numbered within its node; only that node is loaded."""
-    scenario = get_row(session, kind_of("scenario"), study_id, scenario_id)
-    node_id = node_id_of(session, "scenario", scenario)
-    branch = load_node_tree(session, study_id, node_id).node
-    item, number = _locate(branch, scenario_id)
-    links = recommendations_by_scenario(session, node_id).get(scenario_id, ())
-    return scenario_view(item, number, links, fallback), branch.node
-
-
-def _locate(branch: NodeBranch, scenario_id: int) -> tuple[ScenarioBranch, str]:
-    node_number = branch.node.number or str(branch.node.id)
-    for d_index, deviation_branch in enumerate(branch.deviations, start=1):
-        for s_index, item in enumerate(deviation_branch.scenarios, start=1):
-            if item.scenario.id == scenario_id:
-                return item, f"{node_number}.{d_index}.{s_index}"
-    raise NotFoundError(f"There is no scenario {scenario_id} in node {branch.node.id}.")
+    """One scenario recomputed and numbered within its node; no other scenario is loaded."""
+    placed = load_scenario_branch(session, study_id, scenario_id)
+    links = fetch_recommendations_of_scenario(session, scenario_id)
+    return scenario_view(placed.branch, placed.number, links, fallback), placed.node
