@@ -13,7 +13,8 @@ from app.access.setup import install_access
 from app.db.tracking import install_tracking
 from app.lifecycle import server_lifespan
 from app.routes.deps import check_path_ids
-from app.routes.rendering import render
+from app.routes.rendering import is_htmx, render
+from app.services.study.conflicts import DeletedSinceError
 from app.services.study.stored_results import install_stored_results
 from app.services.study.tree import NotFoundError
 from app.settings import PROJECT_ROOT, Settings, get_settings
@@ -44,12 +45,23 @@ def create_app(settings: Settings | None = None) -> FastAPI:
     for router in discover_routers():
         application.include_router(router)
     application.add_exception_handler(NotFoundError, _not_found)
+    application.add_exception_handler(DeletedSinceError, _deleted_since)
     application.add_exception_handler(StarletteHTTPException, _http_error)
     return application
 
 
 def _not_found(request: Request, exc: Exception) -> Response:
     return render(request, "error.html", {"status": 404, "message": str(exc)}, status_code=404)
+
+
+def _deleted_since(request: Request, exc: Exception) -> Response:
+    """An edit of a row someone deleted: who and when, in the form's place for htmx (409)."""
+    assert isinstance(exc, DeletedSinceError)
+    if request.method in ("GET", "HEAD"):
+        return render(request, "error.html", {"status": 404, "message": exc.gone.sentence},
+                      status_code=404)
+    return render(request, "error.html", {"status": 409, "message": str(exc)},
+                  status_code=409, block="message" if is_htmx(request) else None)
 
 
 def _http_error(request: Request, exc: Exception) -> Response:

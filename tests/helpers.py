@@ -7,6 +7,7 @@ Test modules import helpers from here (or fixtures from conftest), never from ea
 import threading
 from collections.abc import Callable
 from html.parser import HTMLParser
+from typing import TypeVar
 
 from sqlalchemy import Engine
 from sqlmodel import Session
@@ -14,8 +15,10 @@ from sqlmodel import Session
 from app.db.tracking import AUTHOR_KEY
 
 TEST_AUTHOR = "Test Scribe"
+OTHER_AUTHOR = "Ben Other (invented)"  # the second person in tests of two editors
 
 HX = {"HX-Request": "true"}
+Row = TypeVar("Row")
 VOID = {"input", "br", "img", "meta", "link", "hr", "area", "base", "col", "source", "wbr"}
 
 
@@ -46,6 +49,14 @@ class Elements(HTMLParser):
         for _, element_id in self.open:
             if element_id:
                 self.texts[element_id].append(data)
+
+
+def reloaded(session: Session, model: type[Row], row_id: int | None) -> Row:
+    """A row as the database holds it now (after other clients' saves), which must exist."""
+    session.expire_all()
+    row = session.get(model, row_id)
+    assert row is not None, f"{model.__name__} {row_id} is gone"
+    return row
 
 
 def parse(html: str) -> Elements:

@@ -56,6 +56,19 @@ def _too_many(request: Request, template: str, form: dict[str, str]) -> Response
     return _form_page(request, template, form, message, 429, retry_after=wait)
 
 
+def _admit(request: Request, session: SessionDep, template: str, form: dict[str, str],
+           chosen: Role, *, secret_ok: bool, wrong_secret: str, landing: str) -> Response:
+    """The last step of joining and of signing in: a wrong code or passphrase counts against
+    this device and is refused; the right one starts the session and goes on to `form["next"]`
+    (a path on this site) or `landing`."""
+    if not secret_ok:
+        _limiter(request).record_failure(_address(request))
+        return _form_page(request, template, form, wrong_secret, 422)
+    start_session(request, role=chosen, name=form["name"], state=access_state.load_state(session),
+                  on_network=_settings(request).serves_network)
+    return RedirectResponse(same_site_path(form["next"], landing), status_code=303)
+
+
 @router.get("/join", name="read_join")
 @allow(None)
 def read_join(request: Request, next: str = "") -> Response:
@@ -80,13 +93,9 @@ def join_room(request: Request, session: SessionDep, code: Annotated[str, Form(m
     if chosen is Role.PARTICIPANT and not clean_name(name):
         return _form_page(request, "access/join.html", form,
                           "A participant gives a name: it shows beside their answers.", 422)
-    if not access_state.code_matches(session, code):
-        _limiter(request).record_failure(_address(request))
-        return _form_page(request, "access/join.html", form,
-                          "That is not today's join code: check the code on the room screen.", 422)
-    start_session(request, role=chosen, name=name, state=access_state.load_state(session),
-                  on_network=_settings(request).serves_network)
-    return RedirectResponse(same_site_path(next, "/rooms"), status_code=303)
+    return _admit(request, session, "access/join.html", form, chosen,
+                  secret_ok=access_state.code_matches(session, code), landing="/rooms",
+                  wrong_secret="That is not today's join code: check the code on the room screen.")
 
 
 @router.get("/sign-in", name="read_sign_in")
@@ -112,13 +121,9 @@ def sign_in(request: Request, session: SessionDep,
     if chosen not in SIGN_IN_ROLES or chosen is None or not clean_name(name):
         return _form_page(request, "access/sign_in.html", form,
                           "Give your name and choose facilitator or scribe.", 422)
-    if not access_state.passphrase_matches(session, passphrase):
-        _limiter(request).record_failure(_address(request))
-        return _form_page(request, "access/sign_in.html", form,
-                          "That is not the facilitator passphrase.", 422)
-    start_session(request, role=chosen, name=name, state=access_state.load_state(session),
-                  on_network=_settings(request).serves_network)
-    return RedirectResponse(same_site_path(next, "/"), status_code=303)
+    return _admit(request, session, "access/sign_in.html", form, chosen,
+                  secret_ok=access_state.passphrase_matches(session, passphrase), landing="/",
+                  wrong_secret="That is not the facilitator passphrase.")
 
 
 @router.post("/sign-out", name="sign_out")

@@ -15,14 +15,17 @@ from typing import Any
 
 import pytest
 import uvicorn
+from playwright.sync_api import Browser, BrowserContext, Page, expect
 from sqlalchemy import Engine
 
 from app.main import create_app
 from tests.conftest import empty_database
+from tests.helpers import OTHER_AUTHOR
 
 CHROMIUM = os.environ.get("TALLYROOM_CHROMIUM", "/usr/bin/chromium")
 ARTIFACTS = Path(__file__).resolve().parents[2] / "test-artifacts"
 SCREEN = {"width": 1920, "height": 1080}
+PAIR_SCREEN = {"width": 1400, "height": 900}  # each of two people's windows
 
 
 def pytest_collection_modifyitems(items: list[pytest.Item]) -> None:
@@ -82,6 +85,30 @@ def serve_in_thread(app: Any) -> Iterator[str]:
     server.should_exit = True
     thread.join(timeout=10)
     sock.close()
+
+
+def named_person(browser: Browser, live_server: str, name: str) -> Iterator[Page]:
+    """A browser context of one's own (own cookies), with a name for the change log."""
+    context: BrowserContext = browser.new_context(viewport=PAIR_SCREEN)  # type: ignore[arg-type]
+    page = context.new_page()
+    page.goto(f"{live_server}/")
+    page.locator("#author-name").fill(name)
+    page.locator("#author-form button[type=submit]").click()
+    expect(page.locator("#author-name")).to_have_value(name)
+    yield page
+    context.close()
+
+
+@pytest.fixture
+def ada(browser: Browser, live_server: str) -> Iterator[Page]:
+    """The first of two people working on one study at once."""
+    yield from named_person(browser, live_server, "Ada Scribe (invented)")
+
+
+@pytest.fixture
+def ben(browser: Browser, live_server: str) -> Iterator[Page]:
+    """The second of two people working on one study at once."""
+    yield from named_person(browser, live_server, OTHER_AUTHOR)
 
 
 @pytest.fixture

@@ -1,12 +1,16 @@
 """On the meeting-room network a participant sees and changes only their own estimate, and
 nothing of anyone's estimate reaches any page or fragment before the facilitator reveals."""
 
+import threading
+from typing import Any
+
+import pytest
 from fastapi.testclient import TestClient
 from sqlmodel import Session, select
 
 from app.db.models import RoundEstimate, Step
 from app.likelihood.types import StepKind
-from app.services.estimates import rounds
+from app.services.estimates import answers, rounds
 from tests.factories import make_scenario_tree, make_step
 from tests.security.conftest import NewDevice, join, sign_in
 
@@ -100,3 +104,40 @@ def test_an_estimate_for_a_round_of_another_study_is_not_found(
                            data={"round_id": str(round_id), "value_text": "1e-3"})
     assert response.status_code == 404
     assert session.exec(select(RoundEstimate)).all() == []
+
+
+def test_two_devices_joined_under_one_name_answering_at_once_get_303_and_422_never_500(
+        lan_device: NewDevice, session: Session, monkeypatch: pytest.MonkeyPatch) -> None:
+    """The unique-index race through the routes: both requests find no estimate for the name,
+    then both insert (a barrier holds each after its look until both have looked)."""
+    step, round_id = _round(session)
+    phones = [lan_device(), lan_device()]
+    for phone in phones:
+        assert join(phone, session, name="A. Lind") == 303
+    both_looked = threading.Barrier(2, timeout=10)
+    first_look = threading.local()
+    original = answers._existing
+
+    def looked_then_wait(*args: Any) -> Any:
+        found = original(*args)
+        if not getattr(first_look, "done", False):
+            first_look.done = True
+            both_looked.wait()
+        return found
+
+    monkeypatch.setattr(answers, "_existing", looked_then_wait)
+    replies: list[Any] = [None, None]
+
+    def send(index: int, text: str) -> None:
+        replies[index] = phones[index].post(f"/studies/{step.study_id}/estimate",
+                                            data={"round_id": str(round_id), "value_text": text})
+
+    threads = [threading.Thread(target=send, args=(i, t)) for i, t in enumerate(("1e-2", "0.3"))]
+    for thread in threads:
+        thread.start()
+    for thread in threads:
+        thread.join()
+    assert sorted(r.status_code for r in replies) == [303, 422]
+    refused = next(r for r in replies if r.status_code == 422)
+    assert "A. Lind has already answered this round from another device" in refused.text
+    assert len(session.exec(select(RoundEstimate)).all()) == 1

@@ -5,10 +5,11 @@ from typing import Annotated
 from fastapi import APIRouter, Form, Request
 from starlette.responses import RedirectResponse, Response
 
-from app.routes.deps import SessionDep
+from app.routes.deps import SessionDep, read_page_edit, read_seen
 from app.routes.rendering import is_htmx, render
 from app.services.record import attendance as attendance_service
-from app.services.record.attendance import AttendanceForm, AttendanceInputError
+from app.services.record.attendance import Answer, AttendanceForm, AttendanceInputError
+from app.services.study.conflicts import ConflictError
 
 router = APIRouter(prefix="/studies/{study_id}")
 TEMPLATE = "record/attendance/page.html"
@@ -38,6 +39,21 @@ def _refused(request: Request, session: SessionDep, study_id: int, kind: str,
     return _page(request, session, study_id, form, status_code=422)
 
 
+async def _answer(request: Request) -> Answer:
+    """The version and originals the edit form was loaded with, and any answer to a conflict."""
+    posted = await request.form()
+    return Answer(read_page_edit(posted), str(posted.get("resolution") or ""), read_seen(posted))
+
+
+def _conflict(request: Request, session: SessionDep, study_id: int, kind: str, item_id: int,
+              values: dict[str, str], answer: Answer, error: ConflictError) -> Response:
+    """409: the row's form again with the typed text, the other person's values and the choice."""
+    originals = {name: str(value) for name, value in answer.edit.originals.items()}
+    form = AttendanceForm(kind, item_id, values, conflicts=error.conflicts,
+                          page_version=answer.edit.version, originals=originals)
+    return _page(request, session, study_id, form, status_code=409)
+
+
 @router.get("/attendance", name="read_attendance")
 def read_attendance(request: Request, study_id: int, session: SessionDep) -> Response:
     """Session dates, participants and the attendance matrix."""
@@ -64,15 +80,17 @@ def edit_session_day(request: Request, study_id: int, day_id: int,
 
 
 @router.post("/attendance/days/{day_id}", name="update_session_day")
-def update_session_day(request: Request, study_id: int, day_id: int, session: SessionDep,
-                       day: TextForm = "", note: TextForm = "") -> Response:
-    """Save an edited session date."""
+async def update_session_day(request: Request, study_id: int, day_id: int, session: SessionDep,
+                             day: TextForm = "", note: TextForm = "") -> Response:
+    """Save what was changed in a session date (409 when someone saved it since)."""
+    values, answer = {"day": day, "note": note}, await _answer(request)
     try:
         attendance_service.update_day(session=session, study_id=study_id, day_id=day_id,
-                                      day=day, note=note)
+                                      day=day, note=note, answer=answer)
     except AttendanceInputError as error:
-        values = {"day": day, "note": note}
         return _refused(request, session, study_id, "day", day_id, values, error)
+    except ConflictError as error:
+        return _conflict(request, session, study_id, "day", day_id, values, answer, error)
     return _done(request, session, study_id)
 
 
@@ -109,16 +127,21 @@ def edit_participant(request: Request, study_id: int, participant_id: int,
 
 @router.post("/attendance/participants/{participant_id}",
              name="update_participant")
-def update_participant(request: Request, study_id: int, participant_id: int,
-                       session: SessionDep, name: TextForm = "", role: TextForm = "",
-                       discipline: TextForm = "", company: TextForm = "") -> Response:
-    """Save an edited participant."""
+async def update_participant(request: Request, study_id: int, participant_id: int,
+                             session: SessionDep, name: TextForm = "", role: TextForm = "",
+                             discipline: TextForm = "", company: TextForm = "") -> Response:
+    """Save what was changed in a participant (409 when someone saved those fields since)."""
     values = {"name": name, "role": role, "discipline": discipline, "company": company}
+    answer = await _answer(request)
     try:
         attendance_service.save_participant(session=session, study_id=study_id,
-                                              participant_id=participant_id, values=values)
+                                            participant_id=participant_id, values=values,
+                                            answer=answer)
     except AttendanceInputError as error:
         return _refused(request, session, study_id, "participant", participant_id, values, error)
+    except ConflictError as error:
+        return _conflict(request, session, study_id, "participant", participant_id, values,
+                         answer, error)
     return _done(request, session, study_id)
 
 
@@ -132,12 +155,22 @@ def delete_participant(request: Request, study_id: int, participant_id: int,
     return _done(request, session, study_id)
 
 
+def _marks_list(text: object) -> list[str] | None:
+    """The marks the matrix was loaded with ("3:7,3:8"); None when the form sent none."""
+    if not isinstance(text, str):
+        return None
+    return [mark for mark in text.split(",") if mark.strip()]
+
+
 @router.post("/attendance/marks", name="save_attendance")
-def save_attendance(request: Request, study_id: int, session: SessionDep,
-                    present: Marks = []) -> Response:  # noqa: B006 (FastAPI copies defaults)
-    """Make attendance exactly the ticked boxes (the matrix form without JavaScript)."""
+async def save_attendance(request: Request, study_id: int, session: SessionDep,
+                          present: Marks = []) -> Response:  # noqa: B006 (FastAPI copies defaults)
+    """Save the boxes changed since the matrix was loaded (the form without JavaScript)."""
+    # Read raw: an empty list of loaded marks ("") must stay apart from none sent.
+    loaded = (await request.form()).get("loaded_marks")
     try:
-        attendance_service.record_attendance(session=session, study_id=study_id, typed=present)
+        attendance_service.record_attendance(session=session, study_id=study_id, typed=present,
+                                             loaded=_marks_list(loaded))
     except AttendanceInputError as error:
         return _refused(request, session, study_id, "matrix", None, {}, error)
     return _done(request, session, study_id)

@@ -14,7 +14,8 @@ PAGE = "risk/criteria/edit.html"
 
 def _answer(request: Request, page: service.CriteriaPage) -> Response:
     has_errors = page.new_errors or page.basis_error or any(u.errors for u in page.categories)
-    status = 422 if has_errors else 409 if page.refusal or page.conflict else 200
+    conflict = page.refusal or page.conflict or page.basis_conflict
+    status = 422 if has_errors else 409 if conflict else 200
     return render(request, PAGE, {"page": page}, status_code=status)
 
 
@@ -28,9 +29,13 @@ def read_criteria(request: Request, study_id: int, session: SessionDep,
 
 @router.post("/criteria/basis", name="update_criteria_basis")
 async def update_criteria_basis(request: Request, study_id: int, session: SessionDep) -> Response:
-    """Say where the study's criteria come from."""
-    text = str((await request.form()).get("criteria_basis", ""))
-    page = service.save_criteria_basis(session=session, study_id=study_id, text=text)
+    """Say where the study's criteria come from (409 when someone saved another since)."""
+    posted = await request.form()
+    page = service.save_criteria_basis(session=session, study_id=study_id,
+                                       text=str(posted.get("criteria_basis", "")),
+                                       edit=read_page_edit(posted),
+                                       resolution=str(posted.get("resolution") or ""),
+                                       seen=read_seen(posted))
     return _answer(request, page)
 
 

@@ -1,15 +1,18 @@
 """Studies: the list, one study's overview, and a study's own life (new, edit, copy, delete)."""
 
+from dataclasses import replace
+
 from fastapi import APIRouter, Request
 from starlette.responses import RedirectResponse, Response
 
 from app.access.roles import Role, allow
-from app.routes.deps import SessionDep
+from app.routes.deps import SessionDep, read_page_edit, read_seen
 from app.routes.rendering import render
 from app.routes.urls import path_for
 from app.services.exchange.study_import import duplicate_study as copy_whole_study
 from app.services.study import lifecycle
 from app.services.study import listing as study_service
+from app.services.study.conflicts import ConflictError
 
 router = APIRouter()
 FORM_PAGE = "study/form.html"
@@ -23,11 +26,14 @@ def read_studies(request: Request, session: SessionDep) -> Response:
 
 
 def _study_form(request: Request, session: SessionDep, form: lifecycle.StudyForm, *,
-                study_id: int | None = None, errors: dict[str, str] | None = None) -> Response:
-    """The new-study or edit-study form, with each field's problem beside it."""
-    context = {"form": form, "errors": errors or {}, "study_id": study_id,
+                study_id: int | None = None, errors: dict[str, str] | None = None,
+                loaded: lifecycle.LoadedHeading | None = None) -> Response:
+    """The new-study or edit-study form, with each field's problem beside it (and, editing,
+    the version and fields it was loaded with; after a conflict the other person's values)."""
+    context = {"form": form, "errors": errors or {}, "study_id": study_id, "loaded": loaded,
                "sources": study_service.list_studies(session=session)}
-    return render(request, FORM_PAGE, context, status_code=422 if errors else 200)
+    status = 422 if errors else 409 if loaded and loaded.conflicts else 200
+    return render(request, FORM_PAGE, context, status_code=status)
 
 
 @router.get("/studies/new", name="new_study")
@@ -59,18 +65,28 @@ def read_study(request: Request, study_id: int, session: SessionDep) -> Response
 def edit_study(request: Request, study_id: int, session: SessionDep) -> Response:
     """The study's title, facility, scope and revision label, ready to change."""
     study = lifecycle.study_contents(session=session, study_id=study_id).study
-    return _study_form(request, session, lifecycle.StudyForm.from_study(study),
-                       study_id=study_id)
+    form = lifecycle.StudyForm.from_study(study)
+    return _study_form(request, session, form, study_id=study_id,
+                       loaded=lifecycle.LoadedHeading(study.version, form))
 
 
 @router.post("/studies/{study_id}/edit", name="update_study")
 async def update_study(request: Request, study_id: int, session: SessionDep) -> Response:
-    """Save the heading fields and go back to the overview."""
-    form = lifecycle.StudyForm.from_mapping(await request.form())
+    """Save the heading fields changed and go back to the overview (409 with both values when
+    someone saved the same field since the form was loaded)."""
+    posted = await request.form()
+    form, edit = lifecycle.StudyForm.from_mapping(posted), read_page_edit(posted)
+    loaded = lifecycle.LoadedHeading(edit.version, lifecycle.StudyForm.from_mapping(edit.originals))
     try:
-        lifecycle.update_study(session=session, study_id=study_id, form=form)
+        lifecycle.update_study(session=session, study_id=study_id, form=form, edit=edit,
+                               resolution=str(posted.get("resolution") or ""),
+                               seen=read_seen(posted))
     except lifecycle.StudyFormError as err:
-        return _study_form(request, session, form, study_id=study_id, errors=err.errors)
+        return _study_form(request, session, form, study_id=study_id, errors=err.errors,
+                           loaded=loaded)
+    except ConflictError as err:
+        return _study_form(request, session, form, study_id=study_id,
+                           loaded=replace(loaded, conflicts=err.conflicts))
     return RedirectResponse(path_for(request, "read_study", study_id=study_id), status_code=303)
 
 

@@ -6,6 +6,7 @@ device); the scribe's typed estimates have none and only an editor may change th
 
 from dataclasses import dataclass
 
+from sqlalchemy.exc import IntegrityError
 from sqlmodel import Session, select
 
 from app.db.models import EstimateRound, RoundEstimate, RoundState, utc_now
@@ -61,10 +62,24 @@ def give_estimate(*, session: Session, study_id: int, round_id: int, answerer: A
     found = _open(session, study_id, round_id)
     person = _person(answerer.person)
     parsed = parse_estimate(text, unit_for(found))
+    try:
+        _save(session, study_id, round_id, person, answerer, parsed)
+    except IntegrityError:
+        # Two devices sent this name at the same moment: both found no estimate, the unique
+        # index (round, person) let the first in. Read again and judge as if it came second.
+        session.rollback()
+        _save(session, study_id, round_id, person, answerer, parsed)
+    return parsed
+
+
+def _save(session: Session, study_id: int, round_id: int, person: str, answerer: Answerer,
+          parsed: ParsedNumber) -> None:
     existing = _existing(session, round_id, person)
     if existing is not None and not _may_change(existing, answerer):
         raise FieldInputError("person", f"Name: {person} has already answered this round "
-                                        "from another device (or the scribe typed it).")
+                                        "from another device (or the scribe typed it). One "
+                                        "estimate per person and round: if that was not you, "
+                                        "join again under your own name.")
     estimate = existing or RoundEstimate(study_id=study_id, round_id=round_id, person=person,
                                          value=parsed.value)
     estimate.value, estimate.value_text = parsed.value, parsed.text[:100]
@@ -73,7 +88,6 @@ def give_estimate(*, session: Session, study_id: int, round_id: int, answerer: A
     estimate.updated_at = utc_now()
     session.add(estimate)
     session.commit()
-    return parsed
 
 
 def own_estimate(session: Session, round_id: int, answerer: Answerer) -> ParsedNumber | None:

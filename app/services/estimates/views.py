@@ -13,13 +13,10 @@ from app.likelihood.numbers import ParsedNumber
 from app.services.estimates.answers import SCRIBE, Answerer, own_estimate
 from app.services.estimates.reading import unit_words
 from app.services.estimates.rounds import dissents_of, estimates_of, get_round, stats_of
+from app.services.estimates.spread_layout import mark_label, place_labels
 from app.services.study.tree import WorksheetSpot, get_study
 
 # Any in this module: a round's query conditions are SQLAlchemy expressions (the ORM boundary).
-
-# Marks closer than this (share of the axis) stack on separate lanes so none hides another.
-_CROWDED = 0.04
-
 
 @dataclass(frozen=True)
 class Mark:
@@ -29,8 +26,10 @@ class Mark:
     value: float
     text: str
     position: float
-    lane: int
+    lane: int  # the line its label is on (spread_layout.place_labels)
     by_scribe: bool
+    label: str = ""
+    label_x: float = 0.0
 
 
 @dataclass(frozen=True)
@@ -53,13 +52,15 @@ class RoundView:
 
 def _marks(found: EstimateRound, estimates: list[RoundEstimate],
            stats: RoundStats) -> tuple[Mark, ...]:
-    marks: list[Mark] = []
-    for estimate, position in zip(estimates, stats.positions, strict=True):
-        lane = sum(1 for mark in marks if abs(mark.position - position) < _CROWDED)
-        marks.append(Mark(person=estimate.person if found.names_shown else None,
-                          value=estimate.value, text=estimate.value_text, position=position,
-                          lane=lane, by_scribe=estimate.entered_by == SCRIBE))
-    return tuple(marks)
+    people = [e.person if found.names_shown else None for e in estimates]
+    labels = [mark_label(person, e.entered_by == SCRIBE, e.value)
+              for person, e in zip(people, estimates, strict=True)]
+    places = place_labels(labels, stats.positions)
+    return tuple(
+        Mark(person=person, value=e.value, text=e.value_text, position=position, lane=lane,
+             by_scribe=e.entered_by == SCRIBE, label=label, label_x=label_x)
+        for person, e, position, label, (label_x, lane)
+        in zip(people, estimates, stats.positions, labels, places, strict=True))
 
 
 def round_view(session: Session, found: EstimateRound) -> RoundView:
@@ -119,11 +120,20 @@ def study_rounds(*, session: Session, study_id: int) -> tuple[RoundView, ...]:
 
 
 def _latest(session: Session, study_id: int, *states: RoundState) -> EstimateRound | None:
-    return session.exec(select(EstimateRound)
-                        .where(EstimateRound.study_id == study_id,
-                               col(EstimateRound.state).in_(list(states)))
-                        .order_by(col(EstimateRound.updated_at).desc(),
-                                  col(EstimateRound.id).desc())).first()
+    """The newest round in one of the states that the team has not moved on from."""
+    candidates = session.exec(select(EstimateRound)
+                              .where(EstimateRound.study_id == study_id,
+                                     col(EstimateRound.state).in_(list(states)))
+                              .order_by(col(EstimateRound.updated_at).desc(),
+                                        col(EstimateRound.id).desc())).all()
+    return next((r for r in candidates if not _superseded(session, r)), None)
+
+
+def _superseded(session: Session, found: EstimateRound) -> bool:
+    """A later round asks the same question: a revealed round 1 stays a record, and once
+    round 2 is agreed the room view no longer shows round 1 as the round in hand."""
+    return session.exec(select(EstimateRound.id).where(
+        *_same_question(found), EstimateRound.number > found.number)).first() is not None
 
 
 def room_rounds(*, session: Session, study_id: int) -> tuple[RoundView, ...]:

@@ -33,6 +33,9 @@ SHEET_NOTES = {
     "Notes": "the notes written on each scenario",
     "Warnings": "every IPL-check warning with its source",
     "Added functions": "the safety functions the gaps ask for: SIL, mode, demand",
+    "Estimate rounds": "each round of private estimates: figures, agreed value, dissents",
+    "Estimates": "each person's revealed estimate, one row each",
+    "Word scale": "the team's words and the numbers adopted for them",
 }
 # Widest text a date or time cell shows ("2026-11-12 15:30:00"), so no column shows '####'.
 DATE_WIDTH, MOMENT_WIDTH = 10, 19

@@ -20,7 +20,8 @@ from app.db.ids import read_row_id
 from app.db.models import Study
 from app.services.exchange.export_audit_tables import audit_tables
 from app.services.exchange.export_csv import table_csv
-from app.services.exchange.export_tables import all_tables, scenario_table
+from app.services.exchange.export_rounds import round_tables
+from app.services.exchange.export_tables import all_tables, file_ref_numbers, scenario_table
 from app.services.exchange.export_xlsx import workbook_bytes
 from app.services.exchange.report import html_to_pdf
 from app.services.exchange.report_source import (
@@ -56,14 +57,16 @@ FORMATS = (
                "application/vnd.openxmlformats-officedocument.spreadsheetml.sheet",
                "An About sheet (revision, sign-off, cautions), then scenarios, steps with their "
                "basis, actions, criteria, attendance, the change log, safeguards not credited, "
-               "scenario notes, IPL warnings with sources and added functions, each on its own "
-               "sheet. Numbers are real numbers."),
+               "scenario notes, IPL warnings with sources, added functions, the estimate rounds, "
+               "each estimate and the team word scale, each on its own sheet. Numbers are real "
+               "numbers."),
     FormatInfo(ExportFormat.CSV, "Scenario table (.csv)", "text/csv; charset=utf-8",
                "One row per scenario with the same columns as the workbook's Scenarios sheet. "
                "UTF-8 with a byte-order mark, so spreadsheet programs read every script; the "
                "last row holds the cautions."),
     FormatInfo(ExportFormat.JSON, "Study file (.json)", "application/json",
-               "The whole study, its change log, revisions and the cautions in the versioned "
+               "The whole study with its estimate rounds and word scale, its change log, "
+               "revisions and the cautions in the versioned "
                "study-file format. Import it back from the study list or with `tallyroom import`."),
     FormatInfo(ExportFormat.PDF, "Report (.pdf)", "application/pdf",
                "A printable report: cover, scope and criteria, attendance, every scenario's steps "
@@ -143,7 +146,9 @@ def build_export(
         return ExportFile(name, info.media_type,
                           table_csv(scenario_table(tree), cautions=cautions))
     data = export_study(session, study_id)
-    content = workbook_bytes((*all_tables(tree, data), *audit_tables(tree)), data,
+    tables = (*all_tables(tree, data), *audit_tables(tree),
+              *round_tables(data, file_ref_numbers(tree)))
+    content = workbook_bytes(tables, data,
                              cautions=cautions, exported_at=now.replace(tzinfo=None),
                              revision=f"{working_copy_label(session, study_id)}: working copy, "
                                       f"not signed")

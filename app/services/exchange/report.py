@@ -15,6 +15,11 @@ from app.services.exchange.export_audit_tables import (
     added_functions,
     warning_source,
 )
+from app.services.exchange.export_rounds import (
+    RoundSummary,
+    round_summaries,
+    word_scale_table,
+)
 from app.services.exchange.export_tables import (
     DEMAND_LABELS,
     StudyData,
@@ -119,6 +124,9 @@ class Report:
     rules: tuple[RuleCount, ...] = ()
     overdue: frozenset[str] = frozenset()
     signature: Signature = Signature("Working copy")
+    # Issue 13: every estimate round (steps' in worksheet order, then words') and the scale.
+    rounds: tuple[RoundSummary, ...] = ()
+    word_scale: Table | None = None
 
 
 def build_report(tree: StudyTree, data: StudyData, *, when: datetime,
@@ -145,6 +153,8 @@ def build_report(tree: StudyTree, data: StudyData, *, when: datetime,
         functions=tuple(added_functions(tree)), rules=warnings_by_rule(nodes),
         overdue=overdue_actions(actions, when.date()),
         signature=signature or Signature(f"{tree.study.revision_label}"),
+        rounds=round_summaries(data, file_ref_numbers(tree)),
+        word_scale=word_scale_table(data),
     )
 
 

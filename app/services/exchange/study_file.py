@@ -23,6 +23,7 @@ from app.db.models import (
     Step,
     saved_id,
 )
+from app.services.exchange.study_file_rounds import export_rounds, export_word_scale
 from app.services.exchange.study_schema import (
     FILE_FORMAT,
     READABLE_VERSIONS,
@@ -119,6 +120,17 @@ def _check_size(data: dict[str, Any]) -> None:
         if total > settings.max_import_scenarios:
             raise StudyFileError(f"{where} has {total:,} scenarios; a study file may have at "
                                  f"most {settings.max_import_scenarios:,}")
+        _check_round_count(where, study, settings.max_import_scenarios)
+
+
+def _check_round_count(where: str, study: Any, limit: int) -> None:
+    """As many estimate rounds, and as many estimates, as a file may have scenarios."""
+    rounds = _items(study, "estimate_rounds")
+    estimates = sum(len(_items(found, "estimates")) for found in rounds)
+    for count, what in ((len(rounds), "estimate rounds"), (estimates, "estimates")):
+        if count > limit:
+            raise StudyFileError(f"{where} has {count:,} {what}; a study file may have at "
+                                 f"most {limit:,} (as many as scenarios)")
 
 
 def _check_format_and_version(data: Any) -> None:
@@ -209,6 +221,8 @@ def export_study(session: Session, study_id: int, *, with_history: bool = True) 
             for p in participants
         ],
         "session_days": _export_days(session, study_id, people_refs),
+        "estimate_rounds": export_rounds(session, study_id, scenario_refs),
+        "word_scale": export_word_scale(session, study_id),
     }
     if with_history:
         data["change_log"] = _export_log(session, study_id, scenario_refs)

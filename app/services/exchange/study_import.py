@@ -28,6 +28,7 @@ from app.db.models import (
 from app.db.queries import fetch_plain_rows, placed_rows_of_study
 from app.db.tracking import SUPPRESS_LOG_KEY
 from app.services.exchange.study_file import StudyFileError, export_study, parse_study_file
+from app.services.exchange.study_file_rounds import import_rounds
 from app.services.exchange.study_schema import StudyFile
 from app.services.study.step_fields import receptors_text
 
@@ -74,6 +75,7 @@ def import_study_file(session: Session, data: StudyFile) -> Study:
         scenarios = _import_nodes(session, study.id, data, categories)
         _import_actions(session, study.id, data, scenarios)
         _import_attendance(session, study.id, data)
+        import_rounds(session, study.id, data, scenarios)
         _import_history(session, study.id, data, scenarios)
         session.commit()
     except SQLAlchemyError as err:
@@ -266,7 +268,9 @@ def _import_history(
         ))
     for revision in data.revisions:
         # A snapshot without cautions (every one frozen in the app) is stored without them.
-        unset = None if "cautions" in revision.snapshot.model_fields_set else {"cautions"}
+        # Likewise the optional keys of issue 13, so an older snapshot is kept as it was.
+        unset = {key for key in ("cautions", "estimate_rounds", "word_scale")
+                 if key not in revision.snapshot.model_fields_set}
         snapshot = json.dumps(revision.snapshot.model_dump(mode="json", exclude=unset))
         session.add(Revision(study_id=study_id, snapshot=snapshot,
                              **revision.model_dump(exclude={"snapshot"})))

@@ -15,6 +15,12 @@ from app.likelihood.check_base import CauseType
 from app.likelihood.proof_test import Architecture
 from app.likelihood.types import IplType, ModifierKind, StepKind
 from app.likelihood.typical import typical_by_key
+from app.services.exchange.study_schema_rounds import (
+    EstimateRoundRow,
+    ScaleWordRow,
+    check_round_targets,
+    check_word_scale,
+)
 from app.services.study.errors import nul_problem
 
 # Any in this module: the proof-test inputs, the snapshot and the JSON Schema are JSON objects
@@ -270,6 +276,18 @@ class StudySnapshot(FileRow):
     recommendations: list[RecommendationRow] = []
     participants: list[ParticipantRow] = []
     session_days: list[SessionDayRow] = []
+    # Optional in schema version 2 (issue 13): the estimate rounds and the team word scale.
+    estimate_rounds: list[EstimateRoundRow] = []
+    word_scale: list[ScaleWordRow] = []
+
+    @model_validator(mode="after")
+    def rounds_and_words_follow_their_rules(self) -> "StudySnapshot":
+        """Each round names a step of this file in its unit; the word scale's words are valid."""
+        step_kinds = {s.ref: [step.kind for step in s.steps]
+                      for n in self.nodes for d in n.deviations for s in d.scenarios}
+        check_round_targets(self.estimate_rounds, step_kinds)
+        check_word_scale(self.word_scale)
+        return self
 
     @model_validator(mode="after")
     def references_resolve(self) -> "StudySnapshot":

@@ -5,7 +5,7 @@ the field and the rule, so nothing invalid reaches the database.
 """
 
 from collections.abc import Iterable, Mapping
-from dataclasses import dataclass, replace
+from dataclasses import dataclass
 from datetime import date
 from typing import Any
 
@@ -22,14 +22,7 @@ from app.services.record.action_inputs import (
     read_direction,
 )
 from app.services.record.change_log import record_link_change
-from app.services.study.conflicts import (
-    FieldConflict,
-    PageEdit,
-    as_text,
-    changed_fields,
-    guarded_save,
-    log_resolution,
-)
+from app.services.study.conflicts import ConflictError, PageEdit, save_form
 from app.services.study.tree import NotFoundError, get_study
 
 # Any in this module: form values arrive raw (the form boundary).
@@ -89,12 +82,8 @@ def _next_position(session: Session, study_id: int) -> int:
     return max(positions, default=-1) + 1
 
 
-class ActionConflictError(Exception):
+class ActionConflictError(ConflictError):
     """Someone saved the same fields of this action since the page loaded it (409)."""
-
-    def __init__(self, conflicts: tuple[FieldConflict, ...]) -> None:
-        super().__init__("changed since the page was loaded")
-        self.conflicts = conflicts
 
 
 def save_action(
@@ -112,18 +101,8 @@ def save_action(
     values = read_changes(changes)
     check_reason(values.get("status", action.status),
                  values.get("status_reason", action.status_reason))
-    edit = edit or PageEdit()
-    originals = _readable(edit.originals)
-    if resolution in ("keep", "take") and seen:
-        theirs = _readable(seen)
-        originals.update(theirs)
-        if resolution == "take":
-            values.update(theirs)
-        for name, value in theirs.items():
-            log_resolution(session, action, name, kept_mine=resolution == "keep",
-                           theirs=as_text(value), mine=as_text(values.get(name)))
-    result = guarded_save(session, Recommendation, action_id,
-                          replace(edit, originals=originals), changed_fields(values, originals))
+    result = save_form(session, action, values, edit or PageEdit(), read=_readable,
+                       resolution=resolution, seen=seen)
     if result.outcome is SaveOutcome.CHANGED_SINCE:
         session.rollback()
         raise ActionConflictError(result.conflicts)

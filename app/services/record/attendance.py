@@ -3,15 +3,25 @@
 Writes validate first and raise AttendanceInputError naming the field and the rule.
 """
 
-from dataclasses import dataclass
+from collections.abc import Mapping
+from dataclasses import dataclass, field
 from datetime import date
 from typing import Any, TypeVar
 
 from sqlmodel import Session, col, select
 
+from app.db.compare_and_set import SaveOutcome
 from app.db.ids import read_row_id
 from app.db.models import Attendance, Participant, SessionDay, Study, text_limit
 from app.db.queries import fetch_rows_of_study
+from app.services.study.conflicts import (
+    ConflictError,
+    FieldConflict,
+    GuardedResult,
+    PageEdit,
+    missing_row,
+    save_form,
+)
 from app.services.study.errors import FieldInputError, length_problem
 from app.services.study.tree import NotFoundError, get_study
 
@@ -26,6 +36,15 @@ NOTE_LIMIT = text_limit(SessionDay, "note")
 
 class AttendanceInputError(FieldInputError):
     """Bad input for a date or a participant: `field` is the form field, `message` the rule."""
+
+
+@dataclass(frozen=True)
+class Answer:
+    """How the page answered an earlier conflict ("keep"/"take"), with the values it showed."""
+
+    edit: PageEdit = field(default_factory=PageEdit)
+    resolution: str = ""
+    seen: Mapping[str, str] | None = None
 
 
 def read_day(typed: str) -> date:
@@ -61,7 +80,10 @@ def read_participant(values: dict[str, str]) -> dict[str, str]:
 
 def _row(session: Session, model: type[Saved], row_id: int, study_id: int, what: str) -> Saved:
     row = session.get(model, row_id)
-    if row is None or row.study_id != study_id:
+    if row is None:
+        raise missing_row(session, study_id, model, row_id,
+                          f"There is no {what} {row_id} in this study.")
+    if row.study_id != study_id:
         raise NotFoundError(f"There is no {what} {row_id} in this study.")
     return row
 
@@ -101,13 +123,47 @@ def add_day(*, session: Session, study_id: int, day: str, note: str = "") -> Ses
     return _save(session, SessionDay(study_id=study_id, day=when, note=cleaned_note))
 
 
-def update_day(*, session: Session, study_id: int, day_id: int, day: str, note: str) -> SessionDay:
-    """Change a session date or its note."""
+def update_day(*, session: Session, study_id: int, day_id: int, day: str, note: str,
+               answer: Answer = Answer()) -> SessionDay:
+    """Change a session date or its note (only what the person changed; 409 on a clash)."""
     row = _row(session, SessionDay, day_id, study_id, "session date")
     when, cleaned_note = read_day(day), _read_note(note)
     _check_unique_day(session, study_id, when, day_id)
-    row.sqlmodel_update({"day": when, "note": cleaned_note})
-    return _save(session, row)
+    result = save_form(session, row, {"day": when, "note": cleaned_note}, answer.edit,
+                       read=_day_texts, resolution=answer.resolution, seen=answer.seen)
+    return _finish(session, row, result)
+
+
+def _day_texts(texts: Mapping[str, Any]) -> dict[str, Any]:
+    """Sent text of a date's fields read like the person's own (a date that does not read:
+    left out)."""
+    values: dict[str, Any] = {}
+    if "note" in texts:
+        values["note"] = str(texts["note"]).strip()
+    try:
+        if "day" in texts:
+            values["day"] = read_day(str(texts["day"]))
+    except AttendanceInputError:
+        pass
+    return values
+
+
+def _participant_texts(texts: Mapping[str, Any]) -> dict[str, Any]:
+    """Sent text of a participant's fields, trimmed like the person's own."""
+    return {name: str(texts[name]).strip() for name in PARTICIPANT_LIMITS if name in texts}
+
+
+def _finish(session: Session, row: Saved, result: GuardedResult) -> Saved:
+    """Commit a guarded save, or roll back and say what stopped it."""
+    if result.outcome is SaveOutcome.CHANGED_SINCE:
+        session.rollback()
+        raise ConflictError(result.conflicts)
+    if result.outcome is SaveOutcome.DELETED:
+        session.rollback()
+        raise NotFoundError("This row was deleted since the page was loaded.")
+    session.commit()
+    session.refresh(row)
+    return row
 
 
 def _delete_with_marks(session: Session, row: Any, marks: Any) -> None:
@@ -132,12 +188,15 @@ def add_participant(*, session: Session, study_id: int, values: dict[str, str]) 
 
 
 def save_participant(
-    *, session: Session, study_id: int, participant_id: int, values: dict[str, str]
+    *, session: Session, study_id: int, participant_id: int, values: dict[str, str],
+    answer: Answer = Answer(),
 ) -> Participant:
-    """Change a participant's name, role, discipline or company."""
+    """Change a participant's name, role, discipline or company (only what the person changed;
+    a field someone else saved since the page loaded raises ConflictError)."""
     row = _row(session, Participant, participant_id, study_id, "participant")
-    row.sqlmodel_update(read_participant(values))
-    return _save(session, row)
+    result = save_form(session, row, read_participant(values), answer.edit,
+                       read=_participant_texts, resolution=answer.resolution, seen=answer.seen)
+    return _finish(session, row, result)
 
 
 def remove_participant(*, session: Session, study_id: int, participant_id: int) -> None:
@@ -172,18 +231,24 @@ def read_marks(typed: list[str]) -> set[tuple[int, int]]:
     return marks
 
 
-def record_attendance(*, session: Session, study_id: int, typed: list[str]) -> None:
-    """Make the study's attendance exactly the ticked marks (the form without JavaScript)."""
+def record_attendance(*, session: Session, study_id: int, typed: list[str],
+                      loaded: list[str] | None = None) -> None:
+    """Make the study's attendance the ticked marks (the form without JavaScript).
+
+    `loaded`: the marks ticked when the form was loaded. Given, only the boxes the person
+    changed are written, so a mark someone else set or cleared meanwhile stays as they left it.
+    """
     page = read_attendance_page(session=session, study_id=study_id)
     wanted = read_marks(typed)
     known = {(d.id, p.id) for d in page.days for p in page.participants}
     if not wanted <= known:
         raise AttendanceInputError("present", "a mark names a date or person not in this study.")
+    before = page.present if loaded is None else read_marks(loaded)
     for day_id, participant_id in known:
-        if ((day_id, participant_id) in wanted) != ((day_id, participant_id) in page.present):
+        ticked = (day_id, participant_id) in wanted
+        if ticked != ((day_id, participant_id) in before):
             set_attendance(session=session, study_id=study_id, day_id=day_id or 0,
-                           participant_id=participant_id or 0,
-                           present=(day_id, participant_id) in wanted)
+                           participant_id=participant_id or 0, present=ticked)
 
 
 @dataclass(frozen=True)
@@ -221,6 +286,20 @@ class AttendanceForm:
     values: dict[str, str] | None = None
     error_field: str = ""
     error: str = ""
+    conflicts: tuple[FieldConflict, ...] = ()  # someone saved these fields since (409)
+    page_version: int | None = None  # after a conflict: the version the page was loaded with
+    originals: Mapping[str, str] | None = None  # after a conflict: the page's originals
+
+    def original(self, name: str, saved: Any = "") -> str:
+        """What the form sends as the field's original: as loaded (the saved value), or after
+        a conflict the page's own originals (the other person's values go apart, as seen_…)."""
+        if self.conflicts:
+            return str((self.originals or {}).get(name, ""))
+        return "" if saved is None else str(saved)
+
+    def version(self, saved: int) -> int:
+        """The row version the form sends: the saved one, or after a conflict the page's."""
+        return self.page_version if self.conflicts and self.page_version else saved
 
     def value(self, name: str, saved: Any = "") -> str:
         """The typed text when the form came back, otherwise the saved value."""

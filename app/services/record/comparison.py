@@ -18,6 +18,7 @@ from typing import Any
 from app.likelihood.frequency import compute_scenario
 from app.likelihood.numbers import format_number
 from app.likelihood.types import LikelihoodInputError, StepInput, StepKind, step_kind_words
+from app.services.record.comparison_rounds import round_changes
 
 # Any in this module: both sides are study-file JSON objects (the file boundary).
 
@@ -358,4 +359,6 @@ def _step_key(row: Row) -> Hashable:
 
 def diff_studies(before: Row, after: Row) -> StudyDiff:
     """Every difference between two study files, and each affected scenario's numbers."""
-    return _Differ(before, after).run()
+    diff = _Differ(before, after).run()
+    diff.changes.extend(Change(*raw) for raw in round_changes(before, after))
+    return diff

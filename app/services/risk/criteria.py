@@ -5,7 +5,7 @@ again from the stored rows), and the change reports how the scenarios' status mo
 """
 
 from collections.abc import Mapping
-from dataclasses import dataclass, fields, replace
+from dataclasses import dataclass, fields
 from typing import Any
 
 from sqlmodel import Session, col, func, or_, select
@@ -15,17 +15,16 @@ from app.db.compare_and_set import SaveOutcome
 from app.db.models import Receptor, Scenario, SeverityCategory, Study, text_limit
 from app.likelihood.numbers import parse_frequency
 from app.likelihood.types import LikelihoodInputError
-from app.services.study.conflicts import (
-    FieldConflict,
-    PageEdit,
-    as_text,
-    changed_fields,
-    guarded_save,
-    log_resolution,
-)
+from app.services.study.conflicts import FieldConflict, PageEdit, missing_row, save_form
 from app.services.study.errors import length_problem
 from app.services.study.results import governing_category
-from app.services.study.tree import NotFoundError, StudyTree, get_study, load_study_tree
+from app.services.study.tree import (
+    NotFoundError,
+    ScenarioBranch,
+    StudyTree,
+    get_study,
+    load_study_tree,
+)
 
 # Any in this module: validated form values become model fields by name (the form boundary).
 
@@ -110,6 +109,27 @@ class CriteriaPage:
     message: str = ""
     refusal: str = ""
     conflict: "CategoryConflict | None" = None
+    basis_conflict: "BasisConflict | None" = None
+
+    @property
+    def basis_version(self) -> int:
+        """The study version the basis form sends: as loaded, or after a conflict the page's."""
+        clash = self.basis_conflict
+        return clash.page_version if clash and clash.page_version else self.study.version
+
+    @property
+    def basis_original(self) -> str:
+        """The basis as the page loaded it (sent back as orig_criteria_basis)."""
+        return self.basis_conflict.original if self.basis_conflict else self.study.criteria_basis
+
+
+@dataclass(frozen=True)
+class BasisConflict:
+    """The basis save stopped because someone saved another basis since the page loaded."""
+
+    fields: tuple[FieldConflict, ...]
+    page_version: int | None
+    original: str
 
 
 @dataclass(frozen=True)
@@ -138,11 +158,19 @@ def _rated_with(scenario: Scenario, category_id: int) -> bool:
                            scenario.asset_category_id)
 
 
+def _governed_by(item: ScenarioBranch, categories: Mapping[int, SeverityCategory]) -> int | None:
+    """The category of the scenario's governing line (the receptor needing the largest risk
+    reduction, with its own modifiers); a scenario that cannot be computed falls back to its
+    strictest rating, the only reading without arithmetic."""
+    category = item.outcome.governing_category or governing_category(item.scenario, categories)
+    return category.id if category is not None else None
+
+
 def _use(tree: StudyTree, row: SeverityCategory, form: CategoryForm | None = None,
          errors: dict[str, str] | None = None) -> CategoryUse:
     items = tree.scenario_branches()
     by_id = {c.id: c for c in tree.categories if c.id is not None}
-    governed = [s for s in items if (g := governing_category(s.scenario, by_id)) and g.id == row.id]
+    governed = [s for s in items if _governed_by(s, by_id) == row.id]
     short = [s for s in governed if s.outcome.result and not s.outcome.result.meets_target]
     return CategoryUse(
         category=row, form=form or CategoryForm.from_row(row),
@@ -160,7 +188,8 @@ def _criteria_page(session: Session, study_id: int, *, edited: Edited | None = N
                    new_form: CategoryForm | None = None, new_errors: dict[str, str] | None = None,
                    basis_text: str | None = None, basis_error: str = "", message: str = "",
                    refusal: str = "", tree: StudyTree | None = None,
-                   conflict: CategoryConflict | None = None) -> CriteriaPage:
+                   conflict: CategoryConflict | None = None,
+                   basis_conflict: BasisConflict | None = None) -> CriteriaPage:
     tree = tree or load_study_tree(session, study_id)
     edited = edited or {}
     uses = tuple(_use(tree, row, *edited.get(row.id or 0, (None, None)))
@@ -170,6 +199,7 @@ def _criteria_page(session: Session, study_id: int, *, edited: Edited | None = N
         new_errors=new_errors or {},
         basis_text=tree.study.criteria_basis if basis_text is None else basis_text,
         basis_error=basis_error, message=message, refusal=refusal, conflict=conflict,
+        basis_conflict=basis_conflict,
     )
 
 
@@ -219,8 +249,11 @@ def validate_category(form: CategoryForm) -> tuple[dict[str, Any], dict[str, str
 
 def _get_category(session: Session, study_id: int, category_id: int) -> SeverityCategory:
     row = session.get(SeverityCategory, category_id)
-    if row is None or row.study_id != study_id:
-        raise NotFoundError(f"There is no severity category {category_id} in study {study_id}.")
+    message = f"There is no severity category {category_id} in study {study_id}."
+    if row is None:
+        raise missing_row(session, study_id, SeverityCategory, category_id, message)
+    if row.study_id != study_id:
+        raise NotFoundError(message)
     return row
 
 
@@ -228,8 +261,7 @@ def _short_and_governed(tree: StudyTree, category_id: int) -> tuple[list[bool], 
     by_id = {c.id: c for c in tree.categories if c.id is not None}
     rated = [s for s in tree.scenario_branches() if _rated_with(s.scenario, category_id)]
     short = [bool(s.outcome.result and not s.outcome.result.meets_target) for s in rated]
-    governed = len([s for s in rated if (g := governing_category(s.scenario, by_id)) is not None
-                    and g.id == category_id])
+    governed = len([s for s in rated if _governed_by(s, by_id) == category_id])
     return short, governed
 
 
@@ -249,19 +281,11 @@ def save_category(*, session: Session, study_id: int, category_id: int, form: Ca
         errors["name"] = taken
     if errors:
         return _criteria_page(session, study_id, edited={category_id: (form, errors)})
-    edit = edit or PageEdit()
-    originals = _original_values(edit.originals)
-    if resolution in ("keep", "take") and seen:
-        theirs = _original_values(seen)
-        originals.update(theirs)
-        if resolution == "take":
-            values.update(theirs)
-        _log_resolved(session, row, values, theirs, kept_mine=resolution == "keep")
     short_before, governed_before = _short_and_governed(load_study_tree(session, study_id),
                                                         category_id)
-    touched = changed_fields(values, originals)
-    result = guarded_save(session, SeverityCategory, category_id,
-                          replace(edit, originals=originals), touched)
+    edit = edit or PageEdit()
+    result = save_form(session, row, values, edit, read=_original_values,
+                       resolution=resolution, seen=seen)
     if result.outcome is SaveOutcome.CHANGED_SINCE:
         session.rollback()
         conflict = CategoryConflict(category_id, result.conflicts, edit.version,
@@ -284,13 +308,6 @@ def _original_values(originals: Mapping[str, Any]) -> dict[str, Any]:
     values, errors = validate_category(form)
     return {name: value for name, value in values.items()
             if name in originals and name not in errors}
-
-
-def _log_resolved(session: Session, row: SeverityCategory, values: Mapping[str, Any],
-                  theirs: Mapping[str, Any], *, kept_mine: bool) -> None:
-    for name, value in theirs.items():
-        log_resolution(session, row, name, kept_mine=kept_mine, theirs=as_text(value),
-                       mine=as_text(values.get(name)))
 
 
 def _next_category_position(session: Session, study_id: int) -> int:
@@ -340,8 +357,11 @@ def remove_category(*, session: Session, study_id: int, category_id: int) -> Cri
     return _criteria_page(session, study_id, message=f"'{name}' deleted.")
 
 
-def save_criteria_basis(*, session: Session, study_id: int, text: str) -> CriteriaPage:
-    """Say where the criteria come from; errors save nothing and keep the typed text."""
+def save_criteria_basis(*, session: Session, study_id: int, text: str,
+                        edit: PageEdit | None = None, resolution: str = "",
+                        seen: Mapping[str, str] | None = None) -> CriteriaPage:
+    """Say where the criteria come from; errors save nothing and keep the typed text, and a
+    basis someone else saved since the page loaded stops the save with both texts (409)."""
     study = get_study(session, study_id)
     typed = text.strip()
     if not typed:
@@ -349,8 +369,26 @@ def save_criteria_basis(*, session: Session, study_id: int, text: str) -> Criter
     elif problem := length_problem(typed, BASIS_LIMIT):
         error = f"Criteria basis: {problem}"
     else:
-        study.criteria_basis = typed
-        session.add(study)
-        session.commit()
-        return _criteria_page(session, study_id, message="Criteria basis saved.")
+        return _save_basis(session, study, typed, edit or PageEdit(), resolution, seen)
     return _criteria_page(session, study_id, basis_text=text, basis_error=error)
+
+
+def _basis_text(texts: Mapping[str, Any]) -> dict[str, Any]:
+    """The sent basis text, trimmed like the person's own."""
+    return {name: str(text).strip() for name, text in texts.items() if name == "criteria_basis"}
+
+
+def _save_basis(session: Session, study: Study, typed: str, edit: PageEdit, resolution: str,
+                seen: Mapping[str, str] | None) -> CriteriaPage:
+    study_id = int(study.id or 0)
+    result = save_form(session, study, {"criteria_basis": typed}, edit, read=_basis_text,
+                       resolution=resolution, seen=seen)
+    if result.outcome is SaveOutcome.CHANGED_SINCE:
+        session.rollback()
+        clash = BasisConflict(result.conflicts, edit.version,
+                              str(edit.originals.get("criteria_basis", "")))
+        return _criteria_page(session, study_id, basis_text=typed, basis_conflict=clash)
+    if result.outcome is SaveOutcome.DELETED:
+        raise NotFoundError(f"Study {study_id} was deleted since.")
+    session.commit()
+    return _criteria_page(session, study_id, message="Criteria basis saved.")

@@ -2,12 +2,14 @@
 value and basis; used by the checks and by the proof-test calculator."""
 
 import math
+from collections.abc import Mapping
 from dataclasses import dataclass, field, fields
 from typing import Any
 
 from sqlmodel import Session, col, select
 from sqlmodel.sql.expression import SelectOfScalar
 
+from app.db.compare_and_set import SaveOutcome
 from app.db.models import Deviation, Scenario, SeverityCategory, Step, Study, saved_id, text_limit
 from app.db.queries import fetch_rows_of_study
 from app.likelihood.check_base import CauseType
@@ -23,6 +25,7 @@ from app.likelihood.types import (
 )
 from app.likelihood.typical import TypicalValue, typical_by_key, typical_for_kind
 from app.services.risk.ipl_checks import checked_steps
+from app.services.study.conflicts import FieldConflict, PageEdit, missing_row, save_form
 from app.services.study.errors import length_problem
 from app.services.study.results import compute_outcome
 from app.services.study.step_fields import receptors_text
@@ -53,6 +56,18 @@ CAUSE_TYPE_LABELS: dict[CauseType, str] = {
     CauseType.EXTERNAL_EVENT: "External event",
     CauseType.OTHER: "Other",
 }
+# How a conflict (409) names each field and, for choices, each stored value.
+FIELD_LABELS = {
+    "ipl_type": "Layer type", "system_tag": "System or device", "sil_claimed": "SIL claimed",
+    "time_available_minutes": "Time available (minutes)",
+    "time_to_detect_and_act_minutes": "Time to detect and act (minutes)",
+    "acts_after_sif": "Acts after an added SIF", "alarm_on_bpcs": "Alarm raised by the BPCS",
+    "final_element_tag": "Final element", "crew": "Crew", "cause_type": "Cause type",
+    "per_opportunity_probability": "Probability per opportunity",
+    "opportunities_per_year": "Opportunities a year", "modifier_kind": "Modifier kind",
+    "receptors": "Applies to", "typical_key": "Typical value", "basis": "Basis",
+}
+YES_NO = {"true": "yes", "false": "no"}
 
 
 @dataclass(frozen=True)
@@ -79,7 +94,10 @@ def fetch_steps_of_scenario(session: Session, scenario_id: int) -> list[Step]:
 def locate_step(session: Session, study_id: int, step_id: int) -> StepPlace:
     """The step of this study with its scenario and node, or NotFoundError."""
     step = session.get(Step, step_id)
-    if step is None or step.study_id != study_id:
+    if step is None:
+        raise missing_row(session, study_id, Step, step_id,
+                          f"There is no step {step_id} in study {study_id}.")
+    if step.study_id != study_id:
         raise NotFoundError(f"There is no step {step_id} in study {study_id}.")
     scenario = session.get(Scenario, step.scenario_id)
     deviation = session.get(Deviation, scenario.deviation_id) if scenario else None
@@ -185,14 +203,29 @@ class StepDetailsPage:
     ipl_types: dict[IplType, str]
     warnings: list[CheckWarning]
     saved: bool = False
+    version: int | None = None  # the row's version this form was loaded with
+    loaded: StepDetailsForm | None = None  # the details as loaded: the page's originals
+    conflicts: tuple[FieldConflict, ...] = ()  # fields someone saved since (409)
+    field_labels: dict[str, str] = field(default_factory=lambda: dict(FIELD_LABELS))
     modifier_kinds: dict[ModifierKind, str] = field(
         default_factory=lambda: dict(MODIFIER_KIND_LABELS))
     cause_types: dict[CauseType, str] = field(default_factory=lambda: dict(CAUSE_TYPE_LABELS))
     receptors: tuple[Receptor, ...] = tuple(Receptor)
 
+    def conflict_of(self, name: str) -> tuple[FieldConflict, ...]:
+        """The conflict on one field, for the box at that field (empty when none)."""
+        return tuple(c for c in self.conflicts if c.field == name)
+
+    def original(self, name: str) -> str:
+        """What the form sends as the field's original: as loaded, or after a conflict the
+        page's own originals (the values it showed are sent apart, as seen_…)."""
+        loaded = self.loaded or StepDetailsForm.from_step(self.place.step)
+        return str(getattr(loaded, name))
+
 
 def _details_page(session: Session, place: StepPlace, form: StepDetailsForm,
-          errors: dict[str, str], *, saved: bool = False) -> StepDetailsPage:
+                  errors: dict[str, str], *, saved: bool = False,
+                  conflict: "StepDetailsConflict | None" = None) -> StepDetailsPage:
     kind = place.step.kind
     steps = fetch_steps_of_scenario(session, place.scenario.id or 0)
     return StepDetailsPage(
@@ -200,7 +233,19 @@ def _details_page(session: Session, place: StepPlace, form: StepDetailsForm,
         kind_label=kind.label, is_ipl=kind is StepKind.IPL, form=form, errors=errors,
         typical_options=typical_for_kind(kind), chosen_typical=typical_by_key(form.typical_key),
         ipl_types=IPL_TYPE_LABELS, warnings=check_scenario(checked_steps(steps)), saved=saved,
+        version=conflict.page_version if conflict else place.step.version,
+        loaded=conflict.loaded if conflict else StepDetailsForm.from_step(place.step),
+        conflicts=conflict.fields if conflict else (),
     )
+
+
+@dataclass(frozen=True)
+class StepDetailsConflict:
+    """A details save stopped because someone saved the same fields since the page loaded."""
+
+    fields: tuple[FieldConflict, ...]
+    page_version: int | None
+    loaded: StepDetailsForm  # the page's originals, sent again with "keep mine"/"take theirs"
 
 
 def build_step_details_page(*, session: Session, study_id: int, step_id: int) -> StepDetailsPage:
@@ -323,21 +368,52 @@ def _readers(kind: StepKind) -> dict[str, Any]:
     return readers
 
 
-def save_step_details(*, session: Session, study_id: int, step_id: int,
-                        form: StepDetailsForm) -> StepDetailsPage:
-    """Save the details if every field is valid; otherwise save nothing, errors at the fields."""
+def _read_fields(kind: StepKind, texts: Mapping[str, Any]) -> tuple[dict[str, Any], dict[str, str]]:
+    """The sent fields a step of this kind keeps, read, and the error of each that does not."""
+    values: dict[str, Any] = {}
+    errors: dict[str, str] = {}
+    for name, reader in _readers(kind).items():
+        if name in texts:
+            try:
+                values[name] = reader(str(texts[name]).strip())
+            except ValueError as err:
+                errors[name] = str(err)
+    return values, errors
+
+
+def _choice_names(kind: StepKind, name: str) -> dict[str, str]:
+    """How a conflict names a stored choice (a layer type's label for its key)."""
+    choices: dict[str, Mapping[Any, str]] = {
+        "ipl_type": IPL_TYPE_LABELS, "modifier_kind": MODIFIER_KIND_LABELS,
+        "cause_type": CAUSE_TYPE_LABELS, "acts_after_sif": YES_NO, "alarm_on_bpcs": YES_NO,
+        "typical_key": {row.key: row.label for row in typical_for_kind(kind)},
+    }
+    return {str(key): label for key, label in choices.get(name, {}).items()}
+
+
+def save_step_details(*, session: Session, study_id: int, step_id: int, form: StepDetailsForm,
+                      edit: PageEdit | None = None, resolution: str = "",
+                      seen: Mapping[str, str] | None = None) -> StepDetailsPage:
+    """Save the fields the person changed if every field is valid; otherwise save nothing,
+    errors at the fields. A field someone else saved since the page loaded stops the save with
+    both values at that field (409); `resolution` ("keep"/"take") answers it (logged)."""
     place = locate_step(session, study_id, step_id)
-    values, errors = {}, {}
-    for name, reader in _readers(place.step.kind).items():
-        try:
-            values[name] = reader(getattr(form, name))
-        except ValueError as err:
-            errors[name] = str(err)
+    kind = place.step.kind
+    values, errors = _read_fields(kind, {f.name: getattr(form, f.name) for f in fields(form)})
     if errors:
         return _details_page(session, place, form, errors)
-    place.step.sqlmodel_update(values)
-    session.add(place.step)
+    edit = edit or PageEdit()
+    result = save_form(session, place.step, values, edit,
+                       read=lambda texts: _read_fields(kind, texts)[0],
+                       resolution=resolution, seen=seen)
+    if result.outcome is SaveOutcome.CHANGED_SINCE:
+        session.rollback()
+        shown = tuple(c.named(_choice_names(kind, c.field)) for c in result.conflicts)
+        loaded = StepDetailsForm.from_mapping(edit.originals)
+        return _details_page(session, place, form, {},
+                             conflict=StepDetailsConflict(shown, edit.version, loaded))
+    if result.outcome is SaveOutcome.DELETED:
+        raise NotFoundError(f"Step {step_id} was deleted since.")
     session.commit()
     session.refresh(place.step)
     return _details_page(session, place, StepDetailsForm.from_step(place.step), {}, saved=True)
-

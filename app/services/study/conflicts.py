@@ -19,8 +19,8 @@ overwrites a newer one whichever worker serves it.
 """
 
 import json
-from collections.abc import Mapping
-from dataclasses import dataclass, field
+from collections.abc import Callable, Mapping
+from dataclasses import dataclass, field, replace
 from datetime import datetime
 from enum import Enum
 from typing import Any
@@ -33,6 +33,7 @@ from sqlmodel import Session, col, select
 from app.db.compare_and_set import SaveOutcome, save_if_version
 from app.db.models import ChangeLogEntry, DeletedItem, FieldEdit, TrackedRow
 from app.db.tracking import AUTHOR_KEY, LOGGED_TYPES, describe
+from app.services.study.tree import NotFoundError
 
 # Any in this module: a guarded row is any tracked table model and its field values are of any
 # column type (the ORM boundary).
@@ -41,6 +42,7 @@ from app.db.tracking import AUTHOR_KEY, LOGGED_TYPES, describe
 # is reported as a conflict rather than retried for ever.
 MERGE_ATTEMPTS = 5
 RESOLUTION_ACTION = "conflict"  # change-log action of a "keep mine" / "take theirs" choice
+KEEP_MINE, TAKE_THEIRS = "keep", "take"  # the two answers to a conflict
 
 
 @dataclass(frozen=True)
@@ -63,6 +65,33 @@ class FieldConflict:
     author: str
     at: datetime | None
     version: int  # the row's version now: "keep mine" saves against it
+    # How the page names the values when that is not the value itself (a category's name for
+    # its id); the forms still send the values.
+    theirs_label: str = ""
+    mine_label: str = ""
+
+    @property
+    def shown_theirs(self) -> str:
+        """The other person's value as the page shows it."""
+        return self.theirs_label or self.theirs
+
+    @property
+    def shown_mine(self) -> str:
+        """The person's own value as the page shows it."""
+        return self.mine_label or self.mine
+
+    def named(self, names: Mapping[str, str]) -> "FieldConflict":
+        """The same conflict with both values shown by their names (unknown values as they are)."""
+        return replace(self, theirs_label=names.get(self.theirs, ""),
+                       mine_label=names.get(self.mine, ""))
+
+
+class ConflictError(Exception):
+    """Someone saved the same fields of a row since the page loaded it (409): nothing saved."""
+
+    def __init__(self, conflicts: tuple[FieldConflict, ...]) -> None:
+        super().__init__("changed since the page was loaded")
+        self.conflicts = conflicts
 
 
 @dataclass(frozen=True)
@@ -73,6 +102,31 @@ class GoneRow:
     author: str
     at: datetime | None
     undoable: bool
+
+    @property
+    def sentence(self) -> str:
+        """'This participant was deleted by Ada at 09:31:43 UTC on 2026-12-02. It cannot …'."""
+        who = self.author or "someone without a name"
+        when = f"{self.at:%H:%M:%S} UTC on {self.at:%Y-%m-%d}" if self.at else "an unknown time"
+        undo = ("Undo is available: “Undo delete” (Alt+Z) in the browser of the person who "
+                "deleted it brings it back." if self.undoable else "It cannot be undone.")
+        return f"This {self.entity} was deleted by {who} at {when}. {undo}"
+
+
+class DeletedSinceError(NotFoundError):
+    """An edit of a row someone deleted since the page was loaded (409, or 404 for a page)."""
+
+    def __init__(self, gone: GoneRow) -> None:
+        super().__init__(f"{gone.sentence} Your changes were not saved.")
+        self.gone = gone
+
+
+def missing_row(session: Session, study_id: int, model: type[Any], row_id: int,
+                message: str) -> NotFoundError:
+    """The error for a row that is not there: who deleted it and when, when the study's change
+    log says so (ids are never reused, so the entry is this row's), else plainly not found."""
+    gone = gone_row(session, study_id, model, row_id)
+    return DeletedSinceError(gone) if gone else NotFoundError(message)
 
 
 @dataclass(frozen=True)
@@ -131,6 +185,35 @@ def guarded_save(session: Session, model: type[Any], row_id: int, edit: PageEdit
         return GuardedResult(SaveOutcome.DELETED)
     return GuardedResult(SaveOutcome.CHANGED_SINCE,
                          tuple(conflict_at(session, row, f, v) for f, v in changes.items()))
+
+
+Reader = Callable[[Mapping[str, Any]], dict[str, Any]]
+
+
+def save_form(session: Session, row: TrackedRow, values: Mapping[str, Any], edit: PageEdit, *,
+              read: Reader, resolution: str = "", seen: Mapping[str, str] | None = None
+              ) -> GuardedResult:
+    """A whole-row form's save: only the fields the person changed, guarded by the version.
+
+    `read` turns sent text (the page's originals, the values a conflict showed) into field
+    values like the person's own, leaving out text that does not read. `resolution` answers an
+    earlier conflict: the values it showed (`seen`) become the originals, so "keep mine" saves
+    over them and "take theirs" (which also takes them as the values) saves nothing of those
+    fields; either choice is logged. The caller commits, or rolls back on a conflict.
+    """
+    originals = read(edit.originals)
+    values = dict(values)
+    if resolution in (KEEP_MINE, TAKE_THEIRS) and seen:
+        theirs = read(seen)
+        originals.update(theirs)
+        for name, value in theirs.items():
+            log_resolution(session, row, name, kept_mine=resolution == KEEP_MINE,
+                           theirs=as_text(value), mine=as_text(values.get(name)))
+        if resolution == TAKE_THEIRS:
+            values.update(theirs)
+    row_id = int(row.id)  # type: ignore[attr-defined]
+    return guarded_save(session, type(row), row_id, replace(edit, originals=originals),
+                        changed_fields(values, originals))
 
 
 def _unguarded(session: Session, model: type[Any], row_id: int,

@@ -11,6 +11,7 @@ from typing import Any
 
 from sqlmodel import Session, func, select
 
+from app.db.compare_and_set import SaveOutcome
 from app.db.models import (
     Node,
     Participant,
@@ -22,8 +23,9 @@ from app.db.models import (
 )
 from app.db.queries import fetch_rows_of_study
 from app.services.study import listing
+from app.services.study.conflicts import ConflictError, FieldConflict, PageEdit, save_form
 from app.services.study.errors import length_problem
-from app.services.study.tree import get_study
+from app.services.study.tree import NotFoundError, get_study
 
 # The study row's own column limits (app/db/models.py, StudyBase).
 LIMITS = {"title": 200, "facility": 200, "scope": 5000, "revision_label": 60}
@@ -59,6 +61,20 @@ class StudyForm:
         """The form filled with a study's current fields."""
         return cls(title=study.title, facility=study.facility, scope=study.scope,
                    revision_label=study.revision_label)
+
+
+@dataclass(frozen=True)
+class LoadedHeading:
+    """What the edit form was loaded with: the study's version and heading fields (sent back
+    as `version` and `orig_…`), and after a conflict (409) the fields someone saved since."""
+
+    version: int | None
+    fields: StudyForm
+    conflicts: tuple[FieldConflict, ...] = ()
+
+    def original(self, name: str) -> str:
+        """The loaded text of one heading field."""
+        return str(getattr(self.fields, name))
 
 
 @dataclass(frozen=True)
@@ -103,9 +119,11 @@ def validate_study_form(form: StudyForm) -> dict[str, str]:
     return errors
 
 
+HEADING_FIELDS = ("title", "facility", "scope", "revision_label")
+
+
 def _heading_values(form: StudyForm) -> dict[str, str]:
-    return {"title": form.title, "facility": form.facility, "scope": form.scope,
-            "revision_label": form.revision_label}
+    return {name: getattr(form, name) for name in HEADING_FIELDS}
 
 
 def _criteria_source(session: Session, text: str) -> Study | None:
@@ -142,18 +160,32 @@ def create_study(*, session: Session, form: StudyForm) -> Study:
     return study
 
 
-def update_study(*, session: Session, study_id: int, form: StudyForm) -> Study:
-    """Save the heading fields; a refused form changes nothing."""
+def update_study(*, session: Session, study_id: int, form: StudyForm,
+                 edit: PageEdit | None = None, resolution: str = "",
+                 seen: Mapping[str, str] | None = None) -> Study:
+    """Save the heading fields the person changed; a refused form changes nothing, and a field
+    someone else saved since the form was loaded raises ConflictError (nothing saved).
+    `resolution` ("keep"/"take") answers such a conflict with the values it showed (`seen`)."""
     study = get_study(session, study_id)
     errors = validate_study_form(form)
     if errors:
         raise StudyFormError(errors)
-    for name, value in _heading_values(form).items():
-        if getattr(study, name) != value:
-            setattr(study, name, value)
+    result = save_form(session, study, _heading_values(form), edit or PageEdit(),
+                       read=_heading_texts, resolution=resolution, seen=seen)
+    if result.outcome is SaveOutcome.DELETED:
+        raise NotFoundError(f"Study {study_id} was deleted since.")
+    if result.outcome is SaveOutcome.CHANGED_SINCE:
+        session.rollback()
+        raise ConflictError(result.conflicts)
     session.commit()
     session.refresh(study)
     return study
+
+
+def _heading_texts(texts: Mapping[str, Any]) -> dict[str, Any]:
+    """Sent heading text (the page's originals, the values a conflict showed), trimmed like
+    the person's own."""
+    return {name: str(texts[name]).strip() for name in HEADING_FIELDS if name in texts}
 
 
 def _count_rows(session: Session, model: Any, study_id: int) -> int:

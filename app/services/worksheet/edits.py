@@ -14,11 +14,14 @@ from typing import Any
 from sqlmodel import Session
 
 from app.db.compare_and_set import SaveOutcome
-from app.db.models import Step
+from app.db.models import SeverityCategory, Step
+from app.db.queries import fetch_rows_of_study
 from app.likelihood.numbers import format_number
 from app.likelihood.types import LikelihoodInputError
 from app.likelihood.word_scale import WordedNumber
 from app.services.study.conflicts import (
+    KEEP_MINE,
+    TAKE_THEIRS,
     FieldConflict,
     GoneRow,
     GuardedResult,
@@ -55,7 +58,10 @@ FIELD_PREFIX = {"node": "node", "deviation": "dev", "scenario": "sc", "step": "s
 SAVED = "saved"
 # A step's number is shown and compared as the text typed; `value` follows from it.
 SHOWN_FIELD = {"value": "value_text"}
-KEEP_MINE, TAKE_THEIRS = "keep", "take"
+# A scenario's ratings are stored as category ids; a conflict names the categories.
+CATEGORY_FIELDS = frozenset({"severity_category_id", "environment_category_id",
+                             "asset_category_id"})
+NOT_RATED = "not rated"
 
 
 @dataclass(frozen=True)
@@ -229,7 +235,7 @@ def _after_save(session: Session, kind_name: str, row: Any, fid: str, result: Gu
         return _gone_reply(session, kind_name, int(row.study_id), row_id, fid.split("-", 2)[2])
     if result.outcome is SaveOutcome.CHANGED_SINCE:
         session.rollback()
-        conflict = _shown_conflict(result.conflicts)
+        conflict = _shown_conflict(session, int(row.study_id), result.conflicts)
         field = SHOWN_FIELD.get(conflict.field, conflict.field)
         return _reply(session, kind_name, row, field_id(kind_name, row_id, field),
                       conflict=conflict, page_version=page_version)
@@ -241,10 +247,16 @@ def _after_save(session: Session, kind_name: str, row: Any, fid: str, result: Gu
                   saved_text=as_text(getattr(row, field, None)))
 
 
-def _shown_conflict(conflicts: tuple[FieldConflict, ...]) -> FieldConflict:
-    """The conflict to show at a field: the typed text rather than the number behind it."""
+def _shown_conflict(session: Session, study_id: int,
+                    conflicts: tuple[FieldConflict, ...]) -> FieldConflict:
+    """The conflict to show at a field: the typed text rather than the number behind it, a
+    category's name rather than its id."""
     shown = [c for c in conflicts if c.field not in SHOWN_FIELD]
-    return (shown or list(conflicts))[0]
+    conflict = (shown or list(conflicts))[0]
+    if conflict.field not in CATEGORY_FIELDS:
+        return conflict
+    names = {str(c.id): c.name for c in fetch_rows_of_study(session, SeverityCategory, study_id)}
+    return conflict.named({"": NOT_RATED, **names})
 
 
 def _gone_reply(session: Session, kind_name: str, study_id: int, row_id: int,

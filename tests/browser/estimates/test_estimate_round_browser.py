@@ -11,7 +11,7 @@ from collections.abc import Iterator
 from pathlib import Path
 
 import pytest
-from playwright.sync_api import Browser, BrowserContext, Page, expect
+from playwright.sync_api import Browser, BrowserContext, Page, Response, expect
 from scipy.stats import gmean
 from sqlalchemy import Engine
 from sqlmodel import Session
@@ -28,8 +28,9 @@ from tests.security.conftest import PASSPHRASE
 
 PHONE = {"width": 390, "height": 844}
 README_SHOTS = PROJECT_ROOT / "static" / "screenshots"
-ANSWERS = {"A. Lind": ("1 in 1000", 1e-3), "B. Osei": ("0.7%", 7e-3),
+ANSWERS = {"A. Lind": ("0.1%", 1e-3), "B. Osei": ("0.7%", 7e-3),
            "C. Ruiz": ("1 in 20000", 5e-5)}
+SENT_TO: dict[str, list[str]] = {}  # every response each phone received, as text
 
 
 @pytest.fixture(scope="module")
@@ -76,9 +77,23 @@ def _open_round_with_the_key(page: Page, step: Step) -> None:
     expect(page.locator("#round")).to_have_attribute("data-state", "open")
 
 
+def _record_app_responses(context: BrowserContext) -> list[str]:
+    """Every page and fragment the app sends to this browser with a body, as text (redirects
+    and the poll's empty 204s carry none)."""
+    bodies: list[str] = []
+
+    def keep(response: Response) -> None:
+        if "/studies/" in response.url and response.status == 200:
+            bodies.append(response.text())
+
+    context.on("response", keep)
+    return bodies
+
+
 def _phone_joins(browser: Browser, server: str, study_id: int, person: str,
                  code: str) -> tuple[BrowserContext, Page]:
     context = browser.new_context(viewport=PHONE, is_mobile=True, has_touch=True)
+    SENT_TO[person] = _record_app_responses(context)
     page = context.new_page()
     page.goto(f"{server}/studies/{study_id}/estimate")
     page.get_by_label("Join code").fill(code)
@@ -108,6 +123,13 @@ def test_three_phones_answer_in_private_then_the_reveal_and_the_agreement(
         assert other not in lind.content()
     for person in ANSWERS:
         expect(facilitator.locator(f'[data-answered="{person}"]')).to_be_visible()
+    lind.wait_for_timeout(2500)  # let each phone's poll run at least once more
+    for person, bodies in SENT_TO.items():  # no page or fragment a phone got holds another's
+        received = "\n".join(bodies)
+        assert ANSWERS[person][0] in received, f"{person}'s own echo was not recorded"
+        for other, (said, value) in ANSWERS.items():
+            if other != person:
+                assert said not in received and format_number(value) not in received
     assert "0.7%" not in facilitator.content() and "7.0e-3" not in facilitator.content()
     room = desk.new_page()
     room.goto(f"{lan_server}/studies/{step.study_id}/room")

@@ -1,17 +1,14 @@
 """In two real browsers on one worksheet: the later save of a field shows the conflict at the
 field, with both values, and "keep mine" / "take theirs" settle it; nothing is lost unseen."""
 
-from collections.abc import Iterator
 from pathlib import Path
 
 import pytest
-from playwright.sync_api import Browser, BrowserContext, Page, expect
+from playwright.sync_api import Page, expect
 from sqlmodel import Session, select
 
 from app.db.models import ChangeLogEntry, Deviation, Scenario, Step
 from tests.factories import make_scenario_tree, make_step
-
-SCREEN = {"width": 1400, "height": 900}
 
 
 @pytest.fixture
@@ -19,28 +16,6 @@ def scenario(session: Session) -> Scenario:
     scenario = make_scenario_tree(session)
     make_step(session, scenario, value=0.1, value_text="1 in 10", description="High level trip")
     return scenario
-
-
-def person(browser: Browser, live_server: str, name: str) -> Iterator[Page]:
-    """A browser of one's own, with a name for the change log."""
-    context: BrowserContext = browser.new_context(viewport=SCREEN)  # type: ignore[arg-type]
-    page = context.new_page()
-    page.goto(f"{live_server}/")
-    page.locator("#author-name").fill(name)
-    page.locator("#author-form button[type=submit]").click()
-    expect(page.locator("#author-name")).to_have_value(name)
-    yield page
-    context.close()
-
-
-@pytest.fixture
-def ada(browser: Browser, live_server: str) -> Iterator[Page]:
-    yield from person(browser, live_server, "Ada Scribe (invented)")
-
-
-@pytest.fixture
-def ben(browser: Browser, live_server: str) -> Iterator[Page]:
-    yield from person(browser, live_server, "Ben Other (invented)")
 
 
 def open_worksheet(page: Page, live_server: str, session: Session, scenario: Scenario) -> None:

@@ -3,27 +3,15 @@ the same field gets 409 with both values, and "keep mine" settles it (logged).""
 
 import html
 import re
-from collections.abc import Iterator
 
 import pytest
 from fastapi.testclient import TestClient
 from sqlmodel import Session, select
 
 from app.db.models import ChangeLogEntry, Recommendation
-from app.main import create_app
 from app.services.record.actions import add_action
 from tests.factories import make_study
-from tests.helpers import TEST_AUTHOR
-from tests.security.sessions import install_local_session
-
-OTHER_AUTHOR = "Ben Other (invented)"
-
-
-@pytest.fixture
-def ben(session: Session) -> Iterator[TestClient]:
-    with TestClient(create_app(), client=("127.0.0.1", 50001)) as other:
-        install_local_session(other, OTHER_AUTHOR)
-        yield other
+from tests.helpers import OTHER_AUTHOR, TEST_AUTHOR
 
 
 @pytest.fixture

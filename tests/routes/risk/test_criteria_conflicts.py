@@ -3,28 +3,19 @@ other person changed, and a save of the same field gets 409 with both values and
 
 import html
 import re
-from collections.abc import Iterator
 
 import pytest
 from fastapi.testclient import TestClient
 from sqlmodel import Session, select
 
-from app.db.models import ChangeLogEntry, SeverityCategory
-from app.main import create_app
+from app.db.models import ChangeLogEntry, SeverityCategory, Study
 from tests.factories import first_category, make_study
-from tests.helpers import TEST_AUTHOR
-from tests.security.sessions import install_local_session
+from tests.helpers import OTHER_AUTHOR, TEST_AUTHOR, text_of
 
-OTHER_AUTHOR = "Ben Other (invented)"
 _INPUT = re.compile(r"<input\b[^>]*>")
 _ATTR = re.compile(r'\b(name|value)="([^"]*)"')
 
 
-@pytest.fixture
-def ben(session: Session) -> Iterator[TestClient]:
-    with TestClient(create_app(), client=("127.0.0.1", 50001)) as other:
-        install_local_session(other, OTHER_AUTHOR)
-        yield other
 
 
 @pytest.fixture
@@ -106,3 +97,68 @@ def test_the_same_field_saved_twice_gets_409_then_keep_mine_or_take_theirs(
     assert [(c.author, c.old_value, c.new_value, c.summary.split(": ")[-1]) for c in choices] == [
         (OTHER_AUTHOR, "1e-06", "1e-06", "took the other person's value after a conflict"),
         (OTHER_AUTHOR, "1e-06", "0.0001", "kept their own value after a conflict")]
+
+
+def basis_form(http: TestClient, study_id: int) -> dict[str, str]:
+    """The basis form as the page holds it: the text, the study's version and the original."""
+    page = http.get(f"/studies/{study_id}/criteria").text
+    form = page[page.index('id="basis-editor"'):]
+    form = form[:form.index("</form>")]
+    fields = {attrs["name"]: html.unescape(attrs.get("value", ""))
+              for attrs in (dict(_ATTR.findall(tag)) for tag in _INPUT.findall(form))
+              if attrs.get("name") not in (None, "csrf_token")}
+    typed = re.search(r"<textarea[^>]*>([^<]*)</textarea>", form)
+    return {**fields, "criteria_basis": html.unescape(typed.group(1)) if typed else ""}
+
+
+@pytest.mark.parametrize("first_is_ben", [False, True])
+def test_the_second_basis_save_gets_409_with_both_texts(
+    client: TestClient, ben: TestClient, session: Session, category: SeverityCategory,
+    first_is_ben: bool,
+) -> None:
+    first, second = (ben, client) if first_is_ben else (client, ben)
+    first_name = OTHER_AUTHOR if first_is_ben else TEST_AUTHOR
+    url = f"/studies/{category.study_id}/criteria/basis"
+    first_form, second_form = (basis_form(h, category.study_id) for h in (first, second))
+
+    saved = first.post(url, data={**first_form,
+                                  "criteria_basis": "Site standard RS-1 (invented)"})
+    reply = second.post(url, data={**second_form,
+                                   "criteria_basis": "Group standard G-7 (invented)"})
+
+    assert saved.status_code == 200 and reply.status_code == 409
+    box = text_of(reply.text, "criteria_basis-conflict")
+    assert f"Criteria basis was changed by {first_name}" in box
+    assert "Theirs: Site standard RS-1 (invented) · yours: Group standard G-7 (invented)" in box
+    session.expire_all()
+    assert session.get(Study, category.study_id).criteria_basis == (  # type: ignore[union-attr]
+        "Site standard RS-1 (invented)")
+    again = {**second_form,
+             "criteria_basis": "Group standard G-7 (invented)",
+             "seen_criteria_basis": "Site standard RS-1 (invented)", "resolution": "keep"}
+    assert second.post(url, data=again).status_code == 200
+    session.expire_all()
+    assert session.get(Study, category.study_id).criteria_basis == (  # type: ignore[union-attr]
+        "Group standard G-7 (invented)")
+
+
+def test_a_basis_save_is_not_stopped_by_a_change_elsewhere_in_the_study(
+    client: TestClient, ben: TestClient, session: Session, category: SeverityCategory,
+) -> None:
+    """The study row's version also moves with heading edits; only the basis itself clashes."""
+    ben_form = basis_form(ben, category.study_id)
+    study = session.get(Study, category.study_id)
+    assert study is not None
+    study.facility = "Tank farm B (invented)"
+    session.add(study)
+    session.commit()
+
+    reply = ben.post(f"/studies/{category.study_id}/criteria/basis",
+                     data={**ben_form, "criteria_basis": "Site standard RS-2 (invented)"})
+
+    assert reply.status_code == 200
+    session.expire_all()
+    stored_study = session.get(Study, category.study_id)
+    assert stored_study is not None
+    assert (stored_study.criteria_basis, stored_study.facility) == (
+        "Site standard RS-2 (invented)", "Tank farm B (invented)")

@@ -48,7 +48,8 @@ def test_the_page_shows_the_basis_and_each_categorys_use(
     study, _ = three_scenarios(session)
     page = client.get(f"/studies/{study.id}/criteria").text
     assert "Example criteria, invented: replace with your company" in unescape(page)
-    assert "The most demanding of its ratings (the lowest tolerable" in page
+    assert ("the rating needing the largest risk reduction governs the scenario's target"
+            in " ".join(re.sub(r"<[^>]+>", "", unescape(page)).split()))
     assert table_rows(page, "criteria-table")[1:] == [
         ["Single fatality", "people", "1.0e-5", "once in 100,000 years · 1.0e-5 per year",
          "3", "3", "2"],
@@ -231,3 +232,26 @@ def test_an_unedited_save_keeps_the_tolerable_frequency_exactly(
                 data=_category_form(category, tolerable_frequency="3.33e-5"))
     session.refresh(category)
     assert category.tolerable_frequency == 3.33e-5
+
+
+def test_governed_counts_follow_each_scenarios_governing_line_not_the_strictest_rating(
+    client: TestClient, session: Session
+) -> None:
+    """People 1e-5 /yr is the stricter rating, but a presence modifier of 0.001 applies to
+    people only (issue 9's receptor rule), so the environment line governs. By hand, IE 0.1 /yr:
+    people 0.1 x 0.001 = 1e-4 against 1e-5, a factor of 10; environment 0.1 against 1e-3, a
+    factor of 100 -> environment needs the larger reduction and governs."""
+    study = make_study(session)
+    people = first_category(session, study)  # 1e-5 /yr
+    environment = make_category(session, study, name="Reportable release (invented)",
+                                tolerable_frequency=1e-3, receptor=Receptor.ENVIRONMENT)
+    scenario = make_scenario(session, make_deviation(session, make_node(session, study)),
+                             environment_category_id=environment.id)
+    make_step(session, scenario, kind="conditional_modifier", value=0.001,
+              description="Area occupied (invented)", modifier_kind="presence")
+
+    rows = table_rows(client.get(f"/studies/{study.id}/criteria").text, "criteria-table")[1:]
+
+    by_name = {row[0]: (row[4], row[5], row[6]) for row in rows}  # rated, governed, short
+    assert by_name[people.name] == ("1", "0", "0")
+    assert by_name["Reportable release (invented)"] == ("1", "1", "1")

@@ -219,6 +219,18 @@ def test_an_unknown_study_has_no_risk_picture(client: TestClient, session: Sessi
     assert client.get("/studies/999/risk").status_code == 404
 
 
+def _flagged_bpcs_study(session: Session) -> Study:
+    """One scenario at 1e-4 /yr whose only layer is a BPCS trip credited at PFD 0.01, which
+    the BPCS credit check doubts (see the test below for the source)."""
+    study, _, _ = _study(session)
+    deviation = make_deviation(session, make_node(session, study))
+    scenario = make_scenario(session, deviation, cause="Feed valve opens",
+                             initiating_frequency=1e-4)
+    make_step(session, scenario, value=0.01, description="DCS trip", ipl_type="bpcs",
+              system_tag="DCS-2")
+    return study
+
+
 def test_the_picture_drawn_with_flagged_credits_withdrawn_changes_the_headline(
     client: TestClient, session: Session
 ) -> None:
@@ -228,12 +240,7 @@ def test_the_picture_drawn_with_flagged_credits_withdrawn_changes_the_headline(
     As credited: 1e-4 x 0.01 = 1e-6 /yr, meets (gap -1.0). Withdrawn (PFD 1): 1e-4 /yr, gap
     +1.0, RRF 10 -> below SIL 1 (RRF 10 needs no SIF band; IEC 61511-1:2016 Table 4).
     """
-    study, _, _ = _study(session)
-    deviation = make_deviation(session, make_node(session, study))
-    scenario = make_scenario(session, deviation, cause="Feed valve opens",
-                             initiating_frequency=1e-4)
-    make_step(session, scenario, value=0.01, description="DCS trip", ipl_type="bpcs",
-              system_tag="DCS-2")
+    study = _flagged_bpcs_study(session)
     credited = client.get(f"/studies/{study.id}/risk").text
     withdrawn = client.get(f"/studies/{study.id}/risk?credits=withdrawn").text
     row = table_rows(credited, "ranked-table")[1]
@@ -242,3 +249,22 @@ def test_the_picture_drawn_with_flagged_credits_withdrawn_changes_the_headline(
     row = table_rows(withdrawn, "ranked-table")[1]
     assert row[5:] == ["1.0e-4", "1.0e-5", "+1.0", "Below SIL 1 (RRF ≤ 10)", "▲ short"]
     assert 'data-drawn="withdrawn"' in withdrawn and 'data-drawn="as-credited"' in credited
+
+
+def test_matrix_links_keep_the_drawing_with_flagged_credits_withdrawn(
+    client: TestClient, session: Session
+) -> None:
+    """Same case as above: withdrawn, the scenario sits at 1e-4 /yr (decade -4), so its cell
+    link must ask for the withdrawn drawing again, and the listed row shows 1.0e-4."""
+    study = _flagged_bpcs_study(session)
+    url = f"/studies/{study.id}/risk"
+    withdrawn = client.get(f"{url}?credits=withdrawn").text
+
+    links = re.findall(r'<a href="(\?cell=[^"]+)"', withdrawn)
+    assert len(links) == 1 and links[0].endswith("&amp;credits=withdrawn#cell-scenarios")
+    listed = client.get(url + unescape(links[0]).split("#")[0]).text
+    assert 'data-drawn="withdrawn"' in listed
+    assert table_rows(listed, "cell-table")[1][2] == "1.0e-4"
+    assert '<a href="?credits=withdrawn#risk-matrix">Clear the selection</a>' in listed
+    credited = client.get(url).text
+    assert all("credits=" not in link for link in re.findall(r'<a href="(\?cell=[^"]+)"', credited))

@@ -8,29 +8,19 @@ keep the other person's work.
 
 import html
 import re
-from collections.abc import Iterator
 
 import pytest
 from fastapi.testclient import TestClient
 from httpx import Response
 from sqlmodel import Session, col, select
 
-from app.db.models import ChangeLogEntry, Scenario, Step
-from app.main import create_app
-from tests.factories import make_scenario_tree, make_step
-from tests.helpers import HX, TEST_AUTHOR, attrs_of, text_of
-from tests.security.sessions import install_local_session
+from app.db.models import ChangeLogEntry, Scenario, Step, Study
+from tests.factories import make_category, make_scenario_tree, make_step
+from tests.helpers import HX, OTHER_AUTHOR, TEST_AUTHOR, attrs_of, text_of
 
-OTHER_AUTHOR = "Ben Other (invented)"
 _HIDDEN = re.compile(r'<input type="hidden" name="([^"]+)" value="([^"]*)"')
 
 
-@pytest.fixture
-def ben(session: Session) -> Iterator[TestClient]:
-    """A second person at the same study, in a browser of their own."""
-    with TestClient(create_app(), client=("127.0.0.1", 50001)) as other:
-        install_local_session(other, OTHER_AUTHOR)
-        yield other
 
 
 @pytest.fixture
@@ -255,3 +245,35 @@ def test_an_edit_of_a_deleted_row_says_who_deleted_it_and_that_undo_is_available
     entries = session.exec(select(ChangeLogEntry).order_by(col(ChangeLogEntry.id))).all()
     assert not [e for e in entries if e.action == "edit" and e.entity_id == layer.id
                 and e.field in ("value_text", "basis")]
+
+
+@pytest.mark.parametrize("first_is_ben", [False, True])
+def test_a_rating_conflict_names_the_categories_not_their_ids(
+    client: TestClient, ben: TestClient, session: Session, scenario: Scenario,
+    first_is_ben: bool,
+) -> None:
+    """The box shows 'Major (invented)', never the row id the select sends."""
+    study = session.get(Study, scenario.study_id)
+    assert study is not None
+    major = make_category(session, study, name="Major (invented)", tolerable_frequency=1e-6)
+    minor = make_category(session, study, name="Minor (invented)", tolerable_frequency=1e-3)
+    fid = f"sc-{scenario.id}-severity_category_id"
+    first, second = (ben, client) if first_is_ben else (client, ben)
+    pages = [loaded(h, scenario, fid, f"sc-{scenario.id}") for h in (first, second)]
+    url = f"/studies/{scenario.study_id}/scenarios/{scenario.id}"
+
+    def rate(http: TestClient, category_id: int | None, page: dict[str, str]) -> Response:
+        return http.post(url, headers=HX, data={
+            "severity_category_id": str(category_id), "version": page["version"],
+            "orig_severity_category_id": page["orig"]})
+
+    assert rate(first, major.id, pages[0]).status_code == 200
+    reply = rate(second, minor.id, pages[1])
+
+    assert reply.status_code == 409
+    said = text_of(reply.text, f"{fid}-said")
+    assert "Theirs: Major (invented) · yours: Minor (invented)" in said
+    assert f"Theirs: {major.id}" not in said
+    # The choice still sends the id, which the select understands.
+    assert choice_form(reply.text, "take")["severity_category_id"] == str(minor.id)
+    assert choice_form(reply.text, "take")["orig_severity_category_id"] == str(major.id)

@@ -1,7 +1,6 @@
 """Undo is per person: Alt+Z brings back the asker's own newest delete, in its old place; a
 delete that cannot come back says what is missing and never blocks anyone's other undos."""
 
-from collections.abc import Iterator
 
 import pytest
 from fastapi.testclient import TestClient
@@ -10,20 +9,8 @@ from sqlmodel import Session, col, select
 from app.db.models import Deviation, Scenario, SeverityCategory, Step, Study
 from app.db.tracking import AUTHOR_KEY
 from app.likelihood.types import StepKind
-from app.main import create_app
 from tests.factories import make_category, make_scenario, make_scenario_tree, make_step
-from tests.helpers import HX, TEST_AUTHOR, text_of
-from tests.security.sessions import install_local_session
-
-OTHER_AUTHOR = "Ben Other (invented)"
-
-
-@pytest.fixture
-def ben(session: Session) -> Iterator[TestClient]:
-    """A second person at the same study, in a browser of their own."""
-    with TestClient(create_app(), client=("127.0.0.1", 50001)) as other:
-        install_local_session(other, OTHER_AUTHOR)
-        yield other
+from tests.helpers import HX, OTHER_AUTHOR, TEST_AUTHOR, text_of
 
 
 @pytest.fixture
