@@ -17,7 +17,7 @@ from collections import defaultdict
 from collections.abc import Iterable, Mapping
 from typing import Any
 
-from sqlalchemy import delete, event, insert, select, update
+from sqlalchemy import bindparam, delete, event, insert, select, update
 from sqlalchemy.orm import Session as OrmSession
 from sqlmodel import Session
 
@@ -124,7 +124,7 @@ def refresh_stale_results(session: Session) -> None:
     written = {sid: row for sid, row in fresh.items() if row["study_id"] in current}
     for row in written.values():
         moves.count(row, 1)
-    _replace_rows(session, [row["scenario_id"] for row in held], written)
+    _write_rows(session, {row["scenario_id"] for row in held}, written)
     _move_counts(session, {key: move for key, move in moves.changed().items()
                            if key not in notes.removed_nodes})
     _drop_node_counts(session, notes.removed_nodes)
@@ -153,13 +153,20 @@ def _current_studies(session: Session, study_ids: set[int]) -> set[int]:
         table.results_version == RESULTS_VERSION)).scalars())
 
 
-def _replace_rows(session: Session, old_ids: list[int],
-                  fresh: Mapping[int, Mapping[str, Any]]) -> None:
+def _write_rows(session: Session, held_ids: set[int],
+               fresh: Mapping[int, Mapping[str, Any]]) -> None:
+    """Update the rows held (one executemany), insert the new ones, delete those not computed
+    (a scenario whose study is being rebuilt)."""
     table: Any = ScenarioResultRow
-    for batch in _batches(old_ids):
+    updated = [{"key": sid, **row} for sid, row in fresh.items() if sid in held_ids]
+    if updated:
+        session.connection().execute(
+            update(table).where(table.scenario_id == bindparam("key")), updated)
+    added = [row for sid, row in fresh.items() if sid not in held_ids]
+    if added:
+        session.connection().execute(insert(table), added)
+    for batch in _batches(held_ids - set(fresh)):
         session.connection().execute(delete(table).where(table.scenario_id.in_(batch)))
-    if fresh:
-        session.connection().execute(insert(table), list(fresh.values()))
 
 
 def _move_counts(session: Session, moves: Mapping[tuple[int, int], Mapping[str, int]]) -> None:
@@ -197,7 +204,7 @@ def rebuild_study_results(session: Session, study_id: int) -> None:
     moves.by_key[(study_id, STUDY_ROW)] = dict.fromkeys(COUNTS, 0)
     for row in fresh.values():
         moves.count(row, 1)
-    _replace_rows(session, [], fresh)
+    _write_rows(session, set(), fresh)
     session.connection().execute(insert(ResultTotal), [
         {"study_id": s, "node_id": n, "results_version": RESULTS_VERSION, **counts}
         for (s, n), counts in sorted(moves.by_key.items())])
@@ -226,10 +233,14 @@ NO_SCENARIOS = NodeTotals(0, 0, 0, 0, 0)
 def stored_totals(session: Session, study_id: int, node_id: int
                   ) -> tuple[NodeTotals, NodeTotals]:
     """The node's and the study's counts from their stored rows (two rows read)."""
-    ensure_current(session, study_id)
     table: Any = ResultTotal
-    rows = {row.node_id: row for row in session.connection().execute(select(table).where(
-        table.study_id == study_id, table.node_id.in_(sorted({node_id, STUDY_ROW}))))}
+    statement = select(table).where(table.study_id == study_id,
+                                    table.node_id.in_(sorted({node_id, STUDY_ROW})))
+    rows = {row.node_id: row for row in session.connection().execute(statement)}
+    study_row = rows.get(STUDY_ROW)
+    if study_row is None or study_row.results_version != RESULTS_VERSION:
+        rebuild_study_results(session, study_id)
+        rows = {row.node_id: row for row in session.connection().execute(statement)}
     node = _totals(rows[node_id]) if node_id in rows else NO_SCENARIOS
     return node, _totals(rows[STUDY_ROW])
 
