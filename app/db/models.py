@@ -494,6 +494,15 @@ class ScenarioResultRow(SQLModel, table=True):
     short_withdrawn: bool = False
     category_id: int | None = None
     gap_orders: float | None = None
+    # The headline as lists show it (overview, rankings), read without parsing `figures`.
+    receptor: str = Field(default="", max_length=20)
+    mitigated_frequency: float | None = None
+    tolerable_frequency: float | None = None
+    ratio: float | None = None
+    sil_label: str = Field(default="", max_length=60)
+    demand_mode: str = Field(default="", max_length=20)
+    withdrawn_mitigated_frequency: float | None = None
+    withdrawn_ratio: float | None = None
     error: str = Field(default="", sa_column_kwargs={"default": ""})
     figures: str = Field(default="{}", sa_type=Text)
 

@@ -13,6 +13,7 @@ Create Date: 2026-12-02 09:20:00.000000
 from collections.abc import Sequence
 
 import sqlalchemy as sa
+import sqlmodel
 from alembic import op
 
 revision: str = '9e9dca590747'
@@ -34,6 +35,14 @@ def upgrade() -> None:
         sa.Column('short_withdrawn', sa.Boolean(), nullable=False),
         sa.Column('category_id', sa.Integer(), nullable=True),
         sa.Column('gap_orders', sa.Float(), nullable=True),
+        sa.Column('receptor', sqlmodel.sql.sqltypes.AutoString(length=20), nullable=False),
+        sa.Column('mitigated_frequency', sa.Float(), nullable=True),
+        sa.Column('tolerable_frequency', sa.Float(), nullable=True),
+        sa.Column('ratio', sa.Float(), nullable=True),
+        sa.Column('sil_label', sqlmodel.sql.sqltypes.AutoString(length=60), nullable=False),
+        sa.Column('demand_mode', sqlmodel.sql.sqltypes.AutoString(length=20), nullable=False),
+        sa.Column('withdrawn_mitigated_frequency', sa.Float(), nullable=True),
+        sa.Column('withdrawn_ratio', sa.Float(), nullable=True),
         sa.Column('error', sa.String(), nullable=False),
         sa.Column('figures', sa.Text(), nullable=False),
         sa.ForeignKeyConstraint(['node_id'], ['node.id'],

@@ -14,8 +14,6 @@ from app.services.study.tree import (
     NodeBranch,
     NotFoundError,
     ScenarioBranch,
-    StudyTree,
-    load_study_tree,
 )
 
 
@@ -39,15 +37,6 @@ class NodeTotals:
     """Scenarios with a credit an IPL check doubts."""
     short_withdrawn_count: int = 0
     """Scenarios short of target once the flagged credits are withdrawn."""
-
-
-@dataclass(frozen=True)
-class StudyOverview:
-    """Display-ready data for the study page."""
-
-    tree: StudyTree
-    node_totals: dict[int, NodeTotals]
-    study_totals: NodeTotals
 
 
 def list_studies(*, session: Session) -> list[StudyListing]:
@@ -80,12 +69,6 @@ def totals_of(scenarios: list[ScenarioBranch]) -> NodeTotals:
 def node_totals(nodes: list[NodeBranch]) -> dict[int, NodeTotals]:
     """Totals for each node, keyed by node id."""
     return {n.node.id: totals_of(n.scenario_branches()) for n in nodes if n.node.id is not None}
-
-
-def read_study_overview(*, session: Session, study_id: int) -> StudyOverview:
-    """The study with every scenario computed and totals per node and for the study."""
-    tree = load_study_tree(session, study_id)
-    return StudyOverview(tree, node_totals(tree.nodes), totals_of(tree.scenario_branches()))
 
 
 def delete_study(*, session: Session, study_id: int) -> StudyListing:

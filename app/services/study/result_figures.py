@@ -111,16 +111,29 @@ def scenario_columns(rating: Any, steps: tuple[Any, ...], categories: Mapping[in
                                              people_not_rated=people_not_rated,
                                              assessed=assessment_of_rows)
     if assessment is None or category is None:
-        return {"computed": False, "short": False, "flagged": False, "short_withdrawn": False,
-                "category_id": None, "gap_orders": None, "error": error, "figures": "{}"}
+        return {**NOT_COMPUTED, "error": error}
     rated = receptor_categories(rating, categories, people_not_rated=people_not_rated)
-    withdrawn = (assessment.withdrawn or assessment.as_credited).result
-    gap = assessment.as_credited.result.gap_orders
-    return {"computed": True, "short": not assessment.as_credited.result.meets_target,
-            "flagged": assessment.withdrawn is not None,
-            "short_withdrawn": not withdrawn.meets_target, "category_id": category.id,
-            "gap_orders": gap, "error": "",
+    result = assessment.as_credited.result
+    withdrawn = assessment.withdrawn.result if assessment.withdrawn else None
+    return {"computed": True, "short": not result.meets_target,
+            "flagged": withdrawn is not None,
+            "short_withdrawn": not (withdrawn or result).meets_target, "category_id": category.id,
+            "gap_orders": result.gap_orders,
+            "receptor": str(assessment.as_credited.governing.receptor),
+            "mitigated_frequency": result.mitigated_frequency,
+            "tolerable_frequency": result.tolerable_frequency, "ratio": result.ratio,
+            "sil_label": result.sil_target.label,
+            "demand_mode": str(result.sil_target.demand_mode),
+            "withdrawn_mitigated_frequency": withdrawn.mitigated_frequency if withdrawn else None,
+            "withdrawn_ratio": withdrawn.ratio if withdrawn else None, "error": "",
             "figures": figures_json(assessment, rated)}
+
+
+NOT_COMPUTED: dict[str, Any] = {
+    "computed": False, "short": False, "flagged": False, "short_withdrawn": False,
+    "category_id": None, "gap_orders": None, "receptor": "", "mitigated_frequency": None,
+    "tolerable_frequency": None, "ratio": None, "sil_label": "", "demand_mode": "",
+    "withdrawn_mitigated_frequency": None, "withdrawn_ratio": None, "figures": "{}"}
 
 
 @dataclass(frozen=True)

@@ -21,7 +21,7 @@ from sqlalchemy import bindparam, delete, event, insert, select, update
 from sqlalchemy.orm import Session as OrmSession
 from sqlmodel import Session
 
-from app.db.models import ResultTotal, ScenarioResultRow, Study
+from app.db.models import Deviation, ResultTotal, Scenario, ScenarioResultRow, Study
 from app.db.queries import (
     category_targets_of_study,
     fetch_plain_rows,
@@ -265,3 +265,20 @@ def install_stored_results() -> None:
     if not event.contains(OrmSession, "before_commit", _refresh_before_commit):
         event.listen(OrmSession, "before_commit", _refresh_before_commit)
         note_stale_results(lambda name, fn: event.listen(OrmSession, name, fn))
+
+
+def stored_rows_in_order(session: Session, study_id: int) -> list[Any]:
+    """Every scenario of the study with its stored headline, in worksheet order (plain rows)."""
+    ensure_current(session, study_id)
+    stored: Any = ScenarioResultRow
+    return list(session.connection().execute(
+        select(Scenario.id, Scenario.cause, Scenario.consequence, Deviation.node_id,  # type: ignore[call-overload]
+               Deviation.guideword, Deviation.parameter, stored.computed, stored.error,
+               stored.category_id, stored.receptor, stored.mitigated_frequency,
+               stored.tolerable_frequency, stored.ratio, stored.gap_orders, stored.short,
+               stored.sil_label, stored.demand_mode, stored.flagged, stored.short_withdrawn,
+               stored.withdrawn_mitigated_frequency, stored.withdrawn_ratio)
+        .join(Deviation, Deviation.id == Scenario.deviation_id)
+        .join(stored, stored.scenario_id == Scenario.id)
+        .where(Scenario.study_id == study_id)
+        .order_by(Deviation.position, Deviation.id, Scenario.position, Scenario.id)))
