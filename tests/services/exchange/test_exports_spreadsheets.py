@@ -60,8 +60,8 @@ def test_the_workbook_has_our_sheets_with_frozen_headers(
     book = workbook_of(session, demo_study)
     assert book.sheetnames == ["About", "Scenarios", "Steps", "Actions", "Criteria",
                                "Attendance", "Change log", "Safeguards", "Notes", "Warnings",
-                               "Added functions"]
-    assert [book[name].freeze_panes for name in book.sheetnames] == ["A2", "B2", *["A2"] * 9]
+                               "Added functions", "Estimate rounds", "Estimates", "Word scale"]
+    assert [book[name].freeze_panes for name in book.sheetnames] == ["A2", "B2", *["A2"] * 12]
     assert [c.value for c in book["Scenarios"][1]] == HEADERS
     about = {row[0]: row[1] for row in book["About"].iter_rows(min_row=2, values_only=True)}
     assert about["Study"] == demo_study.title and about["Cautions"] == CAUTIONS
