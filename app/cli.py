@@ -10,7 +10,13 @@ from pathlib import Path
 from sqlmodel import Session
 
 from app.cli_data import DATA_COMMANDS, add_data_commands
-from app.db.migrate import alembic_config, upgrade_database
+from app.db.migrate import (
+    alembic_config,
+    database_is_new,
+    database_place,
+    pending_migrations,
+    upgrade_database,
+)
 from app.db.session import get_db_engine
 from app.settings import LOOPBACK_HOSTS, Settings, get_settings
 
@@ -20,22 +26,34 @@ COMMANDS: dict[str, Callable[[argparse.Namespace], int]] = {}
 
 
 def cmd_migrate(_args: argparse.Namespace) -> int:
-    """Run `alembic upgrade head` on the configured database (after a backup when behind)."""
+    """Run `alembic upgrade head` on the configured database (after a backup when behind),
+    and say which it was: created, brought up to date, or already up to date."""
+    url = get_settings().database_url
+    place = database_place(url)
+    was_new = database_is_new(url)
+    was_behind = not was_new and pending_migrations(url)
     backup = upgrade_database()
     if backup is not None:
         print(f"backed up the database to {backup} before migrating")
-    print("database is at the newest migration")
+    if was_new:
+        print(f"created the database at {place}")
+    elif was_behind:
+        print(f"brought the database at {place} up to the newest migration")
+    else:
+        print(f"database at {place} is up to date")
     return 0
 
 
 def cmd_load_demo(_args: argparse.Namespace) -> int:
-    """Load the invented demo study when the database has no studies."""
+    """Load the invented demo study when the database has no studies, and say what it did."""
     from app.demo import load_demo_if_empty
 
     with Session(get_db_engine()) as session:
         study = load_demo_if_empty(session)
-    message = f"loaded demo study '{study.title}'" if study else "database has studies; demo kept"
-    print(message)
+    if study is not None:
+        print(f"loaded the invented demo study '{study.title}'")
+    else:
+        print("demo not loaded because studies exist")
     return 0
 
 

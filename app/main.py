@@ -3,17 +3,17 @@
 import importlib
 import pkgutil
 
-from fastapi import APIRouter, Depends, FastAPI, Request
+from fastapi import APIRouter, Depends, FastAPI
+from fastapi.exceptions import RequestValidationError
 from fastapi.staticfiles import StaticFiles
 from starlette.exceptions import HTTPException as StarletteHTTPException
-from starlette.responses import Response
 
 import app.routes
 from app.access.setup import install_access
 from app.db.tracking import install_tracking
 from app.lifecycle import server_lifespan
+from app.routes import errors
 from app.routes.deps import check_path_ids
-from app.routes.rendering import is_htmx, render
 from app.services.study.conflicts import DeletedSinceError
 from app.services.study.stored_results import install_stored_results
 from app.services.study.tree import NotFoundError
@@ -44,27 +44,9 @@ def create_app(settings: Settings | None = None) -> FastAPI:
     application.mount("/static", StaticFiles(directory=PROJECT_ROOT / "static"), name="static")
     for router in discover_routers():
         application.include_router(router)
-    application.add_exception_handler(NotFoundError, _not_found)
-    application.add_exception_handler(DeletedSinceError, _deleted_since)
-    application.add_exception_handler(StarletteHTTPException, _http_error)
+    # A page in the app's style for a browser, JSON for API clients (app/routes/errors.py).
+    application.add_exception_handler(NotFoundError, errors.not_found)
+    application.add_exception_handler(DeletedSinceError, errors.deleted_since)
+    application.add_exception_handler(StarletteHTTPException, errors.http_error)
+    application.add_exception_handler(RequestValidationError, errors.invalid_input)
     return application
-
-
-def _not_found(request: Request, exc: Exception) -> Response:
-    return render(request, "error.html", {"status": 404, "message": str(exc)}, status_code=404)
-
-
-def _deleted_since(request: Request, exc: Exception) -> Response:
-    """An edit of a row someone deleted: who and when, in the form's place for htmx (409)."""
-    assert isinstance(exc, DeletedSinceError)
-    if request.method in ("GET", "HEAD"):
-        return render(request, "error.html", {"status": 404, "message": exc.gone.sentence},
-                      status_code=404)
-    return render(request, "error.html", {"status": 409, "message": str(exc)},
-                  status_code=409, block="message" if is_htmx(request) else None)
-
-
-def _http_error(request: Request, exc: Exception) -> Response:
-    assert isinstance(exc, StarletteHTTPException)
-    return render(request, "error.html", {"status": exc.status_code, "message": exc.detail},
-                  status_code=exc.status_code)

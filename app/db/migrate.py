@@ -6,6 +6,7 @@ from alembic import command
 from alembic.config import Config
 from alembic.runtime.migration import MigrationContext
 from alembic.script import ScriptDirectory
+from sqlalchemy import make_url
 
 from app.db.backups import sqlite_file, take_backup
 from app.db.session import build_db_engine
@@ -17,16 +18,38 @@ def alembic_config() -> Config:
     return Config(toml_file=str(PROJECT_ROOT / "pyproject.toml"))
 
 
-def pending_migrations(database_url: str) -> bool:
-    """True when the database is behind the newest migration (or has none yet)."""
-    heads = set(ScriptDirectory.from_config(alembic_config()).get_heads())
+def current_revisions(database_url: str) -> set[str]:
+    """The migrations the database is at (empty for a new or empty database)."""
     db_engine = build_db_engine(database_url)
     try:
         with db_engine.connect() as connection:
-            current = set(MigrationContext.configure(connection).get_current_heads())
+            return set(MigrationContext.configure(connection).get_current_heads())
     finally:
         db_engine.dispose()
-    return current != heads
+
+
+def pending_migrations(database_url: str) -> bool:
+    """True when the database is behind the newest migration (or has none yet)."""
+    heads = set(ScriptDirectory.from_config(alembic_config()).get_heads())
+    return current_revisions(database_url) != heads
+
+
+def database_is_new(database_url: str) -> bool:
+    """True for a database with no migrations yet; an SQLite file that is not there (or is
+    empty) is told without opening it, which would create it."""
+    database = sqlite_file(database_url)
+    if database is not None and (not database.is_file() or database.stat().st_size == 0):
+        return True
+    return not current_revisions(database_url)
+
+
+def database_place(database_url: str) -> str:
+    """Where the database lives, said for people: the SQLite file, or the server URL with
+    its password hidden."""
+    database = sqlite_file(database_url)
+    if database is not None:
+        return str(database)
+    return make_url(database_url).render_as_string(hide_password=True)
 
 
 def upgrade_database() -> Path | None:

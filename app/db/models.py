@@ -163,7 +163,10 @@ class Scenario(ScenarioBase, TrackedRow, table=True):
     id: int | None = Field(default=None, primary_key=True)
     study_id: int = _study_fk()
     deviation_id: int = Field(foreign_key="deviation.id", ondelete="CASCADE", index=True)
-    severity_category_id: int = Field(foreign_key="severity_category.id", ondelete="RESTRICT")
+    # None until the team gives the severity: the scenario is incomplete (no target, no SIL).
+    severity_category_id: int | None = Field(
+        default=None, foreign_key="severity_category.id", ondelete="RESTRICT"
+    )
     environment_category_id: int | None = Field(
         default=None, foreign_key="severity_category.id", ondelete="SET NULL"
     )
@@ -175,7 +178,9 @@ class Scenario(ScenarioBase, TrackedRow, table=True):
 class StepBase(SQLModel):
     kind: StepKind = Field(sa_type=StepKindText)
     description: str = Field(default="", max_length=1000)
-    value: float = Field(gt=0)
+    # None only for an initiating event whose frequency the team has not given yet (the
+    # scenario is incomplete); every other step starts at 1 (no credit).
+    value: float | None = Field(default=None, gt=0)
     # The scribe's own words for the last valid value, e.g. "1 in 100" or "3 in 30 years".
     value_text: str = Field(default="", max_length=100)
     basis: str = Field(default="", max_length=2000)
@@ -489,6 +494,7 @@ class ScenarioResultRow(SQLModel, table=True):
     study_id: int = Field(foreign_key="study.id", ondelete="CASCADE")
     node_id: int = Field(foreign_key="node.id", ondelete="CASCADE")
     computed: bool = False
+    incomplete: bool = False
     short: bool = False
     flagged: bool = False
     short_withdrawn: bool = False
@@ -524,6 +530,7 @@ class ResultTotal(SQLModel, table=True):
     unresolved_count: int = 0
     flagged_count: int = 0
     short_withdrawn_count: int = 0
+    incomplete_count: int = 0
 
 
 def _never_reuse_ids() -> None:

@@ -103,7 +103,7 @@ def _note_removed(session: OrmSession, notes: StaleResults, gone: set[int]) -> N
     for scenario_id in sorted(gone - set(notes.removed)):
         row = session.connection().execute(
             select(stored.scenario_id, stored.study_id, stored.node_id, stored.computed,
-                   stored.short, stored.flagged, stored.short_withdrawn)
+                   stored.incomplete, stored.short, stored.flagged, stored.short_withdrawn)
             .where(stored.scenario_id == scenario_id)).first()
         if row is not None:
             notes.removed[scenario_id] = dict(row._mapping)

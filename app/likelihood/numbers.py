@@ -64,6 +64,16 @@ def format_number(x: float) -> str:
     return f"{mantissa}e{int(exponent)}"
 
 
+def format_orders(x: float) -> str:
+    """A gap in orders of magnitude with its sign and one decimal: 1.39 -> "+1.4"."""
+    return f"{x:+.1f}"
+
+
+def format_rrf(x: float) -> str:
+    """A risk reduction factor as a whole number with thousands separators: "1,200"."""
+    return f"{x:,.0f}"
+
+
 def _say(x: float) -> str:
     """A count or rate as a person would write it, falling back to scientific notation."""
     if x.is_integer() and abs(x) < 1e9:

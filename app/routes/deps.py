@@ -3,7 +3,7 @@
 from collections.abc import Iterator, Mapping
 from typing import Annotated, Any
 
-from fastapi import Depends, Request
+from fastapi import Depends, HTTPException, Request
 from fastapi.exceptions import RequestValidationError
 from sqlmodel import Session
 
@@ -13,7 +13,6 @@ from app.db.ids import MAX_ROW_ID, read_row_id
 from app.db.session import get_db_engine
 from app.db.tracking import AUTHOR_KEY
 from app.services.study.conflicts import PageEdit
-from app.services.study.tree import NotFoundError
 
 
 def author_name(request: Request) -> str:
@@ -25,14 +24,15 @@ def author_name(request: Request) -> str:
 def check_path_ids(request: Request) -> None:
     """Every `…_id` in the path must be a row id (app-wide dependency, runs before the route).
 
-    A page (GET) naming an impossible row is simply not found (404); a write answers 422 naming
+    A page (GET) naming an impossible row is not understood (400); a write answers 422 naming
     the rule, like any other refused input.
     """
     for name, value in request.path_params.items():
         if name.endswith("_id") and read_row_id(value) is None:
             rule = f"an id is a whole number from 1 to {MAX_ROW_ID} in ASCII digits"
             if request.method in ("GET", "HEAD"):
-                raise NotFoundError(f"There is no such page: {rule} (got '{value}').")
+                raise HTTPException(400, f"This address is not understood: {rule} "
+                                         f"(got '{value}').")
             raise RequestValidationError([{"type": "row_id", "loc": ("path", name),
                                            "msg": rule, "input": value}])
 

@@ -12,9 +12,10 @@ from markupsafe import Markup
 from starlette.responses import Response
 from starlette.routing import NoMatchFound
 
-from app.likelihood.numbers import format_number, format_one_in
-from app.likelihood.types import StepKind, step_kind_words
+from app.likelihood.numbers import format_number, format_one_in, format_orders, format_rrf
+from app.likelihood.types import ScenarioResult, StepKind, step_kind_words
 from app.routes import urls
+from app.services.study.results import required_rrf_cell
 from app.services.study.tree import WorksheetSpot
 from app.settings import PROJECT_ROOT
 
@@ -26,6 +27,12 @@ CAUTIONS = (
     "as the inputs the team agrees. LOPA is an order-of-magnitude method: read each figure to "
     "its decade, not its digits. Follow your company's standards, local regulations, the "
     "IEC 61511 safety lifecycle and competent professional judgement."
+)
+# The room view's one line (a projector has no room for the paragraph, which it keeps in the
+# line's title): the same cautions, each in a word or two.
+ROOM_CAUTION = (
+    "Decision support for a competent team · order-of-magnitude figures from agreed inputs · "
+    "company standards, regulations, IEC 61511 and judgement decide"
 )
 
 # Explicit bidirectional formatting characters: embeddings and overrides (closed by PDF,
@@ -67,7 +74,18 @@ def sci(value: float | None) -> str:
 
 def orders(value: float | None) -> str:
     """A gap in orders of magnitude with its sign ('+1.4')."""
-    return "—" if value is None or not math.isfinite(value) else f"{value:+.1f}"
+    return "—" if value is None or not math.isfinite(value) else format_orders(value)
+
+
+def rrf(value: float | None) -> str:
+    """A risk reduction factor as a whole number with thousands separators ('1,200')."""
+    return "—" if value is None or not math.isfinite(value) else format_rrf(value)
+
+
+def required_rrf(result: ScenarioResult) -> str:
+    """A scenario's required added RRF as every export writes it ('none needed' when met)."""
+    cell = required_rrf_cell(result)
+    return cell if isinstance(cell, str) else rrf(cell)
 
 
 @pass_context
@@ -85,9 +103,11 @@ def worksheet_path(context: Mapping[str, Any], spot: WorksheetSpot) -> str:
     return urls.worksheet_url(request, spot.study_id, spot.node_id, spot.anchor)
 
 
-templates.env.filters.update(sci=sci, one_in=format_one_in, orders=orders,
+templates.env.filters.update(sci=sci, one_in=format_one_in, orders=orders, rrf=rrf,
+                             required_rrf=required_rrf,
                              kind_words=step_kind_words)
-templates.env.globals.update(cautions=CAUTIONS, step_kinds=tuple(StepKind),
+templates.env.globals.update(cautions=CAUTIONS, room_caution=ROOM_CAUTION,
+                             step_kinds=tuple(StepKind),
                              path_for=_template_path_for, worksheet_path=worksheet_path)
 
 

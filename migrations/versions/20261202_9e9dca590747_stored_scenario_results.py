@@ -7,7 +7,7 @@ computed whole once (app/services/study/stored_results.py, ensure_current), so t
 needs none of the arithmetic.
 
 Revision ID: 9e9dca590747
-Revises: a020a10ac7ce
+Revises: b7c4e1f0a935
 Create Date: 2026-12-02 09:20:00.000000
 """
 from collections.abc import Sequence
@@ -17,7 +17,7 @@ import sqlmodel
 from alembic import op
 
 revision: str = '9e9dca590747'
-down_revision: str | None = 'a020a10ac7ce'
+down_revision: str | None = 'b7c4e1f0a935'
 branch_labels: str | Sequence[str] | None = None
 depends_on: str | Sequence[str] | None = None
 
@@ -30,6 +30,7 @@ def upgrade() -> None:
         sa.Column('study_id', sa.Integer(), nullable=False),
         sa.Column('node_id', sa.Integer(), nullable=False),
         sa.Column('computed', sa.Boolean(), nullable=False),
+        sa.Column('incomplete', sa.Boolean(), nullable=False),
         sa.Column('short', sa.Boolean(), nullable=False),
         sa.Column('flagged', sa.Boolean(), nullable=False),
         sa.Column('short_withdrawn', sa.Boolean(), nullable=False),
@@ -67,6 +68,7 @@ def upgrade() -> None:
         sa.Column('unresolved_count', sa.Integer(), nullable=False),
         sa.Column('flagged_count', sa.Integer(), nullable=False),
         sa.Column('short_withdrawn_count', sa.Integer(), nullable=False),
+        sa.Column('incomplete_count', sa.Integer(), nullable=False),
         sa.ForeignKeyConstraint(['study_id'], ['study.id'],
                                 name=op.f('fk_result_total_study_id_study'), ondelete='CASCADE'),
         sa.PrimaryKeyConstraint('study_id', 'node_id', name=op.f('pk_result_total')),

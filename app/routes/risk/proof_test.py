@@ -6,7 +6,7 @@ from fastapi import APIRouter, Query, Request
 from starlette.responses import RedirectResponse, Response
 
 from app.db.ids import read_row_id
-from app.routes.deps import ID_BOUNDS, SessionDep
+from app.routes.deps import ID_BOUNDS, SessionDep, read_page_edit, read_seen
 from app.routes.rendering import is_htmx, render
 from app.services.risk import proof_test as service
 from app.services.risk.proof_test_form import ProofTestForm
@@ -33,7 +33,8 @@ async def calculate_proof_test(request: Request, study_id: int, session: Session
     data = await request.form()
     page = service.calculate_page(session=session, study_id=study_id,
                                   form=ProofTestForm.from_mapping(data),
-                                  step_id=read_row_id(data.get("step_id")))
+                                  step_id=read_row_id(data.get("step_id")),
+                                  edit=read_page_edit(data))
     blocks = ["result", "field_errors"] if is_htmx(request) else None
     return render(request, PAGE, {"page": page}, blocks=blocks,
                   status_code=422 if page.errors else 200)
@@ -41,13 +42,18 @@ async def calculate_proof_test(request: Request, study_id: int, session: Session
 
 @router.post("/proof-test/apply", name="apply_proof_test")
 async def apply_proof_test(request: Request, study_id: int, session: SessionDep) -> Response:
-    """Use the computed PFDavg for the attached IPL step, its inputs kept as the basis."""
+    """Use the computed PFDavg for the attached IPL step, its inputs kept as the basis (409
+    with both values when someone saved the step's PFD since the calculator was opened)."""
     data = await request.form()
     page = service.apply_to_step(session=session, study_id=study_id,
                                  step_id=read_row_id(data.get("step_id")) or 0,
-                                 form=ProofTestForm.from_mapping(data))
-    if page.errors:
-        return render(request, PAGE, {"page": page}, status_code=422)
+                                 form=ProofTestForm.from_mapping(data),
+                                 edit=read_page_edit(data),
+                                 resolution=str(data.get("resolution") or ""),
+                                 seen=read_seen(data))
+    if page.errors or page.conflicts:
+        return render(request, PAGE, {"page": page}, status_code=422 if page.errors else 409)
     target = request.url_for("read_proof_test", study_id=study_id).include_query_params(
-        step_id=page.place.step.id if page.place else "", applied="true")
+        step_id=page.place.step.id if page.place else "",
+        applied="false" if page.kept_theirs else "true")
     return RedirectResponse(str(target), status_code=303)

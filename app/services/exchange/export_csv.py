@@ -8,7 +8,7 @@ import csv
 import io
 from datetime import date
 
-from app.services.exchange.export_tables import Cell, Table, spreadsheet_text
+from app.services.exchange.export_tables import Cell, Table, shown_number, spreadsheet_text
 
 BYTE_ORDER_MARK = "\ufeff"
 
@@ -21,18 +21,20 @@ def table_csv(table: Table, *, cautions: str = "") -> bytes:
     writer = csv.writer(buffer, lineterminator="\r\n")
     writer.writerow([spreadsheet_text(column.header) for column in table.columns])
     for row in table.rows:
-        writer.writerow([csv_cell(value) for value in row])
+        writer.writerow([csv_cell(value, column.number_format)
+                         for value, column in zip(row, table.columns, strict=True)])
     if cautions:
         writer.writerow(["Cautions", spreadsheet_text(cautions)])
     return (BYTE_ORDER_MARK + buffer.getvalue()).encode("utf-8")
 
 
-def csv_cell(value: Cell) -> str:
-    """One cell as CSV text: numbers in full precision, text formula-safe, nothing as ''."""
+def csv_cell(value: Cell, number_format: str | None = None) -> str:
+    """One cell as CSV text: numbers rounded as the screen shows them (the study file keeps
+    the exact values), text formula-safe, nothing as ''."""
     if value is None:
         return ""
     if isinstance(value, str):
         return spreadsheet_text(value)
     if isinstance(value, date):
         return value.isoformat()
-    return repr(value)
+    return shown_number(value, number_format)

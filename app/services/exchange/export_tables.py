@@ -8,25 +8,28 @@ not a validated StudyFile: an export must never fail because stored text is long
 format allows on import.
 """
 
-from collections.abc import Sequence
+from collections.abc import Callable, Sequence
 from dataclasses import dataclass
 from datetime import UTC, date, datetime
 from typing import Any
 
-from app.likelihood.numbers import format_number
+from app.likelihood.numbers import format_number, format_orders, format_rrf
 from app.likelihood.types import DemandMode, Receptor, ScenarioResult, StepKind
 from app.likelihood.typical import typical_by_key
 from app.services.exchange.study_file import scenario_ref
-from app.services.study.results import Assessment
+from app.services.study.results import Assessment, required_rrf_cell
 from app.services.study.tree import DeviationBranch, NodeBranch, ScenarioBranch, StudyTree
 
 Cell = str | float | int | date | datetime | None
 StudyData = dict[str, Any]
 
-SCIENTIFIC = "0.00E+00"
-SIGNED = "+0.00;-0.00;0.00"
+# The spreadsheet shows each number as the screen does: two significant figures for
+# frequencies, probabilities and ratios, a signed tenth for a gap in orders, a whole RRF with
+# thousands separators. The cell holds the exact value; the CSV writes the shown text.
+SCIENTIFIC = "0.0E+0"
+SIGNED = "+0.0;-0.0;+0.0"
 WHOLE = "0"
-RRF = "#,##0.0"
+RRF = "#,##0"
 DAY = "yyyy-mm-dd"
 MOMENT = "yyyy-mm-dd hh:mm:ss"
 
@@ -52,6 +55,18 @@ class Table:
     title: str
     columns: tuple[Column, ...]
     rows: list[list[Cell]]
+
+
+SHOWN_AS: dict[str, Callable[[float], str]] = {
+    SCIENTIFIC: format_number, SIGNED: format_orders, RRF: format_rrf,
+}
+
+
+def shown_number(value: float, number_format: str | None) -> str:
+    """A number as the screen shows it, for a column with this spreadsheet format."""
+    if number_format in SHOWN_AS:
+        return SHOWN_AS[number_format](float(value))
+    return str(value) if isinstance(value, int) else f"{value:.10g}"
 
 
 def spreadsheet_text(text: str) -> str:
@@ -148,12 +163,12 @@ def _scenario_row(
     ]
     if result is None or outcome.assessment is None:
         return [*head, None, None, len(credited), None, None, None, None, None, "", "",
-                f"not computed: {outcome.error}", *[None] * len(METHOD_COLUMNS)]
+                outcome.no_figures_words, *[None] * len(METHOD_COLUMNS)]
     target = result.sil_target
     return [
         *head, result.enabling_product, result.modifier_product, len(credited),
         result.ipl_product, result.mitigated_frequency, result.ratio, result.gap_orders,
-        result.required_rrf, target.label, DEMAND_LABELS[target.demand_mode],
+        required_rrf_cell(result), target.label, DEMAND_LABELS[target.demand_mode],
         _status(result), *_method_cells(outcome.assessment),
     ]
 

@@ -10,7 +10,14 @@ from openpyxl.styles import Alignment, Border, Font, PatternFill, Side
 from openpyxl.utils import get_column_letter
 from openpyxl.worksheet.worksheet import Worksheet
 
-from app.services.exchange.export_tables import Cell, Column, StudyData, Table, spreadsheet_text
+from app.services.exchange.export_tables import (
+    Cell,
+    Column,
+    StudyData,
+    Table,
+    shown_number,
+    spreadsheet_text,
+)
 from app.services.exchange.study_schema import SCHEMA_PATH
 
 # Excel's limit on the characters in one cell.
@@ -129,13 +136,7 @@ def shown_length(value: Cell, number_format: str | None = None) -> int:
 
 
 def _number_text(value: float, number_format: str | None) -> str:
-    if number_format and "E" in number_format:
-        return f"{value:.2E}"
-    if number_format == "#,##0.0":
-        return f"{value:,.1f}"
-    if number_format and number_format.startswith("+"):
-        return f"{value:+.2f}"
-    return str(value) if isinstance(value, int) else f"{value:.10g}"
+    return shown_number(value, number_format)
 
 
 def _fit_widths(sheet: Worksheet, table: Table) -> None:

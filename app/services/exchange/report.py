@@ -49,7 +49,8 @@ class ReportStep:
 
     kind: str
     description: str
-    value: float
+    value: float | None
+    """None for an incomplete scenario's initiating event (no frequency given yet)."""
     value_text: str
     credited: bool
     basis: str
@@ -189,13 +190,19 @@ def _report_scenario(ref: str, deviation: str, item: ScenarioBranch) -> ReportSc
     )
 
 
+def _typed_value(step: Step) -> str:
+    if step.value is None:
+        return "not given yet"
+    return step.value_text or format_number(step.value)
+
+
 def _report_step(step: Step) -> ReportStep:
     typical = typical_words(step.typical_key)
     reason = "" if step.credited else (
         "the team did not credit it; see its basis" if step.basis.strip()
         else "the team did not credit it; no reason recorded")
     return ReportStep(step.kind.label, step.description, step.value,
-                      step.value_text or format_number(step.value), step.credited, step.basis,
+                      _typed_value(step), step.credited, step.basis,
                       typical, reason)
 
 

@@ -124,10 +124,12 @@ def _check_size(data: dict[str, Any]) -> None:
 
 
 def _check_round_count(where: str, study: Any, limit: int) -> None:
-    """As many estimate rounds, and as many estimates, as a file may have scenarios."""
+    """As many estimate rounds, estimates and words, each, as a file may have scenarios."""
     rounds = _items(study, "estimate_rounds")
     estimates = sum(len(_items(found, "estimates")) for found in rounds)
-    for count, what in ((len(rounds), "estimate rounds"), (estimates, "estimates")):
+    words = len(_items(study, "word_scale"))
+    for count, what in ((len(rounds), "estimate rounds"), (estimates, "estimates"),
+                        (words, "words on the word scale")):
         if count > limit:
             raise StudyFileError(f"{where} has {count:,} {what}; a study file may have at "
                                  f"most {limit:,} (as many as scenarios)")
@@ -269,7 +271,7 @@ def _export_scenario(
         "cause": scenario.cause,
         "consequence": scenario.consequence,
         "notes": scenario.notes,
-        "severity": category_refs[scenario.severity_category_id],
+        "severity": category_refs.get(scenario.severity_category_id),
         "environment_severity": category_refs.get(scenario.environment_category_id),
         "asset_severity": category_refs.get(scenario.asset_category_id),
         "people_not_rated": scenario.people_not_rated,

@@ -177,7 +177,7 @@ def _scenario_values(study_id: int, placed: Placed, categories: dict[str, int]
     return {
         "study_id": study_id, "deviation_id": deviation_id, "position": position,
         "cause": row.cause, "consequence": row.consequence, "notes": row.notes,
-        "severity_category_id": categories[row.severity],
+        "severity_category_id": categories.get(row.severity or ""),
         "environment_category_id": categories.get(row.environment_severity or ""),
         "asset_category_id": categories.get(row.asset_severity or ""),
         "people_not_rated": row.people_not_rated,

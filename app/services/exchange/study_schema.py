@@ -112,7 +112,9 @@ class StepRow(FileRow):
 
     kind: StepKind
     description: str = Field(default="", max_length=1000)
-    value: float = Field(gt=0, allow_inf_nan=False)
+    value: float | None = Field(
+        default=None, gt=0, allow_inf_nan=False,
+        description="null only for an initiating event not given yet (incomplete scenario)")
     value_text: str = Field(default="", max_length=100)
     basis: str = Field(default="", max_length=2000)
     credited: bool = True
@@ -141,6 +143,11 @@ class StepRow(FileRow):
     @model_validator(mode="after")
     def probability_at_most_one(self) -> "StepRow":
         """Probabilities and PFDs lie in (0, 1]; only the initiating event is a frequency."""
+        if self.value is None:
+            if self.kind != StepKind.INITIATING_EVENT:
+                raise ValueError("only an initiating event may be without a value (an "
+                                 f"incomplete scenario); this {self.kind} step has none")
+            return self
         if self.kind != StepKind.INITIATING_EVENT and self.value > 1:
             raise ValueError(f"a probability must be at most 1 (got {self.value})")
         return self
@@ -171,7 +178,9 @@ class ScenarioRow(FileRow):
     cause: str = Field(default="", max_length=2000)
     consequence: str = Field(default="", max_length=2000)
     notes: str = Field(default="", max_length=5000)
-    severity: str = Field(description="ref of a people/general severity category")
+    severity: str | None = Field(
+        default=None, description="ref of a people/general severity category; null while "
+                                  "not given (an incomplete scenario)")
     environment_severity: str | None = None
     asset_severity: str | None = None
     people_not_rated: bool = False

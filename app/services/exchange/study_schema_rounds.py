@@ -23,9 +23,8 @@ from app.services.study.errors import nul_problem
 
 MAX_ESTIMATES_PER_ROUND: Final = 200
 """More people than any review room holds; the list is refused beyond it."""
-ROUNDS_PER_SCENARIO: Final = 20
-"""A file may hold this many rounds per scenario limit (study_file._check_size)."""
-MAX_WORDS: Final = 200
+MAX_ROUND_NUMBER: Final = 10_000
+"""Far beyond any meeting's rounds on one question; keeps numbers inside every integer column."""
 STAND_IN_NUMBER: Final = 0.5  # valid in both units: checks the word rules of words not adopted
 
 
@@ -68,10 +67,10 @@ class EstimateRoundRow(FileRow):
     """One private round of estimates on a step's value or on a word, and how it ended."""
 
     scenario: str | None = Field(default=None, description="ref of the step's scenario")
-    step: int | None = Field(default=None, ge=1,
+    step: int | None = Field(default=None, ge=1, le=MAX_ROUND_NUMBER,
                              description="the step's place in its scenario, 1 = first")
     word: str | None = Field(default=None, min_length=1, max_length=60)
-    number: int = Field(ge=1)
+    number: int = Field(ge=1, le=MAX_ROUND_NUMBER)
     question: str = Field(min_length=1, max_length=300)
     unit: EstimateUnit
     state: RoundState

@@ -15,10 +15,12 @@ from collections.abc import Callable, Hashable, Sequence
 from dataclasses import dataclass, field
 from typing import Any
 
+from app.likelihood.completeness import incomplete_words, missing_inputs
 from app.likelihood.frequency import compute_scenario
 from app.likelihood.numbers import format_number
 from app.likelihood.types import LikelihoodInputError, StepInput, StepKind, step_kind_words
 from app.services.record.comparison_rounds import round_changes
+from app.services.study.results import INCOMPLETE
 
 # Any in this module: both sides are study-file JSON objects (the file boundary).
 
@@ -88,8 +90,21 @@ def governing_tolerable(scenario: Row, categories: dict[str, Row]) -> float | No
     return min(rated, default=None)
 
 
+def file_scenario_missing(scenario: Row) -> tuple[str, ...]:
+    """What a study file's scenario still needs (the rule of services/study/completeness.py,
+    read from the file's fields)."""
+    frequency_given = all(step.get("value") is not None for step in scenario.get("steps", [])
+                          if step.get("kind") == StepKind.INITIATING_EVENT.value)
+    return missing_inputs(initiating_frequency_given=frequency_given,
+                          severity_given=bool(scenario.get("severity")
+                                              or scenario.get("people_not_rated")))
+
+
 def scenario_numbers(scenario: Row, categories: dict[str, Row]) -> ScenarioNumbers:
     """Compute a scenario of a study file against its governing tolerable frequency."""
+    if missing := file_scenario_missing(scenario):
+        return ScenarioNumbers(None, None, None, None, "",
+                               f"{INCOMPLETE}: {incomplete_words(missing)}")
     tolerable = governing_tolerable(scenario, categories)
     if tolerable is None:
         return ScenarioNumbers(None, None, None, None, "", "no severity category")

@@ -2,8 +2,8 @@
 
 from dataclasses import dataclass
 
-from app.likelihood.checks import CheckWarning, check_scenario
-from app.services.study.results import checked_steps
+from app.likelihood.checks import CheckWarning
+from app.services.study.results import checked_steps, warnings_of
 from app.services.study.tree import ScenarioBranch, StudyTree, WorksheetSpot
 
 __all__ = ["ScenarioWarnings", "checked_steps", "scenario_warnings", "study_warnings"]
@@ -23,7 +23,7 @@ class ScenarioWarnings:
 
 def scenario_warnings(scenario_node: ScenarioBranch) -> list[CheckWarning]:
     """Every IPL-check warning for one scenario (warnings never block its result)."""
-    return check_scenario(checked_steps(scenario_node.steps))
+    return warnings_of(scenario_node.steps)
 
 
 def study_warnings(tree: StudyTree) -> list[ScenarioWarnings]:

@@ -6,6 +6,7 @@ from dataclasses import dataclass
 from sqlmodel import Session
 
 from app.db.models import SeverityCategory
+from app.likelihood.completeness import left_out_words
 from app.likelihood.types import DemandMode, SilStatus
 from app.services.risk.charts import (
     GapBarInput,
@@ -123,6 +124,14 @@ class RiskPicture:
     warnings: tuple[ScenarioWarnings, ...]
     withdrawn: bool = False
     """Drawn with every credit an IPL check flags withdrawn (PFD 1), not as credited."""
+    incomplete: tuple[UnresolvedScenario, ...] = ()
+    """Scenarios without an initiating frequency or a severity yet: not ranked, summed,
+    drawn or counted (services/study/completeness.py)."""
+
+    @property
+    def left_out(self) -> str:
+        """What the ranking, the sums and the SIL counts say they leave out ('' if nothing)."""
+        return left_out_words(len(self.incomplete))
 
 
 BAND_ORDER = ("Below SIL 1", "SIL 1", "SIL 2", "SIL 3", "SIL 4", "Beyond one function")
@@ -163,8 +172,11 @@ def _ranked(study_id: int, node_branch: NodeBranch, deviation_label: str, item: 
 
 
 def _scenarios(tree: StudyTree, *, withdrawn: bool
-               ) -> tuple[list[RankedScenario], list[UnresolvedScenario]]:
-    ranked, unresolved = [], []
+               ) -> tuple[list[RankedScenario], list[UnresolvedScenario],
+                          list[UnresolvedScenario]]:
+    ranked: list[RankedScenario] = []
+    unresolved: list[UnresolvedScenario] = []
+    incomplete: list[UnresolvedScenario] = []
     study_id = tree.study.id or 0
     for node_branch in tree.nodes:
         for deviation_branch in node_branch.deviations:
@@ -176,13 +188,14 @@ def _scenarios(tree: StudyTree, *, withdrawn: bool
                     ranked.append(_ranked(study_id, node_branch, deviation_label, item, figures))
                     continue
                 scenario = item.scenario
-                unresolved.append(UnresolvedScenario(
+                (incomplete if item.outcome.incomplete else unresolved).append(
+                    UnresolvedScenario(
                     f"{scenario.cause} → {scenario.consequence}", _node_label(node_branch),
                     WorksheetSpot(study_id, node_branch.node.id or 0, scenario.id or 0),
                     item.outcome.error,
                 ))
     ranked.sort(key=lambda r: -r.gap_orders)  # stable: worksheet order among equal gaps
-    return ranked, unresolved
+    return ranked, unresolved, incomplete
 
 
 def _severity_order(categories: list[SeverityCategory]) -> list[SeverityCategory]:
@@ -249,7 +262,7 @@ def _sil_counts(needs: list[tuple[SilNeed, str]]) -> tuple[SilBandCount, ...]:
 
 def build_risk_picture(tree: StudyTree, *, withdrawn: bool = False) -> RiskPicture:
     """Everything the risk picture shows, as credited or with flagged credits withdrawn."""
-    ranked, unresolved = _scenarios(tree, withdrawn=withdrawn)
+    ranked, unresolved, incomplete = _scenarios(tree, withdrawn=withdrawn)
     study_id = tree.study.id or 0
     needs = _sil_needs(tree, ranked, withdrawn=withdrawn)
     return RiskPicture(
@@ -270,6 +283,7 @@ def build_risk_picture(tree: StudyTree, *, withdrawn: bool = False) -> RiskPictu
         sil_counts=_sil_counts(needs),
         warnings=tuple(study_warnings(tree)),
         withdrawn=withdrawn,
+        incomplete=tuple(incomplete),
     )
 
 

@@ -1,14 +1,18 @@
 """The proof-test calculator: read the typed inputs, compute PFDavg and the longest interval,
 and write the result onto an IPL step with its inputs as the basis."""
 
+import contextlib
 import json
 import math
+from collections.abc import Mapping
 from dataclasses import asdict, dataclass, replace
+from typing import Any
 
 from sqlmodel import Session
 
+from app.db.compare_and_set import SaveOutcome
 from app.db.models import Step, Study
-from app.likelihood.numbers import format_number
+from app.likelihood.numbers import format_number, parse_probability
 from app.likelihood.proof_test import (
     PROOF_TEST_INTERVAL_CAP_HOURS,
     SifInputs,
@@ -28,6 +32,15 @@ from app.likelihood.sil import HOURS_PER_YEAR, pfd_band
 from app.likelihood.types import DemandMode, LikelihoodInputError, StepKind
 from app.services.risk.proof_test_form import ProofTestForm, read_inputs, read_subsystems
 from app.services.risk.step_details import StepNeed, StepPlace, locate_step, step_need
+from app.services.study.conflicts import (
+    KEEP_MINE,
+    TAKE_THEIRS,
+    FieldConflict,
+    PageEdit,
+    guarded_save,
+    log_resolution,
+    missing_row,
+)
 from app.services.study.tree import NotFoundError, get_study
 
 METHOD = "IEC 61508-6 Annex B simplified equation"
@@ -65,6 +78,29 @@ class ProofTestPage:
     place: StepPlace | None
     need: StepNeed | None
     applied: bool = False
+    loaded: "LoadedPfd | None" = None
+    conflicts: tuple[FieldConflict, ...] = ()  # someone saved the step's PFD since (409)
+    kept_theirs: bool = False  # "take theirs" after a conflict: nothing of this was saved
+
+
+@dataclass(frozen=True)
+class LoadedPfd:
+    """The attached step's version and typed PFD when the calculator was opened, sent back as
+    `version` and `orig_value_text`: applying never replaces a PFD someone saved since unseen."""
+
+    version: int | None
+    value_text: str
+    value: str  # the number as sent back (repr), for a PFD stored without its typed text
+
+    @classmethod
+    def of(cls, place: StepPlace | None, edit: PageEdit | None = None) -> "LoadedPfd | None":
+        """What the page knew (from the posted edit), else the step as stored now."""
+        if place is None:
+            return None
+        if edit is not None and edit.version is not None:
+            return cls(edit.version, str(edit.originals.get("value_text", "")),
+                       str(edit.originals.get("value", "")))
+        return cls(place.step.version, place.step.value_text, repr(place.step.value))
 
 
 def band_label(pfd: float) -> str:
@@ -146,7 +182,8 @@ def read_calculator(*, session: Session, study_id: int, step_id: int | None = No
     form = (_stored_form(place.step) if place else None) or ProofTestForm()
     if need is not None and need.required_pfd is not None and not form.target_pfd:
         form = replace(form, target_pfd=plain_number(need.required_pfd))
-    return evaluate(study, form, place, need, applied=applied)
+    return replace(evaluate(study, form, place, need, applied=applied),
+                   loaded=LoadedPfd.of(place))
 
 
 def evaluate(study: Study, form: ProofTestForm, place: StepPlace | None,
@@ -168,12 +205,12 @@ def evaluate(study: Study, form: ProofTestForm, place: StepPlace | None,
 
 
 def calculate_page(*, session: Session, study_id: int, form: ProofTestForm,
-                   step_id: int | None = None) -> ProofTestPage:
+                   step_id: int | None = None, edit: PageEdit | None = None) -> ProofTestPage:
     """The calculator page for typed inputs (the live recalculation)."""
     study = get_study(session, study_id)
     place = _ipl_place(session, study_id, step_id)
     need = step_need(session, place) if place else None
-    return evaluate(study, form, place, need)
+    return replace(evaluate(study, form, place, need), loaded=LoadedPfd.of(place, edit))
 
 
 def _ipl_place(session: Session, study_id: int, step_id: int | None) -> StepPlace | None:
@@ -215,10 +252,17 @@ def _stored_json(form: ProofTestForm, result: ProofTestResult) -> str:
 BASIS_LIMIT = 2000
 
 
-def apply_to_step(*, session: Session, study_id: int, step_id: int,
-                  form: ProofTestForm) -> ProofTestPage:
-    """Set the IPL's PFD to the computed PFDavg with its inputs as basis; errors save nothing."""
-    page = calculate_page(session=session, study_id=study_id, form=form, step_id=step_id)
+def apply_to_step(*, session: Session, study_id: int, step_id: int, form: ProofTestForm,
+                  edit: PageEdit | None = None, resolution: str = "",
+                  seen: Mapping[str, str] | None = None) -> ProofTestPage:
+    """Set the IPL's PFD to the computed PFDavg with its inputs as basis; errors save nothing.
+
+    A PFD someone saved since the calculator was opened stops it (409, both values);
+    `resolution` answers that: "keep" applies this result over theirs, "take" saves nothing
+    of it; both are logged.
+    """
+    page = calculate_page(session=session, study_id=study_id, form=form, step_id=step_id,
+                          edit=edit)
     if page.result is None or page.place is None:
         return page
     if page.result.refusal:  # a PFD above 1 is never stored
@@ -236,8 +280,53 @@ def apply_to_step(*, session: Session, study_id: int, step_id: int,
         message = (f"Basis: adding the calculation would make the basis {len(basis)} characters, "
                    f"over the {BASIS_LIMIT} allowed; shorten the step's basis first.")
         return replace(page, errors={"basis": message})
-    step.value, step.value_text = page.result.pfd, plain_number(page.result.pfd)
-    step.proof_test, step.basis = _stored_json(form, page.result), basis
-    session.add(step)
+    changes = {"value": page.result.pfd, "value_text": plain_number(page.result.pfd),
+               "proof_test": _stored_json(form, page.result), "basis": basis}
+    return _save_pfd(session, page, changes, edit or PageEdit(), resolution, seen or {})
+
+
+def _save_pfd(session: Session, page: ProofTestPage, changes: Mapping[str, Any],
+              edit: PageEdit, resolution: str, seen: Mapping[str, str]) -> ProofTestPage:
+    """Write the result unless someone saved the step's PFD since the page was opened."""
+    assert page.place is not None
+    step, theirs = page.place.step, seen.get("value_text")
+    if resolution in (KEEP_MINE, TAKE_THEIRS) and theirs is not None:
+        log_resolution(session, step, "value_text", kept_mine=resolution == KEEP_MINE,
+                       theirs=theirs, mine=str(changes["value_text"]))
+        if resolution == TAKE_THEIRS:
+            session.commit()
+            return replace(page, kept_theirs=True)
+    if resolution == KEEP_MINE and theirs is not None:
+        # Their text still stored: their number is the stored one (a computed PFD keeps more
+        # digits than its text shows).
+        number = repr(step.value) if step.value_text == theirs else ""
+        loaded = _pfd_of({"value_text": theirs, "value": number})
+    else:
+        loaded = _pfd_of(edit.originals)
+    # The basis and inputs are the stored ones plus this result: only the PFD is guarded.
+    originals = {"basis": step.basis, "proof_test": step.proof_test, **loaded}
+    result = guarded_save(session, Step, int(step.id or 0), replace(edit, originals=originals),
+                          changes)
+    if result.outcome is SaveOutcome.DELETED:
+        session.rollback()
+        raise missing_row(session, step.study_id, Step, int(step.id or 0), "The step is gone.")
+    if result.outcome is SaveOutcome.CHANGED_SINCE:
+        session.rollback()
+        shown = tuple(c for c in result.conflicts if c.field == "value_text")
+        return replace(page, conflicts=shown or result.conflicts)
     session.commit()
     return replace(page, applied=True)
+
+
+def _pfd_of(texts: Mapping[str, Any]) -> dict[str, Any]:
+    """The PFD the page showed (its text and its number, as sent), so both compare alike;
+    a number that was not sent is read from the text. Any: raw form values."""
+    loaded: dict[str, Any] = {}
+    if "value_text" in texts:
+        loaded["value_text"] = str(texts["value_text"])
+    try:
+        loaded["value"] = float(str(texts.get("value", "")))
+    except ValueError:
+        with contextlib.suppress(LikelihoodInputError):  # unreadable: not compared
+            loaded["value"] = parse_probability(loaded.get("value_text", "")).value
+    return loaded

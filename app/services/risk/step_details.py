@@ -13,7 +13,7 @@ from app.db.compare_and_set import SaveOutcome
 from app.db.models import Deviation, Scenario, SeverityCategory, Step, Study, saved_id, text_limit
 from app.db.queries import fetch_rows_of_study
 from app.likelihood.check_base import CauseType
-from app.likelihood.checks import CheckWarning, check_scenario
+from app.likelihood.checks import CheckWarning
 from app.likelihood.numbers import parse_frequency, parse_probability
 from app.likelihood.types import (
     DemandMode,
@@ -24,10 +24,9 @@ from app.likelihood.types import (
     StepKind,
 )
 from app.likelihood.typical import TypicalValue, typical_by_key, typical_for_kind
-from app.services.risk.ipl_checks import checked_steps
 from app.services.study.conflicts import FieldConflict, PageEdit, missing_row, save_form
 from app.services.study.errors import length_problem
-from app.services.study.results import compute_outcome
+from app.services.study.results import compute_outcome, warnings_of
 from app.services.study.step_fields import receptors_text
 from app.services.study.tree import NotFoundError, WorksheetSpot, get_study
 
@@ -232,7 +231,7 @@ def _details_page(session: Session, place: StepPlace, form: StepDetailsForm,
         study=get_study(session, place.step.study_id), place=place,
         kind_label=kind.label, is_ipl=kind is StepKind.IPL, form=form, errors=errors,
         typical_options=typical_for_kind(kind), chosen_typical=typical_by_key(form.typical_key),
-        ipl_types=IPL_TYPE_LABELS, warnings=check_scenario(checked_steps(steps)), saved=saved,
+        ipl_types=IPL_TYPE_LABELS, warnings=warnings_of(steps), saved=saved,
         version=conflict.page_version if conflict else place.step.version,
         loaded=conflict.loaded if conflict else StepDetailsForm.from_step(place.step),
         conflicts=conflict.fields if conflict else (),

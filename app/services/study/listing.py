@@ -8,6 +8,7 @@ from sqlmodel import Session
 
 from app.db.models import Scenario, Study
 from app.db.queries import fetch_studies_with_counts
+from app.likelihood.completeness import left_out_words
 from app.likelihood.types import ScenarioResult
 from app.services.study.results import Assessment
 from app.services.study.tree import (
@@ -37,6 +38,13 @@ class NodeTotals:
     """Scenarios with a credit an IPL check doubts."""
     short_withdrawn_count: int = 0
     """Scenarios short of target once the flagged credits are withdrawn."""
+    incomplete_count: int = 0
+    """Scenarios without an initiating frequency or a severity yet (not in any other count)."""
+
+    @property
+    def left_out(self) -> str:
+        """What these totals say about the incomplete scenarios they leave out ('' if none)."""
+        return left_out_words(self.incomplete_count)
 
 
 def list_studies(*, session: Session) -> list[StudyListing]:
@@ -49,13 +57,16 @@ def _withdrawn_result(assessment: Assessment) -> ScenarioResult:
     return figures.result
 
 
-def totals_of_results(assessments: Sequence[Assessment | None]) -> NodeTotals:
-    """Count and sum scenario assessments; None stands for one that could not be computed."""
+def totals_of_results(assessments: Sequence[Assessment | None], *,
+                      incomplete_count: int = 0) -> NodeTotals:
+    """Count and sum scenario assessments; None stands for one that could not be computed,
+    `incomplete_count` of those Nones are incomplete scenarios (counted apart)."""
     computed = [a for a in assessments if a is not None]
     return NodeTotals(
         scenario_count=len(assessments),
         short_count=sum(not a.as_credited.result.meets_target for a in computed),
-        unresolved_count=len(assessments) - len(computed),
+        unresolved_count=len(assessments) - len(computed) - incomplete_count,
+        incomplete_count=incomplete_count,
         flagged_count=sum(a.withdrawn is not None for a in computed),
         short_withdrawn_count=sum(not _withdrawn_result(a).meets_target for a in computed),
     )
@@ -63,7 +74,8 @@ def totals_of_results(assessments: Sequence[Assessment | None]) -> NodeTotals:
 
 def totals_of(scenarios: list[ScenarioBranch]) -> NodeTotals:
     """Count and sum a set of scenarios' outcomes."""
-    return totals_of_results([s.outcome.assessment for s in scenarios])
+    return totals_of_results([s.outcome.assessment for s in scenarios],
+                             incomplete_count=sum(s.outcome.incomplete for s in scenarios))
 
 
 def node_totals(nodes: list[NodeBranch]) -> dict[int, NodeTotals]:

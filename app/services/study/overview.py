@@ -14,6 +14,7 @@ from sqlmodel import Session
 from app.db.models import Node, SeverityCategory, Study
 from app.db.queries import fetch_rows_of_study
 from app.services.study.listing import NodeTotals
+from app.services.study.results import INCOMPLETE
 from app.services.study.stored_results import (
     NO_SCENARIOS,
     stored_node_totals,
@@ -50,6 +51,14 @@ class OverviewRow:
     receptor: str
     withdrawn: Headline | None
     error: str
+    incomplete: bool = False
+
+    @property
+    def no_figures_words(self) -> str:
+        """Why there are no figures, worded as ScenarioOutcome.no_figures_words says it."""
+        if self.result is not None:
+            return ""
+        return f"{INCOMPLETE}: {self.error}" if self.incomplete else f"not computed: {self.error}"
 
 
 @dataclass(frozen=True)
@@ -83,7 +92,7 @@ def _overview_row(row: Any, categories: dict[int | None, SeverityCategory]) -> O
     category = categories.get(row.category_id)
     return OverviewRow(row.id, f"{row.guideword} {row.parameter}", row.cause, row.consequence,
                        category.name if category else "", result, row.receptor, withdrawn,
-                       row.error)
+                       row.error, bool(row.incomplete))
 
 
 def read_study_overview(*, session: Session, study_id: int) -> StudyOverview:

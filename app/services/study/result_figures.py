@@ -19,6 +19,7 @@ from typing import Any
 from app.likelihood.demand import SifDemand
 from app.likelihood.receptors import ReceptorLine
 from app.likelihood.types import DemandMode, Receptor, ScenarioResult, SilStatus, SilTarget
+from app.services.study.completeness import is_incomplete
 from app.services.study.results import (
     Assessment,
     Figures,
@@ -111,11 +112,11 @@ def scenario_columns(rating: Any, steps: tuple[Any, ...], categories: Mapping[in
                                              people_not_rated=people_not_rated,
                                              assessed=assessment_of_rows)
     if assessment is None or category is None:
-        return {**NOT_COMPUTED, "error": error}
+        return {**NOT_COMPUTED, "incomplete": is_incomplete(rating, steps), "error": error}
     rated = receptor_categories(rating, categories, people_not_rated=people_not_rated)
     result = assessment.as_credited.result
     withdrawn = assessment.withdrawn.result if assessment.withdrawn else None
-    return {"computed": True, "short": not result.meets_target,
+    return {"computed": True, "incomplete": False, "short": not result.meets_target,
             "flagged": withdrawn is not None,
             "short_withdrawn": not (withdrawn or result).meets_target, "category_id": category.id,
             "gap_orders": result.gap_orders,
@@ -130,7 +131,8 @@ def scenario_columns(rating: Any, steps: tuple[Any, ...], categories: Mapping[in
 
 
 NOT_COMPUTED: dict[str, Any] = {
-    "computed": False, "short": False, "flagged": False, "short_withdrawn": False,
+    "computed": False, "incomplete": False, "short": False, "flagged": False,
+    "short_withdrawn": False,
     "category_id": None, "gap_orders": None, "receptor": "", "mitigated_frequency": None,
     "tolerable_frequency": None, "ratio": None, "sil_label": "", "demand_mode": "",
     "withdrawn_mitigated_frequency": None, "withdrawn_ratio": None, "figures": "{}"}

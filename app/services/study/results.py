@@ -16,6 +16,7 @@ from typing import Any, Protocol, TypeVar
 from app.db.models import Scenario, SeverityCategory, Step
 from app.likelihood.check_base import CheckedStep, CheckWarning
 from app.likelihood.checks import check_scenario
+from app.likelihood.completeness import incomplete_words
 from app.likelihood.frequency import compute_scenario
 from app.likelihood.receptors import ReceptorAssessment, ReceptorLine, assess_receptors
 from app.likelihood.types import (
@@ -28,9 +29,12 @@ from app.likelihood.types import (
     modifier_receptors,
 )
 from app.likelihood.withdrawn import withdraw_flagged_credits
+from app.services.study.completeness import CompletableScenario, missing_of
 from app.services.study.step_fields import cause_type_of, modifier_kind_of, receptor_set
 
 NO_CATEGORY = "no severity category: no target to compare with"
+NONE_NEEDED = "none needed"
+INCOMPLETE = "incomplete"
 
 
 class RatedScenario(Protocol):
@@ -61,7 +65,7 @@ class StoredStep(Protocol):
     @property
     def kind(self) -> StepKind: ...
     @property
-    def value(self) -> float: ...
+    def value(self) -> float | None: ...
     @property
     def description(self) -> str: ...
     @property
@@ -110,6 +114,22 @@ class ScenarioOutcome:
     assessment: Assessment | None = None
     rated: tuple[tuple[Receptor, SeverityCategory], ...] = ()
     """Each rated receptor's severity category, in receptor order."""
+    missing: tuple[str, ...] = ()
+    """What an incomplete scenario still needs (initiating frequency, severity); see
+    services/study/completeness.py. An incomplete scenario has no result."""
+
+    @property
+    def incomplete(self) -> bool:
+        """No initiating frequency or no severity yet: shown as incomplete, left out of sums."""
+        return bool(self.missing)
+
+    @property
+    def no_figures_words(self) -> str:
+        """Why there are no figures, as every page and export says it: 'incomplete: no
+        severity yet' or 'not computed: <the rule broken>' ('' when there are figures)."""
+        if self.result is not None:
+            return ""
+        return f"{INCOMPLETE}: {self.error}" if self.incomplete else f"not computed: {self.error}"
 
     def figures(self, *, withdrawn: bool) -> Figures | None:
         """The figures as credited, or with flagged credits withdrawn where a check flags one."""
@@ -189,6 +209,9 @@ def checked_step(step: StoredStep, cause_system_tag: str = "") -> CheckedStep:
     def read(name: str) -> Any:  # Any: an ORM attribute or a plain row's column
         return getattr(step, name, None)
 
+    if step.value is None:  # only an incomplete scenario's initiating event; never computed
+        raise LikelihoodInputError("value_missing", step.description,
+                                   f"{step.kind.label}: no value given yet.")
     return CheckedStep(
         kind=step.kind, value=step.value, label=step.description, credited=step.credited,
         ipl_type=_ipl_type(read("ipl_type")), system_tag=read("system_tag") or "",
@@ -211,6 +234,14 @@ def checked_steps(steps: Iterable[StoredStep]) -> list[CheckedStep]:
     return [checked_step(s, getattr(s, "system_tag", "") or ""
                          if s.kind == StepKind.INITIATING_EVENT else "")
             for s in _ordered(steps)]
+
+
+def warnings_of(steps: Iterable[StoredStep]) -> list[CheckWarning]:
+    """The IPL-check warnings of a scenario; none while a step has no value yet."""
+    listed = list(steps)
+    if any(s.value is None for s in listed):
+        return []
+    return check_scenario(checked_steps(listed))
 
 
 def steps_for_receptor(steps: Sequence[StepInput], receptor: Receptor) -> list[StepInput]:
@@ -290,13 +321,19 @@ def targets_of(rated: Mapping[Receptor, RatedCategory]) -> Targets:
 
 
 def outcome_of(
-    scenario: RatedScenario, steps: Iterable[StoredStep],
+    scenario: CompletableScenario, steps: Iterable[StoredStep],
     categories: Mapping[int, Category], *, people_not_rated: bool,
     assessed: Assessor,
 ) -> tuple[Assessment | None, Category | None, str]:
-    """Assess a scenario and name the category of its governing receptor."""
+    """Assess a scenario and name the category of its governing receptor.
+
+    An incomplete scenario is never assessed: None, and the words for what it lacks.
+    """
+    listed = list(steps)
+    if missing := missing_of(scenario, listed):
+        return None, None, incomplete_words(missing)
     rated = receptor_categories(scenario, categories, people_not_rated=people_not_rated)
-    assessment, error = assessed(steps, targets_of(rated))
+    assessment, error = assessed(listed, targets_of(rated))
     if assessment is None:
         return None, None, error
     return assessment, rated[assessment.as_credited.governing.receptor], ""
@@ -306,11 +343,18 @@ def compute_outcome(
     scenario: Scenario, steps: Iterable[Step], categories: Mapping[int, SeverityCategory]
 ) -> ScenarioOutcome:
     """Compute one scenario per rated receptor; the headline is the governing receptor's."""
+    listed = list(steps)
     assessment, category, error = outcome_of(
-        scenario, list(steps), categories, people_not_rated=scenario.people_not_rated,
+        scenario, listed, categories, people_not_rated=scenario.people_not_rated,
         assessed=assessment_of)
     if assessment is None:
-        return ScenarioOutcome(None, None, error)
+        return ScenarioOutcome(None, None, error, missing=missing_of(scenario, listed))
     rated = receptor_categories(scenario, categories, people_not_rated=scenario.people_not_rated)
     return ScenarioOutcome(assessment.as_credited.result, category, "", assessment,
                            tuple((r, rated[r]) for r in Receptor if r in rated))
+
+
+def required_rrf_cell(result: ScenarioResult) -> float | str:
+    """The added risk reduction a scenario asks for, as the screen and every file show it:
+    the factor when short of target, "none needed" when it meets target (never a bare 1)."""
+    return NONE_NEEDED if result.meets_target else result.required_rrf

@@ -40,14 +40,17 @@ RESULTS_VERSION = 1
 STUDY_ROW = 0  # result_total.node_id of a study's own counts
 BATCH = 500  # ids per IN list
 COUNTS = ("scenario_count", "short_count", "unresolved_count", "flagged_count",
-          "short_withdrawn_count")
+          "short_withdrawn_count", "incomplete_count")
 
 
 def counts_of(row: Any) -> dict[str, int]:
-    """What one stored scenario row adds to its node's and study's counts."""
+    """What one stored scenario row adds to its node's and study's counts (an incomplete
+    scenario only to the scenarios and the incomplete ones: services/study/completeness.py)."""
     return {"scenario_count": 1, "short_count": int(row["short"]),
-            "unresolved_count": int(not row["computed"]), "flagged_count": int(row["flagged"]),
-            "short_withdrawn_count": int(row["short_withdrawn"])}
+            "unresolved_count": int(not row["computed"] and not row["incomplete"]),
+            "flagged_count": int(row["flagged"]),
+            "short_withdrawn_count": int(row["short_withdrawn"]),
+            "incomplete_count": int(row["incomplete"])}
 
 
 def _batches(ids: Iterable[int]) -> list[list[int]]:
@@ -138,7 +141,7 @@ def _lock_stored(session: Session, scenario_ids: Iterable[int]) -> list[dict[str
     for batch in _batches(scenario_ids):
         rows.extend(dict(row._mapping) for row in session.connection().execute(
             select(table.scenario_id, table.study_id, table.node_id, table.computed,
-                   table.short, table.flagged, table.short_withdrawn)
+                   table.incomplete, table.short, table.flagged, table.short_withdrawn)
             .where(table.scenario_id.in_(batch)).with_for_update()))
     return rows
 
@@ -224,10 +227,10 @@ def ensure_current(session: Session, study_id: int) -> None:
 
 
 def _totals(row: Any) -> NodeTotals:
-    return NodeTotals(*(int(getattr(row, name)) for name in COUNTS))
+    return NodeTotals(**{name: int(getattr(row, name)) for name in COUNTS})
 
 
-NO_SCENARIOS = NodeTotals(0, 0, 0, 0, 0)
+NO_SCENARIOS = NodeTotals(0, 0, 0)
 
 
 def stored_totals(session: Session, study_id: int, node_id: int
@@ -273,7 +276,8 @@ def stored_rows_in_order(session: Session, study_id: int) -> list[Any]:
     stored: Any = ScenarioResultRow
     return list(session.connection().execute(
         select(Scenario.id, Scenario.cause, Scenario.consequence, Deviation.node_id,  # type: ignore[call-overload]
-               Deviation.guideword, Deviation.parameter, stored.computed, stored.error,
+               Deviation.guideword, Deviation.parameter, stored.computed, stored.incomplete,
+               stored.error,
                stored.category_id, stored.receptor, stored.mitigated_frequency,
                stored.tolerable_frequency, stored.ratio, stored.gap_orders, stored.short,
                stored.sil_label, stored.demand_mode, stored.flagged, stored.short_withdrawn,

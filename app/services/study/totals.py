@@ -6,7 +6,7 @@ path selects only the columns the arithmetic reads and computes every scenario t
 same cached arithmetic and the same governing-category rule as the study tree.
 """
 
-from collections import defaultdict
+from collections import Counter, defaultdict
 from collections.abc import Mapping, Sequence
 from dataclasses import dataclass, field
 from typing import Any
@@ -19,6 +19,7 @@ from app.db.queries import (
     scenario_ratings_of_study,
     step_figures_of_study,
 )
+from app.services.study.completeness import is_incomplete
 from app.services.study.listing import NodeTotals, totals_of_results
 from app.services.study.results import Assessment, assessment_of_rows, outcome_of
 
@@ -47,10 +48,13 @@ def study_totals(session: Session, study_id: int) -> StudyTotals:
     for step in fetch_plain_rows(session, step_figures_of_study(study_id)):
         steps[step.scenario_id].append(step)
     results: dict[int, list[Assessment | None]] = defaultdict(list)
+    incomplete: Counter[int] = Counter()
     for scenario in fetch_plain_rows(session, scenario_ratings_of_study(study_id)):
+        scenario_steps = tuple(steps[scenario.id])
         results[scenario.node_id].append(
-            scenario_assessment(scenario, tuple(steps[scenario.id]), categories))
-    return totals_by_node(results)
+            scenario_assessment(scenario, scenario_steps, categories))
+        incomplete[scenario.node_id] += is_incomplete(scenario, scenario_steps)
+    return totals_by_node(results, incomplete)
 
 
 def scenario_assessment(scenario: Any, steps: tuple[Any, ...],
@@ -61,9 +65,13 @@ def scenario_assessment(scenario: Any, steps: tuple[Any, ...],
                       assessed=assessment_of_rows)[0]
 
 
-def totals_by_node(results: Mapping[int, Sequence[Assessment | None]]) -> StudyTotals:
-    """Sum the results of each node and of all nodes together."""
+def totals_by_node(results: Mapping[int, Sequence[Assessment | None]],
+                   incomplete: Mapping[int, int] | None = None) -> StudyTotals:
+    """Sum the results of each node and of all nodes together; `incomplete` counts each
+    node's incomplete scenarios (their results are None)."""
+    left_out = incomplete or {}
     every = [result for node_results in results.values() for result in node_results]
-    return StudyTotals({node_id: totals_of_results(node_results)
+    return StudyTotals({node_id: totals_of_results(node_results,
+                                                   incomplete_count=left_out.get(node_id, 0))
                         for node_id, node_results in results.items()},
-                       totals_of_results(every))
+                       totals_of_results(every, incomplete_count=sum(left_out.values())))

@@ -117,7 +117,8 @@ def edit_step_value(*, session: Session, study_id: int, step_id: int, text: str,
         return None
     if isinstance(worded, LikelihoodInputError):
         session.commit()  # keeps the sequence number: an older keystroke stays older
-        fallback = f"{step_label(step)}: using last valid value {format_number(step.value)}"
+        fallback = (f"{step_label(step)}: no value given yet" if step.value is None else
+                    f"{step_label(step)}: using last valid value {format_number(step.value)}")
         return _reply(session, "step", step, fid, error=worded.message, fallback=fallback)
     parsed = worded.number
     word_note = {"basis": basis_with_word(step.basis, worded)} if worded.word else {}

@@ -102,8 +102,20 @@ class WorksheetPage:
     node_delete_question: str
 
 
+NOT_GIVEN = "not given yet"
+
+
+def shown_value(step: Step) -> str:
+    """What the value box holds: the team's words, or nothing while no value is given."""
+    if step.value is None:
+        return ""
+    return step.value_text or format_number(step.value)
+
+
 def plain_value(step: Step) -> str:
     """The stored value restated in plain words ("1 in 100 · 1.0e-2")."""
+    if step.value is None:
+        return NOT_GIVEN
     for text in (step.value_text, repr(step.value)):
         try:
             return parse_step_value(step.kind, text).plain
@@ -120,7 +132,7 @@ def _step_rows(steps: list[Step]) -> tuple[StepRow, ...]:
         kind = step.kind
         question = f"Delete step '{step_label(step)}' ({kind.label.lower()})?"
         rows.append(StepRow(step, kind, kind == StepKind.INITIATING_EVENT,
-                            step.value_text or format_number(step.value), plain_value(step),
+                            shown_value(step), plain_value(step),
                             question))
     return tuple(rows)
 

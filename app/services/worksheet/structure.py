@@ -21,8 +21,10 @@ from app.services.study.tree import NotFoundError, get_study
 # Any in this module: a worksheet row is one of five table models, chosen at run time by its kind
 # name, and form values are raw text until read here (both boundaries).
 
-# A new step counts as 1: no credit for a layer, one event a year for a cause, until the team
-# agrees a number. Never a guess that would lower the frequency.
+# A new layer, modifier or enabling condition counts as 1 (no credit) until the team agrees a
+# number: never a guess that would lower the frequency. A new scenario's initiating event has
+# no value and the scenario no severity: it is incomplete (services/study/completeness.py)
+# until the team gives both, so no stand-in number ever shows a target, a gap or a SIL.
 NEW_STEP_VALUE_TEXT = "1"
 
 
@@ -128,8 +130,6 @@ def _new_row(session: Session, kind: RowKind, study_id: int, parent: Any,
     if kind.name == "step":
         fields.setdefault("kind", StepKind.IPL)
         fields.update(value=1.0, value_text=NEW_STEP_VALUE_TEXT)
-    if kind.name == "scenario":
-        fields["severity_category_id"] = _default_category(session, study_id, parent)
     if kind.name == "node":
         fields.setdefault("number", _next_node_number(session, study_id))
     return kind.model(study_id=study_id, **fields)
@@ -156,8 +156,8 @@ def create_row(
     _place(session, kind, row, after)
     session.flush()
     if kind.name == "scenario":
-        session.add(Step(study_id=study_id, scenario_id=row.id, value=1.0, position=0,
-                         kind=StepKind.INITIATING_EVENT, value_text=NEW_STEP_VALUE_TEXT))
+        session.add(Step(study_id=study_id, scenario_id=row.id, value=None, position=0,
+                         kind=StepKind.INITIATING_EVENT, value_text=""))
     session.commit()
     session.refresh(row)
     return row
@@ -170,23 +170,6 @@ def _step_kind(text: str) -> StepKind:
         known = ", ".join(k.value for k in StepKind)
         raise StructureInputError("kind", f"the step kind must be one of {known} "
                                   f"(got '{text}').") from None
-
-
-def _default_category(session: Session, study_id: int, deviation: Deviation) -> int:
-    earlier = session.exec(
-        select(Scenario.severity_category_id).where(Scenario.deviation_id == deviation.id)
-        .order_by(col(Scenario.position).desc(), col(Scenario.id).desc())
-    ).first()
-    if earlier is not None:
-        return earlier
-    first = session.exec(
-        select(SeverityCategory.id).where(SeverityCategory.study_id == study_id)
-        .order_by(col(SeverityCategory.position), col(SeverityCategory.id))
-    ).first()
-    if first is None:
-        raise StructureInputError("severity_category_id", "the study has no severity "
-                                  "categories yet: add its risk criteria first.")
-    return first
 
 
 def _next_node_number(session: Session, study_id: int) -> str:
@@ -214,7 +197,7 @@ def _read_text_fields(kind: RowKind, changes: Mapping[str, str], *,
 
 
 def _read_category(session: Session, study_id: int, field: str, text: str) -> int | None:
-    if not text.strip() and field != "severity_category_id":
+    if not text.strip():  # a severity left blank: the scenario is incomplete until given
         return None
     category_id = read_row_id(text)
     category = session.get(SeverityCategory, category_id) if category_id else None

@@ -52,3 +52,32 @@ def test_two_people_on_one_details_form(
     choice = session.exec(select(ChangeLogEntry).where(ChangeLogEntry.action == "conflict")).one()
     assert (choice.author, choice.field, choice.new_value) == (
         "Ben Other (invented)", "basis", "Vendor data sheet (invented)")
+
+
+def test_two_people_applying_the_proof_test_calculator_to_one_step(
+    ada: Page, ben: Page, live_server: str, session: Session, artifacts: Path,
+) -> None:
+    """1oo1, λDU 1e-6 /h, T1 8760 h, MRT 8 h: 1e-6 x (4380 + 8) = 4.39e-3 (Ada);
+    λDU 2e-7 /h: 2e-7 x 4388 = 8.78e-4 (Ben). IEC 61508-6 Annex B simplified equation."""
+    step = make_step(session, make_scenario_tree(session), value=0.1, value_text="0.1",
+                     description="Overfill trip")
+    for page, lambda_du in ((ada, "1e-6"), (ben, "2e-7")):
+        page.goto(f"{live_server}/studies/{step.study_id}/proof-test?step_id={step.id}")
+        page.locator("#pt-lambda_du").fill(lambda_du)
+    expect(ada.locator("#pfd-avg")).to_have_text("4.39e-3")
+    expect(ben.locator("#pfd-avg")).to_have_text("8.78e-4")
+
+    ada.locator("#apply-pfd").click()
+    expect(ada.locator(".saved-note")).to_contain_text("The step now uses PFD 4.4e-3")
+    ben.locator("#apply-pfd").click()
+
+    box = ben.locator("#apply-conflict[data-conflict]")
+    expect(box).to_contain_text("The step's PFD was changed by Ada Scribe (invented)")
+    expect(box.locator(".conflict-theirs")).to_have_text("4.39e-3")
+    expect(box.locator(".conflict-mine")).to_have_text("8.78e-4")
+    ben.screenshot(path=str(artifacts / "proof-test-conflict.png"), full_page=True)
+    assert reloaded(session, Step, step.id).value_text == "4.39e-3"
+
+    box.get_by_role("button", name="Keep mine").click()
+    expect(ben.locator(".saved-note")).to_contain_text("The step now uses PFD 8.8e-4")
+    assert reloaded(session, Step, step.id).value_text == "8.78e-4"

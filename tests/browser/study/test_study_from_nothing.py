@@ -75,6 +75,11 @@ def test_a_whole_study_from_nothing_with_the_keyboard_only(
     page.keyboard.press("Tab")
     page.keyboard.type("Hose rupture, release, one fatality")
     page.keyboard.press("Tab")
+    # A new scenario has no severity until the team gives one (it is "incomplete").
+    expect(page.locator("[data-figure='incomplete']")).to_contain_text("no severity yet")
+    tab_to(page, "[id^='sc-'][id$='-severity_category_id']")
+    page.keyboard.press("ArrowDown")  # from "— not given yet —" to the study's one category
+    expect(page.locator("[data-figure='incomplete']")).not_to_contain_text("no severity yet")
     tab_to(page, "tr[data-kind='initiating_event'] [data-value-field]")
     page.keyboard.press("Control+a")
     page.keyboard.type("0.1/yr", delay=20)

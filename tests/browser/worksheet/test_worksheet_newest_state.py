@@ -88,7 +88,7 @@ def expect_newest(page: Page, step: Step) -> None:
     """IE 0.1 times IPL 1e-3 = 1e-4/yr against Major injury's 1e-4/yr: exactly at target."""
     expect(figure(page, step, "mitigated")).to_have_text("1.0e-4 /yr")
     expect(figure(page, step, "tolerable")).to_have_text("1.0e-4 /yr")
-    expect(figure(page, step, "gap")).to_have_text("× 1 · +0.0 orders")
+    expect(figure(page, step, "gap")).to_have_text("× 1.0e0 · +0.0 orders")
 
 
 # A reply to the first edit arrives after the second edit's reply replaced the figures: the

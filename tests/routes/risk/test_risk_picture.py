@@ -83,8 +83,8 @@ def test_summed_mitigated_frequency_per_category_and_counts_per_node(
     ]
     # Per node: counts only (a sum across categories would add unlike consequences).
     assert table_rows(page, "node-table")[1:] == [
-        ["1 Feed drum", "2", "2", "0", "2"],
-        ["2 Tank farm", "1", "0", "0", "0"],
+        ["1 Feed drum", "2", "2", "0", "0", "2"],
+        ["2 Tank farm", "1", "0", "0", "0", "0"],
     ]
 
 

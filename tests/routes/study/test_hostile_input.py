@@ -25,13 +25,13 @@ def test_the_id_reader_takes_only_ascii_digits_in_the_database_range() -> None:
 
 
 @pytest.mark.parametrize("bad", IMPOSSIBLE_IDS)
-def test_a_page_with_an_impossible_id_is_not_found(
+def test_a_page_with_an_impossible_id_is_not_understood(
     client: TestClient, scenario: Scenario, bad: str
 ) -> None:
     for url in (f"/studies/{bad}", f"/studies/{scenario.study_id}/nodes/{bad}",
                 f"/studies/{scenario.study_id}/revisions/{bad}"):
         response = client.get(url)
-        assert response.status_code == 404, url
+        assert response.status_code == 400, url
         assert "ASCII digits" in response.text
 
 

@@ -139,14 +139,14 @@ def test_a_flagged_credit_changes_the_headline_on_the_overview(
     overview = unescape(client.get(f"/studies/{scenario.study_id}").text)
     row = re.search(rf'id="scenario-row-{scenario.id}".*?</tr>', overview, re.S)
     assert row is not None
-    assert "● meets target" in row[0] and "⚑ ▲ short ×10 1.0e-4 /yr" in " ".join(
+    assert "● meets target" in row[0] and "⚑ ▲ short ×1.0e1 1.0e-4 /yr" in " ".join(
         re.sub(r"<[^>]+>", " ", row[0]).split())
     assert text_of(overview, "study-totals") == (
         "Scenarios 1 Short of target 0 Short with flagged credits withdrawn 1 "
         "Scenarios with flagged credits 1")
     region = text_of(_page(client, scenario.study_id), f"scenario-{scenario.id}-results")
     assert "⚑ With flagged credits withdrawn (DCS high level trip taken at PFD 1): " \
-           "mitigated 1.0e-4 /yr · ▲ short ×10" in region
+           "mitigated 1.0e-4 /yr · ▲ short ×1.0e1" in region
     assert "the verdict changes" in region
 
 

@@ -35,7 +35,7 @@ def test_the_worksheet_shows_each_scenario_with_its_steps_and_figures(
     assert figures(page, scenario.id) == {
         "initiating": "1.0e-1 /yr", "enabling": "× 5.0e-1", "modifiers": "× 1.0e0",
         "ipls": "× 1.0e-2", "mitigated": "5.0e-4 /yr", "tolerable": "1.0e-5 /yr",
-        "gap": "× 50 · +1.7 orders", "rrf": "50", "sil": "SIL 1"}
+        "gap": "× 5.0e1 · +1.7 orders", "rrf": "50", "sil": "SIL 1"}
     assert attrs_of(page, f"step-{ipl.id}-value_text")["value"] == "1 in 100"
     assert text_of(page, f"step-{ipl.id}-value_text-said") == "1 in 100 · 1.0e-2"
     assert text_of(page, f"step-{enabling.id}-value_text-said") == "1 in 2 · 5.0e-1"

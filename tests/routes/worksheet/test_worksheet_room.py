@@ -84,7 +84,7 @@ def test_the_poll_answers_204_until_something_changes(
     assert changed.status_code == 200
     assert changed.text.lstrip().startswith('<div id="room-live"')
     assert text_of(changed.text, "room-mitigated") == "1.0e-3 /yr"
-    assert text_of(changed.text, "room-gap") == "+2.0 orders · ×100"
+    assert text_of(changed.text, "room-gap") == "+2.0 orders · ×1.0e2"
     new_stamp = attrs_of(changed.text, "room-live")["data-stamp"]
     assert new_stamp != stamp
     assert client.get(f"/studies/{first.study_id}/room/live?stamp={new_stamp}").status_code == 204
@@ -121,8 +121,8 @@ def contrast(foreground: str, background: str) -> float:
 
 
 def room_colours() -> dict[str, str]:
-    """The room view's colour variables, read from the stylesheet it uses."""
-    css = (PROJECT_ROOT / "static" / "worksheet.css").read_text()
+    """The room view's colour variables, read from its own stylesheet."""
+    css = (PROJECT_ROOT / "static" / "room.css").read_text()
     block = css[css.index("body.room {"):]
     block = block[:block.index("}")]
     return dict(re.findall(r"--room-([a-z]+):\s*(#[0-9a-fA-F]{6})", block))

@@ -79,21 +79,21 @@ def test_adding_a_step_puts_it_after_the_row_and_focuses_its_first_field(
     assert last.id is not None
 
 
-def test_a_new_scenario_comes_with_its_initiating_event_and_the_previous_severity(
+def test_a_new_scenario_comes_with_an_empty_initiating_event_and_no_severity(
     client: TestClient, session: Session, scenario: Scenario
 ) -> None:
-    study = session.get(Study, scenario.study_id)
-    assert study is not None
-    make_category(session, study, name="Major", tolerable_frequency=1e-6)  # not the default
+    """No stand-in numbers: the scenario is incomplete until the team gives both."""
     response = client.post(f"/studies/{scenario.study_id}/scenarios", headers=HX,
                            data={"parent_id": scenario.deviation_id})
     assert response.status_code == 200
     created = rows(session, Scenario, deviation_id=scenario.deviation_id)[-1]
-    assert created.severity_category_id == scenario.severity_category_id
+    assert created.severity_category_id is None
     steps = rows(session, Step, scenario_id=created.id)
     assert [(s.kind, s.value, s.value_text) for s in steps] == [
-        (StepKind.INITIATING_EVENT, 1.0, "1")]
-    assert figures(response.text, created.id or 0)["mitigated"] == "1.0e0 /yr"
+        (StepKind.INITIATING_EVENT, None, "")]
+    shown = figures(response.text, created.id or 0)
+    assert "mitigated" not in shown and "sil" not in shown
+    assert "Incomplete: no initiating event frequency and no severity yet" in shown["incomplete"]
 
 
 def test_adding_a_deviation_and_a_safeguard(client: TestClient, session: Session,
@@ -142,7 +142,7 @@ def test_creating_a_bad_row_is_refused_with_the_rule(
     assert [len(rows(session, m)) for m in (Node, Safeguard, Step)] == before
 
 
-def test_a_scenario_needs_the_study_to_have_severity_categories(
+def test_a_scenario_can_be_added_before_the_risk_criteria_and_waits_for_them(
     client: TestClient, session: Session
 ) -> None:
     study = make_study(session)
@@ -152,8 +152,10 @@ def test_a_scenario_needs_the_study_to_have_severity_categories(
     deviation = make_deviation(session, make_node(session, study))
     response = client.post(f"/studies/{study.id}/scenarios", headers=HX,
                            data={"parent_id": deviation.id})
-    assert response.status_code == 422
-    assert "no severity categories yet" in text_of(response.text, "worksheet-notice")
+    assert response.status_code == 200
+    created = rows(session, Scenario, deviation_id=deviation.id)[-1]
+    assert created.severity_category_id is None
+    assert "no severity yet" in figures(response.text, created.id or 0)["incomplete"]
 
 
 def study_categories(session: Session, study_id: int) -> list:  # type: ignore[type-arg]
@@ -190,10 +192,10 @@ def test_changing_the_severity_recomputes_against_the_new_target(
     response = client.post(f"/studies/{study_id}/scenarios/{scenario.id}", headers=HX,
                            data={"severity_category_id": str(minor.id)})
     shown = figures(response.text, scenario.id or 0)
-    assert shown["tolerable"] == "1.0e-2 /yr" and shown["gap"] == "× 10 · +1.0 orders"
+    assert shown["tolerable"] == "1.0e-2 /yr" and shown["gap"] == "× 1.0e1 · +1.0 orders"
 
 
-@pytest.mark.parametrize("category", ["", "abc", "99999"])
+@pytest.mark.parametrize("category", ["abc", "99999"])
 def test_a_severity_not_of_this_study_is_refused(client: TestClient, session: Session,
                                                  scenario: Scenario, category: str) -> None:
     response = client.post(f"/studies/{scenario.study_id}/scenarios/{scenario.id}",
@@ -203,6 +205,16 @@ def test_a_severity_not_of_this_study_is_refused(client: TestClient, session: Se
     assert said.startswith("choose one of the study's severity categories")
     assert rows(session, Scenario, id=scenario.id or 0)[0].severity_category_id == (
         scenario.severity_category_id)
+
+
+def test_a_severity_taken_back_makes_the_scenario_incomplete_again(
+    client: TestClient, session: Session, scenario: Scenario
+) -> None:
+    response = client.post(f"/studies/{scenario.study_id}/scenarios/{scenario.id}",
+                           headers=HX, data={"severity_category_id": ""})
+    assert response.status_code == 200
+    assert rows(session, Scenario, id=scenario.id or 0)[0].severity_category_id is None
+    assert "Incomplete: no severity yet" in figures(response.text, scenario.id or 0)["incomplete"]
 
 
 def test_uncrediting_a_layer_takes_it_out_of_the_product(

@@ -80,7 +80,7 @@ def test_the_reply_is_the_recomputed_scenario_with_the_totals_out_of_band(
     region = f'<div class="scenario-results" id="scenario-{layer.scenario_id}-results"'
     assert html.lstrip().startswith(region)
     shown = figures(html, layer.scenario_id)
-    assert shown["mitigated"] == "1.0e-4 /yr" and shown["gap"] == "× 10 · +1.0 orders"
+    assert shown["mitigated"] == "1.0e-4 /yr" and shown["gap"] == "× 1.0e1 · +1.0 orders"
     assert shown["sil"] == "Below SIL 1 (RRF ≤ 10)"
     for element_id in (f"step-{layer.id}-value_text-said", "node-totals", "study-totals"):
         assert attrs_of(html, element_id)["hx-swap-oob"] == "true"

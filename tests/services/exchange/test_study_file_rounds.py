@@ -157,6 +157,7 @@ def _first_round(data: Data) -> Data:
     (lambda r: r["estimates"][0].update(value=3.0), "[probability_at_most_one]"),
     (lambda r: r.update(agreed_value=None), "[agreed_value]"),
     (lambda r: r.update(state="revealed"), "[agreed_value]"),
+    (lambda r: r.update(number=10**30), "number: Input should be less than or equal to 10000"),
 ])
 def test_a_broken_round_is_refused_naming_its_rule(
         session: Session, demo_file: Data, change: Any, rule: str) -> None:
@@ -185,3 +186,13 @@ def test_a_file_with_more_rounds_than_the_scenario_limit_is_refused(
         {**_first_round(demo_file), "number": number} for number in range(1, 27)]
     message = refused(session, demo_file)
     assert "26 estimate rounds" in message and "at most 25" in message
+
+
+def test_a_file_with_more_words_than_the_scenario_limit_is_refused(
+        session: Session, demo_file: Data, monkeypatch: pytest.MonkeyPatch) -> None:
+    monkeypatch.setattr(get_settings(), "max_import_scenarios", 25)
+    demo_file["estimate_rounds"] = []  # the demo's 51 estimates are over 25 as well
+    demo_file["word_scale"] = [{"unit": "probability", "word": f"word {chr(97 + n // 26)}"
+                                f"{chr(97 + n % 26)}", "value": None} for n in range(26)]
+    message = refused(session, demo_file)
+    assert "26 words on the word scale" in message and "at most 25" in message
