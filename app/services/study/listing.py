@@ -2,6 +2,7 @@
 
 from collections.abc import Sequence
 from dataclasses import dataclass
+from typing import TYPE_CHECKING
 
 from sqlalchemy import delete
 from sqlmodel import Session
@@ -11,6 +12,9 @@ from app.db.queries import fetch_studies_with_counts
 from app.likelihood.completeness import left_out_words
 from app.likelihood.types import ScenarioResult
 from app.services.study.results import Assessment
+
+if TYPE_CHECKING:  # the overview's own module imports this one
+    from app.services.study.overview import StudyOverview
 from app.services.study.tree import (
     NodeBranch,
     NotFoundError,
@@ -98,3 +102,10 @@ def delete_study(*, session: Session, study_id: int) -> StudyListing:
     session.execute(delete(Study).where(Study.id == study_id))  # type: ignore[arg-type]
     session.commit()
     return listing
+
+
+def read_study_overview(*, session: Session, study_id: int) -> "StudyOverview":
+    """The study page's data (services/study/overview.py), read from the stored results."""
+    # Imported here: the overview builds on NodeTotals above, through the stored results.
+    from app.services.study.overview import read_study_overview as read_overview
+    return read_overview(session=session, study_id=study_id)
