@@ -40,7 +40,7 @@ from tests.conftest import empty_database
 from tests.helpers import TEST_AUTHOR
 
 Op = Callable[[Session, int, int], Any]
-VALUES = ("1e-2", "0.1", "1 in 1000", "3e-4", "0.5", "2", "not a number")
+VALUES = ("1e-2", "0.1", "1 in 1000", "3e-4", "0.5", "2", "not a number", "")
 
 
 def ids_of(session: Session, model: Any, study_id: int, *where: Any) -> list[int]:
@@ -77,7 +77,7 @@ def rate(session: Session, study_id: int, seed: int) -> None:
         return
     field = ("severity_category_id", "environment_category_id", "asset_category_id")[seed % 3]
     chosen = categories[(seed // 3) % len(categories)]
-    text = "" if field != "severity_category_id" and seed % 5 == 0 else str(chosen)
+    text = "" if seed % 5 == 0 else str(chosen)  # cleared: an incomplete scenario
     edit_field(session=session, study_id=study_id, kind_name="scenario", row_id=scenario_id,
                changes={field: text})
 
@@ -205,3 +205,25 @@ def test_the_demo_study_stores_a_result_for_every_scenario(session: Session) -> 
     read = [StoredResult.of_row(type("Row", (), row)) for row in rows.values()]
     assert any(r.withdrawn is not None for r in read)  # the demo has a flagged credit
     assert all(r.credited is not None or r.error for r in read)
+
+
+def test_an_incomplete_scenario_is_counted_apart_and_back_in_when_rated(session: Session) -> None:
+    study_id = load_demo_study(session).id or 0
+    ensure_current(session, study_id)
+    scenario_id = ids_of(session, Scenario, study_id)[0]
+    before = stored_counts(session, study_id)[STUDY_ROW]
+    rating = session.get(Scenario, scenario_id)
+    assert rating is not None
+    category = str(rating.severity_category_id)
+    edit_field(session=session, study_id=study_id, kind_name="scenario", row_id=scenario_id,
+               changes={"severity_category_id": ""})
+    stored = stored_rows(session, study_id)[scenario_id]
+    assert (stored["incomplete"], stored["computed"]) == (True, False)
+    cleared = stored_counts(session, study_id)[STUDY_ROW]
+    assert cleared["incomplete_count"] == before["incomplete_count"] + 1
+    assert cleared["unresolved_count"] == before["unresolved_count"]
+    assert cleared["scenario_count"] == before["scenario_count"]
+    assert_stored_equals_recomputed(session, study_id)
+    edit_field(session=session, study_id=study_id, kind_name="scenario", row_id=scenario_id,
+               changes={"severity_category_id": category})
+    assert stored_counts(session, study_id)[STUDY_ROW] == before
