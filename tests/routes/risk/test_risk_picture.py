@@ -164,9 +164,10 @@ def test_added_functions_are_counted_per_sil_band(client: TestClient, session: S
                       "SIL 3": ("0", "0"), "SIL 4": ("0", "0"),
                       "Beyond one function": ("0", "0")}
     needs = [row[1:7] for row in table_rows(page, "sil-needs-table")[1:]]
-    # RRF 200 and 100; target PFD 1/RRF; low demand (demand at most once a year).
-    assert needs == [["2.0e-3", "2.0e2", "low demand", "SIL 2", "5.0e-3", "—"],
-                     ["1.0e-3", "1.0e2", "low demand", "SIL 1", "1.0e-2", "—"]]
+    # RRF 200 and 100 (a required RRF is shown whole); target PFD 1/RRF; low demand (demand
+    # at most once a year).
+    assert needs == [["2.0e-3", "200", "low demand", "SIL 2", "5.0e-3", "—"],
+                     ["1.0e-3", "100", "low demand", "SIL 1", "1.0e-2", "—"]]
 
 
 def test_a_demand_above_once_a_year_gives_a_high_demand_pfh_target(
@@ -184,7 +185,7 @@ def test_a_demand_above_once_a_year_gives_a_high_demand_pfh_target(
     assert scenario.id is not None
     page = client.get(f"/studies/{study.id}/risk").text
     need = table_rows(page, "sil-needs-table")[1]
-    assert need[1:7] == ["5.0e0", "5.0e3", "high demand", "SIL 2", "—", "1.1e-7"]
+    assert need[1:7] == ["5.0e0", "5,000", "high demand", "SIL 2", "—", "1.1e-7"]
     assert need[7] == "High demand (5.0e0/yr > 1/yr): PFH = 1.0e-3 ÷ (8760 h x 1.0e0) = 1.1e-7/h"
     counts = {row[0]: (row[1], row[2]) for row in table_rows(page, "sil-count-table")[1:]}
     assert counts["SIL 2"] == ("0", "1")
