@@ -7,7 +7,8 @@
 //   (asks first), Alt+Z to undo, Alt+N to add an IPL, Alt+R for an estimate round,
 //   ? for help; Alt shortcuts match the
 //   physical key (event.code), so Option on macOS, which changes the character, works;
-// - tell the server which scenario the scribe is on, for the room view.
+// - tell the server which scenario the scribe is on, for the room view;
+// - on a large node, keep the scenarios opened in full across redraws.
 (function () {
   "use strict";
 
@@ -29,6 +30,35 @@
     event.detail.parameters.client = client;
     event.detail.parameters.seq = nextSeq(field);
   });
+
+  // A redraw of a large node keeps the scenarios this page has open in full (the server draws
+  // the others as slim lines).
+  document.addEventListener("htmx:configRequest", function (event) {
+    const sheet = document.getElementById("worksheet");
+    if (!sheet || !sheet.hasAttribute("data-paged")) return;
+    if (event.detail.elt.getAttribute("hx-target") !== "#worksheet") return;
+    const open = Array.from(sheet.querySelectorAll("article.scenario:not(.slim)"))
+      .map(function (article) { return article.dataset.scenario; });
+    if (open.length) event.detail.headers["X-Tallyroom-Open"] = open.slice(-5).join(",");
+  });
+
+  // A large node's remaining rows: each part is asked for once, as soon as its line is in or
+  // above the view (a quick scroll that jumps past a line still brings its rows; rows added
+  // above the view do not move what the scribe is looking at, the browser anchors the scroll).
+  function askForRows() {
+    document.querySelectorAll("[data-more-rows]:not([data-asked])").forEach(function (line) {
+      if (line.getBoundingClientRect().top > window.innerHeight + 400) return;
+      line.setAttribute("data-asked", "");
+      line.dispatchEvent(new CustomEvent("tallyroom:more"));
+    });
+  }
+  let rowsFrame = 0;
+  function askForRowsSoon() {
+    if (!rowsFrame) rowsFrame = requestAnimationFrame(function () { rowsFrame = 0; askForRows(); });
+  }
+  window.addEventListener("scroll", askForRowsSoon, { passive: true });
+  document.addEventListener("htmx:afterSettle", askForRowsSoon);
+  document.addEventListener("DOMContentLoaded", askForRowsSoon);
 
   // A scenario's figures carry the state they were computed from (data-state grows with every
   // save). The target was found when the request left; another reply may have replaced it
@@ -117,8 +147,11 @@
     return row.querySelector('[data-controls="' + row.dataset.row + "-" + row.dataset.rowId + '"]');
   }
 
+  // On a large node the next scenario may be a slim line: its link takes the focus (Enter
+  // on it opens the scenario in full).
   function focusNextField(field) {
-    const all = Array.from(document.querySelectorAll("#worksheet [data-field]"));
+    const all = Array.from(document.querySelectorAll(
+      "#worksheet [data-field], #worksheet [data-open-scenario]"));
     const next = all[all.indexOf(field) + 1];
     if (next) next.focus();
   }

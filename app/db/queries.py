@@ -41,6 +41,13 @@ def rows_of_study(model: type[Row], study_id: int) -> SelectOfScalar[Row]:
     return _in_display_order(select(model).where(table.study_id == study_id), model)
 
 
+def plain_rows_of_study(model: type[Any], study_id: int) -> Any:
+    """rows_of_study as plain rows of every column (no ORM objects built)."""
+    table: Any = model  # Any: the table model's columns
+    statement = select_columns(*table.__table__.columns).where(table.study_id == study_id)
+    return _in_display_order(statement, model)
+
+
 def fetch_rows_of_study(session: Session, model: type[Row], study_id: int) -> list[Row]:
     """Run rows_of_study."""
     return list(session.exec(rows_of_study(model, study_id)).all())
@@ -87,8 +94,8 @@ def step_figures_of_study(study_id: int) -> Any:
     return select_columns(*_step_figure_columns()).where(col(Step.study_id) == study_id)
 
 
-def step_figures_of_scenarios(scenario_ids: list[int]) -> Any:
-    """step_figures_of_study for a few scenarios (found through the scenario_id index)."""
+def step_figures_of_scenario_ids(scenario_ids: list[int]) -> Any:
+    """step_figures_of_study for a few scenarios of any study (through the scenario_id index)."""
     return select_columns(*_step_figure_columns()).where(col(Step.scenario_id).in_(scenario_ids))
 
 
@@ -238,3 +245,32 @@ def lock_study_order(session: Session, study_id: int) -> None:
     """
     table = Study.__table__  # type: ignore[attr-defined]
     session.execute(update(table).where(table.c.id == study_id).values(id=table.c.id))
+
+
+def step_figures_of_scenarios(study_id: int, scenario_ids: list[int]) -> Any:
+    """step_figures_of_study for a few of its scenarios (the worksheet rows being drawn)."""
+    return step_figures_of_study(study_id).where(col(Step.scenario_id).in_(scenario_ids))
+
+
+def scenario_outline_of_node(node_id: int) -> Any:
+    """Each scenario of one node in worksheet order: what a slim worksheet row shows and the
+    ratings its figures need, as plain rows (no steps)."""
+    columns: list[Any] = [Scenario.id, Scenario.deviation_id, Scenario.cause,
+                          Scenario.consequence, Scenario.severity_category_id,
+                          Scenario.environment_category_id, Scenario.asset_category_id,
+                          Scenario.people_not_rated]  # Any: ORM attributes as columns
+    return (select_columns(*columns)
+            .join(Deviation, col(Deviation.id) == col(Scenario.deviation_id))
+            .where(col(Deviation.node_id) == node_id)
+            .order_by(col(Deviation.position), col(Deviation.id), col(Scenario.position),
+                      col(Scenario.id)))
+
+
+def child_counts_by_deviation(model: type[Any], node_id: int) -> Any:
+    """(deviation id, how many) of a node's steps or safeguards, for the delete questions."""
+    table: Any = model
+    return (select_columns(col(Scenario.deviation_id), func.count(table.id).label("how_many"))
+            .join(Scenario, col(Scenario.id) == table.scenario_id)
+            .join(Deviation, col(Deviation.id) == col(Scenario.deviation_id))
+            .where(col(Deviation.node_id) == node_id)
+            .group_by(col(Scenario.deviation_id)))

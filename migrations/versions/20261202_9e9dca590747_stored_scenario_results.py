@@ -7,7 +7,7 @@ computed whole once (app/services/study/stored_results.py, ensure_current), so t
 needs none of the arithmetic.
 
 Revision ID: 9e9dca590747
-Revises: b7c4e1f0a935
+Revises: b7e1c4d9a2f6
 Create Date: 2026-12-02 09:20:00.000000
 """
 from collections.abc import Sequence
@@ -17,7 +17,7 @@ import sqlmodel
 from alembic import op
 
 revision: str = '9e9dca590747'
-down_revision: str | None = 'b7c4e1f0a935'
+down_revision: str | None = 'b7e1c4d9a2f6'
 branch_labels: str | Sequence[str] | None = None
 depends_on: str | Sequence[str] | None = None
 

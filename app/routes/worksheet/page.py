@@ -6,6 +6,7 @@ from fastapi import APIRouter, Form, Request
 from starlette.responses import RedirectResponse, Response
 from starlette.routing import NoMatchFound
 
+from app.db.ids import read_row_id
 from app.routes.deps import SessionDep, author_name
 from app.routes.rendering import is_htmx, render
 from app.routes.urls import empty_worksheet_url, worksheet_url
@@ -13,6 +14,11 @@ from app.services.study.conflicts import PageEdit
 from app.services.study.tree import get_study
 from app.services.worksheet import page as worksheet_service
 from app.services.worksheet.edits import FieldReply, edit_step_value
+from app.services.worksheet.sheet_rows import deviation_part
+
+# The scenarios the scribe's page has open in full, sent by worksheet.js with every redraw of
+# a large node, so a redraw keeps them open.
+OPEN_HEADER = "X-Tallyroom-Open"
 
 router = APIRouter(prefix="/studies/{study_id}")
 
@@ -30,16 +36,27 @@ def render_worksheet(request: Request, session: SessionDep, study_id: int, node_
                      *, block: str | None = None, status_code: int = 200,
                      **extra: Any) -> Response:
     """The worksheet page, or only its #worksheet region for htmx."""
-    page = worksheet_service.build_worksheet_page(session=session, study_id=study_id,
-                                                  node_id=node_id, author=author_name(request))
-    links = {"step_details": route_exists(request, "read_step_details", study_id=0, step_id=0),
-             "proof_test": route_exists(request, "read_proof_test", study_id=0),
-             "actions": route_exists(request, "read_actions", study_id=0),
-             "estimate_round": route_exists(request, "read_new_round", study_id=0, step_id=0)}
+    page = worksheet_service.build_worksheet_page(
+        session=session, study_id=study_id, node_id=node_id, author=author_name(request),
+        focus_id=str(extra.get("focus_id") or ""), open_ids=open_scenarios(request))
     context = {"page": page, "study": page.study, "focus_id": "", "notice": "", "typed": {},
-               "links": links, **extra}
+               "links": worksheet_links(request), **extra}
     return render(request, "worksheet/page.html", context, block=block,
                   status_code=status_code)
+
+
+def worksheet_links(request: Request) -> dict[str, bool]:
+    """Which other areas' pages a worksheet row links to (those whose routes exist)."""
+    return {"step_details": route_exists(request, "read_step_details", study_id=0, step_id=0),
+            "proof_test": route_exists(request, "read_proof_test", study_id=0),
+            "actions": route_exists(request, "read_actions", study_id=0),
+            "estimate_round": route_exists(request, "read_new_round", study_id=0, step_id=0)}
+
+
+def open_scenarios(request: Request) -> tuple[int, ...]:
+    """The scenario ids the page says it has open (digits only; anything else is ignored)."""
+    ids = (read_row_id(part) for part in request.headers.get(OPEN_HEADER, "")[:200].split(","))
+    return tuple(row_id for row_id in ids if row_id is not None)
 
 
 def render_field_reply(request: Request, reply: FieldReply) -> Response:
@@ -61,6 +78,31 @@ def read_worksheet(request: Request, study_id: int, node_id: int, session: Sessi
     """One node's worksheet: deviations, scenarios, steps, figures and ladders."""
     block = "worksheet" if is_htmx(request) else None
     return render_worksheet(request, session, study_id, node_id, block=block, focus_id=focus)
+
+
+@router.get("/deviations/{deviation_id}/rows", name="read_deviation_rows")
+def read_deviation_rows(request: Request, study_id: int, deviation_id: int,
+                        session: SessionDep, start: int = 0) -> Response:
+    """The next part of a large node's deviation: slim rows from `start` (htmx swaps them in
+    as they scroll into view; without JavaScript a page of its own)."""
+    part = deviation_part(session, study_id, deviation_id, start)
+    template = "worksheet/rows.html" if is_htmx(request) else "worksheet/rows_page.html"
+    return render(request, template, {"part": part})
+
+
+@router.get("/scenarios/{scenario_id}/open", name="read_open_scenario")
+def read_open_scenario(request: Request, study_id: int, scenario_id: int,
+                       session: SessionDep) -> Response:
+    """One scenario's full editing row, in place of its slim row, the cursor in its cause."""
+    view, node, categories = worksheet_service.opened_scenario(
+        session=session, study_id=study_id, scenario_id=scenario_id)
+    if not is_htmx(request):
+        return RedirectResponse(f"{worksheet_url(request, study_id, node.id or 0)}"
+                                f"?focus=sc-{scenario_id}-cause", status_code=303)
+    context = {"sv": view, "study_id": study_id, "node": node, "page": {"categories": categories},
+               "focus_id": f"sc-{scenario_id}-cause", "typed": {}, "notice": "",
+               "links": worksheet_links(request)}
+    return render(request, "worksheet/scenario_open.html", context)
 
 
 @router.get("/worksheet", name="read_first_worksheet")

@@ -23,6 +23,7 @@ from app.db.models import (
     Step,
     saved_id,
 )
+from app.db.queries import fetch_plain_rows, plain_rows_of_study
 from app.services.exchange.study_file_rounds import export_rounds, export_word_scale
 from app.services.exchange.study_schema import (
     FILE_FORMAT,
@@ -162,7 +163,9 @@ def _describe_validation(err: ValidationError) -> str:
 
 # Fixed key orders: a loaded row's attribute order varies, and the file must not.
 HEADER_FIELDS = ("title", "facility", "scope", "revision_label", "frequency_unit",
-                 "criteria_basis")
+                 "criteria_basis", "error_factor_default_initiating_event",
+                 "error_factor_default_enabling_condition",
+                 "error_factor_default_conditional_modifier", "error_factor_default_ipl")
 STEP_FIELDS = ("description", "value", "value_text", "basis", "credited", "ipl_type",
                "system_tag", "response_time_minutes", "sil_claimed", "typical_key")
 # Schema version 2's step fields, in StepRow's order (receptors goes between as a list).
@@ -189,12 +192,9 @@ def _by_parent(rows: list[Any], parent: str) -> dict[int, list[Any]]:
 
 
 def _ordered(session: Session, model: Any, study_id: int) -> list[Any]:
-    statement = select(model).where(model.study_id == study_id)
-    if hasattr(model, "position"):
-        statement = statement.order_by(model.position, model.id)
-    else:
-        statement = statement.order_by(model.id)
-    return list(session.exec(statement).all())
+    """The study's rows of `model` in display order, as plain rows: the file reads only
+    columns, and building ORM objects was half the time of exporting a large study."""
+    return fetch_plain_rows(session, plain_rows_of_study(model, study_id))
 
 
 def export_study(session: Session, study_id: int, *, with_history: bool = True) -> dict[str, Any]:
@@ -286,7 +286,7 @@ def _export_step(step: Step) -> dict[str, Any]:
     return {"kind": step.kind.value, **_fields(step, STEP_FIELDS),
             "proof_test": json.loads(step.proof_test) if step.proof_test else None,
             **_fields(step, METHOD_FIELDS), "receptors": stored_receptors(step.receptors),
-            **_fields(step, CHECK_FIELDS)}
+            **_fields(step, CHECK_FIELDS), "error_factor": step.error_factor}
 
 
 def _export_actions(

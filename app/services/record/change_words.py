@@ -11,6 +11,7 @@ import re
 from dataclasses import dataclass
 from typing import Any
 
+from app.db.ids import read_row_id
 from app.db.models import ChangeLogEntry
 from app.likelihood.numbers import format_number
 from app.likelihood.types import StepKind
@@ -38,6 +39,11 @@ FIELD_WORDS: dict[str, str] = {
     "due_date": "Due date", "status": "Status", "status_reason": "Status reason",
     "expected_rrf": "Expected RRF", "role": "Role", "discipline": "Discipline",
     "company": "Company", "day": "Date", "scenarios": "Scenarios addressed",
+    "error_factor": "Error factor (EF)",
+    "error_factor_default_initiating_event": "Default EF for initiating events",
+    "error_factor_default_enabling_condition": "Default EF for enabling conditions",
+    "error_factor_default_conditional_modifier": "Default EF for conditional modifiers",
+    "error_factor_default_ipl": "Default EF for IPLs",
 }  # fmt: skip
 
 CHANGE_WORDS = {"create": "added", "edit": "changed", "delete": "deleted", "link": "linked",
@@ -98,7 +104,7 @@ def value_words(field: str, text: str | None, places: StudyPlaces) -> str:
     if field == "deviation_id":
         return places.deviation_name(text)
     if field == "scenario_id":
-        return places.scenario_name(int(text)) if text.isdigit() else text
+        return places.scenario_name(found) if (found := read_row_id(text)) else text
     if field == "proof_test":
         return proof_test_summary(text)
     if field == "kind" and text in StepKind._value2member_map_:

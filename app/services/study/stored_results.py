@@ -27,7 +27,7 @@ from app.db.queries import (
     fetch_plain_rows,
     scenario_ratings_of_scenarios,
     scenario_ratings_of_study,
-    step_figures_of_scenarios,
+    step_figures_of_scenario_ids,
     step_figures_of_study,
 )
 from app.db.stale_results import forget, note_stale_results, stale_of
@@ -68,7 +68,7 @@ def compute_rows(session: Session, scenario_ids: Iterable[int]) -> dict[int, dic
     categories: dict[int, dict[int, Any]] = {}
     for batch in _batches(scenario_ids):
         steps: dict[int, list[Any]] = defaultdict(list)
-        for step in fetch_plain_rows(session, step_figures_of_scenarios(batch)):
+        for step in fetch_plain_rows(session, step_figures_of_scenario_ids(batch)):
             steps[step.scenario_id].append(step)
         for rating in fetch_plain_rows(session, scenario_ratings_of_scenarios(batch)):
             if rating.study_id not in categories:

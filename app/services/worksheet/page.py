@@ -5,12 +5,14 @@ from dataclasses import dataclass
 
 from sqlmodel import Session
 
-from app.db.models import Node, Recommendation, SeverityCategory, Step, Study
+from app.db.ids import read_row_id
+from app.db.models import Deviation, Node, Recommendation, SeverityCategory, Step, Study
 from app.db.queries import (
     fetch_first_node_id,
     fetch_node_links,
     fetch_recommendations_of_node,
     fetch_recommendations_of_scenario,
+    fetch_rows_of_study,
 )
 from app.likelihood.checks import CheckWarning
 from app.likelihood.numbers import format_number
@@ -21,13 +23,31 @@ from app.services.study.stored_results import stored_totals
 from app.services.study.tree import (
     DeviationBranch,
     NodeBranch,
+    NotFoundError,
     ScenarioBranch,
     get_study,
     load_node_tree,
     load_scenario_branch,
 )
-from app.services.worksheet.ladder import LadderView, build_ladder
+from app.services.worksheet.ladder import LadderBand, LadderView, build_ladder, ladder_band
+from app.services.worksheet.sheet_rows import (
+    MoreRows,
+    NodeOutline,
+    SlimScenario,
+    child_counts,
+    is_paged,
+    more_rows,
+    node_outline,
+    rows_to_draw,
+    scenario_branches,
+    scenario_number,
+    scenarios_worked_on,
+    slim_scenarios,
+)
 from app.services.worksheet.structure import (
+    get_row,
+    kind_of,
+    node_id_of,
     parse_step_value,
     step_label,
 )
@@ -67,6 +87,20 @@ class ScenarioView:
         rows = [self.item.scenario, *self.item.steps, *self.item.safeguards]
         return sum(row.version for row in rows)
 
+    @property
+    def band(self) -> LadderBand | None:
+        """The governing line's 5-95 % band on the ladder (None: no figures or no spread)."""
+        spread = self.item.spread
+        if self.ladder is None or spread is None or spread.governing.distribution.sigma == 0:
+            return None
+        found = spread.governing.distribution
+        return ladder_band(self.ladder, found.p05, found.p95)
+
+    @property
+    def slim(self) -> bool:
+        """A full row (the worksheet also draws slim ones: sheet_rows.SlimScenario)."""
+        return False
+
 
 @dataclass(frozen=True)
 class DeviationView:
@@ -74,8 +108,10 @@ class DeviationView:
 
     deviation_branch: DeviationBranch
     number: str
-    scenarios: tuple[ScenarioView, ...]
+    scenarios: tuple[ScenarioView | SlimScenario, ...]
     delete_question: str
+    more: MoreRows | None = None
+    """The scenarios not drawn yet (a large node's page arrives in parts)."""
 
 
 @dataclass(frozen=True)
@@ -100,6 +136,8 @@ class WorksheetPage:
     study_totals: NodeTotals
     undo: UndoState
     node_delete_question: str
+    paged: bool = False
+    """Scenarios show as slim rows, the ones being worked on in full."""
 
 
 NOT_GIVEN = "not given yet"
@@ -171,9 +209,16 @@ def _deviation_view(deviation_branch: DeviationBranch, number: str,
     counts = DeleteCounts(scenarios=len(scenarios),
                           steps=sum(len(s.item.steps) for s in scenarios),
                           safeguards=sum(len(s.item.safeguards) for s in scenarios))
-    label = f"{number} '{deviation.guideword} {deviation.parameter}'".rstrip(" '")
+    label = deviation_label(deviation, number)
     return DeviationView(deviation_branch, number, scenarios,
                          delete_question("deviation", label, counts))
+
+
+def deviation_label(deviation: Deviation, number: str) -> str:
+    """How a delete question names a deviation: "1.2 'More pressure'" (its number alone when
+    it has no words yet)."""
+    words = f"{deviation.guideword} {deviation.parameter}".strip()
+    return f"{number} '{words}'" if words else number
 
 
 def node_delete_question(node_branch: NodeBranch) -> str:
@@ -186,25 +231,81 @@ def node_delete_question(node_branch: NodeBranch) -> str:
 
 
 def build_worksheet_page(*, session: Session, study_id: int, node_id: int,
-                         author: str = "") -> WorksheetPage:
-    """The node's deviations and scenarios, every scenario computed, with node and study totals.
+                         author: str = "", focus_id: str = "",
+                         open_ids: tuple[int, ...] = ()) -> WorksheetPage:
+    """The node's deviations and scenarios with node and study totals.
 
-    Only this node's rows are loaded as objects; the totals come from plain rows.
+    A node of a few scenarios has every scenario in full; a larger one is drawn in parts
+    (sheet_rows). Only this node's rows are loaded; the totals come from plain rows.
     """
-    tree = load_node_tree(session, study_id, node_id)
-    node_branch = tree.node
-    number = node_branch.node.number or str(node_id)
-    recommendations = recommendations_by_scenario(session, node_id)
-    deviations = tuple(_deviation_view(d, f"{number}.{i}", recommendations)
-                       for i, d in enumerate(node_branch.deviations, start=1))
+    study = get_study(session, study_id)
+    node = session.get(Node, node_id)
+    if node is None or node.study_id != study_id:
+        raise NotFoundError(f"There is no node {node_id} in study {study_id}.")
+    outline = node_outline(session, node_id)
+    if is_paged(outline):
+        categories = fetch_rows_of_study(session, SeverityCategory, study_id)
+        wanted = scenarios_worked_on(session, outline, focus_id, open_ids)
+        counts = child_counts(session, node_id)
+        deviations = paged_deviations(session, study_id, node, outline, categories, wanted,
+                                      counts)
+        question = delete_question("node", _number(node), DeleteCounts(
+            deviations=len(outline.deviations), scenarios=outline.scenario_count,
+            steps=sum(counts["steps"].values()), safeguards=sum(counts["safeguards"].values())))
+    else:
+        tree = load_node_tree(session, study_id, node_id)
+        categories, question = tree.categories, node_delete_question(tree.node)
+        recommendations = recommendations_by_scenario(session, node_id)
+        deviations = tuple(_deviation_view(d, f"{_number(node)}.{i}", recommendations)
+                           for i, d in enumerate(tree.node.deviations, start=1))
     node_totals, study_totals = stored_totals(session, study_id, node_id)
     return WorksheetPage(
-        study=tree.study, node=node_branch.node, nodes=node_links(session, study_id),
-        categories=tuple(tree.categories), deviations=deviations,
+        study=study, node=node, nodes=node_links(session, study_id),
+        categories=tuple(categories), deviations=deviations,
         node_totals=node_totals, study_totals=study_totals,
         undo=undo_state(session=session, study_id=study_id, author=author),
-        node_delete_question=node_delete_question(node_branch),
+        node_delete_question=question, paged=is_paged(outline),
     )
+
+
+def _number(node: Node) -> str:
+    return node.number or str(node.id)
+
+
+def paged_deviations(session: Session, study_id: int, node: Node, outline: NodeOutline,
+                     categories: list[SeverityCategory], wanted: set[int],
+                     counts: dict[str, dict[int, int]]) -> tuple[DeviationView, ...]:
+    """A large node's deviations: the first rows slim, the scenarios worked on in full, the
+    rest of each deviation to follow (`more`)."""
+    drawn = rows_to_draw(outline, wanted)
+    prefixes = {d.id or 0: f"{_number(node)}.{i}" for i, d in enumerate(outline.deviations, 1)}
+    numbered = [(row, f"{prefixes[d_id]}.{at}") for d_id, rows in outline.scenarios.items()
+                for at, row in enumerate(rows[:drawn.get(d_id, 0)], start=1)]
+    slims = slim_scenarios(session, study_id, [(r, n) for r, n in numbered if r.id not in wanted],
+                           categories)
+    branches = scenario_branches(session, wanted, categories)
+    linked = recommendations_by_scenario(session, node.id or 0) if wanted else {}
+    views: dict[int, ScenarioView | SlimScenario] = {**slims, **{
+        row.id: scenario_view(branches[row.id], number, linked.get(row.id, ()))
+        for row, number in numbered if row.id in wanted}}
+    return tuple(_paged_deviation(deviation, prefixes[deviation.id or 0], outline, views,
+                                  drawn, counts) for deviation in outline.deviations)
+
+
+def _paged_deviation(deviation: Deviation, number: str, outline: NodeOutline,
+                     views: dict[int, ScenarioView | SlimScenario], drawn: dict[int, int],
+                     counts: dict[str, dict[int, int]]) -> DeviationView:
+    deviation_id = deviation.id or 0
+    rows = outline.scenarios.get(deviation_id, [])
+    shown = drawn.get(deviation_id, 0)
+    delete_counts = DeleteCounts(scenarios=len(rows),
+                                 steps=counts["steps"].get(deviation_id, 0),
+                                 safeguards=counts["safeguards"].get(deviation_id, 0))
+    label = deviation_label(deviation, number)
+    return DeviationView(DeviationBranch(deviation), number,
+                         tuple(views[row.id] for row in rows[:shown]),
+                         delete_question("deviation", label, delete_counts),
+                         more_rows(deviation_id, number, len(rows), shown))
 
 
 def node_links(session: Session, study_id: int) -> tuple[NodeLink, ...]:
@@ -216,7 +317,7 @@ def node_links(session: Session, study_id: int) -> tuple[NodeLink, ...]:
 def picked_node_id(*, session: Session, study_id: int, picked: str) -> int | None:
     """The node chosen in the node picker when it belongs to the study, else the first node."""
     ids = [link.id for link in node_links(session, study_id)] if picked else []
-    chosen = int(picked) if picked.isdigit() else None
+    chosen = read_row_id(picked)
     return chosen if chosen in ids else first_node_id(session=session, study_id=study_id)
 
 
@@ -232,3 +333,18 @@ def located_scenario(*, session: Session, study_id: int, scenario_id: int,
     placed = load_scenario_branch(session, study_id, scenario_id)
     links = fetch_recommendations_of_scenario(session, scenario_id)
     return scenario_view(placed.branch, placed.number, links, fallback), placed.node
+
+
+def opened_scenario(*, session: Session, study_id: int,
+                    scenario_id: int) -> tuple[ScenarioView, Node, tuple[SeverityCategory, ...]]:
+    """One scenario in full, numbered within its node, for opening a slim row: only that
+    scenario's rows are loaded (and the node's outline for its number)."""
+    scenario = get_row(session, kind_of("scenario"), study_id, scenario_id)
+    node = session.get(Node, node_id_of(session, "scenario", scenario))
+    assert node is not None  # a scenario's node is a foreign key
+    outline = node_outline(session, node.id or 0)
+    number = scenario_number(outline, node, scenario_id)
+    categories = fetch_rows_of_study(session, SeverityCategory, study_id)
+    branch = scenario_branches(session, [scenario_id], categories)[scenario_id]
+    linked = recommendations_by_scenario(session, node.id or 0).get(scenario_id, ())
+    return scenario_view(branch, number, linked), node, tuple(categories)
