@@ -10,7 +10,6 @@ from app.archive import all_studies_archive
 from app.routes.deps import SessionDep
 from app.routes.rendering import render, templates
 from app.services.exchange.exports import ExportFormat, build_export, read_export_page
-from app.services.exchange.report_summary import SUMMARY_ROWS
 from app.services.exchange.study_file import StudyFileError
 from app.services.exchange.study_import import MAX_FILE_BYTES, import_study_upload
 from app.services.exchange.study_schema import SCHEMA_PATH, SCHEMA_VERSION, study_json_schema
@@ -42,8 +41,7 @@ def read_exports(request: Request, study_id: int, session: SessionDep) -> Respon
     """The formats a study exports to, with download links and the command-line equivalent."""
     page = read_export_page(session=session, study_id=study_id)
     return render(request, "exchange/exports/index.html",
-                  {"page": page, "study": page.study, "schema_version": SCHEMA_VERSION,
-                   "summary_rows": SUMMARY_ROWS})
+                  {"page": page, "study": page.study, "schema_version": SCHEMA_VERSION})
 
 
 def _download(session: SessionDep, study_id: int, export_format: ExportFormat) -> Response:

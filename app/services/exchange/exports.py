@@ -29,7 +29,7 @@ from app.services.exchange.report_source import (
     live_report_html,
     working_copy_label,
 )
-from app.services.exchange.report_summary import ReportKind
+from app.services.exchange.report_summary import SUMMARY_ROWS, ReportKind
 from app.services.exchange.study_file import export_study
 from app.services.study.tree import NotFoundError, get_study, load_study_tree
 
@@ -72,7 +72,9 @@ FORMATS = (
     FormatInfo(ExportFormat.PDF, "Report (.pdf)", "application/pdf",
                "A printable report: cover, scope and criteria, attendance, every scenario's steps "
                "with basis and warnings, ladders, the risk picture, the actions, the added "
-               "functions and the warnings by rule. Made in the background."),
+               "functions and the warnings by rule. Made in the background. The summary beside "
+               "it stays a few pages at any size: criteria, risk picture, added functions, "
+               f"actions and the {SUMMARY_ROWS} scenarios furthest short of target."),
 )  # fmt: skip
 FORMAT_INFO = {info.format: info for info in FORMATS}
 
