@@ -108,6 +108,12 @@ class Study(StudyBase, TrackedRow, table=True):
     # Raised by one in the transaction of every content change (app/db/tracking.py), so the
     # room view's poll asks one row whether anything changed. Not part of the record.
     content_version: int = Field(default=0, sa_column_kwargs={"server_default": "0"})
+    # The study's default error factor per step kind (issue 13), used when a step has no typed
+    # EF, no estimate round with a spread and no typical-value range; None: no default.
+    error_factor_default_initiating_event: float | None = Field(default=None, ge=1)
+    error_factor_default_enabling_condition: float | None = Field(default=None, ge=1)
+    error_factor_default_conditional_modifier: float | None = Field(default=None, ge=1)
+    error_factor_default_ipl: float | None = Field(default=None, ge=1)
 
 
 class SeverityCategoryBase(SQLModel):
@@ -212,6 +218,9 @@ class StepBase(SQLModel):
     opportunities_per_year: float | None = Field(default=None, gt=0)
     time_available_minutes: float | None = Field(default=None, ge=0)
     time_to_detect_and_act_minutes: float | None = Field(default=None, ge=0)
+    # The team's error factor (95th over 50th percentile) for this value, read as a median;
+    # None: taken from the last estimate round, the typical-value range or the study default.
+    error_factor: float | None = Field(default=None, ge=1)
     position: int = 0
 
 

@@ -74,6 +74,21 @@ def format_rrf(x: float) -> str:
     return f"{x:,.0f}"
 
 
+def format_error_factor(value: float) -> str:
+    """An EF to two significant figures, as people say it ("3", "4.1", "32")."""
+    return f"{float(f'{value:.2g}'):g}"
+
+
+def probability_text(probability: float) -> str:
+    """P(meets) in percent as people read it: "73 %", "< 1 %", "> 99 %"."""
+    percent = probability * 100
+    if 0 < percent < 1:
+        return "< 1 %"
+    if 99 < percent < 100:
+        return "> 99 %"
+    return f"{percent:.0f} %"
+
+
 def _say(x: float) -> str:
     """A count or rate as a person would write it, falling back to scientific notation."""
     if x.is_integer() and abs(x) < 1e9:

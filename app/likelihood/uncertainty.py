@@ -10,7 +10,7 @@ from __future__ import annotations
 import math
 import statistics
 from collections.abc import Mapping, Sequence
-from dataclasses import dataclass, replace
+from dataclasses import dataclass
 from enum import StrEnum
 
 from app.likelihood.frequency import compute_scenario
@@ -60,6 +60,40 @@ def validate_error_factor(value: float, label: str = "Error factor") -> float:
             "error_factor_range",
             f"an error factor (95th over 50th percentile) must be a finite number of at least 1 "
             f"(got {value:g}).",
+            label=label,
+        )
+    return float(value)
+
+
+MAX_TYPED_ERROR_FACTOR = 100.0
+"""The largest EF a team may type: EF 100 spreads the 5th to 95th percentile over four orders
+of magnitude, beyond what LOPA's order-of-magnitude numbers mean (common practice, no source)."""
+
+
+def read_typed_error_factor(text: str, label: str = "Error factor") -> float | None:
+    """A typed error factor: blank for none, else a number from 1 to 100 ("EF 3" reads as 3)."""
+    cleaned = text.strip().removeprefix("EF").removeprefix("ef").strip()
+    if not cleaned:
+        return None
+    try:
+        value = float(cleaned)
+    except ValueError:
+        raise input_error(
+            "error_factor_number",
+            f"an error factor is a number from 1 to {MAX_TYPED_ERROR_FACTOR:g}, "
+            f"such as 3 or 10 (got '{text.strip()[:40]}').",
+            label=label,
+        ) from None
+    return validate_typed_error_factor(value, label)
+
+
+def validate_typed_error_factor(value: float, label: str = "Error factor") -> float:
+    """Return value if it is an error factor the team may type: 1 <= EF <= 100."""
+    if not (math.isfinite(value) and 1 <= value <= MAX_TYPED_ERROR_FACTOR):
+        raise input_error(
+            "error_factor_bounds",
+            f"an error factor (95th over 50th percentile) must be at least 1 and at most "
+            f"{MAX_TYPED_ERROR_FACTOR:g} (got {value:g}); 1 means no uncertainty.",
             label=label,
         )
     return float(value)
@@ -219,8 +253,11 @@ def _probability_at_most(mu: float, sigma: float, tolerable: float, meets: bool)
 
 def _with_shares(parts: Sequence[StepSpread]) -> tuple[StepSpread, ...]:
     total = math.fsum(part.sigma**2 for part in parts)
+    # Built directly rather than with dataclasses.replace: a fifth of a whole study's spread.
     return tuple(
-        replace(part, variance_share=part.sigma**2 / total if total > 0 else 0.0) for part in parts
+        StepSpread(part.label, part.kind, part.median, part.error_factor, part.sigma,
+                   part.sigma**2 / total if total > 0 else 0.0)
+        for part in parts
     )
 
 
@@ -257,13 +294,24 @@ def scenario_distribution(
     Uncredited IPLs count neither in the median nor in the spread, as in compute_scenario.
     """
     result = compute_scenario([item.step for item in steps], tolerable_frequency)
+    return line_distribution(
+        steps, result.mitigated_frequency, result.tolerable_frequency, result.meets_target
+    )
+
+
+def line_distribution(
+    steps: Sequence[UncertainStep], median: float, tolerable_frequency: float, meets: bool
+) -> ScenarioDistribution:
+    """The lognormal of a line whose median and exact verdict are already computed.
+
+    `median` is compute_scenario's mitigated frequency for these steps (the product of the
+    medians, uncredited IPLs left out) and `meets` its verdict; only the spread is added here.
+    """
     counted = [item for item in steps if item.step.credited or item.step.kind != StepKind.IPL]
     # Summed logs: no underflow, unlike the product of the medians.
     mu = math.fsum(math.log(item.step.value) for item in counted)
     parts = [_spread_of(item) for item in counted]
-    return _distribution(
-        result.mitigated_frequency, mu, parts, result.tolerable_frequency, result.meets_target
-    )
+    return _distribution(median, mu, parts, tolerable_frequency, meets)
 
 
 @dataclass(frozen=True)

@@ -12,10 +12,19 @@ from markupsafe import Markup
 from starlette.responses import Response
 from starlette.routing import NoMatchFound
 
-from app.likelihood.numbers import format_number, format_one_in, format_orders, format_rrf
+from app.likelihood.numbers import (
+    format_error_factor,
+    format_number,
+    format_one_in,
+    format_orders,
+    format_rrf,
+    probability_text,
+)
 from app.likelihood.types import ScenarioResult, StepKind, step_kind_words
+from app.likelihood.uncertainty import VERDICT_CONFIDENCE_LABELS
 from app.routes import urls
 from app.services.study.results import required_rrf_cell
+from app.services.study.spread import MEDIAN_NOTE
 from app.services.study.tree import WorksheetSpot
 from app.settings import PROJECT_ROOT
 
@@ -105,7 +114,9 @@ def worksheet_path(context: Mapping[str, Any], spot: WorksheetSpot) -> str:
 
 templates.env.filters.update(sci=sci, one_in=format_one_in, orders=orders, rrf=rrf,
                              required_rrf=required_rrf,
+                             percent=probability_text, ef=format_error_factor,
                              kind_words=step_kind_words)
+templates.env.globals.update(confidence_words=VERDICT_CONFIDENCE_LABELS, median_note=MEDIAN_NOTE)
 templates.env.globals.update(cautions=CAUTIONS, room_caution=ROOM_CAUTION,
                              step_kinds=tuple(StepKind),
                              path_for=_template_path_for, worksheet_path=worksheet_path)

@@ -18,6 +18,7 @@ from app.likelihood.types import DemandMode, Receptor, ScenarioResult, StepKind
 from app.likelihood.typical import typical_by_key
 from app.services.exchange.study_file import scenario_ref
 from app.services.study.results import Assessment, required_rrf_cell
+from app.services.study.spread import ScenarioSpread
 from app.services.study.tree import DeviationBranch, NodeBranch, ScenarioBranch, StudyTree
 
 Cell = str | float | int | date | datetime | None
@@ -91,6 +92,28 @@ METHOD_COLUMNS = (
     Column("Withdrawn: SIL target"), Column("Withdrawn: status"),
 )  # fmt: skip
 
+# Issue 13: the governing line's lognormal (each entered value taken as the median; the
+# log-variances of the steps' error factors add). Appended after the method columns.
+UNCERTAINTY_COLUMNS = (
+    Column("Median (/yr, lognormal)", SCIENTIFIC), Column("5th percentile (/yr)", SCIENTIFIC),
+    Column("95th percentile (/yr)", SCIENTIFIC), Column("Mean (/yr)", SCIENTIFIC),
+    Column("Scenario error factor", "0.0"), Column("P(meets target)", "0.0%"),
+    Column("Verdict certainty"),
+)  # fmt: skip
+UNCERTAINTY_WORDS = {"meets": "meets (P >= 95 %)", "uncertain": "uncertain (5 % < P < 95 %)",
+                     "misses": "misses (P <= 5 %)"}
+
+
+def uncertainty_cells(spread: ScenarioSpread | None) -> list[Cell]:
+    """The governing line's median, percentiles, mean, EF, P(meets) and certainty."""
+    if spread is None:
+        blank: list[Cell] = [None] * (len(UNCERTAINTY_COLUMNS) - 1)
+        return [*blank, ""]
+    d = spread.governing.distribution
+    return [d.median, d.p05, d.p95, d.mean, d.error_factor, d.probability_meets_target,
+            UNCERTAINTY_WORDS[d.confidence.value]]
+
+
 SCENARIO_COLUMNS = (
     Column("Scenario"), Column("Node"), Column("Deviation"), Column("Cause"),
     Column("Consequence"), Column("Governing severity"),
@@ -101,7 +124,7 @@ SCENARIO_COLUMNS = (
     Column("Ratio mitigated / tolerable", SCIENTIFIC),
     Column("Gap (orders of magnitude)", SIGNED), Column("Required RRF", RRF),
     Column("SIL target"), Column("Demand mode"), Column("Status"),
-    *METHOD_COLUMNS,
+    *METHOD_COLUMNS, *UNCERTAINTY_COLUMNS,
 )  # fmt: skip
 
 
@@ -163,13 +186,14 @@ def _scenario_row(
     ]
     if result is None or outcome.assessment is None:
         return [*head, None, None, len(credited), None, None, None, None, None, "", "",
-                outcome.no_figures_words, *[None] * len(METHOD_COLUMNS)]
+                outcome.no_figures_words, *[None] * len(METHOD_COLUMNS),
+                *uncertainty_cells(None)]
     target = result.sil_target
     return [
         *head, result.enabling_product, result.modifier_product, len(credited),
         result.ipl_product, result.mitigated_frequency, result.ratio, result.gap_orders,
         required_rrf_cell(result), target.label, DEMAND_LABELS[target.demand_mode],
-        _status(result), *_method_cells(outcome.assessment),
+        _status(result), *_method_cells(outcome.assessment), *uncertainty_cells(item.spread),
     ]
 
 
@@ -200,6 +224,7 @@ STEP_COLUMNS = (
     Column("Value", SCIENTIFIC), Column("As written"), Column("Credited"), Column("IPL type"),
     Column("System tag"), Column("SIL claimed", WHOLE), Column("Response time (min)", "0.#"),
     Column("Basis"), Column("Typical-value row and source"),
+    Column("Error factor (EF)", "0.0"), Column("EF source"),
 )  # fmt: skip
 
 
@@ -215,9 +240,18 @@ def step_table(tree: StudyTree) -> Table:
                     step.kind.label, step.description, step.value,
                     step.value_text, "yes" if step.credited else "no", step.ipl_type or "",
                     step.system_tag, step.sil_claimed, step.response_time_minutes, step.basis,
-                    typical_words(step.typical_key),
+                    typical_words(step.typical_key), *_step_spread_cells(item, step.id),
                 ])
     return Table("Steps", STEP_COLUMNS, rows)
+
+
+def _step_spread_cells(item: ScenarioBranch, step_id: int | None) -> list[Cell]:
+    """The step's EF and where it came from (blank when the scenario has no figures)."""
+    note = next((n for n in item.spread.notes if n.step_id == step_id), None) if (
+        item.spread) else None
+    if note is None:
+        return [None, ""]
+    return [note.factor.value, note.note]
 
 
 def typical_words(key: str | None) -> str:

@@ -37,7 +37,7 @@ from app.services.risk.ipl_checks import scenario_warnings
 from app.services.risk.picture import RiskPicture, build_risk_picture
 from app.services.study.listing import NodeTotals, totals_of
 from app.services.study.tree import ScenarioBranch, StudyTree
-from app.services.worksheet.ladder import LadderView, build_ladder
+from app.services.worksheet.ladder import LadderBand, LadderView, build_ladder, ladder_band
 
 REPORT_TEMPLATE = "exchange/report/study.html"
 
@@ -96,6 +96,8 @@ class ReportScenario:
     ladder: LadderView | None
     demand_mode: str
     warnings: tuple[CheckWarning, ...] = ()
+    band: LadderBand | None = None
+    """The governing line's 5-95 % band on the ladder (issue 13); None without a spread."""
 
 
 @dataclass(frozen=True)
@@ -182,12 +184,20 @@ def overdue_actions(actions: Table, today: date) -> frozenset[str]:
 def _report_scenario(ref: str, deviation: str, item: ScenarioBranch) -> ReportScenario:
     result = item.outcome.result
     steps = tuple(_report_step(s) for s in item.steps)
+    ladder = build_ladder(result) if result is not None else None
     return ReportScenario(
-        ref=ref, deviation=deviation, item=item, steps=steps,
-        ladder=build_ladder(result) if result is not None else None,
+        ref=ref, deviation=deviation, item=item, steps=steps, ladder=ladder,
         demand_mode=DEMAND_LABELS[result.sil_target.demand_mode] if result else "",
-        warnings=tuple(scenario_warnings(item)),
+        warnings=tuple(scenario_warnings(item)), band=_band(ladder, item),
     )
+
+
+def _band(ladder: LadderView | None, item: ScenarioBranch) -> LadderBand | None:
+    spread = item.spread
+    if ladder is None or spread is None or spread.governing.distribution.sigma == 0:
+        return None
+    found = spread.governing.distribution
+    return ladder_band(ladder, found.p05, found.p95)
 
 
 def _typed_value(step: Step) -> str:

@@ -163,7 +163,9 @@ def _describe_validation(err: ValidationError) -> str:
 
 # Fixed key orders: a loaded row's attribute order varies, and the file must not.
 HEADER_FIELDS = ("title", "facility", "scope", "revision_label", "frequency_unit",
-                 "criteria_basis")
+                 "criteria_basis", "error_factor_default_initiating_event",
+                 "error_factor_default_enabling_condition",
+                 "error_factor_default_conditional_modifier", "error_factor_default_ipl")
 STEP_FIELDS = ("description", "value", "value_text", "basis", "credited", "ipl_type",
                "system_tag", "response_time_minutes", "sil_claimed", "typical_key")
 # Schema version 2's step fields, in StepRow's order (receptors goes between as a list).
@@ -284,7 +286,7 @@ def _export_step(step: Step) -> dict[str, Any]:
     return {"kind": step.kind.value, **_fields(step, STEP_FIELDS),
             "proof_test": json.loads(step.proof_test) if step.proof_test else None,
             **_fields(step, METHOD_FIELDS), "receptors": stored_receptors(step.receptors),
-            **_fields(step, CHECK_FIELDS)}
+            **_fields(step, CHECK_FIELDS), "error_factor": step.error_factor}
 
 
 def _export_actions(

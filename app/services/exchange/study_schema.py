@@ -15,6 +15,7 @@ from app.likelihood.check_base import CauseType
 from app.likelihood.proof_test import Architecture
 from app.likelihood.types import IplType, ModifierKind, StepKind
 from app.likelihood.typical import typical_by_key
+from app.likelihood.uncertainty import MAX_TYPED_ERROR_FACTOR
 from app.services.exchange.study_schema_rounds import (
     EstimateRoundRow,
     ScaleWordRow,
@@ -51,6 +52,9 @@ class FileRow(BaseModel):
         return value
 
 
+_DEFAULT_EF: Any = Field(default=None, ge=1, le=MAX_TYPED_ERROR_FACTOR, allow_inf_nan=False)
+
+
 class StudyHeader(FileRow):
     """The study itself: what was reviewed and against which criteria."""
 
@@ -60,6 +64,11 @@ class StudyHeader(FileRow):
     revision_label: str = Field(default="Draft", max_length=60)
     frequency_unit: Literal["per year"] = "per year"
     criteria_basis: str = Field(default="", max_length=500)
+    # Optional (issue 13): the study's default EF per step kind; null: no default.
+    error_factor_default_initiating_event: float | None = _DEFAULT_EF
+    error_factor_default_enabling_condition: float | None = _DEFAULT_EF
+    error_factor_default_conditional_modifier: float | None = _DEFAULT_EF
+    error_factor_default_ipl: float | None = _DEFAULT_EF
 
 
 class CategoryRow(FileRow):
@@ -139,6 +148,10 @@ class StepRow(FileRow):
     time_available_minutes: float | None = Field(default=None, ge=0, allow_inf_nan=False)
     time_to_detect_and_act_minutes: float | None = Field(default=None, ge=0,
                                                          allow_inf_nan=False)
+    # Optional (issue 13): the EF the team typed (95th over 50th percentile, the value being
+    # the median); null: from the last estimate round, the typical range or the study default.
+    error_factor: float | None = Field(default=None, ge=1, le=MAX_TYPED_ERROR_FACTOR,
+                                       allow_inf_nan=False)
 
     @model_validator(mode="after")
     def probability_at_most_one(self) -> "StepRow":

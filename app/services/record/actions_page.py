@@ -15,6 +15,7 @@ from app.db.models import Study
 from app.services.record.action_inputs import ActionOrder
 from app.services.record.actions import STATUS_LABELS, ActionEntry, list_actions
 from app.services.study.conflicts import FieldConflict
+from app.services.study.spread import action_effect
 from app.services.study.tree import ScenarioBranch, load_study_tree
 
 # Products of decimals sit a hair off exact powers of ten; a closure within this is a closure.
@@ -41,6 +42,10 @@ class AddressedScenario:
     frequency_after: float | None
     closes: bool | None
     verdict: str
+    p_meets_before: float | None = None
+    """P(meets target) now, from the steps' error factors (issue 13); None without figures."""
+    p_meets_after: float | None = None
+    """P(meets target) with the scenario's median divided by the action's expected RRF."""
 
 
 @dataclass(frozen=True)
@@ -110,8 +115,20 @@ def judge_closure(item: ScenarioBranch, label: str,
                    else f"would not close the gap: {remaining:+.1f} orders remain")
     if result.meets_target:
         verdict = "already meets target"
+    before, after_p = _probabilities(item, expected_rrf)
     return AddressedScenario(scenario_id, label, result.gap_orders, result.mitigated_frequency,
-                             result.tolerable_frequency, after, closes, verdict)
+                             result.tolerable_frequency, after, closes, verdict,
+                             before, after_p)
+
+
+def _probabilities(item: ScenarioBranch,
+                   expected_rrf: float | None) -> tuple[float | None, float | None]:
+    """P(meets target) before and after the action's credit, judged on the distribution."""
+    if item.spread is None or item.spread.governing.distribution.sigma == 0:
+        return None, None  # exact figures: the verdict above says it all
+    before = item.spread.governing.distribution.probability_meets_target
+    effect = action_effect(item.spread, expected_rrf)
+    return before, effect.after if effect else None
 
 
 def read_actions_page(

@@ -38,6 +38,11 @@ FIELD_WORDS: dict[str, str] = {
     "due_date": "Due date", "status": "Status", "status_reason": "Status reason",
     "expected_rrf": "Expected RRF", "role": "Role", "discipline": "Discipline",
     "company": "Company", "day": "Date", "scenarios": "Scenarios addressed",
+    "error_factor": "Error factor (EF)",
+    "error_factor_default_initiating_event": "Default EF for initiating events",
+    "error_factor_default_enabling_condition": "Default EF for enabling conditions",
+    "error_factor_default_conditional_modifier": "Default EF for conditional modifiers",
+    "error_factor_default_ipl": "Default EF for IPLs",
 }  # fmt: skip
 
 CHANGE_WORDS = {"create": "added", "edit": "changed", "delete": "deleted", "link": "linked",

@@ -27,14 +27,15 @@ from app.services.study.results import INCOMPLETE
 Row = dict[str, Any]
 MATCHING_RULE = __doc__.split("\n\n", 1)[1].strip() if __doc__ else ""
 
-HEADER_FIELDS = ("title", "facility", "scope", "revision_label", "criteria_basis")
+HEADER_FIELDS = ("title", "facility", "scope", "revision_label", "criteria_basis",
+                 *(f"error_factor_default_{kind.value}" for kind in StepKind))
 CATEGORY_FIELDS = ("description", "tolerable_frequency", "receptor")
 NODE_FIELDS = ("number", "name", "design_intent", "drawing_reference")
 DEVIATION_FIELDS = ("guideword", "parameter", "description")
 SCENARIO_FIELDS = ("cause", "consequence", "notes")
 SEVERITY_FIELDS = ("severity", "environment_severity", "asset_severity")
 STEP_FIELDS = ("kind", "description", "value", "credited", "basis", "ipl_type", "system_tag",
-               "sil_claimed", "response_time_minutes")
+               "sil_claimed", "response_time_minutes", "error_factor")
 ACTION_FIELDS = ("owner", "due_date", "status", "status_reason", "expected_rrf", "scenarios")
 PARTICIPANT_FIELDS = ("role", "discipline", "company")
 DAY_FIELDS = ("note", "attendees")

@@ -54,6 +54,19 @@ class RankedScenario:
     demand_rate: float = 0.0
     demand_formula: str = ""
     receptor: str = ""
+    p_meets: float | None = None
+    """P(mitigated frequency <= tolerable) from the steps' error factors, as credited."""
+
+
+@dataclass(frozen=True)
+class UncertainVerdict:
+    """A scenario whose verdict could go either way: 5 % < P(meets target) < 95 %."""
+
+    scenario: RankedScenario
+    probability: float
+    median: float
+    p05: float
+    p95: float
 
 
 @dataclass(frozen=True)
@@ -124,6 +137,10 @@ class RiskPicture:
     warnings: tuple[ScenarioWarnings, ...]
     withdrawn: bool = False
     """Drawn with every credit an IPL check flags withdrawn (PFD 1), not as credited."""
+    uncertain: tuple[UncertainVerdict, ...] = ()
+    """Scenarios whose verdict is uncertain, least likely to meet the target first."""
+    most_likely_first: bool = False
+    """`uncertain` ranked the other way: most likely to meet the target first."""
     incomplete: tuple[UnresolvedScenario, ...] = ()
     """Scenarios without an initiating frequency or a severity yet: not ranked, summed,
     drawn or counted (services/study/completeness.py)."""
@@ -168,6 +185,8 @@ def _ranked(study_id: int, node_branch: NodeBranch, deviation_label: str, item: 
         demand_rate=result.demand.demand_rate_per_year if result.demand else 0.0,
         demand_formula=result.demand.formula if result.demand else "",
         receptor=figures.governing.receptor.value,
+        p_meets=(item.spread.governing.distribution.probability_meets_target
+                 if item.spread else None),
     )
 
 
@@ -260,7 +279,24 @@ def _sil_counts(needs: list[tuple[SilNeed, str]]) -> tuple[SilBandCount, ...]:
     )
 
 
-def build_risk_picture(tree: StudyTree, *, withdrawn: bool = False) -> RiskPicture:
+def uncertain_verdicts(tree: StudyTree, ranked: list[RankedScenario], *,
+                       most_likely_first: bool = False) -> tuple[UncertainVerdict, ...]:
+    """The scenarios with 5 % < P(meets) < 95 %, ranked by that probability (as credited)."""
+    listed = {r.scenario_id: r for r in ranked}
+    found = []
+    for item in tree.scenario_branches():
+        line = item.spread.governing if item.spread else None
+        if line is None or not line.uncertain or item.scenario.id not in listed:
+            continue
+        d = line.distribution
+        found.append(UncertainVerdict(listed[item.scenario.id], d.probability_meets_target,
+                                      d.median, d.p05, d.p95))
+    found.sort(key=lambda u: -u.probability if most_likely_first else u.probability)
+    return tuple(found)
+
+
+def build_risk_picture(tree: StudyTree, *, withdrawn: bool = False,
+                       most_likely_first: bool = False) -> RiskPicture:
     """Everything the risk picture shows, as credited or with flagged credits withdrawn."""
     ranked, unresolved, incomplete = _scenarios(tree, withdrawn=withdrawn)
     study_id = tree.study.id or 0
@@ -283,6 +319,8 @@ def build_risk_picture(tree: StudyTree, *, withdrawn: bool = False) -> RiskPictu
         sil_counts=_sil_counts(needs),
         warnings=tuple(study_warnings(tree)),
         withdrawn=withdrawn,
+        uncertain=uncertain_verdicts(tree, ranked, most_likely_first=most_likely_first),
+        most_likely_first=most_likely_first,
         incomplete=tuple(incomplete),
     )
 
@@ -322,10 +360,10 @@ class RiskPage:
 
 
 def read_risk_page(*, session: Session, study_id: int, cell: str | None = None,
-                   withdrawn: bool = False) -> RiskPage:
+                   withdrawn: bool = False, most_likely_first: bool = False) -> RiskPage:
     """Load and compute the study, then pick out the requested matrix cell if any."""
     tree = load_study_tree(session, study_id)
-    picture = build_risk_picture(tree, withdrawn=withdrawn)
+    picture = build_risk_picture(tree, withdrawn=withdrawn, most_likely_first=most_likely_first)
     selection, error = None, ""
     if cell:
         try:

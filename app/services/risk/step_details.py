@@ -24,9 +24,15 @@ from app.likelihood.types import (
     StepKind,
 )
 from app.likelihood.typical import TypicalValue, typical_by_key, typical_for_kind
+from app.likelihood.uncertainty import read_typed_error_factor
 from app.services.study.conflicts import FieldConflict, PageEdit, missing_row, save_form
 from app.services.study.errors import length_problem
 from app.services.study.results import compute_outcome, warnings_of
+from app.services.study.spread import (
+    error_factor_note,
+    load_error_factor_inputs,
+    step_error_factor,
+)
 from app.services.study.step_fields import receptors_text
 from app.services.study.tree import NotFoundError, WorksheetSpot, get_study
 
@@ -65,6 +71,7 @@ FIELD_LABELS = {
     "per_opportunity_probability": "Probability per opportunity",
     "opportunities_per_year": "Opportunities a year", "modifier_kind": "Modifier kind",
     "receptors": "Applies to", "typical_key": "Typical value", "basis": "Basis",
+    "error_factor": "Error factor (EF)",
 }
 YES_NO = {"true": "yes", "false": "no"}
 
@@ -151,6 +158,7 @@ class StepDetailsForm:
     cause_type: str = ""
     per_opportunity_probability: str = ""
     opportunities_per_year: str = ""
+    error_factor: str = ""
 
     @classmethod
     def from_step(cls, step: Step) -> "StepDetailsForm":
@@ -172,6 +180,7 @@ class StepDetailsForm:
             cause_type=step.cause_type or "",
             per_opportunity_probability=_text(step.per_opportunity_probability),
             opportunities_per_year=_text(step.opportunities_per_year),
+            error_factor=_text(step.error_factor),
         )
 
     @classmethod
@@ -210,6 +219,8 @@ class StepDetailsPage:
         default_factory=lambda: dict(MODIFIER_KIND_LABELS))
     cause_types: dict[CauseType, str] = field(default_factory=lambda: dict(CAUSE_TYPE_LABELS))
     receptors: tuple[Receptor, ...] = tuple(Receptor)
+    error_factor_note: str = ""
+    """Which EF applies now and where it came from ("EF 3.2, from the typical-value range")."""
 
     def conflict_of(self, name: str) -> tuple[FieldConflict, ...]:
         """The conflict on one field, for the box at that field (empty when none)."""
@@ -227,8 +238,9 @@ def _details_page(session: Session, place: StepPlace, form: StepDetailsForm,
                   conflict: "StepDetailsConflict | None" = None) -> StepDetailsPage:
     kind = place.step.kind
     steps = fetch_steps_of_scenario(session, place.scenario.id or 0)
+    study = get_study(session, place.step.study_id)
     return StepDetailsPage(
-        study=get_study(session, place.step.study_id), place=place,
+        study=study, place=place, error_factor_note=_error_factor_note(session, study, place),
         kind_label=kind.label, is_ipl=kind is StepKind.IPL, form=form, errors=errors,
         typical_options=typical_for_kind(kind), chosen_typical=typical_by_key(form.typical_key),
         ipl_types=IPL_TYPE_LABELS, warnings=warnings_of(steps), saved=saved,
@@ -236,6 +248,16 @@ def _details_page(session: Session, place: StepPlace, form: StepDetailsForm,
         loaded=conflict.loaded if conflict else StepDetailsForm.from_step(place.step),
         conflicts=conflict.fields if conflict else (),
     )
+
+
+def _error_factor_note(session: Session, study: Study, place: StepPlace) -> str:
+    inputs = load_error_factor_inputs(session, study)
+    try:
+        factor = step_error_factor(place.step, inputs)
+    except LikelihoodInputError:
+        return ""
+    last = inputs.last_rounds.get(place.step.id or 0)
+    return error_factor_note(factor, place.step.kind, last.number if last else None)
 
 
 @dataclass(frozen=True)
@@ -332,6 +354,13 @@ def _typical(text: str, kind: StepKind) -> str | None:
     return text
 
 
+def _error_factor(text: str) -> float | None:
+    try:
+        return read_typed_error_factor(text)
+    except LikelihoodInputError as err:
+        raise ValueError(err.message) from None
+
+
 def _form_text(text: str, limit: int, label: str) -> str:
     if problem := length_problem(text, limit):
         raise ValueError(f"{label}: {problem}")
@@ -343,6 +372,7 @@ def _readers(kind: StepKind) -> dict[str, Any]:
     readers: dict[str, Any] = {
         "typical_key": lambda t: _typical(t, kind),
         "basis": lambda t: _form_text(t, BASIS_LIMIT, "Basis"),
+        "error_factor": _error_factor,
     }
     if kind in (StepKind.IPL, StepKind.INITIATING_EVENT):
         readers |= {

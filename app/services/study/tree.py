@@ -3,6 +3,7 @@
 from collections import defaultdict
 from collections.abc import Callable
 from dataclasses import dataclass, field
+from functools import cached_property, partial
 from typing import Any
 
 from sqlmodel import Session
@@ -18,7 +19,19 @@ from app.db.models import (
     Study,
 )
 from app.db.queries import fetch_rows_of_node, fetch_rows_of_study
-from app.services.study.results import ScenarioOutcome, compute_outcome
+from app.services.study.results import (
+    ScenarioOutcome,
+    compute_outcome,
+    receptor_categories,
+    targets_of,
+)
+from app.services.study.spread import (
+    NO_INPUTS,
+    ErrorFactorInputs,
+    ScenarioSpread,
+    load_error_factor_inputs,
+    scenario_spread,
+)
 
 
 class NotFoundError(LookupError):
@@ -48,6 +61,17 @@ class ScenarioBranch:
     steps: list[Step]
     safeguards: list[Safeguard]
     outcome: ScenarioOutcome
+    spread_source: Callable[[], ScenarioSpread | None] | None = field(
+        default=None, repr=False, compare=False)
+
+    @cached_property
+    def spread(self) -> ScenarioSpread | None:
+        """The mitigated frequency's lognormal per receptor line (issue 13); None: no figures.
+
+        Worked out on first use: a page that shows no uncertainty (the actions of a few
+        scenarios, a node's totals) does not pay for every scenario's.
+        """
+        return self.spread_source() if self.spread_source else None
 
 
 @dataclass
@@ -112,7 +136,8 @@ def load_study_tree(session: Session, study_id: int) -> StudyTree:
     study = get_study(session, study_id)
     categories = fetch_rows_of_study(session, SeverityCategory, study_id)
     rows = _content_rows(lambda model: fetch_rows_of_study(session, model, study_id))
-    nodes = _assemble(fetch_rows_of_study(session, Node, study_id), rows, categories)
+    nodes = _assemble(fetch_rows_of_study(session, Node, study_id), rows, categories,
+                      load_error_factor_inputs(session, study))
     actions = fetch_rows_of_study(session, Recommendation, study_id)
     return StudyTree(study, categories, nodes, actions)
 
@@ -125,7 +150,8 @@ def load_node_tree(session: Session, study_id: int, node_id: int) -> NodeTree:
         raise NotFoundError(f"There is no node {node_id} in study {study_id}.")
     categories = fetch_rows_of_study(session, SeverityCategory, study_id)
     rows = _content_rows(lambda model: fetch_rows_of_node(session, model, node_id))
-    return NodeTree(study, categories, _assemble([node], rows, categories)[0])
+    inputs = load_error_factor_inputs(session, study)
+    return NodeTree(study, categories, _assemble([node], rows, categories, inputs)[0])
 
 
 def _content_rows(fetch: Callable[[type[Any]], list[Any]]) -> _ContentRows:
@@ -137,8 +163,8 @@ def _content_rows(fetch: Callable[[type[Any]], list[Any]]) -> _ContentRows:
     )
 
 
-def _assemble(nodes: list[Node], rows: _ContentRows,
-              categories: list[SeverityCategory]) -> list[NodeBranch]:
+def _assemble(nodes: list[Node], rows: _ContentRows, categories: list[SeverityCategory],
+              inputs: ErrorFactorInputs = NO_INPUTS) -> list[NodeBranch]:
     """Nest the rows under their nodes in worksheet order, computing each scenario."""
     by_id = {c.id: c for c in categories if c.id is not None}
     assembled = []
@@ -148,12 +174,22 @@ def _assemble(nodes: list[Node], rows: _ContentRows,
             deviation_branch = DeviationBranch(deviation)
             for scenario in rows.scenarios[deviation.id or 0]:
                 steps = rows.steps[scenario.id or 0]
+                outcome = compute_outcome(scenario, steps, by_id)
                 deviation_branch.scenarios.append(ScenarioBranch(
-                    scenario, steps, rows.safeguards[scenario.id or 0],
-                    compute_outcome(scenario, steps, by_id)))
+                    scenario, steps, rows.safeguards[scenario.id or 0], outcome,
+                    partial(_spread_of, scenario, steps, by_id, inputs, outcome)))
             node_branch.deviations.append(deviation_branch)
         assembled.append(node_branch)
     return assembled
+
+
+def _spread_of(scenario: Scenario, steps: list[Step], categories: dict[int, SeverityCategory],
+               inputs: ErrorFactorInputs, outcome: ScenarioOutcome) -> ScenarioSpread | None:
+    if outcome.assessment is None:
+        return None  # no figures: nothing to spread
+    rated = receptor_categories(scenario, categories, people_not_rated=scenario.people_not_rated)
+    return scenario_spread(steps, targets_of(rated), inputs,
+                           outcome.assessment.as_credited.receptors)
 
 
 def _group(rows: list, key: str) -> dict[int, list]:  # type: ignore[type-arg]

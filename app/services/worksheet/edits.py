@@ -196,8 +196,17 @@ def edit_field(*, session: Session, study_id: int, kind_name: str, row_id: int,
     result = (guarded_save(session, kind.model, row_id, replace(edit, originals=originals),
                            values) if values else GuardedResult(SaveOutcome.SAVED))
     said = plain_value(row) if (kind_name, sent) == ("step", "value_text") else SAVED
-    return _after_save(session, kind_name, row, field_id(kind_name, row_id, sent), result,
-                       said=said, page_version=edit.version)
+    reply = _after_save(session, kind_name, row, field_id(kind_name, row_id, sent), result,
+                        said=said, page_version=edit.version)
+    return _with_error_factor_note(reply, sent, row_id)
+
+
+def _with_error_factor_note(reply: FieldReply, sent: str, step_id: int) -> FieldReply:
+    """After a saved EF, the line under it says which EF now applies and where it came from."""
+    spread = reply.scenario.item.spread if reply.scenario else None
+    if sent != "error_factor" or spread is None or reply.error or reply.status_code != 200:
+        return reply
+    return replace(reply, said=spread.note_of(step_id))
 
 
 def _existing(session: Session, kind_name: str, study_id: int, row_id: int) -> Any:

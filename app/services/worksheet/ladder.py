@@ -169,3 +169,31 @@ def build_ladder(result: ScenarioResult) -> LadderView:
         meets_target=result.meets_target,
         description=description,
     )
+
+
+@dataclass(frozen=True)
+class LadderBand:
+    """The mitigated frequency's 5-95 % band beside the result point (issue 13).
+
+    `clipped_*` says the percentile lies beyond the drawn decades (the bar stops at the edge).
+    """
+
+    x: float
+    y_p95: float
+    y_p05: float
+    clipped_top: bool
+    clipped_bottom: bool
+    description: str
+
+
+def ladder_band(ladder: LadderView, p05: float, p95: float) -> LadderBand:
+    """Where the 5th and 95th percentiles sit on an already drawn ladder, kept inside it."""
+    top = ladder.decades[0].exponent
+    y_top, y_bottom = ladder.decades[0].y, ladder.decades[-1].y
+    y_p95 = y_of(p95, top) if p95 > 0 and math.isfinite(p95) else y_top
+    y_p05 = y_of(p05, top) if p05 > 0 else y_bottom
+    return LadderBand(
+        x=ladder.gap_x - 12, y_p95=max(y_p95, y_top), y_p05=min(y_p05, y_bottom),
+        clipped_top=y_p95 < y_top, clipped_bottom=y_p05 > y_bottom,
+        description=f"5 to 95 % band {format_number(p05)} to {format_number(p95)} per year",
+    )

@@ -26,7 +26,7 @@ from app.services.study.tree import (
     get_study,
     load_node_tree,
 )
-from app.services.worksheet.ladder import LadderView, build_ladder
+from app.services.worksheet.ladder import LadderBand, LadderView, build_ladder, ladder_band
 from app.services.worksheet.sheet_rows import (
     MoreRows,
     NodeOutline,
@@ -83,6 +83,15 @@ class ScenarioView:
         keeps the figures with the largest (replies can arrive out of order)."""
         rows = [self.item.scenario, *self.item.steps, *self.item.safeguards]
         return sum(row.version for row in rows)
+
+    @property
+    def band(self) -> LadderBand | None:
+        """The governing line's 5-95 % band on the ladder (None: no figures or no spread)."""
+        spread = self.item.spread
+        if self.ladder is None or spread is None or spread.governing.distribution.sigma == 0:
+            return None
+        found = spread.governing.distribution
+        return ladder_band(self.ladder, found.p05, found.p95)
 
     @property
     def slim(self) -> bool:

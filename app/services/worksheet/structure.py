@@ -15,6 +15,7 @@ from app.db.models import Deviation, Node, Safeguard, Scenario, SeverityCategory
 from app.db.queries import lock_study_order
 from app.likelihood.numbers import ParsedNumber, parse_frequency, parse_probability
 from app.likelihood.types import LikelihoodInputError, StepKind
+from app.likelihood.uncertainty import read_typed_error_factor
 from app.services.study.errors import FieldInputError, length_problem
 from app.services.study.tree import NotFoundError, get_study
 
@@ -219,6 +220,13 @@ def _read_step_fields(row: Step, changes: Mapping[str, Any]) -> dict[str, Any]:
         except LikelihoodInputError as err:
             raise StructureInputError("value_text", err.message) from None
         values.update(value=parsed.value, value_text=parsed.text)
+    if "error_factor" in changes:
+        sent = changes["error_factor"]
+        text = str(sent[-1] if isinstance(sent, list | tuple) else sent)
+        try:
+            values["error_factor"] = read_typed_error_factor(text, f"{step_label(row)}: EF")
+        except LikelihoodInputError as err:
+            raise StructureInputError("error_factor", err.message) from None
     return values
 
 

@@ -1,5 +1,6 @@
 """The actions page, read as the review team sees it."""
 
+import math
 from collections.abc import Iterator
 from datetime import date
 
@@ -191,3 +192,28 @@ def test_an_action_of_another_study_is_a_404(client: TestClient, session: Sessio
     action = add_action(session=session, study_id=other, text="Elsewhere")
     assert client.get(f"/studies/{first}/actions/{action.id}/edit").status_code == 404
     assert client.post(f"/studies/{first}/actions/{action.id}/delete").status_code == 404
+
+
+def test_the_expected_rrf_is_also_judged_on_the_distribution(
+    client: TestClient, session: Session, fixed_day: date
+) -> None:
+    """IE 0.1 /yr exact, relief valve PFD 0.01 with EF 10: median 1e-3 /yr against 1e-5 /yr.
+
+    scipy.stats.lognorm(s = ln 10 / z95, scale = median).cdf(1e-5): before, median 1e-3;
+    after an RRF of 300, median 1e-3 / 300 = 3.3e-6.
+    """
+    from scipy import stats
+
+    from app.likelihood.numbers import probability_text
+
+    scenario = make_scenario_tree(session)
+    make_step(session, scenario, value=0.01, description="Relief valve", error_factor=10.0)
+    add_action(session=session, study_id=scenario.study_id, text="Add a SIL 2 trip",
+               expected_rrf=300, scenario_ids=[scenario.id])
+    sigma = math.log(10) / stats.norm.ppf(0.95)
+    before = probability_text(stats.lognorm(s=sigma, scale=1e-3).cdf(1e-5))
+    after = probability_text(stats.lognorm(s=sigma, scale=1e-3 / 300).cdf(1e-5))
+    assert (before, after) == ("< 1 %", "78 %")  # by hand: z = ln 3 / 1.400 = 0.785
+    rows = _rows(client.get(f"/studies/{scenario.study_id}/actions").text)
+    assert f"P(meets target) {before} → {after} with this action" in rows[0][
+        "Scenarios addressed · current gap"]

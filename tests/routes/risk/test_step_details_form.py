@@ -169,3 +169,26 @@ def test_a_layer_can_act_after_an_added_sif(client: TestClient, session: Session
     client.post(_url(step), data={**VALID, "ipl_type": "passive", "typical_key": ""})
     session.refresh(step)
     assert step.acts_after_sif is False
+
+
+def test_the_error_factor_is_saved_and_its_source_named(client: TestClient,
+                                                        session: Session) -> None:
+    step = _ipl(session)
+    page = client.post(_url(step), data={**VALID, "error_factor": "3"}).text
+    assert "Now: EF 3, typed." in unescape(page)
+    session.refresh(step)
+    assert step.error_factor == 3.0
+    # Blank: the typical-value row's range 1e-1 to 1 read as 5th to 95th percentile gives
+    # EF = sqrt(1 / 1e-1) = 3.16, shown as 3.2 (by hand).
+    page = client.post(_url(step), data={**VALID, "error_factor": ""}).text
+    assert "Now: EF 3.2, from the typical-value range." in unescape(page)
+
+
+def test_an_error_factor_below_1_is_refused_and_nothing_saved(client: TestClient,
+                                                              session: Session) -> None:
+    step = _ipl(session)
+    reply = client.post(_url(step), data={**VALID, "error_factor": "0.3"})
+    assert reply.status_code == 422
+    assert "must be at least 1 and at most 100 (got 0.3)" in _error(reply.text, "error_factor")
+    session.refresh(step)
+    assert step.error_factor is None and step.basis == ""

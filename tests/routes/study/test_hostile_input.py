@@ -49,6 +49,9 @@ def test_a_write_with_an_impossible_id_is_refused_with_the_rule(
     ("/studies/{study}/proof-test", {"step_id": "\u00b2"}),
     ("/studies/{study}/nodes", {"name": "N", "after_id": "\u00b2"}),
     ("/studies/{study}/attendance/marks", {"present": f"{2**63}:1"}),
+    ("/studies", {"title": "T", "revision_label": "A", "criteria_from": "\u00b2"}),
+    ("/studies", {"title": "T", "revision_label": "A", "criteria_from": "9" * 5000}),
+    ("/studies/{study}/heading", {"title": "T", "revision_label": "A", "version": "\u00b2"}),
 ])
 def test_impossible_ids_in_forms_never_reach_the_database(
     client: TestClient, scenario: Scenario, url: str, data: dict[str, str]
@@ -56,6 +59,15 @@ def test_impossible_ids_in_forms_never_reach_the_database(
     response = client.post(url.format(study=scenario.study_id), data=data,
                            follow_redirects=False)
     assert response.status_code < 500
+
+
+@pytest.mark.parametrize("bad", [*IMPOSSIBLE_IDS, "9" * 5000])
+def test_the_node_picker_ignores_an_impossible_node(
+    client: TestClient, scenario: Scenario, bad: str
+) -> None:
+    response = client.get(f"/studies/{scenario.study_id}/worksheet?node={bad}",
+                          follow_redirects=False)
+    assert response.status_code == 303  # to the first node, as with no choice
 
 
 @pytest.mark.parametrize("query", [f"step_id={2**63}", "step_id=\u0661"])

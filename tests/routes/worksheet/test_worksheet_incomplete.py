@@ -124,11 +124,11 @@ def test_every_export_says_incomplete_and_never_fails(
 def test_the_revision_comparison_says_incomplete_before_and_shows_figures_after(
     client: TestClient, session: Session, added: Scenario
 ) -> None:
-    freeze_revision(session=session, study_id=added.study_id, frozen_by=TEST_AUTHOR,
-                    values={"label": "Rev A", "signed_off_by": "Ilse Marrow-Quaye"})
+    frozen = freeze_revision(session=session, study_id=added.study_id, frozen_by=TEST_AUTHOR,
+                             values={"label": "Rev A", "signed_off_by": "Ilse Marrow-Quaye"})
     _give_both(client, session, added)
     page = client.get(f"/studies/{added.study_id}/revisions/compare",
-                      params={"from": 1, "to": "live"})
+                      params={"from": frozen.id, "to": "live"})
     assert page.status_code == 200, page.text
     assert "incomplete: no initiating event frequency and no severity yet" in page.text
 

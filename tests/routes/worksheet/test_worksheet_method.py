@@ -70,9 +70,9 @@ def test_the_environment_line_governs_when_people_modifiers_do_not_apply_to_it(
     """People 1e-5 /yr, environment 1e-4 /yr; IE 0.1 /yr, presence 0.1 and fatality 0.5
     (people only, CCPS 2013 concept; from memory).
 
-    By hand: people 0.1 × 0.1 × 0.5 = 5e-3 /yr, ratio 500 (shown 5.0e2); environment 0.1 /yr (no people
-    modifier), ratio 1000: the environment needs the larger risk reduction and governs, though
-    its tolerable frequency is the laxer one.
+    By hand: people 0.1 × 0.1 × 0.5 = 5e-3 /yr, ratio 500 (shown 5.0e2); environment 0.1 /yr (no
+    people modifier), ratio 1000: the environment needs the larger risk reduction and governs,
+    though its tolerable frequency is the laxer one.
     """
     scenario = make_scenario_tree(session)
     study = session.get(Study, scenario.study_id)

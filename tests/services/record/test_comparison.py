@@ -172,3 +172,13 @@ def test_scenario_refs_renumbered_between_files_are_not_a_change() -> None:
     scenarios[0]["ref"], scenarios[1]["ref"] = "S9", "S8"
     after["recommendations"][0]["scenarios"] = ["S9"]
     assert [c for c in diff_studies(before, after).changes if c.section == "Actions"] == []
+
+
+def test_a_typed_error_factor_and_a_study_default_show_as_changes() -> None:
+    before = _study()
+    after = copy.deepcopy(before)
+    after["study"]["error_factor_default_ipl"] = 3.0
+    after["nodes"][0]["deviations"][0]["scenarios"][0]["steps"][1]["error_factor"] = 10.0
+    diff = diff_studies(before, after)
+    assert [(c.field, c.before, c.after) for c in diff.changes] == [
+        ("error_factor_default_ipl", "—", "3.0e0"), ("error_factor", "—", "1.0e1")]
