@@ -15,6 +15,7 @@ from app.lifecycle import server_lifespan
 from app.routes import errors
 from app.routes.deps import check_path_ids
 from app.services.study.conflicts import DeletedSinceError
+from app.services.study.stored_results import install_stored_results
 from app.services.study.tree import NotFoundError
 from app.settings import PROJECT_ROOT, Settings, get_settings
 
@@ -33,6 +34,7 @@ def discover_routers() -> list[APIRouter]:
 def create_app(settings: Settings | None = None) -> FastAPI:
     """Build the app; the database must already be migrated (`make run` does it)."""
     install_tracking()
+    install_stored_results()
     # No docs page: it would load its scripts from a CDN. /openapi.json stays.
     application = FastAPI(title="Tallyroom", docs_url=None, redoc_url=None,
                           lifespan=server_lifespan)

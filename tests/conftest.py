@@ -33,6 +33,7 @@ from app.db.session import get_db_engine  # noqa: E402
 from app.db.tracking import AUTHOR_KEY, install_tracking  # noqa: E402
 from app.demo import load_demo_study  # noqa: E402
 from app.main import create_app  # noqa: E402
+from app.services.study.stored_results import install_stored_results  # noqa: E402
 from tests.helpers import TEST_AUTHOR  # noqa: E402
 from tests.security.sessions import install_local_session  # noqa: E402
 
@@ -44,6 +45,7 @@ def db_engine() -> Iterator[Engine]:
     """The test database, migrated once to head."""
     upgrade_database()
     install_tracking()
+    install_stored_results()
     yield get_db_engine()
 
 

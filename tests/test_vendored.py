@@ -1,4 +1,4 @@
-"""The one vendored file is the version the README and static/vendor/README.md name."""
+"""Each vendored file is the version the README and its vendor README name."""
 
 import hashlib
 
@@ -15,3 +15,18 @@ def test_vendored_htmx_is_the_pinned_release() -> None:
 
 def test_vendored_htmx_keeps_its_licence_beside_it() -> None:
     assert "Zero-Clause BSD" in (HTMX.parent / "htmx-2.0.11.LICENSE").read_text()
+
+
+AXE = PROJECT_ROOT / "tests" / "browser" / "vendor" / "axe-core-4.14.1.min.js"
+# sha256 of axe-core 4.14.1 package/axe.min.js from the npm registry (`npm pack axe-core@4.14.1`).
+AXE_SHA256 = "29348999450cdf2849a8e70b7912fc2da85a849da39c0d0d5394f51d4a9ed95c"
+
+
+def test_vendored_axe_core_is_the_pinned_release() -> None:
+    assert hashlib.sha256(AXE.read_bytes()).hexdigest() == AXE_SHA256
+
+
+def test_vendored_axe_core_keeps_its_licence_beside_it_and_is_never_served() -> None:
+    assert "Mozilla Public License, version 2.0" in (
+        AXE.parent / "axe-core-4.14.1.LICENSE").read_text()
+    assert not list((PROJECT_ROOT / "static").rglob("axe*"))

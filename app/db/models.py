@@ -488,6 +488,60 @@ class AccessState(SQLModel, table=True):
     session_generation: int = 0
 
 
+class ScenarioResultRow(SQLModel, table=True):
+    """One scenario's computed results, kept true in every transaction that changes its inputs.
+
+    The scalar columns are what sums, ranking and the node and study counts read (indexed by
+    study and node); `figures` holds the rest as JSON: the governing line and every receptor
+    line, as credited and with flagged credits withdrawn, plus an `extra` mapping for fields
+    a later method adds (app/services/study/stored_results.py writes and reads it).
+    """
+
+    __tablename__ = "scenario_result"
+    __table_args__ = (Index("ix_scenario_result_study_node", "study_id", "node_id"),)
+    scenario_id: int = Field(foreign_key="scenario.id", ondelete="CASCADE", primary_key=True)
+    study_id: int = Field(foreign_key="study.id", ondelete="CASCADE")
+    node_id: int = Field(foreign_key="node.id", ondelete="CASCADE")
+    computed: bool = False
+    incomplete: bool = False
+    short: bool = False
+    flagged: bool = False
+    short_withdrawn: bool = False
+    category_id: int | None = None
+    gap_orders: float | None = None
+    # The headline as lists show it (overview, rankings), read without parsing `figures`.
+    receptor: str = Field(default="", max_length=20)
+    mitigated_frequency: float | None = None
+    tolerable_frequency: float | None = None
+    ratio: float | None = None
+    sil_label: str = Field(default="", max_length=60)
+    demand_mode: str = Field(default="", max_length=20)
+    withdrawn_mitigated_frequency: float | None = None
+    withdrawn_ratio: float | None = None
+    error: str = Field(default="", sa_column_kwargs={"default": ""})
+    figures: str = Field(default="{}", sa_type=Text)
+
+
+class ResultTotal(SQLModel, table=True):
+    """Running counts of one node's scenarios (node_id set) or the whole study's (node_id 0).
+
+    Moved by the difference each recomputed scenario makes, in the same transaction; integer
+    counts, so the running value equals a recount exactly. The study's row also says which
+    version of the stored results it holds: another version is rebuilt on its next read.
+    """
+
+    __tablename__ = "result_total"
+    study_id: int = Field(foreign_key="study.id", ondelete="CASCADE", primary_key=True)
+    node_id: int = Field(default=0, primary_key=True)
+    results_version: int = 0
+    scenario_count: int = 0
+    short_count: int = 0
+    unresolved_count: int = 0
+    flagged_count: int = 0
+    short_withdrawn_count: int = 0
+    incomplete_count: int = 0
+
+
 def _never_reuse_ids() -> None:
     # SQLite hands out the highest id + 1 unless the table says AUTOINCREMENT, so a deleted
     # row's id comes back and a page still pointing at it would touch someone else's new row.

@@ -69,19 +69,34 @@ def fetch_rows_of_node(session: Session, model: type[Row], node_id: int) -> list
     return list(session.exec(rows_of_node(model, node_id)).all())
 
 
-def step_figures_of_study(study_id: int) -> Any:
-    """The columns of a study's steps that the arithmetic reads, as plain rows."""
+def fetch_rows_of_scenario(session: Session, model: type[Row], scenario_id: int) -> list[Row]:
+    """A scenario's steps or safeguards, in display order."""
+    table: Any = model
+    return list(session.exec(_in_display_order(
+        select(model).where(table.scenario_id == scenario_id), model)).all())
+
+
+def _step_figure_columns() -> list[Any]:
     # Every column the IPL checks read too: totals show the figures with flagged credits
     # withdrawn. Any: ORM attributes as columns.
-    columns: list[Any] = [Step.scenario_id, Step.id, Step.position, Step.kind, Step.value,
-                          Step.credited, Step.description, Step.ipl_type, Step.system_tag,
-                          Step.response_time_minutes, Step.sil_claimed, Step.typical_key,
-                          Step.acts_after_sif, Step.modifier_kind, Step.receptors,
-                          Step.cause_type, Step.final_element_tag, Step.alarm_on_bpcs,
-                          Step.crew, Step.per_opportunity_probability,
-                          Step.opportunities_per_year, Step.time_available_minutes,
-                          Step.time_to_detect_and_act_minutes]
-    return select_columns(*columns).where(col(Step.study_id) == study_id)
+    return [Step.scenario_id, Step.id, Step.position, Step.kind, Step.value,
+            Step.credited, Step.description, Step.ipl_type, Step.system_tag,
+            Step.response_time_minutes, Step.sil_claimed, Step.typical_key,
+            Step.acts_after_sif, Step.modifier_kind, Step.receptors,
+            Step.cause_type, Step.final_element_tag, Step.alarm_on_bpcs,
+            Step.crew, Step.per_opportunity_probability,
+            Step.opportunities_per_year, Step.time_available_minutes,
+            Step.time_to_detect_and_act_minutes]
+
+
+def step_figures_of_study(study_id: int) -> Any:
+    """The columns of a study's steps that the arithmetic reads, as plain rows."""
+    return select_columns(*_step_figure_columns()).where(col(Step.study_id) == study_id)
+
+
+def step_figures_of_scenario_ids(scenario_ids: list[int]) -> Any:
+    """step_figures_of_study for a few scenarios of any study (through the scenario_id index)."""
+    return select_columns(*_step_figure_columns()).where(col(Step.scenario_id).in_(scenario_ids))
 
 
 def scenario_ratings_of_study(study_id: int) -> Any:
@@ -93,6 +108,17 @@ def scenario_ratings_of_study(study_id: int) -> Any:
     return (select_columns(*columns)
             .join(Deviation, col(Deviation.id) == col(Scenario.deviation_id))
             .where(col(Scenario.study_id) == study_id))
+
+
+def scenario_ratings_of_scenarios(scenario_ids: list[int]) -> Any:
+    """scenario_ratings_of_study for a few scenarios, with each one's study."""
+    columns: list[Any] = [Scenario.id, Scenario.study_id, Scenario.deviation_id, Deviation.node_id,
+                          Scenario.severity_category_id, Scenario.environment_category_id,
+                          Scenario.asset_category_id,
+                          Scenario.people_not_rated]  # Any: ORM attributes as columns
+    return (select_columns(*columns)
+            .join(Deviation, col(Deviation.id) == col(Scenario.deviation_id))
+            .where(col(Scenario.id).in_(scenario_ids)))
 
 
 def category_targets_of_study(study_id: int) -> Any:
@@ -168,6 +194,27 @@ def recommendations_of_node(node_id: int) -> Any:
             .where(Deviation.node_id == node_id)
             .order_by(col(RecommendationScenario.scenario_id), col(Recommendation.position),
                       col(Recommendation.id)))
+
+
+def fetch_recommendations_of_scenario(session: Session, scenario_id: int
+                                      ) -> tuple[Recommendation, ...]:
+    """The actions linked to one scenario, in the actions' order."""
+    return tuple(session.exec(
+        select(Recommendation)
+        .join(RecommendationScenario,
+              col(Recommendation.id) == col(RecommendationScenario.recommendation_id))
+        .where(RecommendationScenario.scenario_id == scenario_id)
+        .order_by(col(Recommendation.position), col(Recommendation.id))).all())
+
+
+def ordinal_of(session: Session, model: type[Any], parent_field: str, parent_id: int,
+               row_id: int) -> int:
+    """The row's place (from 1) among its siblings in display order (0 when not among them)."""
+    table: Any = model
+    ids = list(session.connection().execute(_in_display_order(
+        select_columns(table.id).where(getattr(table, parent_field) == parent_id),
+        model)).scalars())
+    return ids.index(row_id) + 1 if row_id in ids else 0
 
 
 def fetch_recommendations_of_node(session: Session,

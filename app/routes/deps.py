@@ -69,7 +69,7 @@ def read_page_edit(form: Mapping[str, Any]) -> PageEdit:
 
 def _number(value: Any) -> int | None:  # Any: one raw form value
     text = str(value if value is not None else "").strip()
-    return int(text) if text.isdigit() and len(text) < 12 else None
+    return int(text) if text.isascii() and text.isdigit() and len(text) < 12 else None
 
 
 def read_seen(form: Mapping[str, Any]) -> dict[str, str]:

@@ -13,6 +13,7 @@ from app.services.exchange.study_import import duplicate_study as copy_whole_stu
 from app.services.study import lifecycle
 from app.services.study import listing as study_service
 from app.services.study.conflicts import ConflictError
+from app.services.study.overview import read_study_overview
 
 router = APIRouter()
 FORM_PAGE = "study/form.html"
@@ -57,7 +58,7 @@ async def create_study(request: Request, session: SessionDep) -> Response:
 @router.get("/studies/{study_id}", name="read_study")
 def read_study(request: Request, study_id: int, session: SessionDep) -> Response:
     """One study: its nodes and every scenario's frequency, target and gap."""
-    overview = study_service.read_study_overview(session=session, study_id=study_id)
+    overview = read_study_overview(session=session, study_id=study_id)
     return render(request, "study/detail.html", {"page": overview})
 
 

@@ -12,6 +12,7 @@ from typing import Any
 from sqlalchemy import select as select_columns
 from sqlmodel import Session, col
 
+from app.db.ids import read_row_id
 from app.db.models import (
     Deviation,
     Node,
@@ -68,17 +69,17 @@ class StudyPlaces:
 
     def category_name(self, text: str) -> str:
         """A severity category's name from its stored id."""
-        found = self.names.get(("severity category", int(text)), "") if text.isdigit() else ""
+        found = self.names.get(("severity category", read_row_id(text) or 0), "")
         return found.removeprefix("Severity category ") or "a category no longer in the study"
 
     def node_name(self, text: str) -> str:
         """A node's name from its stored id."""
-        return (self.names.get(("node", int(text)), "") if text.isdigit() else "") or (
+        return self.names.get(("node", read_row_id(text) or 0), "") or (
             "a node no longer in the study")
 
     def deviation_name(self, text: str) -> str:
         """A deviation's name from its stored id."""
-        return (self.names.get(("deviation", int(text)), "") if text.isdigit() else "") or (
+        return self.names.get(("deviation", read_row_id(text) or 0), "") or (
             "a deviation no longer in the study")
 
 

@@ -11,6 +11,7 @@ import re
 from dataclasses import dataclass
 from typing import Any
 
+from app.db.ids import read_row_id
 from app.db.models import ChangeLogEntry
 from app.likelihood.numbers import format_number
 from app.likelihood.types import StepKind
@@ -103,7 +104,7 @@ def value_words(field: str, text: str | None, places: StudyPlaces) -> str:
     if field == "deviation_id":
         return places.deviation_name(text)
     if field == "scenario_id":
-        return places.scenario_name(int(text)) if text.isdigit() else text
+        return places.scenario_name(found) if (found := read_row_id(text)) else text
     if field == "proof_test":
         return proof_test_summary(text)
     if field == "kind" and text in StepKind._value2member_map_:

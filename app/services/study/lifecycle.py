@@ -12,6 +12,7 @@ from typing import Any
 from sqlmodel import Session, func, select
 
 from app.db.compare_and_set import SaveOutcome
+from app.db.ids import read_row_id
 from app.db.models import (
     Node,
     Participant,
@@ -129,7 +130,7 @@ def _heading_values(form: StudyForm) -> dict[str, str]:
 def _criteria_source(session: Session, text: str) -> Study | None:
     if text == EMPTY_CRITERIA:
         return None
-    source = session.get(Study, int(text)) if text.isdigit() else None
+    source = session.get(Study, found) if (found := read_row_id(text)) else None
     if source is None:
         raise StudyFormError({"criteria_from": "choose empty criteria or a study from the list."})
     return source

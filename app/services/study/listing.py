@@ -2,6 +2,7 @@
 
 from collections.abc import Sequence
 from dataclasses import dataclass
+from typing import TYPE_CHECKING
 
 from sqlalchemy import delete
 from sqlmodel import Session
@@ -11,12 +12,13 @@ from app.db.queries import fetch_studies_with_counts
 from app.likelihood.completeness import left_out_words
 from app.likelihood.types import ScenarioResult
 from app.services.study.results import Assessment
+
+if TYPE_CHECKING:  # the overview's own module imports this one
+    from app.services.study.overview import StudyOverview
 from app.services.study.tree import (
     NodeBranch,
     NotFoundError,
     ScenarioBranch,
-    StudyTree,
-    load_study_tree,
 )
 
 
@@ -47,15 +49,6 @@ class NodeTotals:
     def left_out(self) -> str:
         """What these totals say about the incomplete scenarios they leave out ('' if none)."""
         return left_out_words(self.incomplete_count)
-
-
-@dataclass(frozen=True)
-class StudyOverview:
-    """Display-ready data for the study page."""
-
-    tree: StudyTree
-    node_totals: dict[int, NodeTotals]
-    study_totals: NodeTotals
 
 
 def list_studies(*, session: Session) -> list[StudyListing]:
@@ -94,12 +87,6 @@ def node_totals(nodes: list[NodeBranch]) -> dict[int, NodeTotals]:
     return {n.node.id: totals_of(n.scenario_branches()) for n in nodes if n.node.id is not None}
 
 
-def read_study_overview(*, session: Session, study_id: int) -> StudyOverview:
-    """The study with every scenario computed and totals per node and for the study."""
-    tree = load_study_tree(session, study_id)
-    return StudyOverview(tree, node_totals(tree.nodes), totals_of(tree.scenario_branches()))
-
-
 def delete_study(*, session: Session, study_id: int) -> StudyListing:
     """Delete a study and everything it holds, in one transaction; returns what was deleted.
 
@@ -115,3 +102,10 @@ def delete_study(*, session: Session, study_id: int) -> StudyListing:
     session.execute(delete(Study).where(Study.id == study_id))  # type: ignore[arg-type]
     session.commit()
     return listing
+
+
+def read_study_overview(*, session: Session, study_id: int) -> "StudyOverview":
+    """The study page's data (services/study/overview.py), read from the stored results."""
+    # Imported here: the overview builds on NodeTotals above, through the stored results.
+    from app.services.study.overview import read_study_overview as read_overview
+    return read_overview(session=session, study_id=study_id)

@@ -18,7 +18,12 @@ from app.db.models import (
     Step,
     Study,
 )
-from app.db.queries import fetch_rows_of_node, fetch_rows_of_study
+from app.db.queries import (
+    fetch_rows_of_node,
+    fetch_rows_of_scenario,
+    fetch_rows_of_study,
+    ordinal_of,
+)
 from app.services.study.results import (
     ScenarioOutcome,
     compute_outcome,
@@ -152,6 +157,41 @@ def load_node_tree(session: Session, study_id: int, node_id: int) -> NodeTree:
     rows = _content_rows(lambda model: fetch_rows_of_node(session, model, node_id))
     inputs = load_error_factor_inputs(session, study)
     return NodeTree(study, categories, _assemble([node], rows, categories, inputs)[0])
+
+
+@dataclass(frozen=True)
+class PlacedScenario:
+    """One scenario computed, with its node and its worksheet number ("3.2.5")."""
+
+    branch: ScenarioBranch
+    node: Node
+    number: str
+
+
+def load_scenario_branch(session: Session, study_id: int, scenario_id: int) -> PlacedScenario:
+    """One scenario's rows and outcome, numbered in its node; no other scenario is loaded."""
+    scenario = session.get(Scenario, scenario_id)
+    if scenario is None or scenario.study_id != study_id:
+        raise NotFoundError(f"There is no scenario {scenario_id} in study {study_id}.")
+    deviation = session.get(Deviation, scenario.deviation_id)
+    node = session.get(Node, deviation.node_id) if deviation is not None else None
+    if deviation is None or node is None:
+        raise NotFoundError(f"There is no scenario {scenario_id} in study {study_id}.")
+    by_id = {c.id: c for c in fetch_rows_of_study(session, SeverityCategory, study_id)
+             if c.id is not None}
+    steps = _group(fetch_rows_of_scenario(session, Step, scenario_id), "scenario_id")[scenario_id]
+    safeguards = _group(fetch_rows_of_scenario(session, Safeguard, scenario_id),
+                        "scenario_id")[scenario_id]
+    number = ".".join((node.number or str(node.id),
+                       str(ordinal_of(session, Deviation, "node_id", node.id or 0,
+                                      deviation.id or 0)),
+                       str(ordinal_of(session, Scenario, "deviation_id", deviation.id or 0,
+                                      scenario_id))))
+    outcome = compute_outcome(scenario, steps, by_id)
+    inputs = load_error_factor_inputs(session, get_study(session, study_id))
+    branch = ScenarioBranch(scenario, steps, safeguards, outcome,
+                            partial(_spread_of, scenario, steps, by_id, inputs, outcome))
+    return PlacedScenario(branch, node, number)
 
 
 def _content_rows(fetch: Callable[[type[Any]], list[Any]]) -> _ContentRows:

@@ -35,7 +35,7 @@ from app.services.study.conflicts import (
     remember_written,
 )
 from app.services.study.listing import NodeTotals
-from app.services.study.totals import study_totals
+from app.services.study.stored_results import stored_totals
 from app.services.study.tree import NotFoundError
 from app.services.study.word_scale import basis_with_word, read_step_text
 from app.services.worksheet.page import ScenarioView, located_scenario, plain_value
@@ -298,9 +298,9 @@ def _reply(session: Session, kind_name: str, row: Any, fid: str, *, said: str = 
         scenario, node = located_scenario(session=session, study_id=study_id,
                                           scenario_id=scenario_id, fallback=fallback)
         node_id = node.id or 0
-    totals = study_totals(session, study_id)
-    return FieldReply(fid, said, error, node_id, scenario, totals.of_node(node_id),
-                      totals.study, study_id=study_id,
+    node_totals, study_totals = stored_totals(session, study_id, node_id)
+    return FieldReply(fid, said, error, node_id, scenario, node_totals,
+                      study_totals, study_id=study_id,
                       row_key=f"{FIELD_PREFIX[kind_name]}-{row.id}",
                       field=fid.split("-", 2)[2], conflict=conflict, version=version,
                       page_version=page_version, saved_text=saved_text)

@@ -5,11 +5,13 @@ from dataclasses import dataclass
 
 from sqlmodel import Session
 
+from app.db.ids import read_row_id
 from app.db.models import Deviation, Node, Recommendation, SeverityCategory, Step, Study
 from app.db.queries import (
     fetch_first_node_id,
     fetch_node_links,
     fetch_recommendations_of_node,
+    fetch_recommendations_of_scenario,
     fetch_rows_of_study,
 )
 from app.likelihood.checks import CheckWarning
@@ -17,7 +19,7 @@ from app.likelihood.numbers import format_number
 from app.likelihood.types import LikelihoodInputError, StepKind
 from app.services.risk.ipl_checks import scenario_warnings
 from app.services.study.listing import NodeTotals
-from app.services.study.totals import study_totals
+from app.services.study.stored_results import stored_totals
 from app.services.study.tree import (
     DeviationBranch,
     NodeBranch,
@@ -25,6 +27,7 @@ from app.services.study.tree import (
     ScenarioBranch,
     get_study,
     load_node_tree,
+    load_scenario_branch,
 )
 from app.services.worksheet.ladder import LadderBand, LadderView, build_ladder, ladder_band
 from app.services.worksheet.sheet_rows import (
@@ -255,11 +258,11 @@ def build_worksheet_page(*, session: Session, study_id: int, node_id: int,
         recommendations = recommendations_by_scenario(session, node_id)
         deviations = tuple(_deviation_view(d, f"{_number(node)}.{i}", recommendations)
                            for i, d in enumerate(tree.node.deviations, start=1))
-    totals = study_totals(session, study_id)
+    node_totals, study_totals = stored_totals(session, study_id, node_id)
     return WorksheetPage(
         study=study, node=node, nodes=node_links(session, study_id),
         categories=tuple(categories), deviations=deviations,
-        node_totals=totals.of_node(node_id), study_totals=totals.study,
+        node_totals=node_totals, study_totals=study_totals,
         undo=undo_state(session=session, study_id=study_id, author=author),
         node_delete_question=question, paged=is_paged(outline),
     )
@@ -314,7 +317,7 @@ def node_links(session: Session, study_id: int) -> tuple[NodeLink, ...]:
 def picked_node_id(*, session: Session, study_id: int, picked: str) -> int | None:
     """The node chosen in the node picker when it belongs to the study, else the first node."""
     ids = [link.id for link in node_links(session, study_id)] if picked else []
-    chosen = int(picked) if picked.isdigit() else None
+    chosen = read_row_id(picked)
     return chosen if chosen in ids else first_node_id(session=session, study_id=study_id)
 
 
@@ -326,22 +329,10 @@ def first_node_id(*, session: Session, study_id: int) -> int | None:
 
 def located_scenario(*, session: Session, study_id: int, scenario_id: int,
                      fallback: str = "") -> tuple[ScenarioView, Node]:
-    """One scenario recomputed and numbered within its node; only that node is loaded."""
-    scenario = get_row(session, kind_of("scenario"), study_id, scenario_id)
-    node_id = node_id_of(session, "scenario", scenario)
-    branch = load_node_tree(session, study_id, node_id).node
-    item, number = _locate(branch, scenario_id)
-    links = recommendations_by_scenario(session, node_id).get(scenario_id, ())
-    return scenario_view(item, number, links, fallback), branch.node
-
-
-def _locate(branch: NodeBranch, scenario_id: int) -> tuple[ScenarioBranch, str]:
-    node_number = branch.node.number or str(branch.node.id)
-    for d_index, deviation_branch in enumerate(branch.deviations, start=1):
-        for s_index, item in enumerate(deviation_branch.scenarios, start=1):
-            if item.scenario.id == scenario_id:
-                return item, f"{node_number}.{d_index}.{s_index}"
-    raise NotFoundError(f"There is no scenario {scenario_id} in node {branch.node.id}.")
+    """One scenario recomputed and numbered within its node; no other scenario is loaded."""
+    placed = load_scenario_branch(session, study_id, scenario_id)
+    links = fetch_recommendations_of_scenario(session, scenario_id)
+    return scenario_view(placed.branch, placed.number, links, fallback), placed.node
 
 
 def opened_scenario(*, session: Session, study_id: int,

@@ -36,7 +36,7 @@ def _pfd(page: str) -> float:
 
 
 def _field_error(page: str, field: str) -> str:
-    found = re.search(rf'id="pt-{field}-error" role="alert">([^<]*)<', page)
+    found = re.search(rf'id="pt-{field}-error">([^<]*)<', page)
     return unescape(found[1]) if found else ""
 
 

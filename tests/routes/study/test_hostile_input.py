@@ -51,7 +51,7 @@ def test_a_write_with_an_impossible_id_is_refused_with_the_rule(
     ("/studies/{study}/attendance/marks", {"present": f"{2**63}:1"}),
     ("/studies", {"title": "T", "revision_label": "A", "criteria_from": "\u00b2"}),
     ("/studies", {"title": "T", "revision_label": "A", "criteria_from": "9" * 5000}),
-    ("/studies/{study}/heading", {"title": "T", "revision_label": "A", "version": "\u00b2"}),
+    ("/studies/{study}/edit", {"title": "T", "revision_label": "A", "version": "\u00b2"}),
 ])
 def test_impossible_ids_in_forms_never_reach_the_database(
     client: TestClient, scenario: Scenario, url: str, data: dict[str, str]

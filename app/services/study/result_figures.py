@@ -1,0 +1,166 @@
+"""One scenario's results as a stored row, and the stored row read back as results.
+
+`scenario_columns` computes a scenario through the results core (`results.outcome_of`, the
+same cached arithmetic and governing-receptor rule as the worksheet) and lays the result out
+as the columns of `scenario_result`: the scalars that counts and ranking read, and `figures`,
+JSON of the governing result and every receptor line, as credited and with flagged credits
+withdrawn. `StoredFigures.read` turns that JSON back into the core's own result types, so a
+page drawn from stored rows uses the same templates as one drawn from a fresh computation.
+
+A later field (an uncertainty band, say) goes under `extra` in the JSON, or a new column when
+a sum or a ranking needs it, and RESULTS_VERSION (stored_results.py) is raised.
+"""
+
+import json
+from collections.abc import Mapping
+from dataclasses import asdict, dataclass
+from typing import Any
+
+from app.likelihood.demand import SifDemand
+from app.likelihood.receptors import ReceptorLine
+from app.likelihood.types import DemandMode, Receptor, ScenarioResult, SilStatus, SilTarget
+from app.services.study.completeness import is_incomplete
+from app.services.study.results import (
+    Assessment,
+    Figures,
+    assessment_of_rows,
+    outcome_of,
+    receptor_categories,
+)
+
+# Any in this module: plain rows from SQLAlchemy carry no column types, and the JSON is untyped.
+
+
+def _sil_target(data: Mapping[str, Any]) -> SilTarget:
+    return SilTarget(**{**data, "status": SilStatus(data["status"]),
+                        "demand_mode": DemandMode(data["demand_mode"])})
+
+
+def _demand(data: Mapping[str, Any]) -> SifDemand:
+    return SifDemand(**{**data, "demand_mode": DemandMode(data["demand_mode"]),
+                        "sil_target": _sil_target(data["sil_target"])})
+
+
+def _result_data(result: ScenarioResult) -> dict[str, Any]:
+    data = asdict(result)
+    del data["ladder"]  # the worksheet draws the ladder from the live computation
+    return data
+
+
+def _result(data: Mapping[str, Any]) -> ScenarioResult:
+    demand = data.get("demand")
+    return ScenarioResult(**{**data, "ladder": (), "sil_target": _sil_target(data["sil_target"]),
+                             "demand": _demand(demand) if demand else None})
+
+
+def _line(data: Mapping[str, Any]) -> ReceptorLine:
+    return ReceptorLine(**{**data, "receptor": Receptor(data["receptor"]),
+                           "demand": _demand(data["demand"])})
+
+
+@dataclass(frozen=True)
+class StoredLine:
+    """One receptor line of a stored scenario, with the category it is judged against."""
+
+    line: ReceptorLine
+    category_id: int
+
+
+@dataclass(frozen=True)
+class StoredFigures:
+    """One way of crediting a stored scenario: the governing result and every receptor line."""
+
+    result: ScenarioResult
+    governing: Receptor
+    category_id: int
+    lines: tuple[StoredLine, ...]
+
+    @classmethod
+    def read(cls, data: Mapping[str, Any]) -> "StoredFigures":
+        """The figures from their JSON form."""
+        return cls(_result(data["result"]), Receptor(data["governing"]),
+                   int(data["category_id"]),
+                   tuple(StoredLine(_line(line), int(line_category))
+                         for line, line_category in zip(data["lines"], data["line_categories"],
+                                                        strict=True)))
+
+
+def _figures_data(figures: Figures, rated: Mapping[Receptor, Any]) -> dict[str, Any]:
+    lines = figures.receptors.lines
+    return {"result": _result_data(figures.result), "governing": figures.governing.receptor,
+            "category_id": rated[figures.governing.receptor].id,
+            "lines": [asdict(line) for line in lines],
+            "line_categories": [rated[line.receptor].id for line in lines]}
+
+
+def figures_json(assessment: Assessment, rated: Mapping[Receptor, Any]) -> str:
+    """The stored `figures` column: as credited, withdrawn (or null), and `extra` for later."""
+    withdrawn = assessment.withdrawn
+    return json.dumps({
+        "credited": _figures_data(assessment.as_credited, rated),
+        "withdrawn": _figures_data(withdrawn, rated) if withdrawn is not None else None,
+        "withdrawn_labels": list(assessment.withdrawn_labels),
+        "extra": {},
+    }, separators=(",", ":"))
+
+
+def scenario_columns(rating: Any, steps: tuple[Any, ...], categories: Mapping[int, Any]
+                     ) -> dict[str, Any]:
+    """One scenario computed from plain rows, as the columns of its stored row."""
+    people_not_rated = bool(rating.people_not_rated)
+    assessment, category, error = outcome_of(rating, steps, categories,
+                                             people_not_rated=people_not_rated,
+                                             assessed=assessment_of_rows)
+    if assessment is None or category is None:
+        return {**NOT_COMPUTED, "incomplete": is_incomplete(rating, steps), "error": error}
+    rated = receptor_categories(rating, categories, people_not_rated=people_not_rated)
+    result = assessment.as_credited.result
+    withdrawn = assessment.withdrawn.result if assessment.withdrawn else None
+    return {"computed": True, "incomplete": False, "short": not result.meets_target,
+            "flagged": withdrawn is not None,
+            "short_withdrawn": not (withdrawn or result).meets_target, "category_id": category.id,
+            "gap_orders": result.gap_orders,
+            "receptor": str(assessment.as_credited.governing.receptor),
+            "mitigated_frequency": result.mitigated_frequency,
+            "tolerable_frequency": result.tolerable_frequency, "ratio": result.ratio,
+            "sil_label": result.sil_target.label,
+            "demand_mode": str(result.sil_target.demand_mode),
+            "withdrawn_mitigated_frequency": withdrawn.mitigated_frequency if withdrawn else None,
+            "withdrawn_ratio": withdrawn.ratio if withdrawn else None, "error": "",
+            "figures": figures_json(assessment, rated)}
+
+
+NOT_COMPUTED: dict[str, Any] = {
+    "computed": False, "incomplete": False, "short": False, "flagged": False,
+    "short_withdrawn": False,
+    "category_id": None, "gap_orders": None, "receptor": "", "mitigated_frequency": None,
+    "tolerable_frequency": None, "ratio": None, "sil_label": "", "demand_mode": "",
+    "withdrawn_mitigated_frequency": None, "withdrawn_ratio": None, "figures": "{}"}
+
+
+@dataclass(frozen=True)
+class StoredResult:
+    """A scenario's stored row, read back: figures as credited and withdrawn, or the error."""
+
+    scenario_id: int
+    node_id: int
+    credited: StoredFigures | None
+    withdrawn: StoredFigures | None
+    withdrawn_labels: tuple[str, ...]
+    error: str
+
+    @classmethod
+    def of_row(cls, row: Any) -> "StoredResult":
+        """Read one scenario_result row."""
+        data = json.loads(row.figures) if row.computed else {}
+        withdrawn = data.get("withdrawn")
+        return cls(int(row.scenario_id), int(row.node_id),
+                   StoredFigures.read(data["credited"]) if data else None,
+                   StoredFigures.read(withdrawn) if withdrawn else None,
+                   tuple(data.get("withdrawn_labels", ())), str(row.error))
+
+    def figures(self, *, withdrawn: bool) -> StoredFigures | None:
+        """As credited, or with flagged credits withdrawn where a check flags one."""
+        if withdrawn and self.withdrawn is not None:
+            return self.withdrawn
+        return self.credited
