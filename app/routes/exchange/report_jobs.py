@@ -9,6 +9,7 @@ from app.routes.deps import SessionDep
 from app.routes.rendering import is_htmx, render, templates
 from app.services.exchange import report_jobs
 from app.services.exchange.exports import report_filename
+from app.services.exchange.report_summary import ReportKind
 from app.services.study.tree import NotFoundError, get_study
 
 router = APIRouter(prefix="/studies/{study_id}")
@@ -25,12 +26,15 @@ def _job_or_404(study_id: int, job_id: str) -> report_jobs.ReportJob:
 def start_report_job(
     request: Request, study_id: int, session: SessionDep,
     revision_id: Annotated[int | None, Form()] = None,
+    kind: Annotated[ReportKind, Form()] = ReportKind.FULL,
 ) -> Response:
-    """Start the report (of the working copy, or of a frozen revision) and show its progress."""
-    filename = report_filename(session=session, study_id=study_id, revision_id=revision_id)
+    """Start the report, full or summary (of the working copy, or of a frozen revision), and
+    show its progress."""
+    filename = report_filename(session=session, study_id=study_id, revision_id=revision_id,
+                               kind=kind)
     job = report_jobs.start_report_job(engine=session.get_bind(), env=templates.env,  # type: ignore[arg-type]
                                        study_id=study_id, revision_id=revision_id,
-                                       filename=filename)
+                                       filename=filename, kind=kind)
     if not is_htmx(request):
         return RedirectResponse(request.url_for("read_report_job", study_id=study_id,
                                                 job_key=job.job_id), status_code=303)

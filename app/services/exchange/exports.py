@@ -29,6 +29,7 @@ from app.services.exchange.report_source import (
     live_report_html,
     working_copy_label,
 )
+from app.services.exchange.report_summary import SUMMARY_ROWS, ReportKind
 from app.services.exchange.study_file import export_study
 from app.services.study.tree import NotFoundError, get_study, load_study_tree
 
@@ -71,7 +72,9 @@ FORMATS = (
     FormatInfo(ExportFormat.PDF, "Report (.pdf)", "application/pdf",
                "A printable report: cover, scope and criteria, attendance, every scenario's steps "
                "with basis and warnings, ladders, the risk picture, the actions, the added "
-               "functions and the warnings by rule. Made in the background."),
+               "functions and the warnings by rule. Made in the background. The summary beside "
+               "it stays a few pages at any size: criteria, risk picture, added functions, "
+               f"actions and the {SUMMARY_ROWS} scenarios furthest short of target."),
 )  # fmt: skip
 FORMAT_INFO = {info.format: info for info in FORMATS}
 
@@ -108,15 +111,17 @@ def export_filename(study: Study, export_format: ExportFormat) -> str:
     return f"tallyroom-{study.id}{'-' + slug if slug else ''}.{export_format}"
 
 
-def report_filename(*, session: Session, study_id: int, revision_id: int | None) -> str:
-    """The report's file name; a revision's carries its label ('…-rev-a.pdf')."""
-    name = export_filename(get_study(session, study_id), ExportFormat.PDF)
-    if revision_id is None:
-        return name
-    label = get_frozen_revision(session, study_id, revision_id).label
-    slug = re.sub(r"[^a-z0-9]+", "-", unicodedata.normalize("NFKD", label).encode(
-        "ascii", "ignore").decode().lower()).strip("-")
-    return name.removesuffix(".pdf") + (f"-{slug}" if slug else "-revision") + ".pdf"
+def report_filename(*, session: Session, study_id: int, revision_id: int | None,
+                    kind: ReportKind = ReportKind.FULL) -> str:
+    """The report's file name; a revision's carries its label ('…-rev-a.pdf'), a summary
+    says so ('…-summary.pdf', '…-rev-a-summary.pdf')."""
+    stem = export_filename(get_study(session, study_id), ExportFormat.PDF).removesuffix(".pdf")
+    if revision_id is not None:
+        label = get_frozen_revision(session, study_id, revision_id).label
+        slug = re.sub(r"[^a-z0-9]+", "-", unicodedata.normalize("NFKD", label).encode(
+            "ascii", "ignore").decode().lower()).strip("-")
+        stem += f"-{slug}" if slug else "-revision"
+    return stem + ("-summary" if kind is ReportKind.SUMMARY else "") + ".pdf"
 
 
 def study_json_bytes(data: dict[str, Any]) -> bytes:

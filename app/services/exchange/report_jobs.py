@@ -22,6 +22,7 @@ from sqlmodel import Session
 
 from app.services.exchange.report import html_to_pdf
 from app.services.exchange.report_source import live_report_html, revision_report_html
+from app.services.exchange.report_summary import ReportKind
 
 JOBS_KEPT = 20
 
@@ -48,6 +49,7 @@ class ReportJob:
     filename: str
     content: bytes = b""
     error: str = ""
+    kind: ReportKind = ReportKind.FULL
 
     @property
     def done(self) -> bool:
@@ -90,10 +92,11 @@ def _run(job: ReportJob, engine: Engine, env: Environment) -> None:
         with Session(engine) as session:
             if job.revision_id is None:
                 html = live_report_html(session, job.study_id, env=env, when=job.started_at,
-                                        progress=progress)
+                                        progress=progress, kind=job.kind)
             else:
                 html = revision_report_html(session, job.study_id, job.revision_id, env=env,
-                                            when=job.started_at, progress=progress)
+                                            when=job.started_at, progress=progress,
+                                            kind=job.kind)
         progress(50, "laying out the pages")
         content = _layout_pool().submit(html_to_pdf, html).result()
         _update(job.job_id, state=JobState.READY, percent=100, step="ready", content=content)
@@ -104,11 +107,12 @@ def _run(job: ReportJob, engine: Engine, env: Environment) -> None:
 
 def start_report_job(*, engine: Engine, env: Environment, study_id: int,
                      revision_id: int | None, filename: str,
+                     kind: ReportKind = ReportKind.FULL,
                      runner: Callable[[ReportJob, Engine, Environment], None] = _run
                      ) -> ReportJob:
-    """Start making a report in the background and return the job to poll."""
+    """Start making a report (full or summary) in the background and return the job to poll."""
     job = ReportJob(uuid.uuid4().hex, study_id, revision_id, JobState.RUNNING, 0, "queued",
-                    datetime.now(UTC).replace(microsecond=0), filename)
+                    datetime.now(UTC).replace(microsecond=0), filename, kind=kind)
     with _lock:
         _jobs[job.job_id] = job
         while len(_jobs) > JOBS_KEPT:

@@ -103,9 +103,9 @@ def test_the_frozen_view_shows_the_live_numbers_at_freeze_time_and_no_edit_contr
     assert _numbers_by_row(frozen, "frozen-scenarios") == _numbers_by_row(live, "scenario-table")
     assert len(_numbers_by_row(frozen, "frozen-scenarios")) >= 15
     assert "signed off by Ilse Marrow-Quaye" in frozen and "Frozen " in frozen
-    # The one form makes the revision's report; nothing on the page edits it.
+    # The two forms make the revision's report and its summary; nothing on the page edits it.
     forms = re.findall(r'<form[^>]*action="([^"]+)"', frozen.split('<main id="main">')[1])
-    assert forms == [f"http://testserver/studies/{demo_study.id}/report-jobs"]
+    assert forms == [f"http://testserver/studies/{demo_study.id}/report-jobs"] * 2
     assert re.findall(r'hx-post="([^"]+)"', frozen) == forms
 
 
