@@ -170,6 +170,15 @@ def scenario_table(tree: StudyTree) -> Table:
     return Table("Scenarios", SCENARIO_COLUMNS, rows)
 
 
+def computed_figures(tree: StudyTree) -> list[dict[str, Cell]]:
+    """The scenario table's rows as the JSON study file carries them: exact values (the CSV
+    rounds them as the screen shows them), keyed by the CSV's headers and the file ref."""
+    refs = {number: ref for ref, number in file_ref_numbers(tree).items()}
+    headers = [column.header for column in SCENARIO_COLUMNS]
+    return [{"ref": refs.get(str(row[0]), ""), **dict(zip(headers, row, strict=True))}
+            for row in scenario_table(tree).rows]
+
+
 def _scenario_row(
     ref: str, node_branch: NodeBranch, deviation_branch: DeviationBranch, item: ScenarioBranch
 ) -> list[Cell]:

@@ -21,7 +21,12 @@ from app.db.models import Study
 from app.services.exchange.export_audit_tables import audit_tables
 from app.services.exchange.export_csv import table_csv
 from app.services.exchange.export_rounds import round_tables
-from app.services.exchange.export_tables import all_tables, file_ref_numbers, scenario_table
+from app.services.exchange.export_tables import (
+    all_tables,
+    computed_figures,
+    file_ref_numbers,
+    scenario_table,
+)
 from app.services.exchange.export_xlsx import workbook_bytes
 from app.services.exchange.report import html_to_pdf
 from app.services.exchange.report_source import (
@@ -140,7 +145,9 @@ def build_export(
     # Each format loads only what it writes: the file needs no computed tree, the CSV no history.
     cautions: str = env.globals["cautions"]  # type: ignore[assignment]
     if export_format is ExportFormat.JSON:
-        data = {**export_study(session, study_id), "cautions": cautions}
+        figures = computed_figures(load_study_tree(session, study_id))
+        data = {**export_study(session, study_id), "cautions": cautions,
+                "computed_figures": figures}
         return ExportFile(name, info.media_type, study_json_bytes(data))
     now = datetime.now(UTC).replace(microsecond=0)
     if export_format is ExportFormat.PDF:

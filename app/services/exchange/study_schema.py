@@ -357,6 +357,11 @@ class StudyFile(StudySnapshot):
 
     change_log: list[ChangeLogRow] = []
     revisions: list[RevisionRow] = []
+    computed_figures: list[dict[str, float | int | str | None]] = Field(
+        default=[], description="each scenario's figures as Tallyroom computed them when the "
+        "file was written: the CSV's columns with exact values, keyed by the CSV's headers, "
+        "plus the scenario's file ref; for reading only, never imported (figures are "
+        "always recomputed from the inputs above)")
 
 
 def study_json_schema() -> dict[str, Any]:

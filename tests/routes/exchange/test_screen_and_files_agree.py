@@ -79,3 +79,45 @@ def test_an_rrf_above_a_thousand_has_a_thousands_separator() -> None:
     # By hand: 1.0e-2 /yr against 1.0e-5 /yr asks for a reduction of 1,000.
     assert format_rrf(1e-2 / 1e-5) == "1,000"
     assert format_rrf(12_345.6) == "12,346"
+
+
+def test_the_json_file_keeps_the_exact_figures_the_csv_rounds_and_imports_without_them(
+    client: TestClient, session: Session, demo_study: Study
+) -> None:
+    response = client.get(f"/studies/{demo_study.id}/export.json")
+    data = response.json()
+    rows, files = data["computed_figures"], _csv(client, demo_study)
+    assert {row["Scenario"] for row in rows} == set(files)
+    assert [row["ref"] for row in rows] == [f"S{i}" for i in range(1, len(rows) + 1)]
+    for row in rows:
+        shown = files[row["Scenario"]]
+        if row["Mitigated frequency (/yr)"] is None:
+            assert shown["Mitigated frequency (/yr)"] == ""
+            continue
+        # By hand: the product of the file's own inputs, and the CSV is the same value rounded.
+        steps = next(s for s in _file_scenarios(data) if s["ref"] == row["ref"])["steps"]
+        product = 1.0
+        for step in steps:
+            if step["kind"] != "ipl" or step.get("credited"):
+                product *= step["value"] if step["kind"] != "conditional_modifier" else 1.0
+        if not _has_modifiers(steps):
+            assert abs(row["Mitigated frequency (/yr)"] - product) <= 1e-12 * product
+        assert format_number(row["Mitigated frequency (/yr)"]) == shown[
+            "Mitigated frequency (/yr)"]
+        assert format_orders(row["Gap (orders of magnitude)"]) == shown[
+            "Gap (orders of magnitude)"]
+        if isinstance(row["Required RRF"], float):
+            assert format_rrf(row["Required RRF"]) == shown["Required RRF"]
+    # The file still imports: the figures are read, never stored; they are recomputed.
+    again = client.post("/studies/import", follow_redirects=False, files={
+        "study_file": ("s.json", response.content, "application/json")})
+    assert again.status_code == 303
+
+
+def _file_scenarios(data: dict[str, Any]) -> list[dict[str, Any]]:
+    return [scenario for node in data["nodes"] for deviation in node["deviations"]
+            for scenario in deviation["scenarios"]]
+
+
+def _has_modifiers(steps: list[dict[str, Any]]) -> bool:
+    return any(step["kind"] == "conditional_modifier" for step in steps)
