@@ -63,6 +63,7 @@ def _facilitator(browser: Browser, server: str, study_id: int) -> tuple[BrowserC
     page.get_by_label("facilitator (also rotates").check()
     page.get_by_role("button", name="Sign in").click()
     expect(page.locator("[data-value-field]").first).to_be_visible()
+    page.wait_for_load_state("load")  # the key handlers are attached once the scripts ran
     return context, page
 
 
