@@ -9,8 +9,10 @@ from sqlmodel import Session, select
 from app.cli import main
 from app.db.models import Study
 from app.routes.rendering import CAUTIONS
+from app.services.exchange.export_tables import computed_figures
 from app.services.exchange.exports import study_json_bytes
 from app.services.exchange.study_file import export_study
+from app.services.study.tree import load_study_tree
 from tests.factories import make_scenario_tree, make_study
 from tests.samples import free_the_title, study_count
 
@@ -41,7 +43,8 @@ def test_export_finds_a_study_by_its_exact_title_and_writes_the_study_file(
 ) -> None:
     out = tmp_path / "by-title.json"
     assert main(["export", study.title, "--format", "json", "--out", str(out)]) == 0
-    expected = {**export_study(session, study.id or 0), "cautions": CAUTIONS}
+    expected = {**export_study(session, study.id or 0), "cautions": CAUTIONS,
+                "computed_figures": computed_figures(load_study_tree(session, study.id or 0))}
     assert out.read_bytes() == study_json_bytes(expected)
 
 
