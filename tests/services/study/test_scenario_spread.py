@@ -10,7 +10,7 @@ import math
 import numpy as np
 import pytest
 from scipy import stats
-from sqlmodel import Session, select
+from sqlmodel import Session, col, select
 
 from app.db.models import Step, Study
 from app.likelihood.numbers import probability_text
@@ -30,7 +30,9 @@ TARGET = ((Receptor.PEOPLE, 1e-5),)
 
 
 def _steps(session: Session, scenario_id: int | None) -> list[Step]:
-    return list(session.exec(select(Step).where(Step.scenario_id == scenario_id)).all())
+    """The scenario's steps in creation order (PostgreSQL returns rows in any order)."""
+    found = select(Step).where(Step.scenario_id == scenario_id).order_by(col(Step.id))
+    return list(session.exec(found).all())
 
 
 def test_typed_error_factors_give_the_lognormal_scipy_gives(session: Session) -> None:
