@@ -1,9 +1,10 @@
 """A SIF as subsystems (sensors, logic solver, final elements), each with its own architecture.
 
-The function's PFDavg is the sum of its subsystems' (IEC 61508-6 Annex B approach; from
-memory). The SIL it supports is the lower of the SIL its PFDavg supports (IEC 61511-1:2016
+The function's PFDavg is the sum of its subsystems' (IEC 61508-6 Annex B approach;
+recalled). The SIL it supports is the lower of the SIL its PFDavg supports (IEC 61511-1:2016
 Table 4, low demand) and the SIL its hardware fault tolerance allows (IEC 61511-1:2016, 11.4,
-Table 6; from memory). Systematic capability is a separate requirement outside this calculation.
+Table 6; recalled, not checked against the standard). Systematic capability is a separate
+requirement outside this calculation.
 """
 
 from __future__ import annotations
@@ -59,7 +60,7 @@ HFT_BY_ARCHITECTURE: dict[Architecture, int] = {
 }
 """Hardware fault tolerance: how many channel failures a MooN arrangement survives (N - M)."""
 
-# IEC 61511-1:2016, 11.4, Table 6 (from memory): minimum HFT per SIL.
+# IEC 61511-1:2016, 11.4, Table 6 (recalled, not checked against the standard): minimum HFT per SIL.
 _MIN_HFT_LOW = {1: 0, 2: 0, 3: 1, 4: 2}
 _MIN_HFT_HIGH = {1: 0, 2: 1, 3: 1, 4: 2}
 

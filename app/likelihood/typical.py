@@ -29,7 +29,7 @@ class TypicalValue:
 
 
 CCPS_2001_TABLE_5_1 = "CCPS, Layer of Protection Analysis (2001), Table 5.1 (seen in a scan)"
-# Not seen in the source (REFERENCE.md "from memory"): rows using it carry the verify flag.
+# Not seen in the source (REFERENCE.md marks it as recalled): rows using it carry the verify flag.
 CCPS_2001_TABLE_5_1_MEMORY = "CCPS, Layer of Protection Analysis (2001), Table 5.1"
 CCPS_2001_CH6 = "CCPS, Layer of Protection Analysis (2001), ch. 6"
 IEC_61511_BANDS = (
