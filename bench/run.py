@@ -8,6 +8,9 @@ Environment:
   BENCH_EDITS           most value edits per size (default 100)
   BENCH_PDF             1 to also time the PDF report (studies up to 1,000 scenarios, capped)
   BENCH_OUT             where to write the JSON (default bench/results/latest.json)
+  BENCH_ONLY            comma-separated groups to measure after the import (default all):
+                        edits, pages, exports, freeze, pdf; e.g. BENCH_ONLY=edits while
+                        working on the edit path
 """
 
 import json
@@ -37,6 +40,7 @@ from bench.server import (
 from bench.targets import Row, as_json_rows, as_pivot, as_table, flatness, judge
 
 DEFAULT_SIZES = (1_000, 10_000, 50_000)
+GROUPS = ("edits", "pages", "exports", "freeze", "pdf")
 RESERVE_SECONDS = 20.0  # kept for stopping the server and writing the table
 
 
@@ -119,15 +123,21 @@ class SizeRun:
     def measure(self, server: Server, study_id: int, marks: Landmarks) -> None:
         """Every figure on a served study, the slow ones only while the budget allows."""
         client = BrowserClient(server.base_url)
+        chosen = chosen_groups()
         try:
             study = f"/studies/{study_id}"
-            self.measure_edits(client, study, marks)
-            self.measure_pages(client, study, marks)
+            if "edits" in chosen:
+                self.measure_edits(client, study, marks)
+            if "pages" in chosen:
+                self.measure_pages(client, study, marks)
             self.add("rss_warm_mb", server.rss_mb())
-            self.measure_exports(client, study)
-            self.add("rss_exports_mb", server.rss_mb())
-            self.measure_freeze(client, study)
-            self.measure_pdf(client, study, server)
+            if "exports" in chosen:
+                self.measure_exports(client, study)
+                self.add("rss_exports_mb", server.rss_mb())
+            if "freeze" in chosen:
+                self.measure_freeze(client, study)
+            if "pdf" in chosen:
+                self.measure_pdf(client, study, server)
         finally:
             client.close()
 
@@ -252,6 +262,15 @@ class SizeRun:
             self.add("rss_pdf_mb", server.rss_mb())
         except Exception as err:  # a timeout: say so in the table rather than stop the run
             self.add("pdf_s", None, f"not finished: {type(err).__name__}")
+
+
+def chosen_groups() -> set[str]:
+    """The measurement groups BENCH_ONLY names (every group when it is unset)."""
+    named = {g.strip() for g in os.environ.get("BENCH_ONLY", "").split(",") if g.strip()}
+    unknown = named - set(GROUPS)
+    if unknown:
+        raise SystemExit(f"BENCH_ONLY: unknown group(s) {sorted(unknown)}; known: {GROUPS}")
+    return named or set(GROUPS)
 
 
 def edit_headers(marks: Landmarks) -> dict[str, str]:
