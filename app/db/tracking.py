@@ -3,7 +3,7 @@
 from datetime import timedelta
 from typing import Any
 
-from sqlalchemy import delete, event, insert, inspect, select, update
+from sqlalchemy import bindparam, delete, event, insert, inspect, select, update
 from sqlalchemy.orm import Session as OrmSession
 from sqlalchemy.orm import UOWTransaction
 
@@ -157,31 +157,47 @@ def _edit_entries(session: OrmSession, row: Any) -> list[dict[str, Any]]:
     return entries
 
 
-def _coalesce(session: OrmSession, entry: dict[str, Any]) -> bool:
-    """Fold a keystroke-level edit into the same person's edit of that field a moment ago."""
-    table = ChangeLogEntry.__table__  # type: ignore[attr-defined]
-    latest = session.connection().execute(
-        select(table.c.id, table.c.author, table.c.at, table.c.field, table.c.action,
-               table.c.old_value)
-        # Only the window can fold, so the indexed time bound keeps this cheap on every keystroke.
-        .where(table.c.at >= entry["at"] - COALESCE_WINDOW,
-               table.c.entity == entry["entity"], table.c.entity_id == entry["entity_id"],
-               table.c.field == entry["field"])
-        .order_by(table.c.id.desc())
-        .limit(1)
-    ).first()
-    if latest is None or latest.action != "edit" or latest.author != entry["author"]:
-        return False
-    if latest.old_value == entry["new_value"]:
-        # Typed away and back (X -> Y -> X): the field ends where it began, so nothing changed.
-        session.connection().execute(delete(table).where(table.c.id == latest.id))
-        return True
-    session.connection().execute(
-        update(table)
-        .where(table.c.id == latest.id)
-        .values(new_value=entry["new_value"], at=entry["at"])
-    )
-    return True
+_LOG: Any = ChangeLogEntry.__table__  # type: ignore[attr-defined]
+# Built once: every keystroke runs them. The newest entries of one row's fields within the
+# window (the indexed time bound keeps this cheap), newest first.
+_RECENT_OF_ROW = (
+    select(_LOG.c.id, _LOG.c.author, _LOG.c.field, _LOG.c.action, _LOG.c.old_value)
+    .where(_LOG.c.at >= bindparam("since"), _LOG.c.entity == bindparam("entity"),
+           _LOG.c.entity_id == bindparam("entity_id"),
+           _LOG.c.field.in_(bindparam("fields", expanding=True)))
+    .order_by(_LOG.c.id.desc()))
+_FOLD = (update(_LOG).where(_LOG.c.id == bindparam("entry_id"))
+         .values(new_value=bindparam("folded_value"), at=bindparam("folded_at")))
+_UNDO_FOLD = delete(_LOG).where(_LOG.c.id.in_(bindparam("entry_ids", expanding=True)))
+
+
+def _coalesce(session: OrmSession, entries: list[dict[str, Any]]) -> list[dict[str, Any]]:
+    """Fold keystroke-level edits of one row into the same person's edit of each field a
+    moment ago; the entries left are new. One SELECT reads every field's newest entry."""
+    if not entries:
+        return entries
+    first = entries[0]
+    connection = session.connection()
+    newest: dict[str, Any] = {}
+    for row in connection.execute(_RECENT_OF_ROW, {
+            "since": first["at"] - COALESCE_WINDOW, "entity": first["entity"],
+            "entity_id": first["entity_id"], "fields": sorted({e["field"] for e in entries})}):
+        newest.setdefault(row.field, row)
+    left, folded, emptied = [], [], []
+    for entry in entries:
+        latest = newest.get(entry["field"])
+        if latest is None or latest.action != "edit" or latest.author != entry["author"]:
+            left.append(entry)
+        elif latest.old_value == entry["new_value"]:
+            emptied.append(latest.id)  # typed away and back (X -> Y -> X): nothing changed
+        else:
+            folded.append({"entry_id": latest.id, "folded_value": entry["new_value"],
+                           "folded_at": entry["at"]})
+    if emptied:
+        connection.execute(_UNDO_FOLD, {"entry_ids": emptied})
+    if folded:
+        connection.execute(_FOLD, folded)
+    return left
 
 
 def _record_changes(session: OrmSession, _flush: UOWTransaction) -> None:
@@ -193,7 +209,7 @@ def _record_changes(session: OrmSession, _flush: UOWTransaction) -> None:
             entries.append(_entry(session, row, "create"))
     for row in session.dirty:
         if type(row) in LOGGED_TYPES and session.is_modified(row):
-            entries.extend(e for e in _edit_entries(session, row) if not _coalesce(session, e))
+            entries.extend(_coalesce(session, _edit_entries(session, row)))
     for row in session.deleted:
         if type(row) in LOGGED_TYPES and not isinstance(row, Study):
             entries.append(_entry(session, row, "delete"))

@@ -25,7 +25,7 @@ from datetime import datetime
 from enum import Enum
 from typing import Any
 
-from sqlalchemy import insert, update
+from sqlalchemy import bindparam, insert, update
 from sqlalchemy import select as table_select
 from sqlalchemy.exc import IntegrityError
 from sqlmodel import Session, col, select
@@ -281,28 +281,43 @@ def _in_undo_store(session: Session, study_id: int, row_id: int) -> bool:
                for entry in json.loads(payload)["rows"])
 
 
+FIELD_EDITS: Any = FieldEdit.__table__  # type: ignore[attr-defined]
+_FIELD_KEY = (FIELD_EDITS.c.entity == bindparam("of_entity"),
+              FIELD_EDITS.c.row_id == bindparam("of_row"),
+              FIELD_EDITS.c.field == bindparam("of_field"),
+              FIELD_EDITS.c.client == bindparam("of_client"))
+# Built once: every keystroke runs them (the written text comes back with the claim).
+_RAISE_SEQ = (update(FIELD_EDITS).where(*_FIELD_KEY, FIELD_EDITS.c.seq < bindparam("new_seq"))
+              .values(seq=bindparam("new_seq")).returning(FIELD_EDITS.c.written))
+_SEQ_OF = table_select(FIELD_EDITS.c.seq).where(*_FIELD_KEY)
+_NOTE_WRITTEN = update(FIELD_EDITS).where(*_FIELD_KEY).values(written=bindparam("written_text"))
+
+
+def _field_key(entity: str, row_id: int, name: str, client: str) -> dict[str, Any]:
+    return {"of_entity": entity, "of_row": row_id, "of_field": name, "of_client": client}
+
+
 def claim_keystroke(session: Session, *, study_id: int, entity: str, row_id: int, name: str,
                     client: str, seq: int) -> tuple[bool, str | None]:
     """(accepted, text this page last saved in the field); not accepted when a newer one came.
 
-    One guarded UPDATE sets the sequence only if it is higher; the row stays locked (on SQLite
-    the database) until the caller commits, so two workers cannot both accept old and new.
+    One guarded UPDATE sets the sequence only if it is higher and hands back the text this page
+    wrote last; the row stays locked (on SQLite the database) until the caller commits, so two
+    workers cannot both accept old and new.
     """
-    table = FieldEdit.__table__  # type: ignore[attr-defined]
-    key = (table.c.entity == entity, table.c.row_id == row_id, table.c.field == name,
-           table.c.client == client)
+    key = _field_key(entity, row_id, name, client)
     for _ in range(2):
-        raised = session.execute(update(table).where(*key, table.c.seq < seq).values(seq=seq))
-        if raised.rowcount == 1:  # type: ignore[attr-defined]
-            written = session.execute(table_select(table.c.written).where(*key)).scalar_one()
+        raised = session.execute(_RAISE_SEQ, {**key, "new_seq": seq}).first()
+        if raised is not None:
+            written: str | None = raised.written
             return True, written
-        if session.execute(table_select(table.c.seq).where(*key)).first() is not None:
+        if session.execute(_SEQ_OF, key).first() is not None:
             return False, None
         try:
             with session.begin_nested():
-                session.execute(insert(table).values(study_id=study_id, entity=entity,
-                                                     row_id=row_id, field=name, client=client,
-                                                     seq=seq))
+                session.execute(insert(FIELD_EDITS).values(
+                    study_id=study_id, entity=entity, row_id=row_id, field=name,
+                    client=client, seq=seq))
             return True, None
         except IntegrityError:  # the same page's other keystroke inserted first: compare again
             continue
@@ -312,10 +327,8 @@ def claim_keystroke(session: Session, *, study_id: int, entity: str, row_id: int
 def remember_written(session: Session, *, entity: str, row_id: int, name: str, client: str,
                      text: str) -> None:
     """Note the text this page has just saved in the field (see `guarded_save`'s `written`)."""
-    table = FieldEdit.__table__  # type: ignore[attr-defined]
-    session.execute(update(table).where(
-        table.c.entity == entity, table.c.row_id == row_id, table.c.field == name,
-        table.c.client == client).values(written=text))
+    session.execute(_NOTE_WRITTEN, {**_field_key(entity, row_id, name, client),
+                                    "written_text": text})
 
 
 def log_resolution(session: Session, row: TrackedRow, name: str, *, kept_mine: bool,

@@ -211,7 +211,10 @@ def _with_error_factor_note(reply: FieldReply, sent: str, step_id: int) -> Field
 
 def _existing(session: Session, kind_name: str, study_id: int, row_id: int) -> Any:
     """The row, or None when it no longer exists (another study's row is NotFoundError)."""
-    if session.get(kind_of(kind_name).model, row_id) is None:
+    # Held while get_row runs: the session keeps loaded rows only while something refers to
+    # them, so a dropped result would be read again.
+    loaded = session.get(kind_of(kind_name).model, row_id)
+    if loaded is None:
         return None
     return get_row(session, kind_of(kind_name), study_id, row_id)
 
