@@ -22,7 +22,7 @@ from app.db.queries import (
     fetch_rows_of_node,
     fetch_rows_of_scenario,
     fetch_rows_of_study,
-    ordinal_of,
+    place_in_node,
 )
 from app.services.study.results import (
     ScenarioOutcome,
@@ -182,11 +182,8 @@ def load_scenario_branch(session: Session, study_id: int, scenario_id: int) -> P
     steps = _group(fetch_rows_of_scenario(session, Step, scenario_id), "scenario_id")[scenario_id]
     safeguards = _group(fetch_rows_of_scenario(session, Safeguard, scenario_id),
                         "scenario_id")[scenario_id]
-    number = ".".join((node.number or str(node.id),
-                       str(ordinal_of(session, Deviation, "node_id", node.id or 0,
-                                      deviation.id or 0)),
-                       str(ordinal_of(session, Scenario, "deviation_id", deviation.id or 0,
-                                      scenario_id))))
+    deviation_place, scenario_place = place_in_node(session, deviation, scenario)
+    number = ".".join((node.number or str(node.id), str(deviation_place), str(scenario_place)))
     outcome = compute_outcome(scenario, steps, by_id)
     inputs = load_error_factor_inputs(session, get_study(session, study_id))
     branch = ScenarioBranch(scenario, steps, safeguards, outcome,

@@ -122,7 +122,8 @@ class Cost:
         return Counter(name for name, _ in self.rows)
 
 
-FULL_SCAN = re.compile(r"^SCAN (\w+)(?! USING)")
+# "SCAN CONSTANT ROW" is a SELECT without a table (scalar subqueries side by side), no scan.
+FULL_SCAN = re.compile(r"^SCAN (?!CONSTANT ROW)(\w+)(?! USING)")
 
 
 def read_by_statement(cursor: Any, statement: str, parameters: Any, cost: Cost) -> None:
