@@ -94,9 +94,9 @@ def step_figures_of_study(study_id: int) -> Any:
     return select_columns(*_step_figure_columns()).where(col(Step.study_id) == study_id)
 
 
-def step_figures_of_scenario_ids(scenario_ids: list[int]) -> Any:
-    """step_figures_of_study for a few scenarios of any study (through the scenario_id index)."""
-    return select_columns(*_step_figure_columns()).where(col(Step.scenario_id).in_(scenario_ids))
+# Built once, run with {"scenario_ids": [...]}: a keystroke recomputes its scenario from these.
+STEP_FIGURES_OF_SCENARIOS = select_columns(*_step_figure_columns()).where(
+    col(Step.scenario_id).in_(bindparam("scenario_ids", expanding=True)))
 
 
 def scenario_ratings_of_study(study_id: int) -> Any:
@@ -110,15 +110,20 @@ def scenario_ratings_of_study(study_id: int) -> Any:
             .where(col(Scenario.study_id) == study_id))
 
 
-def scenario_ratings_of_scenarios(scenario_ids: list[int]) -> Any:
-    """scenario_ratings_of_study for a few scenarios, with each one's study."""
-    columns: list[Any] = [Scenario.id, Scenario.study_id, Scenario.deviation_id, Deviation.node_id,
-                          Scenario.severity_category_id, Scenario.environment_category_id,
-                          Scenario.asset_category_id,
-                          Scenario.people_not_rated]  # Any: ORM attributes as columns
-    return (select_columns(*columns)
-            .join(Deviation, col(Deviation.id) == col(Scenario.deviation_id))
-            .where(col(Scenario.id).in_(scenario_ids)))
+# Built once, run with {"scenario_ids": [...]}: each scenario with its study, node and ratings.
+_RATING_COLUMNS: list[Any] = [Scenario.id, Scenario.study_id, Scenario.deviation_id,
+                              Deviation.node_id, Scenario.severity_category_id,
+                              Scenario.environment_category_id, Scenario.asset_category_id,
+                              Scenario.people_not_rated]  # Any: ORM attributes as columns
+RATINGS_OF_SCENARIOS = (
+    select_columns(*_RATING_COLUMNS)
+    .join(Deviation, col(Deviation.id) == col(Scenario.deviation_id))
+    .where(col(Scenario.id).in_(bindparam("scenario_ids", expanding=True))))
+# Built once, run with {"study_id": id} (category_targets_of_study).
+CATEGORY_TARGETS = select_columns(
+    col(SeverityCategory.id), col(SeverityCategory.name),
+    col(SeverityCategory.tolerable_frequency), col(SeverityCategory.receptor)).where(
+    col(SeverityCategory.study_id) == bindparam("study_id"))
 
 
 def category_targets_of_study(study_id: int) -> Any:
@@ -135,10 +140,11 @@ def placed_rows_of_study(model: type[Any], parent_field: str, study_id: int) -> 
         table.study_id == study_id)
 
 
-def fetch_plain_rows(session: Session, statement: Any) -> list[ResultRow[Any]]:
+def fetch_plain_rows(session: Session, statement: Any,
+                     parameters: dict[str, Any] | None = None) -> list[ResultRow[Any]]:
     """Run a column select on the session's connection: plain rows, no ORM objects built."""
     session.flush()  # the connection does not autoflush as session.execute would
-    return list(session.connection().execute(statement).all())
+    return list(session.connection().execute(statement, parameters).all())
 
 
 def node_links_of_study(study_id: int) -> Any:

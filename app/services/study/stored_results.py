@@ -17,17 +17,17 @@ from collections import defaultdict
 from collections.abc import Iterable, Mapping
 from typing import Any
 
-from sqlalchemy import bindparam, delete, event, insert, select, update
+from sqlalchemy import bindparam, delete, event, exists, insert, select, update
 from sqlalchemy.orm import Session as OrmSession
 from sqlmodel import Session
 
 from app.db.models import Deviation, ResultTotal, Scenario, ScenarioResultRow, Study
 from app.db.queries import (
-    category_targets_of_study,
+    CATEGORY_TARGETS,
+    RATINGS_OF_SCENARIOS,
+    STEP_FIGURES_OF_SCENARIOS,
     fetch_plain_rows,
-    scenario_ratings_of_scenarios,
     scenario_ratings_of_study,
-    step_figures_of_scenario_ids,
     step_figures_of_study,
 )
 from app.db.stale_results import forget, note_stale_results, stale_of
@@ -59,7 +59,8 @@ def _batches(ids: Iterable[int]) -> list[list[int]]:
 
 
 def _categories(session: Session, study_id: int) -> dict[int, Any]:
-    return {row.id: row for row in fetch_plain_rows(session, category_targets_of_study(study_id))}
+    return {row.id: row for row in fetch_plain_rows(session, CATEGORY_TARGETS,
+                                                    {"study_id": study_id})}
 
 
 def compute_rows(session: Session, scenario_ids: Iterable[int]) -> dict[int, dict[str, Any]]:
@@ -68,9 +69,10 @@ def compute_rows(session: Session, scenario_ids: Iterable[int]) -> dict[int, dic
     categories: dict[int, dict[int, Any]] = {}
     for batch in _batches(scenario_ids):
         steps: dict[int, list[Any]] = defaultdict(list)
-        for step in fetch_plain_rows(session, step_figures_of_scenario_ids(batch)):
+        for step in fetch_plain_rows(session, STEP_FIGURES_OF_SCENARIOS,
+                                     {"scenario_ids": batch}):
             steps[step.scenario_id].append(step)
-        for rating in fetch_plain_rows(session, scenario_ratings_of_scenarios(batch)):
+        for rating in fetch_plain_rows(session, RATINGS_OF_SCENARIOS, {"scenario_ids": batch}):
             if rating.study_id not in categories:
                 categories[rating.study_id] = _categories(session, rating.study_id)
             computed[rating.id] = {
@@ -116,10 +118,10 @@ def refresh_stale_results(session: Session) -> None:
     if not notes:
         return
     forget(session)
-    held = _lock_stored(session, notes.scenario_ids)
+    held, current = _lock_stored(session, notes.scenario_ids)
     fresh = compute_rows(session, notes.scenario_ids)
-    studies = {row["study_id"] for row in [*held, *fresh.values(), *notes.removed.values()]}
-    current = _current_studies(session, studies)
+    studies = {row["study_id"] for row in [*fresh.values(), *notes.removed.values()]}
+    current |= _current_studies(session, studies - {row["study_id"] for row in held})
     moves = Moves()
     for row in [*held, *notes.removed.values()]:
         if row["study_id"] in current:
@@ -133,17 +135,33 @@ def refresh_stale_results(session: Session) -> None:
     _drop_node_counts(session, notes.removed_nodes)
 
 
-def _lock_stored(session: Session, scenario_ids: Iterable[int]) -> list[dict[str, Any]]:
+_STORED: Any = ScenarioResultRow
+_TOTALS: Any = ResultTotal
+# Built once: the stored rows of some scenarios, locked, each saying whether its study's stored
+# results are current (so a keystroke asks that in the same statement).
+_LOCK_STORED = (
+    select(_STORED.scenario_id, _STORED.study_id, _STORED.node_id, _STORED.computed,
+           _STORED.incomplete, _STORED.short, _STORED.flagged, _STORED.short_withdrawn,
+           exists().where(_TOTALS.study_id == _STORED.study_id, _TOTALS.node_id == STUDY_ROW,
+                          _TOTALS.results_version == RESULTS_VERSION).label("study_current"))
+    .where(_STORED.scenario_id.in_(bindparam("scenario_ids", expanding=True)))
+    .with_for_update(of=_STORED))
+
+
+def _lock_stored(session: Session, scenario_ids: Iterable[int]
+                 ) -> tuple[list[dict[str, Any]], set[int]]:
     """The stored rows of these scenarios, locked (PostgreSQL) before their inputs are read,
-    so a concurrent edit of the same scenario waits and then computes from committed inputs."""
-    table: Any = ScenarioResultRow
+    so a concurrent edit of the same scenario waits and then computes from committed inputs;
+    and which of their studies are current."""
     rows: list[dict[str, Any]] = []
+    current: set[int] = set()
     for batch in _batches(scenario_ids):
-        rows.extend(dict(row._mapping) for row in session.connection().execute(
-            select(table.scenario_id, table.study_id, table.node_id, table.computed,
-                   table.incomplete, table.short, table.flagged, table.short_withdrawn)
-            .where(table.scenario_id.in_(batch)).with_for_update()))
-    return rows
+        for row in session.connection().execute(_LOCK_STORED, {"scenario_ids": batch}):
+            stored = dict(row._mapping)
+            if stored.pop("study_current"):
+                current.add(stored["study_id"])
+            rows.append(stored)
+    return rows, current
 
 
 def _current_studies(session: Session, study_ids: set[int]) -> set[int]:
