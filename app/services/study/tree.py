@@ -6,7 +6,8 @@ from dataclasses import dataclass, field
 from functools import cached_property, partial
 from typing import Any
 
-from sqlmodel import Session
+from sqlalchemy import bindparam
+from sqlmodel import Session, col, select
 
 from app.db.models import (
     Deviation,
@@ -168,15 +169,20 @@ class PlacedScenario:
     number: str
 
 
+# Built once: a scenario with its deviation and node, one statement (every keystroke's reply).
+_SCENARIO_WITH_PARENTS = (
+    select(Scenario, Deviation, Node)
+    .join(Deviation, col(Deviation.id) == col(Scenario.deviation_id))
+    .join(Node, col(Node.id) == col(Deviation.node_id))
+    .where(col(Scenario.id) == bindparam("scenario_id")))
+
+
 def load_scenario_branch(session: Session, study_id: int, scenario_id: int) -> PlacedScenario:
     """One scenario's rows and outcome, numbered in its node; no other scenario is loaded."""
-    scenario = session.get(Scenario, scenario_id)
-    if scenario is None or scenario.study_id != study_id:
+    placed = session.exec(_SCENARIO_WITH_PARENTS, params={"scenario_id": scenario_id}).first()
+    if placed is None or placed[0].study_id != study_id:
         raise NotFoundError(f"There is no scenario {scenario_id} in study {study_id}.")
-    deviation = session.get(Deviation, scenario.deviation_id)
-    node = session.get(Node, deviation.node_id) if deviation is not None else None
-    if deviation is None or node is None:
-        raise NotFoundError(f"There is no scenario {scenario_id} in study {study_id}.")
+    scenario, deviation, node = placed
     by_id = {c.id: c for c in fetch_rows_of_study(session, SeverityCategory, study_id)
              if c.id is not None}
     steps = _group(fetch_rows_of_scenario(session, Step, scenario_id), "scenario_id")[scenario_id]
