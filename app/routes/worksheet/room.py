@@ -16,16 +16,10 @@ from app.settings import get_settings
 router = APIRouter(prefix="/studies/{study_id}")
 
 
-def _stamp(session: SessionDep, study_id: int) -> str:
-    """The worksheet's stamp joined with the estimate rounds' (a round shows on this view)."""
-    worksheet = room_service.change_stamp(session=session, study_id=study_id)
-    return f"{worksheet}-{rounds_view.rounds_stamp(session=session, study_id=study_id)}"
-
-
 def _context(request: Request, session: SessionDep, study_id: int) -> dict[str, object]:
     room = room_service.build_room_view(session=session, study_id=study_id)
     return {"room": room, "study": room.study, "poll": get_settings().room_poll_seconds,
-            "stamp": _stamp(session, study_id),
+            "stamp": room.stamp,
             "rounds": rounds_view.room_rounds(session=session, study_id=study_id),
             "join": join_panel(request, session, study_id)}
 
@@ -42,7 +36,7 @@ def read_room(request: Request, study_id: int, session: SessionDep) -> Response:
 def read_room_live(request: Request, study_id: int, session: SessionDep,
                    stamp: str = "") -> Response:
     """204 while nothing changed since `stamp`; the room's live region once something did."""
-    if _stamp(session, study_id) == stamp:
+    if room_service.live_stamp(session=session, study_id=study_id) == stamp:
         return Response(status_code=204)
     return render(request, "worksheet/room.html", _context(request, session, study_id),
                   block="live")

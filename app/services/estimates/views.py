@@ -1,11 +1,10 @@
 """What each page may see of a round. Values exist in a view only once the round is revealed:
 an open round's view carries who answered, never what, so no page or fragment can leak them."""
 
-import hashlib
 from dataclasses import dataclass
 from typing import Any
 
-from sqlmodel import Session, col, func, select
+from sqlmodel import Session, col, select
 
 from app.db.models import Deviation, EstimateRound, RoundEstimate, RoundState, Scenario, Step
 from app.likelihood.estimates import RoundStats
@@ -183,14 +182,3 @@ def participant_rounds(*, session: Session, study_id: int,
 def open_rounds_key(found: tuple[ParticipantRound, ...]) -> str:
     """Which rounds are open ('3-4-5'): the participant page reloads when this changes."""
     return "-".join(str(item.round_id) for item in found) or "0"
-
-
-def rounds_stamp(*, session: Session, study_id: int) -> str:
-    """Changes whenever a round opens, changes state or gets an answer (for the polls)."""
-    row = session.exec(select(func.count(col(EstimateRound.id)),
-                              func.max(EstimateRound.updated_at))
-                       .where(EstimateRound.study_id == study_id)).one()
-    answers = session.exec(select(func.count(col(RoundEstimate.id)),
-                                  func.max(RoundEstimate.updated_at))
-                           .where(RoundEstimate.study_id == study_id)).one()
-    return hashlib.sha256(repr((tuple(row), tuple(answers))).encode()).hexdigest()[:12]

@@ -4,11 +4,11 @@ import hashlib
 from dataclasses import dataclass
 from typing import Any
 
-from sqlalchemy import Select
+from sqlalchemy import bindparam, func
 from sqlalchemy import select as select_columns
 from sqlmodel import Session
 
-from app.db.models import Deviation, Node, Scenario, Study, utc_now
+from app.db.models import Deviation, EstimateRound, Node, RoundEstimate, Scenario, Study, utc_now
 from app.db.queries import fetch_first_scenario_id, fetch_scenario_count
 from app.services.study.tree import NotFoundError, get_study
 from app.services.worksheet.page import ScenarioView, located_scenario
@@ -28,24 +28,30 @@ class RoomView:
     scenario_count: int
 
 
-def change_stamp_query(study_id: int) -> Select[Any]:
-    """The study's content version and the scribe's focus: one row by primary key."""
-    study: Any = Study
-    statement: Select[Any] = select_columns(study.content_version, study.focus_scenario_id,
-                                            study.focus_changed_at).where(study.id == study_id)
-    return statement
+def _newest(model: Any) -> tuple[Any, Any]:
+    """How many rows of a study a table holds and when the newest changed (scalar subqueries)."""
+    where = model.study_id == bindparam("study_id")
+    return (select_columns(func.count(model.id)).where(where).scalar_subquery(),
+            select_columns(func.max(model.updated_at)).where(where).scalar_subquery())
 
 
-def change_stamp(*, session: Session, study_id: int) -> str:
-    """A short fingerprint of the study's content and focus; it changes with any edit.
+_STUDY: Any = Study
+# Built once: the projector asks twice a second. One row: the study's content version and
+# focus, and the estimate rounds' and answers' counts and newest changes.
+_LIVE_STAMP = select_columns(_STUDY.content_version, _STUDY.focus_scenario_id,
+                             _STUDY.focus_changed_at, *_newest(EstimateRound),
+                             *_newest(RoundEstimate)).where(_STUDY.id == bindparam("study_id"))
 
-    Every flush that changes the study's content raises `content_version` in the same
-    transaction (app/db/tracking.py), so one row answers whether anything changed.
-    """
-    row = session.exec(change_stamp_query(study_id)).first()  # type: ignore[call-overload]
+
+def live_stamp(*, session: Session, study_id: int) -> str:
+    """The room view's stamp: the study's content and focus, then the estimate rounds (a round
+    shows on this view), from one statement; it changes with any edit, focus move or answer."""
+    row = session.connection().execute(_LIVE_STAMP, {"study_id": study_id}).first()
     if row is None:
         raise NotFoundError(f"There is no study {study_id}.")
-    return hashlib.sha256(repr(tuple(row)).encode()).hexdigest()[:16]
+    worksheet, rounds = tuple(row[:3]), tuple(row[3:])
+    return "-".join(hashlib.sha256(repr(part).encode()).hexdigest()[:16]
+                    for part in (worksheet, rounds))
 
 
 def set_focus(*, session: Session, study_id: int, scenario_id: int) -> None:
@@ -66,7 +72,7 @@ def build_room_view(*, session: Session, study_id: int) -> RoomView:
 
     Only the shown scenario's node is loaded; the rest of the study is counted, not read.
     """
-    stamp = change_stamp(session=session, study_id=study_id)
+    stamp = live_stamp(session=session, study_id=study_id)
     study = get_study(session, study_id)
     chosen = shown_scenario_id(session, study)
     if chosen is None:
