@@ -252,22 +252,25 @@ def _after_save(session: Session, kind_name: str, row: Any, fid: str, result: Gu
         field = SHOWN_FIELD.get(conflict.field, conflict.field)
         return _reply(session, kind_name, row, field_id(kind_name, row_id, field),
                       conflict=conflict, page_version=page_version)
-    _commit_keeping_rows(session)
+    _commit_keeping_row(session, row)
     field = fid.split("-", 2)[2]
     return _reply(session, kind_name, row, fid, said=said,
                   version=int(row.version) if result.clean else None,
                   saved_text=as_text(getattr(row, field, None)))
 
 
-def _commit_keeping_rows(session: Session) -> None:
-    """Commit without expiring the rows just written: they hold what was stored (a value the
-    database computes, such as a raised version, is still read back on first use), so the
-    reply does not read them again."""
+def _commit_keeping_row(session: Session, row: Any) -> None:
+    """Commit, keeping the saved row as it was written (it was re-read under the guard's lock;
+    a value the database computes, such as a raised version, is still read back on first use),
+    so the reply does not read it again. Every other loaded row expires as usual."""
     expiring, session.expire_on_commit = session.expire_on_commit, False
     try:
         session.commit()
     finally:
         session.expire_on_commit = expiring
+    for loaded in list(session.identity_map.values()):
+        if loaded is not row:
+            session.expire(loaded)
 
 
 def _shown_conflict(session: Session, study_id: int,
