@@ -518,6 +518,23 @@ class ScenarioResultRow(SQLModel, table=True):
     demand_mode: str = Field(default="", max_length=20)
     withdrawn_mitigated_frequency: float | None = None
     withdrawn_ratio: float | None = None
+    # What the risk picture counts and ranks over the whole study, read without `figures`:
+    # the SIL band of the needed added function, the same drawn with flagged credits
+    # withdrawn (set only for a flagged scenario), the IPL-check warnings and the verdict's
+    # uncertainty (governing line as credited, from the steps' error factors).
+    sil_band: str = Field(default="", max_length=40, sa_column_kwargs={"server_default": ""})
+    withdrawn_category_id: int | None = None
+    withdrawn_gap_orders: float | None = None
+    withdrawn_sil_band: str = Field(default="", max_length=40,
+                                    sa_column_kwargs={"server_default": ""})
+    withdrawn_demand_mode: str = Field(default="", max_length=20,
+                                       sa_column_kwargs={"server_default": ""})
+    warning_count: int = Field(default=0, sa_column_kwargs={"server_default": "0"})
+    uncertain: bool = Field(default=False, sa_column_kwargs={"server_default": false()})
+    p_meets: float | None = None
+    spread_median: float | None = None
+    spread_p05: float | None = None
+    spread_p95: float | None = None
     error: str = Field(default="", sa_column_kwargs={"default": ""})
     figures: str = Field(default="{}", sa_type=Text)
 

@@ -33,10 +33,11 @@ from app.db.queries import (
 from app.db.stale_results import forget, note_stale_results, stale_of
 from app.services.study.listing import NodeTotals
 from app.services.study.result_figures import scenario_columns
+from app.services.study.spread import NO_INPUTS, ErrorFactorInputs, load_error_factor_inputs
 
 # Any in this module: plain rows from SQLAlchemy carry no column types (the ORM boundary).
 
-RESULTS_VERSION = 1
+RESULTS_VERSION = 2  # 2: the risk picture's fields (band, withdrawn, warnings, spread)
 STUDY_ROW = 0  # result_total.node_id of a study's own counts
 BATCH = 500  # ids per IN list
 COUNTS = ("scenario_count", "short_count", "unresolved_count", "flagged_count",
@@ -62,6 +63,15 @@ def _categories(session: Session, study_id: int) -> dict[int, Any]:
     return {row.id: row for row in fetch_plain_rows(session, category_targets_of_study(study_id))}
 
 
+def _inputs_of(session: Session, study_id: int, steps: Iterable[Any]) -> ErrorFactorInputs:
+    """What the error factors read besides the steps: the study's defaults and these steps'
+    last revealed or agreed rounds (only theirs: an edit reads its own scenario's)."""
+    study = session.get(Study, study_id)
+    if study is None:
+        return NO_INPUTS
+    return load_error_factor_inputs(session, study, sorted(step.id for step in steps))
+
+
 def compute_rows(session: Session, scenario_ids: Iterable[int]) -> dict[int, dict[str, Any]]:
     """The stored-row columns of a few scenarios, read from their own rows only."""
     computed: dict[int, dict[str, Any]] = {}
@@ -70,13 +80,18 @@ def compute_rows(session: Session, scenario_ids: Iterable[int]) -> dict[int, dic
         steps: dict[int, list[Any]] = defaultdict(list)
         for step in fetch_plain_rows(session, step_figures_of_scenario_ids(batch)):
             steps[step.scenario_id].append(step)
-        for rating in fetch_plain_rows(session, scenario_ratings_of_scenarios(batch)):
+        ratings = fetch_plain_rows(session, scenario_ratings_of_scenarios(batch))
+        inputs = {study_id: _inputs_of(session, study_id, [
+            step for rating in ratings if rating.study_id == study_id
+            for step in steps[rating.id]]) for study_id in {r.study_id for r in ratings}}
+        for rating in ratings:
             if rating.study_id not in categories:
                 categories[rating.study_id] = _categories(session, rating.study_id)
             computed[rating.id] = {
                 "scenario_id": rating.id, "study_id": rating.study_id,
                 "node_id": rating.node_id,
-                **scenario_columns(rating, tuple(steps[rating.id]), categories[rating.study_id])}
+                **scenario_columns(rating, tuple(steps[rating.id]), categories[rating.study_id],
+                                   inputs[rating.study_id])}
     return computed
 
 
@@ -86,8 +101,10 @@ def compute_study_rows(session: Session, study_id: int) -> dict[int, dict[str, A
     steps: dict[int, list[Any]] = defaultdict(list)
     for step in fetch_plain_rows(session, step_figures_of_study(study_id)):
         steps[step.scenario_id].append(step)
+    study = session.get(Study, study_id)
+    inputs = load_error_factor_inputs(session, study) if study is not None else NO_INPUTS
     return {rating.id: {"scenario_id": rating.id, "study_id": study_id, "node_id": rating.node_id,
-                        **scenario_columns(rating, tuple(steps[rating.id]), categories)}
+                        **scenario_columns(rating, tuple(steps[rating.id]), categories, inputs)}
             for rating in fetch_plain_rows(session, scenario_ratings_of_study(study_id))}
 
 
