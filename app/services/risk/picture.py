@@ -20,6 +20,7 @@ from app.services.risk.charts import (
 )
 from app.services.risk.ipl_checks import ScenarioWarnings, study_warnings
 from app.services.study.listing import NodeTotals, totals_of
+from app.services.study.result_figures import SIL_BANDS
 from app.services.study.results import Figures
 from app.services.study.tree import (
     NodeBranch,
@@ -151,7 +152,7 @@ class RiskPicture:
         return left_out_words(len(self.incomplete))
 
 
-BAND_ORDER = ("Below SIL 1", "SIL 1", "SIL 2", "SIL 3", "SIL 4", "Beyond one function")
+BAND_ORDER = SIL_BANDS
 DEMAND_WORDS = {DemandMode.LOW: "low demand", DemandMode.HIGH: "high demand"}
 
 

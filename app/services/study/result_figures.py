@@ -107,6 +107,10 @@ def figures_json(assessment: Assessment, rated: Mapping[Receptor, Any]) -> str:
     }, separators=(",", ":"))
 
 
+SIL_BANDS = ("Below SIL 1", "SIL 1", "SIL 2", "SIL 3", "SIL 4", "Beyond one function")
+"""The bands added functions are counted in, weakest first."""
+
+
 def sil_band(target: SilTarget) -> str:
     """The band the risk picture counts an added function in: 'SIL 2', 'Below SIL 1',
     'Beyond one function' (or the target's own label for any other status)."""

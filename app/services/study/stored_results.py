@@ -17,7 +17,7 @@ from collections import defaultdict
 from collections.abc import Iterable, Mapping
 from typing import Any
 
-from sqlalchemy import bindparam, delete, event, insert, select, update
+from sqlalchemy import bindparam, delete, event, func, insert, select, update
 from sqlalchemy.orm import Session as OrmSession
 from sqlmodel import Session
 
@@ -287,11 +287,10 @@ def install_stored_results() -> None:
         note_stale_results(lambda name, fn: event.listen(OrmSession, name, fn))
 
 
-def stored_rows_in_order(session: Session, study_id: int) -> list[Any]:
-    """Every scenario of the study with its stored headline, in worksheet order (plain rows)."""
-    ensure_current(session, study_id)
+def _headlines(study_id: int) -> Any:
+    """Each scenario of the study with its stored headline, in worksheet order (a statement)."""
     stored: Any = ScenarioResultRow
-    return list(session.connection().execute(
+    return (
         select(Scenario.id, Scenario.cause, Scenario.consequence, Deviation.node_id,  # type: ignore[call-overload]
                Deviation.guideword, Deviation.parameter, stored.computed, stored.incomplete,
                stored.error,
@@ -302,4 +301,37 @@ def stored_rows_in_order(session: Session, study_id: int) -> list[Any]:
         .join(Deviation, Deviation.id == Scenario.deviation_id)
         .join(stored, stored.scenario_id == Scenario.id)
         .where(Scenario.study_id == study_id)
-        .order_by(Deviation.position, Deviation.id, Scenario.position, Scenario.id)))
+        .order_by(Deviation.position, Deviation.id, Scenario.position, Scenario.id))
+
+
+def stored_rows_in_order(session: Session, study_id: int) -> list[Any]:
+    """Every scenario of the study with its stored headline, in worksheet order (plain rows)."""
+    ensure_current(session, study_id)
+    return list(session.connection().execute(_headlines(study_id)))
+
+
+def stored_rows_of_node(session: Session, study_id: int, node_id: int, start: int,
+                        count: int) -> list[Any]:
+    """`count` scenarios of one node from the `start`-th, with their stored headlines."""
+    ensure_current(session, study_id)
+    statement = _headlines(study_id).where(Deviation.node_id == node_id)
+    return list(session.connection().execute(statement.offset(start).limit(count)))
+
+
+def node_summaries(session: Session, study_id: int) -> tuple[dict[int, dict[str, int]],
+                                                             dict[int, float]]:
+    """Per node: how many scenarios short of target need an added function in each SIL
+    band, and the worst gap (largest, orders of magnitude) of its computed scenarios; two
+    grouped SELECTs over the stored rows (index on study and node)."""
+    ensure_current(session, study_id)
+    stored: Any = ScenarioResultRow
+    bands: dict[int, dict[str, int]] = defaultdict(dict)
+    for node_id, band, count in session.connection().execute(
+            select(stored.node_id, stored.sil_band, func.count())
+            .where(stored.study_id == study_id, stored.computed, stored.short)
+            .group_by(stored.node_id, stored.sil_band)):
+        bands[node_id][band] = count
+    worst = {node_id: gap for node_id, gap in session.connection().execute(
+        select(stored.node_id, func.max(stored.gap_orders))
+        .where(stored.study_id == study_id, stored.computed).group_by(stored.node_id))}
+    return dict(bands), worst
