@@ -1,9 +1,11 @@
-"""The study risk picture: scenarios ranked by gap, sums, matrix, gap bars and SIL needs."""
+"""The study risk picture computed from the study tree: ranking, sums, matrix, gap bars, SIL needs.
+
+The PDF report draws it; the page reads the same figures from the stored rows
+(stored_picture.py), tested equal to this computation.
+"""
 
 from collections import Counter
 from dataclasses import dataclass
-
-from sqlmodel import Session
 
 from app.db.models import SeverityCategory
 from app.likelihood.completeness import left_out_words
@@ -27,7 +29,6 @@ from app.services.study.tree import (
     ScenarioBranch,
     StudyTree,
     WorksheetSpot,
-    load_study_tree,
 )
 
 
@@ -348,27 +349,3 @@ def select_cell(picture: RiskPicture, key: str) -> CellSelection:
             f"(cells read like 'cat-3:decade--4')."
         )
     return CellSelection(key, cell.title, tuple(r for r in picture.ranked if r.cell == key))
-
-
-@dataclass(frozen=True)
-class RiskPage:
-    """The risk picture page: the study, its picture and an optional selected cell."""
-
-    tree: StudyTree
-    picture: RiskPicture
-    selection: CellSelection | None
-    cell_error: str
-
-
-def read_risk_page(*, session: Session, study_id: int, cell: str | None = None,
-                   withdrawn: bool = False, most_likely_first: bool = False) -> RiskPage:
-    """Load and compute the study, then pick out the requested matrix cell if any."""
-    tree = load_study_tree(session, study_id)
-    picture = build_risk_picture(tree, withdrawn=withdrawn, most_likely_first=most_likely_first)
-    selection, error = None, ""
-    if cell:
-        try:
-            selection = select_cell(picture, cell)
-        except UnknownCellError as err:
-            error = str(err)
-    return RiskPage(tree, picture, selection, error)
