@@ -23,7 +23,7 @@ def read_risk_picture(
     """The risk picture; `?cell=cat-3:decade--4` lists one matrix cell's scenarios,
     `?credits=withdrawn` draws it with every credit an IPL check flags withdrawn and
     `?uncertain=likely` ranks the uncertain verdicts most likely to meet first; each long list
-    shows 100 lines from `<list>_from` (ranked, cell, incomplete, unresolved, uncertain, needs,
+    shows 50 lines from `<list>_from` (ranked, cell, incomplete, unresolved, uncertain, needs,
     warnings)."""
     starts = {"ranked": ranked_from, "cell": cell_from, "incomplete": incomplete_from,
               "unresolved": unresolved_from, "uncertain": uncertain_from,

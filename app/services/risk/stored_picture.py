@@ -11,10 +11,10 @@ compares the two on the demo and on a generated study.
 from collections import Counter, defaultdict
 from collections.abc import Callable, Iterator, Mapping, Sequence
 from dataclasses import dataclass, field
-from typing import Any, Generic, TypeVar
+from typing import Any, Generic, NamedTuple, TypeVar
 from urllib.parse import urlencode
 
-from sqlalchemy import select
+from sqlalchemy import case, select
 from sqlmodel import Session
 
 from app.db.models import Deviation, Node, Scenario, ScenarioResultRow, SeverityCategory, Study
@@ -51,7 +51,7 @@ from app.services.study.tree import WorksheetSpot, get_study
 
 # Any in this module: plain rows from SQLAlchemy carry no column types (the ORM boundary).
 
-PAGE_SIZE = 100
+PAGE_SIZE = 50
 """Lines of each long list shown at a time (a study of a few hundred scenarios shows its lists
 whole on one or two pages; one of 10,000 does not send 10,000 lines)."""
 
@@ -91,6 +91,11 @@ class Paged(Generic[T]):
         """Where the page before this one starts."""
         return max(0, self.start - PAGE_SIZE)
 
+    @property
+    def next_count(self) -> int:
+        """Lines the next page shows."""
+        return min(self.more, PAGE_SIZE)
+
 
 def page_start(start: int, total: int) -> int:
     """A requested start kept inside the list, on a page boundary (past the end: the last page)."""
@@ -100,12 +105,11 @@ def page_start(start: int, total: int) -> int:
     return min(max(0, start) // PAGE_SIZE * PAGE_SIZE, last)
 
 
-@dataclass(frozen=True)
-class PictureRow:
-    """One scenario's stored figures as drawn (as credited, or with flagged credits withdrawn)."""
+class PictureRow(NamedTuple):
+    """One scenario's stored figures as drawn (as credited, or with flagged credits withdrawn);
+    a plain tuple straight from the SELECT, as the page reads 10,000 of them."""
 
     scenario_id: int
-    node_id: int
     computed: bool
     incomplete: bool
     flagged: bool
@@ -118,8 +122,6 @@ class PictureRow:
     warning_count: int
     uncertain: bool
     p_meets: float | None
-    spread: tuple[float, float, float] | None
-    error: str
 
     @property
     def cell(self) -> str:
@@ -127,21 +129,23 @@ class PictureRow:
         return cell_key(self.category_id, decade_of(self.mitigated))
 
 
-def _drawn(row: Any, withdrawn: bool) -> PictureRow:
-    use = withdrawn and row.flagged
-    spread = ((row.spread_median, row.spread_p05, row.spread_p95)
-              if row.spread_median is not None else None)
-    return PictureRow(
-        scenario_id=row.scenario_id, node_id=row.node_id, computed=bool(row.computed),
-        incomplete=bool(row.incomplete), flagged=bool(row.flagged),
-        category_id=(row.withdrawn_category_id if use else row.category_id) or 0,
-        mitigated=(row.withdrawn_mitigated_frequency if use else row.mitigated_frequency) or 0.0,
-        gap_orders=(row.withdrawn_gap_orders if use else row.gap_orders) or 0.0,
-        short=bool(row.short_withdrawn if withdrawn else row.short),
-        sil_band=row.withdrawn_sil_band if use else row.sil_band,
-        demand_mode=row.withdrawn_demand_mode if use else row.demand_mode,
-        warning_count=int(row.warning_count), uncertain=bool(row.uncertain),
-        p_meets=row.p_meets, spread=spread, error=str(row.error))
+def _drawn_columns(withdrawn: bool) -> list[Any]:
+    """The columns of PictureRow; drawn withdrawn, a flagged scenario's come from its
+    withdrawn figures (the others are drawn as credited either way)."""
+    stored: Any = ScenarioResultRow
+
+    def drawn(credited: Any, withdrawn_column: Any) -> Any:
+        return case((stored.flagged, withdrawn_column), else_=credited) if withdrawn \
+            else credited
+
+    return [stored.scenario_id, stored.computed, stored.incomplete, stored.flagged,
+            drawn(stored.category_id, stored.withdrawn_category_id),
+            drawn(stored.mitigated_frequency, stored.withdrawn_mitigated_frequency),
+            drawn(stored.gap_orders, stored.withdrawn_gap_orders),
+            stored.short_withdrawn if withdrawn else stored.short,
+            drawn(stored.sil_band, stored.withdrawn_sil_band),
+            drawn(stored.demand_mode, stored.withdrawn_demand_mode),
+            stored.warning_count, stored.uncertain, stored.p_meets]
 
 
 def stored_picture_rows(session: Session, study_id: int, *, withdrawn: bool
@@ -152,21 +156,15 @@ def stored_picture_rows(session: Session, study_id: int, *, withdrawn: bool
     deviation: Any = Deviation
     node: Any = Node
     statement = (
-        select(stored.scenario_id, stored.node_id, stored.computed, stored.incomplete,
-               stored.flagged, stored.short, stored.short_withdrawn, stored.category_id,
-               stored.mitigated_frequency, stored.gap_orders, stored.sil_band,
-               stored.demand_mode, stored.withdrawn_category_id,
-               stored.withdrawn_mitigated_frequency, stored.withdrawn_gap_orders,
-               stored.withdrawn_sil_band, stored.withdrawn_demand_mode, stored.warning_count,
-               stored.uncertain, stored.p_meets, stored.spread_median, stored.spread_p05,
-               stored.spread_p95, stored.error)
+        select(*_drawn_columns(withdrawn))
         .join(scenario, scenario.id == stored.scenario_id)
         .join(deviation, deviation.id == scenario.deviation_id)
         .join(node, node.id == deviation.node_id)
         .where(stored.study_id == study_id)
         .order_by(node.position, node.id, deviation.position, deviation.id,
                   scenario.position, scenario.id))
-    return [_drawn(row, withdrawn) for row in session.connection().execute(statement)]
+    make = PictureRow._make
+    return [make(row) for row in session.connection().execute(statement)]
 
 
 def severity_order(categories: Sequence[SeverityCategory]) -> list[SeverityCategory]:
@@ -213,6 +211,7 @@ class Shown:
     nodes: Mapping[int, Node]
     categories: Mapping[int, SeverityCategory]
     withdrawn: bool
+    read: dict[int, StoredResult] = field(default_factory=dict)
 
     def spot(self, scenario_id: int) -> WorksheetSpot:
         """Where the scenario sits on the worksheet."""
@@ -229,9 +228,10 @@ class Shown:
         return f"{found.cause} → {found.consequence}"
 
     def figures(self, scenario_id: int) -> Any:
-        """The scenario's drawn figures read from its stored JSON."""
-        stored = StoredResult.of_row(self.labels[scenario_id])
-        return stored.figures(withdrawn=self.withdrawn)
+        """The scenario's drawn figures read from its stored JSON (once per scenario)."""
+        if scenario_id not in self.read:
+            self.read[scenario_id] = StoredResult.of_row(self.labels[scenario_id])
+        return self.read[scenario_id].figures(withdrawn=self.withdrawn)
 
 
 def _labels(session: Session, scenario_ids: set[int]) -> dict[int, Any]:
@@ -243,7 +243,8 @@ def _labels(session: Session, scenario_ids: set[int]) -> dict[int, Any]:
     for i in range(0, len(ordered), 500):
         found.update((row.scenario_id, row) for row in session.connection().execute(
             select(stored.scenario_id, stored.node_id, stored.computed, stored.figures,
-                   stored.error, scenario.cause, scenario.consequence, deviation.guideword,
+                   stored.error, stored.spread_median, stored.spread_p05, stored.spread_p95,
+                   scenario.cause, scenario.consequence, deviation.guideword,
                    deviation.parameter)
             .join(scenario, scenario.id == stored.scenario_id)
             .join(deviation, deviation.id == scenario.deviation_id)
@@ -279,14 +280,16 @@ def _sil_need(shown: Shown, row: PictureRow) -> SilNeed:
 
 
 def _uncertain(shown: Shown, row: PictureRow) -> UncertainVerdict:
-    assert row.spread is not None and row.p_meets is not None  # listed only when uncertain
-    median, p05, p95 = row.spread
-    return UncertainVerdict(_ranked(shown, row), row.p_meets, median, p05, p95)
+    found = shown.labels[row.scenario_id]
+    assert row.p_meets is not None  # listed only when uncertain
+    return UncertainVerdict(_ranked(shown, row), row.p_meets, found.spread_median,
+                            found.spread_p05, found.spread_p95)
 
 
 def _unresolved(shown: Shown, row: PictureRow) -> UnresolvedScenario:
     return UnresolvedScenario(shown.label(row.scenario_id), shown.node_label(row.scenario_id),
-                              shown.spot(row.scenario_id), row.error)
+                              shown.spot(row.scenario_id),
+                              str(shown.labels[row.scenario_id].error))
 
 
 def _warnings(session: Session, shown: Shown, rows: Sequence[PictureRow]
@@ -297,7 +300,8 @@ def _warnings(session: Session, shown: Shown, rows: Sequence[PictureRow]
         for step in fetch_plain_rows(session, statement):
             steps[step.scenario_id].append(step)
     return [ScenarioWarnings(
-        scenario_id=r.scenario_id, node_id=r.node_id, node_label=shown.node_label(r.scenario_id),
+        scenario_id=r.scenario_id, node_id=shown.labels[r.scenario_id].node_id,
+        node_label=shown.node_label(r.scenario_id),
         scenario_label=shown.label(r.scenario_id), spot=shown.spot(r.scenario_id),
         warnings=tuple(warnings_of(steps[r.scenario_id]))) for r in rows]
 

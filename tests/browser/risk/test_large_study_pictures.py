@@ -11,6 +11,7 @@ from sqlmodel import Session
 from app.likelihood.numbers import format_orders
 from app.services.exchange.study_import import import_study_text
 from app.services.risk.picture import build_risk_picture
+from app.services.risk.stored_picture import PAGE_SIZE
 from app.services.study.tree import load_study_tree
 from bench.generate import build_study
 
@@ -48,9 +49,9 @@ def test_a_large_studys_overview_opens_a_nodes_lines_and_the_risk_picture_pages(
 
     page.goto(f"{live_server}/studies/{study_id}/risk")
     ranked = page.locator("#ranked-table tbody tr")
-    expect(ranked).to_have_count(100)
+    expect(ranked).to_have_count(PAGE_SIZE)
     expect(page.locator('[data-list="ranked"]').first).to_contain_text(
-        f"Lines 1\u2013100 of {len(scratch.ranked)}.")
+        f"Lines 1\u2013{PAGE_SIZE} of {len(scratch.ranked)}.")
     counts = page.locator("g.matrix-cell").evaluate_all(
         "cells => cells.map(c => Number(c.dataset.count))")
     assert counts == [c.count for c in scratch.matrix.cells]
@@ -59,5 +60,6 @@ def test_a_large_studys_overview_opens_a_nodes_lines_and_the_risk_picture_pages(
         [str(b.low_demand), str(b.high_demand)] for b in scratch.sil_counts]
     page.screenshot(path=str(artifacts / "risk-large.png"))
     page.locator('[data-list="ranked"] [data-page="next"]').click()
-    expect(ranked.first.locator("td").first).to_have_text("101")
-    expect(ranked.first).to_have_attribute("data-scenario", str(scratch.ranked[100].scenario_id))
+    expect(ranked.first.locator("td").first).to_have_text(str(PAGE_SIZE + 1))
+    expect(ranked.first).to_have_attribute("data-scenario",
+                                           str(scratch.ranked[PAGE_SIZE].scenario_id))
