@@ -13,8 +13,8 @@ from app.routes.urls import path_for
 from app.services.exchange.study_import import duplicate_study as copy_whole_study
 from app.services.study import lifecycle
 from app.services.study import listing as study_service
+from app.services.study import overview as overview_service
 from app.services.study.conflicts import ConflictError
-from app.services.study.overview import LINES_PAGE, read_node_lines, read_study_overview
 
 router = APIRouter()
 FORM_PAGE = "study/form.html"
@@ -59,8 +59,9 @@ async def create_study(request: Request, session: SessionDep) -> Response:
 @router.get("/studies/{study_id}", name="read_study")
 def read_study(request: Request, study_id: int, session: SessionDep) -> Response:
     """One study: its nodes and every scenario's frequency, target and gap."""
-    overview = read_study_overview(session=session, study_id=study_id)
-    return render(request, "study/detail.html", {"page": overview, "lines_page": LINES_PAGE})
+    overview = overview_service.read_study_overview(session=session, study_id=study_id)
+    return render(request, "study/detail.html",
+                  {"page": overview, "lines_page": overview_service.LINES_PAGE})
 
 
 @router.get("/studies/{study_id}/nodes/{node_id}/lines", name="read_node_lines")
@@ -68,9 +69,9 @@ def read_lines_of_node(request: Request, study_id: int, node_id: int, session: S
                        lines_from: Annotated[int, Query(ge=0, le=10_000_000)] = 0) -> Response:
     """One node's scenario lines, 100 from `lines_from`: the overview of a large study opens
     them here (htmx swaps in the lines alone; without JavaScript it is a page of its own)."""
-    page = read_node_lines(session=session, study_id=study_id, node_id=node_id,
-                           start=lines_from)
-    return render(request, "study/node_lines.html", {"page": page, "lines_page": LINES_PAGE},
+    page = overview_service.read_node_lines(session=session, study_id=study_id,
+                                            node_id=node_id, start=lines_from)
+    return render(request, "study/node_lines.html", {"page": page},
                   block="lines" if is_htmx(request) else None)
 
 

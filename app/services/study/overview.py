@@ -164,6 +164,11 @@ class NodeLines:
         """Where the page before this one starts."""
         return max(0, self.start - LINES_PAGE)
 
+    @property
+    def next_count(self) -> int:
+        """Lines the next page shows."""
+        return min(self.more, LINES_PAGE)
+
 
 def read_node_lines(*, session: Session, study_id: int, node_id: int,
                     start: int = 0) -> NodeLines:
