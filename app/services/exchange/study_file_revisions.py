@@ -1,0 +1,92 @@
+"""The revisions section of the study file: revisions name shared snapshot parts.
+
+Written: each revision lists its snapshot's parts by digest under `snapshot_from_parts`, and
+the file holds every part named, once, under the top-level `snapshot_parts` (digest -> the
+part's JSON), so two revisions that share unchanged nodes carry them once and the file stays
+self-contained. Read: every named part must be in the file and match its digest (the SHA-256
+of its compact JSON text, app/db/snapshot_parts.py); each revision's snapshot is then put
+together and read exactly as an embedded `snapshot` (which older files have, and still import).
+"""
+
+import json
+from typing import Any
+
+from sqlmodel import Session, col, select
+
+from app.db.models import Revision
+from app.db.snapshot_parts import (
+    SnapshotPartsError,
+    assemble_snapshot,
+    manifest_digests,
+    part_digest,
+    part_text,
+    read_manifest,
+)
+from app.db.snapshot_store import part_texts, revision_manifest
+
+# Any in this module: study-file rows are JSON objects (the file boundary).
+
+PARTS_KEY = "snapshot_parts"
+FROM_PARTS_KEY = "snapshot_from_parts"
+PART_RULE = "every part a revision names must be in the file's snapshot_parts"
+DIGEST_RULE = "a part's key must be the SHA-256 of its compact JSON text"
+
+
+def export_revisions(session: Session, study_id: int) -> dict[str, Any]:
+    """The file's `revisions` and, when there are any, the `snapshot_parts` they name."""
+    revisions = session.exec(
+        select(Revision).where(Revision.study_id == study_id).order_by(col(Revision.id))
+    ).all()
+    manifests = [revision_manifest(r) for r in revisions]
+    named = [digest for manifest in manifests for digest in manifest_digests(manifest)]
+    texts = part_texts(session, study_id, named)
+    section: dict[str, Any] = {"revisions": [
+        {"label": r.label, "note": r.note, "frozen_at": r.frozen_at.isoformat(),
+         "frozen_by": r.frozen_by, "signed_off_by": r.signed_off_by,
+         "signed_off_at": r.signed_off_at.isoformat() if r.signed_off_at else None,
+         FROM_PARTS_KEY: manifest}
+        for r, manifest in zip(revisions, manifests, strict=True)]}
+    if revisions:
+        section[PARTS_KEY] = {digest: json.loads(texts[digest]) for digest in dict.fromkeys(named)}
+    return section
+
+
+def expand_revision_parts(data: dict[str, Any]) -> dict[str, Any]:
+    """The file with each revision's snapshot put together from the parts it names; the same
+    object when no revision names parts. Raises SnapshotPartsError naming the broken rule."""
+    revisions = data.get("revisions")
+    if PARTS_KEY not in data and not (isinstance(revisions, list) and any(
+            isinstance(r, dict) and FROM_PARTS_KEY in r for r in revisions)):
+        return data
+    parts = _checked_parts(data.get(PARTS_KEY, {}))
+    expanded = {key: value for key, value in data.items() if key != PARTS_KEY}
+    expanded["revisions"] = [
+        _expanded(revision, index, parts) for index, revision in enumerate(revisions or [])]
+    return expanded
+
+
+def _checked_parts(parts: Any) -> dict[str, Any]:
+    if not isinstance(parts, dict):
+        raise SnapshotPartsError(f"{PARTS_KEY}: an object of parts keyed by their digests")
+    for digest, value in parts.items():
+        actual = part_digest(part_text(value))
+        if actual != digest:
+            raise SnapshotPartsError(
+                f"{PARTS_KEY}.{digest}: the part's content hashes to {actual}; {DIGEST_RULE} "
+                f"(the file was changed after it was written)")
+    return parts
+
+
+def _expanded(revision: Any, index: int, parts: dict[str, Any]) -> Any:
+    if not isinstance(revision, dict) or FROM_PARTS_KEY not in revision:
+        return revision  # an embedded snapshot (or a shape validation will describe)
+    where = f"revisions.{index}.{FROM_PARTS_KEY}"
+    if "snapshot" in revision:
+        raise SnapshotPartsError(f"revisions.{index}: a revision has either a snapshot or "
+                                 f"{FROM_PARTS_KEY}, not both")
+    manifest = read_manifest(revision[FROM_PARTS_KEY], where)
+    for digest in manifest_digests(manifest):
+        if digest not in parts:
+            raise SnapshotPartsError(f"{where}: part {digest} is not in the file; {PART_RULE}")
+    rest = {key: value for key, value in revision.items() if key != FROM_PARTS_KEY}
+    return {**rest, "snapshot": assemble_snapshot(manifest, parts.__getitem__)}
