@@ -238,7 +238,7 @@ def export_study(session: Session, study_id: int, *, with_history: bool = True) 
     }
     if with_history:
         data["change_log"] = _export_log(session, study_id, scenario_refs)
-        data.update(export_revisions(session, study_id))
+        data.update(export_revisions(session, study_id, live=data))
     return data
 
 

@@ -1,11 +1,13 @@
 """The revisions section of the study file: revisions name shared snapshot parts.
 
-Written: each revision lists its snapshot's parts by digest under `snapshot_from_parts`, and
-the file holds every part named, once, under the top-level `snapshot_parts` (digest -> the
-part's JSON), so two revisions that share unchanged nodes carry them once and the file stays
-self-contained. Read: every named part must be in the file and match its digest (the SHA-256
-of its compact JSON text, app/db/snapshot_parts.py); each revision's snapshot is then put
-together and read exactly as an embedded `snapshot` (which older files have, and still import).
+Written: each revision lists its snapshot's parts by digest under `snapshot_from_parts`. A part
+equal to the file's own study content (a node, the criteria, ... unchanged since the revision)
+is that content; every other part named is written once under the top-level `snapshot_parts`
+(digest -> the part's JSON). So two revisions of an unchanged study add little more than their
+manifests, and the file stays self-contained. Read: every named part must be in the file, and
+each part of `snapshot_parts` must match its digest (the SHA-256 of its compact JSON text,
+app/db/snapshot_parts.py); each revision's snapshot is then put together and read exactly as
+an embedded `snapshot` (which older files have, and still import).
 """
 
 import json
@@ -20,6 +22,7 @@ from app.db.snapshot_parts import (
     manifest_digests,
     part_digest,
     part_text,
+    part_values,
     read_manifest,
 )
 from app.db.snapshot_store import part_texts, revision_manifest
@@ -28,12 +31,16 @@ from app.db.snapshot_store import part_texts, revision_manifest
 
 PARTS_KEY = "snapshot_parts"
 FROM_PARTS_KEY = "snapshot_from_parts"
-PART_RULE = "every part a revision names must be in the file's snapshot_parts"
+PART_RULE = ("every part a revision names must be in the file: in snapshot_parts, or the "
+             "study's own content unchanged")
+# Not study content: what a revision's snapshot never holds.
+HISTORY_KEYS = frozenset({"change_log", "revisions", PARTS_KEY, "computed_figures"})
 DIGEST_RULE = "a part's key must be the SHA-256 of its compact JSON text"
 
 
-def export_revisions(session: Session, study_id: int) -> dict[str, Any]:
-    """The file's `revisions` and, when there are any, the `snapshot_parts` they name."""
+def export_revisions(session: Session, study_id: int, live: dict[str, Any]) -> dict[str, Any]:
+    """The file's `revisions` and, when there are any, the `snapshot_parts` they name that
+    the file's study content (`live`, as written) does not hold."""
     revisions = session.exec(
         select(Revision).where(Revision.study_id == study_id).order_by(col(Revision.id))
     ).all()
@@ -47,8 +54,15 @@ def export_revisions(session: Session, study_id: int) -> dict[str, Any]:
          FROM_PARTS_KEY: manifest}
         for r, manifest in zip(revisions, manifests, strict=True)]}
     if revisions:
-        section[PARTS_KEY] = {digest: json.loads(texts[digest]) for digest in dict.fromkeys(named)}
+        held = part_values(_content(live))
+        section[PARTS_KEY] = {digest: json.loads(texts[digest])
+                              for digest in dict.fromkeys(named) if digest not in held}
     return section
+
+
+def _content(data: dict[str, Any]) -> dict[str, Any]:
+    """The study content of a file: what a snapshot of it would hold."""
+    return {key: value for key, value in data.items() if key not in HISTORY_KEYS}
 
 
 def expand_revision_parts(data: dict[str, Any]) -> dict[str, Any]:
@@ -58,7 +72,7 @@ def expand_revision_parts(data: dict[str, Any]) -> dict[str, Any]:
     if PARTS_KEY not in data and not (isinstance(revisions, list) and any(
             isinstance(r, dict) and FROM_PARTS_KEY in r for r in revisions)):
         return data
-    parts = _checked_parts(data.get(PARTS_KEY, {}))
+    parts = {**part_values(_content(data)), **_checked_parts(data.get(PARTS_KEY, {}))}
     expanded = {key: value for key, value in data.items() if key != PARTS_KEY}
     expanded["revisions"] = [
         _expanded(revision, index, parts) for index, revision in enumerate(revisions or [])]

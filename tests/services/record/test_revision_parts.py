@@ -113,6 +113,10 @@ def test_export_then_import_gives_the_same_revisions_and_comparisons(
     node_parts = {d for r in data["revisions"] for d in r["snapshot_from_parts"]["nodes"]}
     assert len(node_parts) == nodes + 1
     assert all("snapshot" not in r for r in data["revisions"])
+    # Rev B is the study as it stands: the file's own content holds all of its parts, so the
+    # file carries only the one node part Rev A had before the change.
+    rev_a_nodes = data["revisions"][0]["snapshot_from_parts"]["nodes"]
+    assert list(data["snapshot_parts"]) == [rev_a_nodes[-1]]
     compared = _comparison(session, study_id)
     assert [c[2] for c in compared if c[0] == "changed"] == ["value"]
     free_the_title(session, demo_study)
@@ -144,19 +148,34 @@ def test_a_file_naming_a_part_it_does_not_hold_is_refused(
         session: Session, demo_study: Study) -> None:
     _two_revisions(session, demo_study)
     data = export_study(session, demo_study.id or 0)
-    missing = data["revisions"][1]["snapshot_from_parts"]["nodes"][-1]
+    missing = data["revisions"][0]["snapshot_from_parts"]["nodes"][-1]
     del data["snapshot_parts"][missing]
     message = _refused(session, data)
-    assert f"revisions.1.snapshot_from_parts: part {missing} is not in the file" in message
-    assert "every part a revision names must be in the file's snapshot_parts" in message
+    assert f"revisions.0.snapshot_from_parts: part {missing} is not in the file" in message
+    assert RULE in message
+
+
+RULE = ("every part a revision names must be in the file: in snapshot_parts, or the study's "
+        "own content unchanged")
+
+
+def test_a_file_whose_study_content_changed_under_its_revisions_is_refused(
+        session: Session, demo_study: Study) -> None:
+    _two_revisions(session, demo_study)
+    data = export_study(session, demo_study.id or 0)
+    data["study"]["facility"] = "Quietly changed"  # Rev A and Rev B name the header as it was
+    header = data["revisions"][1]["snapshot_from_parts"]["study"]
+    message = _refused(session, data)
+    assert f"revisions.0.snapshot_from_parts: part {header} is not in the file" in message
+    assert RULE in message
 
 
 def test_a_part_changed_after_the_file_was_written_is_refused(
         session: Session, demo_study: Study) -> None:
     _two_revisions(session, demo_study)
     data = export_study(session, demo_study.id or 0)
-    digest = data["revisions"][0]["snapshot_from_parts"]["study"]
-    data["snapshot_parts"][digest]["title"] = "Quietly renamed"
+    digest = data["revisions"][0]["snapshot_from_parts"]["nodes"][-1]
+    data["snapshot_parts"][digest]["name"] = "Quietly renamed"
     actual = part_digest(part_text(data["snapshot_parts"][digest]))
     message = _refused(session, data)
     assert f"snapshot_parts.{digest}: the part's content hashes to {actual}" in message
