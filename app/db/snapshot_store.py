@@ -6,10 +6,10 @@ digest in the manifest); reading puts a snapshot back together exactly as it was
 """
 
 import json
-from collections.abc import Iterable
+from collections.abc import Iterable, Iterator
 from typing import Any
 
-from sqlalchemy import insert
+from sqlalchemy import insert, literal
 from sqlalchemy.orm import object_session
 from sqlmodel import Session, col, select
 
@@ -32,7 +32,7 @@ def store_snapshot(session: Session, study_id: int, snapshot: dict[str, Any]) ->
     """Store the parts of `snapshot` the study does not hold yet; its manifest as JSON text
     (for Revision.snapshot_parts). Flushes nothing else and does not commit."""
     manifest, parts = split_snapshot(snapshot)
-    held = set(_held_digests(session, study_id, parts))
+    held = _held_digests(session, study_id, parts)
     new = [{"study_id": study_id, "digest": digest, "content": text}
            for digest, text in parts.items() if digest not in held]
     if new:
@@ -64,21 +64,21 @@ def snapshot_text(revision: Revision) -> str:
 
 def part_texts(session: Session, study_id: int, digests: Iterable[str]) -> dict[str, str]:
     """The stored text of each named part of the study (missing ones are simply absent)."""
+    return dict(_stored(session, study_id, digests, with_content=True))
+
+
+def _held_digests(session: Session, study_id: int, digests: Iterable[str]) -> set[str]:
+    return {digest for digest, _ in _stored(session, study_id, digests, with_content=False)}
+
+
+def _stored(session: Session, study_id: int, digests: Iterable[str],
+            *, with_content: bool) -> Iterator[tuple[str, str]]:
+    """(digest, content or "") of each named part the study holds, asked in chunks."""
     wanted = list(dict.fromkeys(digests))
-    found: dict[str, str] = {}
+    content: Any = SnapshotPart.content if with_content else literal("")
     for start in range(0, len(wanted), DIGESTS_PER_QUERY):
         chunk = wanted[start:start + DIGESTS_PER_QUERY]
-        rows = session.exec(select(SnapshotPart.digest, SnapshotPart.content).where(
-            SnapshotPart.study_id == study_id, col(SnapshotPart.digest).in_(chunk))).all()
-        found.update((digest, content) for digest, content in rows)
-    return found
-
-
-def _held_digests(session: Session, study_id: int, digests: Iterable[str]) -> Iterable[str]:
-    wanted = list(digests)
-    for start in range(0, len(wanted), DIGESTS_PER_QUERY):
-        chunk = wanted[start:start + DIGESTS_PER_QUERY]
-        yield from session.exec(select(SnapshotPart.digest).where(
+        yield from session.exec(select(SnapshotPart.digest, content).where(
             SnapshotPart.study_id == study_id, col(SnapshotPart.digest).in_(chunk))).all()
 
 
