@@ -50,7 +50,7 @@ def split_snapshot(snapshot: dict[str, Any]) -> tuple[Manifest, dict[str, str]]:
     for key, value in snapshot.items():
         if key == NODES_KEY and isinstance(value, list):
             manifest[key] = []
-        for text, _value in _parts_of(key, value):
+        for text in _parts_of(key, value):
             digest = part_digest(text)
             parts.setdefault(digest, text)
             named = manifest.get(key)
@@ -61,22 +61,15 @@ def split_snapshot(snapshot: dict[str, Any]) -> tuple[Manifest, dict[str, str]]:
     return manifest, parts
 
 
-def part_values(snapshot: dict[str, Any]) -> dict[str, Any]:
-    """The parts of `snapshot` as values (digest -> value as a part holds it): what a file's
-    own study content offers the revisions that did not change it."""
-    return {part_digest(text): value
-            for key, whole in snapshot.items() for text, value in _parts_of(key, whole)}
-
-
-def _parts_of(key: str, value: Any) -> Iterator[tuple[str, Any]]:
-    """The (text, value) of each part one top-level key makes: one, or one per node."""
+def _parts_of(key: str, value: Any) -> Iterator[str]:
+    """The text of each part one top-level key makes: one, or one per node."""
     if key != NODES_KEY or not isinstance(value, list):
-        yield part_text(value), value
+        yield part_text(value)
         return
     counter = 0
     for node in value:
         stripped, counter = _without_sequential_refs(node, counter)
-        yield part_text(stripped), stripped
+        yield part_text(stripped)
 
 
 def assemble_snapshot(manifest: Manifest, value_of: Callable[[str], Any]) -> dict[str, Any]:

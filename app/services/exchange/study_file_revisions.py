@@ -22,8 +22,8 @@ from app.db.snapshot_parts import (
     manifest_digests,
     part_digest,
     part_text,
-    part_values,
     read_manifest,
+    split_snapshot,
 )
 from app.db.snapshot_store import part_texts, revision_manifest
 
@@ -54,7 +54,7 @@ def export_revisions(session: Session, study_id: int, live: dict[str, Any]) -> d
          FROM_PARTS_KEY: manifest}
         for r, manifest in zip(revisions, manifests, strict=True)]}
     if revisions:
-        held = part_values(_content(live))
+        held = split_snapshot(_content(live))[1]
         section[PARTS_KEY] = {digest: json.loads(texts[digest])
                               for digest in dict.fromkeys(named) if digest not in held}
     return section
@@ -72,26 +72,31 @@ def expand_revision_parts(data: dict[str, Any]) -> dict[str, Any]:
     if PARTS_KEY not in data and not (isinstance(revisions, list) and any(
             isinstance(r, dict) and FROM_PARTS_KEY in r for r in revisions)):
         return data
-    parts = {**part_values(_content(data)), **_checked_parts(data.get(PARTS_KEY, {}))}
+    # As texts, each read afresh where it is used: no snapshot shares an object with the
+    # study content or another revision, so changing one never changes another.
+    parts = {**split_snapshot(_content(data))[1], **_checked_parts(data.get(PARTS_KEY, {}))}
     expanded = {key: value for key, value in data.items() if key != PARTS_KEY}
     expanded["revisions"] = [
         _expanded(revision, index, parts) for index, revision in enumerate(revisions or [])]
     return expanded
 
 
-def _checked_parts(parts: Any) -> dict[str, Any]:
+def _checked_parts(parts: Any) -> dict[str, str]:
+    """The file's parts as texts (digest -> text), each checked against its digest."""
     if not isinstance(parts, dict):
         raise SnapshotPartsError(f"{PARTS_KEY}: an object of parts keyed by their digests")
+    texts = {}
     for digest, value in parts.items():
-        actual = part_digest(part_text(value))
+        texts[digest] = part_text(value)
+        actual = part_digest(texts[digest])
         if actual != digest:
             raise SnapshotPartsError(
                 f"{PARTS_KEY}.{digest}: the part's content hashes to {actual}; {DIGEST_RULE} "
                 f"(the file was changed after it was written)")
-    return parts
+    return texts
 
 
-def _expanded(revision: Any, index: int, parts: dict[str, Any]) -> Any:
+def _expanded(revision: Any, index: int, parts: dict[str, str]) -> Any:
     if not isinstance(revision, dict) or FROM_PARTS_KEY not in revision:
         return revision  # an embedded snapshot (or a shape validation will describe)
     where = f"revisions.{index}.{FROM_PARTS_KEY}"
@@ -103,4 +108,5 @@ def _expanded(revision: Any, index: int, parts: dict[str, Any]) -> Any:
         if digest not in parts:
             raise SnapshotPartsError(f"{where}: part {digest} is not in the file; {PART_RULE}")
     rest = {key: value for key, value in revision.items() if key != FROM_PARTS_KEY}
-    return {**rest, "snapshot": assemble_snapshot(manifest, parts.__getitem__)}
+    return {**rest, "snapshot": assemble_snapshot(manifest,
+                                                  lambda digest: json.loads(parts[digest]))}

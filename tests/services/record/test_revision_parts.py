@@ -195,3 +195,17 @@ def test_a_revision_with_a_malformed_part_list_is_refused(
     data = export_study(session, demo_study.id or 0)
     spoil(data["revisions"][0])
     assert rule in _refused(session, data)
+
+
+def test_a_snapshot_read_from_a_file_shares_nothing_with_the_study_content(
+        session: Session, demo_study: Study) -> None:
+    from app.services.exchange.study_file_revisions import expand_revision_parts
+
+    _two_revisions(session, demo_study)
+    data = expand_revision_parts(export_study(session, demo_study.id or 0))
+    title = data["study"]["title"]
+    data["study"]["title"] = "Changed in the live content only"
+    data["nodes"][0]["name"] = "Changed in the live content only"
+    assert [r["snapshot"]["study"]["title"] for r in data["revisions"]] == [title, title]
+    assert all(r["snapshot"]["nodes"][0]["name"] != "Changed in the live content only"
+               for r in data["revisions"])
