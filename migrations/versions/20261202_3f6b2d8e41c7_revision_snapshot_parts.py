@@ -10,7 +10,7 @@ reading a converted revision gives back the same snapshot (tests/db/test_snapsho
 Downgrading puts every whole snapshot back.
 
 Revision ID: 3f6b2d8e41c7
-Revises: 9e9dca590747
+Revises: 3c8d0f1e6a52
 Create Date: 2026-12-02 12:40:00
 """
 import json
@@ -23,7 +23,7 @@ from alembic import op
 from app.db.snapshot_parts import assemble_snapshot, manifest_digests, split_snapshot
 
 revision: str = '3f6b2d8e41c7'
-down_revision: str | None = '9e9dca590747'
+down_revision: str | None = '3c8d0f1e6a52'
 branch_labels: str | Sequence[str] | None = None
 depends_on: str | Sequence[str] | None = None
 

@@ -19,7 +19,7 @@ from app.db.snapshot_store import load_snapshot
 from app.demo import DEMO_STUDY_PATH
 from tests.scratch_db import settings_pointing_at, sqlite_url
 
-BEFORE = "9e9dca590747"  # the head before revision snapshots were split into parts
+BEFORE = "3c8d0f1e6a52"  # the head before revision snapshots were split into parts
 
 
 def _snapshot(first_node_scenarios: int) -> dict[str, Any]:
