@@ -86,12 +86,17 @@ def _step_figure_columns() -> list[Any]:
             Step.cause_type, Step.final_element_tag, Step.alarm_on_bpcs,
             Step.crew, Step.per_opportunity_probability,
             Step.opportunities_per_year, Step.time_available_minutes,
-            Step.time_to_detect_and_act_minutes]
+            Step.time_to_detect_and_act_minutes, Step.error_factor]
 
 
 def step_figures_of_study(study_id: int) -> Any:
     """The columns of a study's steps that the arithmetic reads, as plain rows."""
     return select_columns(*_step_figure_columns()).where(col(Step.study_id) == study_id)
+
+
+def step_figures_of_scenario_ids(scenario_ids: list[int]) -> Any:
+    """step_figures_of_study for a few scenarios of any study (through the scenario_id index)."""
+    return select_columns(*_step_figure_columns()).where(col(Step.scenario_id).in_(scenario_ids))
 
 
 # Built once, run with {"scenario_ids": [...]}: a keystroke recomputes its scenario from these.
