@@ -1,8 +1,8 @@
 """Create a study from a validated study file, all in one transaction."""
 
 import json
-from functools import cache
 from datetime import UTC, date, datetime
+from functools import cache
 from typing import Any
 
 from sqlalchemy import insert
@@ -32,6 +32,7 @@ from app.services.exchange.study_file import StudyFileError, export_study, parse
 from app.services.exchange.study_file_rounds import import_rounds
 from app.services.exchange.study_schema import StudyFile
 from app.services.study.step_fields import receptors_text
+from app.services.study.stored_results import write_study_results
 
 # Set from the largest study an import accepts (Settings.max_import_scenarios, 50,000): its
 # compact study file measures about 1.8 kB a scenario (the invented bench studies: 17.6 MB at
@@ -78,6 +79,9 @@ def import_study_file(session: Session, data: StudyFile) -> Study:
         _import_attendance(session, study.id, data)
         import_rounds(session, study.id, data, scenarios)
         _import_history(session, study.id, data, scenarios)
+        # The rows went in by Core statements, which the stored-results notes do not see:
+        # every scenario is computed here, so the first page reads them ready.
+        write_study_results(session, study.id)
         session.commit()
     except SQLAlchemyError as err:
         session.rollback()
