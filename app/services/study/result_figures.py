@@ -14,7 +14,6 @@ a sum or a ranking needs it, and RESULTS_VERSION (stored_results.py) is raised.
 import json
 from collections.abc import Mapping
 from dataclasses import dataclass, fields, is_dataclass
-from functools import cache
 from typing import Any
 
 from app.likelihood.demand import SifDemand
@@ -45,10 +44,15 @@ def _demand(data: Mapping[str, Any]) -> SifDemand:
 LEAVES = frozenset({float, int, str, bool, type(None)})
 
 
-@cache
+_FIELD_NAMES: dict[type, tuple[str, ...] | None] = {}
+
+
 def _field_names(kind: type) -> tuple[str, ...] | None:
-    """A dataclass's field names; None for any other type."""
-    return tuple(item.name for item in fields(kind)) if is_dataclass(kind) else None
+    """A dataclass's field names; None for any other type (remembered per type)."""
+    if kind not in _FIELD_NAMES:
+        _FIELD_NAMES[kind] = (tuple(item.name for item in fields(kind))
+                              if is_dataclass(kind) else None)
+    return _FIELD_NAMES[kind]
 
 
 def _plain(value: Any, *, leave_out: str = "") -> Any:
