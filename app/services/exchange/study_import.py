@@ -33,23 +33,36 @@ from app.services.exchange.study_file_rounds import import_rounds
 from app.services.exchange.study_schema import StudyFile
 from app.services.study.step_fields import receptors_text
 from app.services.study.stored_results import write_study_results
+from app.settings import get_settings
 
-# Set from the largest study an import accepts (Settings.max_import_scenarios, 50,000): its
-# compact study file measures about 1.8 kB a scenario (the invented bench studies: 17.6 MB at
-# 10,000), so about 90 MB; twice that leaves room for one frozen revision inside the file.
-# Larger uploads are refused before they are read as JSON.
-STUDY_FILE_BYTES_PER_SCENARIO = 1_800
-MAX_FILE_BYTES = 200 * 1024 * 1024
+# The import limit follows from the largest study the app holds: max_import_scenarios
+# (50,000) scenarios of the invented bench shape (about 10 deviations a node, 20 scenarios a
+# deviation, 4-6 steps each), with one frozen revision whose every node differs from the live
+# study. Measured on those studies' JSON exports: about 3.2 kB a scenario of study content and
+# 1.7 kB of computed figures (at most 5.0 kB in all, 3.3 kB of content); a revision stored as
+# shared parts adds only what differs, at most one more copy of the content. So 50,000 x
+# (5.0 + 3.3) kB = 415 MB, and the limit (Settings.max_import_bytes, 512 MB) leaves more than
+# a fifth for longer texts. Larger
+# uploads are refused before they are read as JSON.
+FILE_BYTES_PER_SCENARIO = 5_000
+CONTENT_BYTES_PER_SCENARIO = 3_300
+LARGEST_STUDY_FILE_BYTES = 50_000 * (FILE_BYTES_PER_SCENARIO + CONTENT_BYTES_PER_SCENARIO)
 TITLE_LIMIT = 200  # Study.title's column limit
+
+
+def max_file_bytes() -> int:
+    """The most bytes a study file may have (settings)."""
+    return get_settings().max_import_bytes
 
 
 def import_study_upload(*, session: Session, raw: bytes) -> Study:
     """Import an uploaded study file, refusing an empty or oversized one with a clear message."""
     if not raw.strip():
         raise StudyFileError("the file is empty: choose a Tallyroom study file (.json)")
-    if len(raw) > MAX_FILE_BYTES:
+    limit = max_file_bytes()
+    if len(raw) > limit:
         raise StudyFileError(
-            f"the file is larger than {_size(MAX_FILE_BYTES)}, the most a study file may be"
+            f"the file is larger than {_size(limit)}, the most a study file may be"
         )
     return import_study_text(session, raw)
 
