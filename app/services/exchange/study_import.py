@@ -1,6 +1,9 @@
 """Create a study from a validated study file, all in one transaction."""
 
+import gc
 import json
+from collections.abc import Iterator
+from contextlib import contextmanager
 from datetime import UTC, date, datetime
 from functools import cache
 from typing import Any
@@ -73,7 +76,22 @@ def _size(count: int) -> str:
 
 def import_study_text(session: Session, raw: str | bytes) -> Study:
     """Validate and import a JSON study file; nothing is written when it is invalid."""
-    return import_study_file(session, parse_study_file(raw))
+    with _no_cycle_collection():
+        return import_study_file(session, parse_study_file(raw))
+
+
+@contextmanager
+def _no_cycle_collection() -> Iterator[None]:
+    """The cycle collector paused while a file's millions of rows are built: it kept walking
+    them (about a sixth of a 10,000-scenario import's CPU time) and finds no cycles there;
+    the rows go when the import returns, and the collector resumes as it was."""
+    was_enabled = gc.isenabled()
+    gc.disable()
+    try:
+        yield
+    finally:
+        if was_enabled:
+            gc.enable()
 
 
 def import_study_file(session: Session, data: StudyFile) -> Study:
