@@ -68,6 +68,7 @@ def parse_study_file(raw: str | bytes) -> StudyFile:
     upgraded = upgrade_study_data(data)
     if upgraded is not data:  # an older version: validate the upgraded rows
         text = json.dumps(upgraded)
+    del data, upgraded  # the parsed tree goes before validation builds the rows again
     try:
         return StudyFile.model_validate_json(text, strict=True)
     except ValidationError as err:
