@@ -62,12 +62,17 @@ def import_study_upload(*, session: Session, raw: bytes) -> Study:
     """Import an uploaded study file, refusing an empty or oversized one with a clear message."""
     if not raw.strip():
         raise StudyFileError("the file is empty: choose a Tallyroom study file (.json)")
+    check_file_size(len(raw))
+    return import_study_text(session, raw)
+
+
+def check_file_size(size: int) -> None:
+    """Refuse a file over the size limit (before it is read, where the size is known)."""
     limit = max_file_bytes()
-    if len(raw) > limit:
+    if size > limit:
         raise StudyFileError(
             f"the file is larger than {_size(limit)}, the most a study file may be"
         )
-    return import_study_text(session, raw)
 
 
 def _size(count: int) -> str:
