@@ -149,13 +149,17 @@ def cmd_import(args: argparse.Namespace) -> int:
     """Create a new study from a study file; print its id."""
     from app.db.tracking import install_tracking
     from app.services.exchange.study_file import StudyFileError
-    from app.services.exchange.study_import import import_study_upload
+    from app.services.exchange.study_import import check_file_size, import_study_upload
 
     path = Path(args.file)
     try:
+        check_file_size(path.stat().st_size)  # a file over the limit is never read
         raw = path.read_bytes()
     except OSError as err:
         print(f"tallyroom import: cannot read {path}: {err.strerror}", file=sys.stderr)
+        return 2
+    except StudyFileError as err:
+        print(f"tallyroom import: {path} not imported: {err}", file=sys.stderr)
         return 2
     install_tracking()
     with Session(get_db_engine()) as session:
@@ -199,7 +203,7 @@ def _add_file_commands(sub: argparse._SubParsersAction) -> None:  # type: ignore
     export.add_argument("--format", required=True, choices=["xlsx", "csv", "json", "pdf"])
     export.add_argument("--out", help="file to write (default: the download's file name, here)")
     importer = sub.add_parser("import", help="create a new study from a study file (.json)")
-    importer.add_argument("file", help="a Tallyroom study file, schema version 1")
+    importer.add_argument("file", help="a Tallyroom study file, schema version 1 or 2")
     deleter = sub.add_parser("delete-study", help="delete a study and everything it holds")
     deleter.add_argument("study", help="the study's id or its exact title")
     deleter.add_argument("--yes", action="store_true", help="confirm: without it nothing is "

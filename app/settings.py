@@ -25,6 +25,9 @@ class Settings(BaseSettings):
     # whole study too, at the largest study `make bench` measures (50,000 scenarios).
     max_import_scenarios: int = 50_000
     max_import_scenarios_per_node: int = 500
+    # The largest upload or `tallyroom import` file, in bytes (README "Importing a study file";
+    # study_import.LARGEST_STUDY_FILE_BYTES says how it follows from max_import_scenarios).
+    max_import_bytes: int = Field(default=512 * 2**20, gt=0)
     # Serve the meeting-room network: sign-in with the passphrase or the day's join code.
     lan: bool = False
     # Other names this server answers to (a DNS name for the LAN address; the test client).

@@ -13,6 +13,7 @@ from app.services.exchange.export_tables import computed_figures
 from app.services.exchange.exports import study_json_bytes
 from app.services.exchange.study_file import export_study
 from app.services.study.tree import load_study_tree
+from app.settings import get_settings
 from tests.factories import make_scenario_tree, make_study
 from tests.samples import free_the_title, study_count
 
@@ -113,6 +114,23 @@ def test_import_of_an_invalid_file_says_why_exits_2_and_writes_nothing(
     assert capsys.readouterr().err == (
         f"tallyroom import: {path} not imported: "
         "nodes.0.deviations.0.scenarios.0.steps.0.value: Input should be greater than 0\n"
+    )
+    assert study_count(session) == 1
+
+
+def test_import_of_a_file_over_the_size_limit_is_refused_before_it_is_read(
+    session: Session, study: Study, tmp_path: Path, capsys: pytest.CaptureFixture[str],
+    monkeypatch: pytest.MonkeyPatch,
+) -> None:
+    path = tmp_path / "study.json"
+    path.write_bytes(study_json_bytes(export_study(session, study.id or 0)))
+    limit = path.stat().st_size - 1
+    monkeypatch.setattr(get_settings(), "max_import_bytes", limit)
+    monkeypatch.setattr(Path, "read_bytes", lambda _path: pytest.fail("the file was read"))
+    assert main(["import", str(path)]) == 2
+    assert capsys.readouterr().err == (
+        f"tallyroom import: {path} not imported: the file is larger than {limit:,} bytes, the "
+        f"most a study file may be\n"
     )
     assert study_count(session) == 1
 

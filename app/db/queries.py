@@ -41,10 +41,13 @@ def rows_of_study(model: type[Row], study_id: int) -> SelectOfScalar[Row]:
     return _in_display_order(select(model).where(table.study_id == study_id), model)
 
 
-def plain_rows_of_study(model: type[Any], study_id: int) -> Any:
-    """rows_of_study as plain rows of every column (no ORM objects built)."""
+def plain_rows_of_study(model: type[Any], study_id: int, names: tuple[str, ...] = ()) -> Any:
+    """rows_of_study as plain rows of every column, or of the columns named, in that order
+    (no ORM objects built)."""
     table: Any = model  # Any: the table model's columns
-    statement = select_columns(*table.__table__.columns).where(table.study_id == study_id)
+    columns = ([table.__table__.columns[name] for name in names] if names
+               else list(table.__table__.columns))
+    statement = select_columns(*columns).where(table.study_id == study_id)
     return _in_display_order(statement, model)
 
 

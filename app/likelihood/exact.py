@@ -10,15 +10,27 @@ from __future__ import annotations
 import math
 from collections.abc import Iterable
 from fractions import Fraction
+from functools import lru_cache
 
 
+@lru_cache(maxsize=4096)
 def as_decimal(value: float) -> Fraction:
-    """The finite float as the exact value of its shortest decimal form (0.1 -> 1/10)."""
+    """The finite float as the exact value of its shortest decimal form (0.1 -> 1/10).
+
+    Remembered (a Fraction is immutable): a study uses few distinct values, and parsing the
+    text was a third of computing a large study from scratch."""
     return Fraction(repr(float(value)))
 
 
 def exact_product(values: Iterable[float]) -> Fraction:
     """Exact product of the values read as decimals (1 for no values)."""
+    # Exact, so the order of the factors cannot matter: sorted, the same factors in any
+    # order are remembered once (a study repeats a few products over thousands of scenarios).
+    return _product_of_sorted(tuple(sorted(map(float, values))))
+
+
+@lru_cache(maxsize=65_536)
+def _product_of_sorted(values: tuple[float, ...]) -> Fraction:
     return math.prod((as_decimal(value) for value in values), start=Fraction(1))
 
 
@@ -30,6 +42,7 @@ def to_float(value: Fraction) -> float:
         return math.inf
 
 
+@lru_cache(maxsize=65_536)
 def exact_ratio(numerator: float, denominator: float) -> Fraction:
     """numerator / denominator, both read as decimals, exactly (denominator must not be 0)."""
     return as_decimal(numerator) / as_decimal(denominator)

@@ -11,7 +11,7 @@ from app.routes.deps import SessionDep
 from app.routes.rendering import render, templates
 from app.services.exchange.exports import ExportFormat, build_export, read_export_page
 from app.services.exchange.study_file import StudyFileError
-from app.services.exchange.study_import import MAX_FILE_BYTES, import_study_upload
+from app.services.exchange.study_import import import_study_upload, max_file_bytes
 from app.services.exchange.study_schema import SCHEMA_PATH, SCHEMA_VERSION, study_json_schema
 from app.services.study import listing as study_service
 
@@ -88,7 +88,7 @@ def import_study(
     study_file: Annotated[UploadFile | None, File()] = None,
 ) -> Response:
     """Create a study from an uploaded study file; refuse a bad file and write nothing."""
-    raw = study_file.file.read(MAX_FILE_BYTES + 1) if study_file else b""
+    raw = study_file.file.read(max_file_bytes() + 1) if study_file else b""
     try:
         study = import_study_upload(session=session, raw=raw)
     except StudyFileError as err:

@@ -70,6 +70,7 @@ def parse_study_file(raw: str | bytes) -> StudyFile:
     upgraded = upgrade_study_data(expanded)
     if upgraded is not data:  # parts put together or an older version: validate the result
         text = json.dumps(upgraded)
+    del data, upgraded  # the parsed tree goes before validation builds the rows again
     try:
         return StudyFile.model_validate_json(text, strict=True)
     except ValidationError as err:
@@ -246,8 +247,9 @@ def _export_nodes(
     session: Session, study_id: int, category_refs: dict[int | None, str]
 ) -> tuple[list[dict[str, Any]], dict[int, str]]:
     deviations = _by_parent(_ordered(session, Deviation, study_id), "node_id")
-    scenarios = _by_parent(_ordered(session, Scenario, study_id), "deviation_id")
-    steps = _by_parent(_ordered(session, Step, study_id), "scenario_id")
+    scenarios = _by_parent(fetch_plain_rows(session, plain_rows_of_study(
+        Scenario, study_id, SCENARIO_COLUMNS)), "deviation_id")
+    steps = _steps_by_scenario(session, study_id)
     safeguards = _by_parent(_ordered(session, Safeguard, study_id), "scenario_id")
     scenario_refs: dict[int, str] = {}
     nodes_out = []
@@ -272,9 +274,14 @@ def _export_nodes(
     return nodes_out, scenario_refs
 
 
+SCENARIO_COLUMNS = ("id", "deviation_id", "cause", "consequence", "notes",
+                    "severity_category_id", "environment_category_id", "asset_category_id",
+                    "people_not_rated")
+
+
 def _export_scenario(
-    scenario: Scenario, ref: str, category_refs: dict[int | None, str],
-    steps: list[Step], safeguards: list[Safeguard],
+    scenario: Any, ref: str, category_refs: dict[int | None, str],
+    steps: list[dict[str, Any]], safeguards: list[Safeguard],
 ) -> dict[str, Any]:
     return {
         "ref": ref,
@@ -285,18 +292,31 @@ def _export_scenario(
         "environment_severity": category_refs.get(scenario.environment_category_id),
         "asset_severity": category_refs.get(scenario.asset_category_id),
         "people_not_rated": scenario.people_not_rated,
-        "steps": [_export_step(step) for step in steps],
+        "steps": steps,
         "safeguards": [{"description": s.description, "note": s.note} for s in safeguards],
     }
 
 
-def _export_step(step: Step) -> dict[str, Any]:
-    # Key order as StepRow declares its fields, so a re-imported revision snapshot (dumped
-    # from the validated rows) exports byte for byte the same.
-    return {"kind": step.kind.value, **_fields(step, STEP_FIELDS),
-            "proof_test": json.loads(step.proof_test) if step.proof_test else None,
-            **_fields(step, METHOD_FIELDS), "receptors": stored_receptors(step.receptors),
-            **_fields(step, CHECK_FIELDS), "error_factor": step.error_factor}
+# A step's keys in the file, in StepRow's order, so a re-imported revision snapshot (dumped
+# from the validated rows) exports byte for byte the same; read as columns of that name.
+STEP_KEYS = ("kind", *STEP_FIELDS, "proof_test", *METHOD_FIELDS, "receptors", *CHECK_FIELDS,
+             "error_factor")
+
+
+def _steps_by_scenario(session: Session, study_id: int) -> dict[int, list[dict[str, Any]]]:
+    """Each scenario's steps in the file's form, read as the file's columns only (no row
+    objects, no timestamps) and laid out by position."""
+    grouped: dict[int, list[dict[str, Any]]] = defaultdict(list)
+    rows = fetch_plain_rows(session, plain_rows_of_study(Step, study_id,
+                                                         ("scenario_id", *STEP_KEYS)))
+    for row in rows:
+        scenario_id, values = row[0], tuple(row)[1:]
+        step = dict(zip(STEP_KEYS, values, strict=True))
+        step["kind"] = step["kind"].value
+        step["proof_test"] = json.loads(step["proof_test"]) if step["proof_test"] else None
+        step["receptors"] = stored_receptors(step["receptors"])
+        grouped[scenario_id].append(step)
+    return grouped
 
 
 def _export_actions(

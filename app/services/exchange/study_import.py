@@ -1,7 +1,11 @@
 """Create a study from a validated study file, all in one transaction."""
 
+import gc
 import json
+from collections.abc import Iterator
+from contextlib import contextmanager
 from datetime import UTC, date, datetime
+from functools import cache
 from typing import Any
 
 from sqlalchemy import insert
@@ -32,25 +36,44 @@ from app.services.exchange.study_file import StudyFileError, export_study, parse
 from app.services.exchange.study_file_rounds import import_rounds
 from app.services.exchange.study_schema import StudyFile
 from app.services.study.step_fields import receptors_text
+from app.services.study.stored_results import write_study_results
+from app.settings import get_settings
 
-# Set from the largest study an import accepts (Settings.max_import_scenarios, 50,000): its
-# compact study file measures about 1.8 kB a scenario (the invented bench studies: 17.6 MB at
-# 10,000), so about 90 MB; twice that leaves room for one frozen revision inside the file.
-# Larger uploads are refused before they are read as JSON.
-STUDY_FILE_BYTES_PER_SCENARIO = 1_800
-MAX_FILE_BYTES = 200 * 1024 * 1024
+# The import limit follows from the largest study the app holds: max_import_scenarios
+# (50,000) scenarios of the invented bench shape (about 10 deviations a node, 20 scenarios a
+# deviation, 4-6 steps each), with one frozen revision whose every node differs from the live
+# study. Measured on those studies' JSON exports: about 3.2 kB a scenario of study content and
+# 1.7 kB of computed figures (at most 5.0 kB in all, 3.3 kB of content); a revision stored as
+# shared parts adds only what differs, at most one more copy of the content. So 50,000 x
+# (5.0 + 3.3) kB = 415 MB, and the limit (Settings.max_import_bytes, 512 MB) leaves more than
+# a fifth for longer texts. Larger
+# uploads are refused before they are read as JSON.
+FILE_BYTES_PER_SCENARIO = 5_000
+CONTENT_BYTES_PER_SCENARIO = 3_300
+LARGEST_STUDY_FILE_BYTES = 50_000 * (FILE_BYTES_PER_SCENARIO + CONTENT_BYTES_PER_SCENARIO)
 TITLE_LIMIT = 200  # Study.title's column limit
+
+
+def max_file_bytes() -> int:
+    """The most bytes a study file may have (settings)."""
+    return get_settings().max_import_bytes
 
 
 def import_study_upload(*, session: Session, raw: bytes) -> Study:
     """Import an uploaded study file, refusing an empty or oversized one with a clear message."""
     if not raw.strip():
         raise StudyFileError("the file is empty: choose a Tallyroom study file (.json)")
-    if len(raw) > MAX_FILE_BYTES:
-        raise StudyFileError(
-            f"the file is larger than {_size(MAX_FILE_BYTES)}, the most a study file may be"
-        )
+    check_file_size(len(raw))
     return import_study_text(session, raw)
+
+
+def check_file_size(size: int) -> None:
+    """Refuse a file over the size limit (before it is read, where the size is known)."""
+    limit = max_file_bytes()
+    if size > limit:
+        raise StudyFileError(
+            f"the file is larger than {_size(limit)}, the most a study file may be"
+        )
 
 
 def _size(count: int) -> str:
@@ -59,7 +82,22 @@ def _size(count: int) -> str:
 
 def import_study_text(session: Session, raw: str | bytes) -> Study:
     """Validate and import a JSON study file; nothing is written when it is invalid."""
-    return import_study_file(session, parse_study_file(raw))
+    with _no_cycle_collection():
+        return import_study_file(session, parse_study_file(raw))
+
+
+@contextmanager
+def _no_cycle_collection() -> Iterator[None]:
+    """The cycle collector paused while a file's millions of rows are built: it kept walking
+    them (about a sixth of a 10,000-scenario import's CPU time) and finds no cycles there;
+    the rows go when the import returns, and the collector resumes as it was."""
+    was_enabled = gc.isenabled()
+    gc.disable()
+    try:
+        yield
+    finally:
+        if was_enabled:
+            gc.enable()
 
 
 def import_study_file(session: Session, data: StudyFile) -> Study:
@@ -78,6 +116,9 @@ def import_study_file(session: Session, data: StudyFile) -> Study:
         _import_attendance(session, study.id, data)
         import_rounds(session, study.id, data, scenarios)
         _import_history(session, study.id, data, scenarios)
+        # The rows went in by Core statements, which the stored-results notes do not see:
+        # every scenario is computed here, so the first page reads them ready.
+        write_study_results(session, study.id)
         session.commit()
     except SQLAlchemyError as err:
         session.rollback()
@@ -139,37 +180,44 @@ Placed = tuple[int, int, Any]
 def _import_nodes(
     session: Session, study_id: int, data: StudyFile, categories: dict[str, int]
 ) -> dict[str, int]:
-    """Write the worksheet a level at a time, each level one bulk insert without ORM objects.
+    """Write the worksheet a level at a time, each level one Core executemany of plain rows.
 
-    Building tens of thousands of model objects (and flushing them one scenario at a time)
-    was most of the time a 10,000-scenario import took; plain rows keep it to seconds.
+    The validated nodes are turned into plain dicts in one call, and no ORM object is built:
+    building tens of thousands of model objects (and the ORM's bulk path, which still looks at
+    every row) was most of the time a 10,000-scenario import took.
     """
+    nodes = [node.model_dump() for node in data.nodes]
     study = {"study_id": study_id}
-    node_ids = _insert_placed(session, Node, "study_id", [
-        {**study, "position": position, **row.model_dump(exclude={"deviations"})}
-        for position, row in enumerate(data.nodes)])
-    deviations = _placed(node_ids, data.nodes, "deviations")
-    deviation_ids = _insert_placed(session, Deviation, "node_id", [
-        {**study, "node_id": node_id, "position": position,
-         **row.model_dump(exclude={"scenarios"})} for node_id, position, row in deviations])
+    node_ids = _insert_placed(session, Node, "node", "study_id", [
+        {**study, "position": position, **_without(row, "deviations")}
+        for position, row in enumerate(nodes)])
+    deviations = _placed(node_ids, nodes, "deviations")
+    deviation_ids = _insert_placed(session, Deviation, "deviation", "node_id", [
+        {**study, "node_id": node_id, "position": position, **_without(row, "scenarios")}
+        for node_id, position, row in deviations])
     scenarios = _placed(deviation_ids, [row for _, _, row in deviations], "scenarios")
-    scenario_ids = _insert_placed(session, Scenario, "deviation_id", [
+    scenario_ids = _insert_placed(session, Scenario, "scenario", "deviation_id", [
         _scenario_values(study_id, placed, categories) for placed in scenarios])
     scenario_rows = [row for _, _, row in scenarios]
     _insert_all(session, Step, [_step_values(study_id, placed)
                                 for placed in _placed(scenario_ids, scenario_rows, "steps")])
     _insert_all(session, Safeguard, [
-        {**study, "scenario_id": scenario_id, "position": position, **row.model_dump()}
+        {**study, "scenario_id": scenario_id, "position": position, **row}
         for scenario_id, position, row in _placed(scenario_ids, scenario_rows, "safeguards")])
-    return {row.ref: scenario_id
+    return {row["ref"]: scenario_id
             for row, scenario_id in zip(scenario_rows, scenario_ids, strict=True)}
 
 
-def _placed(parent_ids: list[int], parent_rows: list[Any], children: str) -> list[Placed]:
+def _without(row: dict[str, Any], children: str) -> dict[str, Any]:
+    return {key: value for key, value in row.items() if key != children}
+
+
+def _placed(parent_ids: list[int], parent_rows: list[dict[str, Any]], children: str
+            ) -> list[Placed]:
     """Each child row of each parent with its parent's new id and its position."""
     return [(parent_id, position, row)
             for parent_id, parent_row in zip(parent_ids, parent_rows, strict=True)
-            for position, row in enumerate(getattr(parent_row, children))]
+            for position, row in enumerate(parent_row[children])]
 
 
 def _scenario_values(study_id: int, placed: Placed, categories: dict[str, int]
@@ -177,38 +225,38 @@ def _scenario_values(study_id: int, placed: Placed, categories: dict[str, int]
     deviation_id, position, row = placed
     return {
         "study_id": study_id, "deviation_id": deviation_id, "position": position,
-        "cause": row.cause, "consequence": row.consequence, "notes": row.notes,
-        "severity_category_id": categories.get(row.severity or ""),
-        "environment_category_id": categories.get(row.environment_severity or ""),
-        "asset_category_id": categories.get(row.asset_severity or ""),
-        "people_not_rated": row.people_not_rated,
+        "cause": row["cause"], "consequence": row["consequence"], "notes": row["notes"],
+        "severity_category_id": categories.get(row["severity"] or ""),
+        "environment_category_id": categories.get(row["environment_severity"] or ""),
+        "asset_category_id": categories.get(row["asset_severity"] or ""),
+        "people_not_rated": row["people_not_rated"],
     }
 
 
 def _step_values(study_id: int, placed: Placed) -> dict[str, Any]:
     scenario_id, position, step = placed
-    # Key order as the calculator writes it, so exporting again gives the same file.
-    proof_test = (json.dumps(step.proof_test.model_dump(mode="json"), ensure_ascii=False)
-                  if step.proof_test else None)
-    return {"study_id": study_id, "scenario_id": scenario_id, "position": position,
-            "proof_test": proof_test, **step.model_dump(exclude={"proof_test", "receptors"}),
-            "receptors": receptors_text(step.receptors)}
+    # Key order as the calculator writes it, so exporting again gives the same file (its
+    # enumerations are StrEnums, written as their text).
+    proof_test = (json.dumps(step["proof_test"], ensure_ascii=False)
+                  if step["proof_test"] else None)
+    return {**step, "study_id": study_id, "scenario_id": scenario_id, "position": position,
+            "proof_test": proof_test, "receptors": receptors_text(step["receptors"])}
 
 
-def _with_defaults(model: type[SQLModel], rows: list[dict[str, Any]]) -> list[dict[str, Any]]:
-    """Rows completed with the model's field defaults (a bulk insert builds no objects)."""
-    defaults = {name: field.get_default(call_default_factory=True)
-                for name, field in model.model_fields.items()
-                if name != "id" and not field.is_required()}
-    return [{**defaults, **row} for row in rows]
+@cache
+def _column_defaults(model: type[SQLModel]) -> dict[str, Any]:
+    """The model's field defaults (a Core insert builds no objects, so it fills them)."""
+    return {name: field.get_default(call_default_factory=True)
+            for name, field in model.model_fields.items()
+            if name != "id" and not field.is_required()}
 
 
-def _insert_placed(session: Session, model: type[SQLModel], parent_field: str,
+def _insert_placed(session: Session, model: type[SQLModel], what: str, parent_field: str,
                    rows: list[dict[str, Any]]) -> list[int]:
     """Insert rows in bulk and return their new ids in the rows' order.
 
     (parent, position) is unique within a freshly imported study, so the ids are read back by
-    it: SQLite cannot return ids of a multi-row insert in a guaranteed order.
+    it in one query: SQLite cannot return ids of a multi-row insert in a guaranteed order.
     """
     if not rows:
         return []
@@ -216,16 +264,18 @@ def _insert_placed(session: Session, model: type[SQLModel], parent_field: str,
     study_id = rows[0]["study_id"]
     placed = fetch_plain_rows(session, placed_rows_of_study(model, parent_field, study_id))
     new_ids = {(row[1], row[2]): row[0] for row in map(tuple, placed)}  # (id, parent id, position)
+    if len(new_ids) != len(rows):
+        raise StudyFileError(f"the study's {what} rows were not all written; nothing imported")
     return [new_ids[(row[parent_field], row["position"])] for row in rows]
 
 
 def _insert_all(session: Session, model: type[SQLModel], rows: list[dict[str, Any]]) -> None:
-    """Insert rows in one executemany."""
+    """Insert rows with one Core executemany (every row sends the same columns)."""
     if rows:
-        # render_nulls: every row sends the same columns, so they go as one batch instead of
-        # one statement per pattern of empty optional fields.
-        statement = insert(model).execution_options(render_nulls=True)
-        session.execute(statement, _with_defaults(model, rows))
+        table: Any = model
+        defaults = _column_defaults(model)
+        session.connection().execute(insert(table.__table__),
+                                     [{**defaults, **row} for row in rows])
 
 
 def _flush_all(session: Session, rows: list[Any]) -> None:

@@ -13,7 +13,7 @@ a sum or a ranking needs it, and RESULTS_VERSION (stored_results.py) is raised.
 
 import json
 from collections.abc import Mapping
-from dataclasses import asdict, dataclass
+from dataclasses import dataclass, fields, is_dataclass
 from typing import Any
 
 from app.likelihood.demand import SifDemand
@@ -44,9 +44,37 @@ def _demand(data: Mapping[str, Any]) -> SifDemand:
                         "sil_target": _sil_target(data["sil_target"])})
 
 
+LEAVES = frozenset({float, int, str, bool, type(None)})
+
+
+_FIELD_NAMES: dict[type, tuple[str, ...] | None] = {}
+
+
+def _field_names(kind: type) -> tuple[str, ...] | None:
+    """A dataclass's field names; None for any other type (remembered per type)."""
+    if kind not in _FIELD_NAMES:
+        _FIELD_NAMES[kind] = (tuple(item.name for item in fields(kind))
+                              if is_dataclass(kind) else None)
+    return _FIELD_NAMES[kind]
+
+
+def _plain(value: Any, *, leave_out: str = "") -> Any:
+    """dataclasses.asdict for the frozen result types, without its deep copies (it was half
+    the time of storing a large study's results); the JSON written is the same."""
+    kind = type(value)
+    if kind in LEAVES:
+        return value
+    if kind is tuple or kind is list:
+        return [_plain(item) for item in value]
+    names = _field_names(kind)
+    if names is None:
+        return value  # an enumeration: written as its text
+    return {name: _plain(getattr(value, name)) for name in names if name != leave_out}
+
+
 def _result_data(result: ScenarioResult) -> dict[str, Any]:
-    data = asdict(result)
-    del data["ladder"]  # the worksheet draws the ladder from the live computation
+    # The worksheet draws the ladder from the live computation.
+    data: dict[str, Any] = _plain(result, leave_out="ladder")
     return data
 
 
@@ -92,7 +120,7 @@ def _figures_data(figures: Figures, rated: Mapping[Receptor, Any]) -> dict[str, 
     lines = figures.receptors.lines
     return {"result": _result_data(figures.result), "governing": figures.governing.receptor,
             "category_id": rated[figures.governing.receptor].id,
-            "lines": [asdict(line) for line in lines],
+            "lines": [_plain(line) for line in lines],
             "line_categories": [rated[line.receptor].id for line in lines]}
 
 

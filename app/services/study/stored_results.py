@@ -234,6 +234,14 @@ def rebuild_study_results(session: Session, study_id: int) -> None:
                                  .with_for_update())
     if _current_studies(session, {study_id}):
         return  # another request rebuilt it while this one waited
+    write_study_results(session, study_id)
+    forget(session)
+    session.commit()
+
+
+def write_study_results(session: Session, study_id: int) -> None:
+    """Replace the study's stored rows and counts by a computation of every scenario, in the
+    session's transaction (an import calls it before its one commit; nothing is committed)."""
     for model in (ScenarioResultRow, ResultTotal):
         table: Any = model
         session.connection().execute(delete(table).where(table.study_id == study_id))
@@ -246,8 +254,6 @@ def rebuild_study_results(session: Session, study_id: int) -> None:
     session.connection().execute(insert(ResultTotal), [
         {"study_id": s, "node_id": n, "results_version": RESULTS_VERSION, **counts}
         for (s, n), counts in sorted(moves.by_key.items())])
-    forget(session)
-    session.commit()
 
 
 def is_current(session: Session, study_id: int) -> bool:

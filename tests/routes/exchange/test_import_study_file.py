@@ -11,11 +11,11 @@ from fastapi.testclient import TestClient
 from sqlalchemy.exc import IntegrityError
 from sqlmodel import Session
 
-import app.routes.exchange.exports as export_routes
 from app.db.models import Study
 from app.services.exchange import study_import
 from app.services.exchange.study_file import export_study
 from app.services.exchange.study_file_revisions import expand_revision_parts
+from app.settings import get_settings
 from tests.samples import edit_demo_study, make_hostile_study, study_count
 
 
@@ -104,13 +104,29 @@ def test_an_oversized_file_is_refused_before_it_is_parsed(
     client: TestClient, session: Session, monkeypatch: pytest.MonkeyPatch
 ) -> None:
     raw = json.dumps(small_file(session)).encode()
-    monkeypatch.setattr(export_routes, "MAX_FILE_BYTES", 100)
-    monkeypatch.setattr(study_import, "MAX_FILE_BYTES", 100)
+    monkeypatch.setattr(get_settings(), "max_import_bytes", 100)
     before = study_count(session)
     response = upload(client, raw)
     assert response.status_code == 422
     assert field_error(response.text) == (
         "Not imported: the file is larger than 100 bytes, the most a study file may be"
+    )
+    assert study_count(session) == before
+
+
+def test_a_file_at_the_size_limit_is_imported_and_one_byte_more_is_refused(
+    client: TestClient, session: Session, monkeypatch: pytest.MonkeyPatch
+) -> None:
+    raw = json.dumps(small_file(session)).encode()
+    monkeypatch.setattr(get_settings(), "max_import_bytes", len(raw) + 1)
+    at_limit = raw + b"\n"  # JSON allows white space after the value
+    assert upload(client, at_limit).status_code == 303
+    before = study_count(session)
+    response = upload(client, at_limit + b" ")
+    assert response.status_code == 422
+    assert field_error(response.text) == (
+        f"Not imported: the file is larger than {len(raw) + 1:,} bytes, the most a study "
+        f"file may be"
     )
     assert study_count(session) == before
 

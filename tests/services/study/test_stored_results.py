@@ -7,6 +7,7 @@ inputs (`compute_study_rows`, and the counts through the older whole-study path
 `totals.study_totals`, which never reads a stored row). Hypothesis draws the sequences.
 """
 
+import json
 from collections.abc import Callable
 from typing import Any
 
@@ -20,6 +21,7 @@ from app.db.models import Deviation, Node, ResultTotal, Scenario, ScenarioResult
 from app.db.tracking import AUTHOR_KEY
 from app.demo import load_demo_study
 from app.likelihood.types import LikelihoodInputError, StepKind
+from app.services.exchange.study_import import import_study_text
 from app.services.risk.criteria import CategoryForm, save_category
 from app.services.study.errors import FieldInputError
 from app.services.study.result_figures import StoredResult
@@ -36,6 +38,7 @@ from app.services.study.totals import study_totals
 from app.services.worksheet.edits import edit_field, edit_step_value
 from app.services.worksheet.structure import StructureInputError, create_row, move_row
 from app.services.worksheet.undo import NothingToUndoError, delete_row, undo_last_delete
+from bench.generate import build_study
 from tests.conftest import empty_database
 from tests.helpers import TEST_AUTHOR
 
@@ -234,6 +237,22 @@ def test_the_demo_study_stores_a_result_for_every_scenario(session: Session) -> 
     read = [StoredResult.of_row(type("Row", (), row)) for row in rows.values()]
     assert any(r.withdrawn is not None for r in read)  # the demo has a flagged credit
     assert all(r.credited is not None or r.error for r in read)
+
+
+def test_an_imported_study_has_every_stored_result_before_its_first_read(
+    session: Session,
+) -> None:
+    # The import writes rows with Core statements and computes every scenario before its one
+    # commit: nothing is left for the first page to rebuild (an invented bench study, with
+    # short, met, flagged and incomplete scenarios among its 300).
+    study = import_study_text(session, json.dumps(build_study(300)))
+    study_id = study.id or 0
+    assert is_current(session, study_id)
+    assert set(stored_rows(session, study_id)) == set(ids_of(session, Scenario, study_id))
+    assert_stored_equals_recomputed(session, study_id)
+    counts = stored_counts(session, study_id)[STUDY_ROW]
+    assert counts["scenario_count"] == 300
+    assert counts["short_count"] > 0 and counts["flagged_count"] > 0
 
 
 def test_an_incomplete_scenario_is_counted_apart_and_back_in_when_rated(session: Session) -> None:
