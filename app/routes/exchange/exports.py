@@ -4,7 +4,7 @@ from typing import Annotated
 
 from fastapi import APIRouter, File, Request, UploadFile
 from fastapi.responses import JSONResponse
-from starlette.responses import RedirectResponse, Response
+from starlette.responses import RedirectResponse, Response, StreamingResponse
 
 from app.archive import all_studies_archive
 from app.routes.deps import SessionDep
@@ -48,8 +48,9 @@ def _download(session: SessionDep, study_id: int, export_format: ExportFormat) -
     export = build_export(session=session, study_id=study_id, export_format=export_format,
                           env=templates.env)
     disposition = f'attachment; filename="{export.filename}"'
-    return Response(export.content, media_type=export.media_type,
-                    headers={"Content-Disposition": disposition})
+    # A spreadsheet sits in a temporary file: sent in pieces, never read into memory whole.
+    return StreamingResponse(export.chunks(), media_type=export.media_type,
+                             headers={"Content-Disposition": disposition})
 
 
 @router.get("/studies/{study_id}/export.xlsx", name="export_xlsx")
