@@ -4,12 +4,18 @@ from typing import Annotated
 
 from fastapi import APIRouter, File, Request, UploadFile
 from fastapi.responses import JSONResponse
+from starlette.background import BackgroundTask
 from starlette.responses import RedirectResponse, Response, StreamingResponse
 
 from app.archive import all_studies_archive
 from app.routes.deps import SessionDep
 from app.routes.rendering import render, templates
-from app.services.exchange.exports import ExportFormat, build_export, read_export_page
+from app.services.exchange.exports import (
+    ExportFormat,
+    build_export,
+    read_export_page,
+    release_memory,
+)
 from app.services.exchange.study_file import StudyFileError
 from app.services.exchange.study_import import MAX_FILE_BYTES, import_study_upload
 from app.services.exchange.study_schema import SCHEMA_PATH, SCHEMA_VERSION, study_json_schema
@@ -50,7 +56,8 @@ def _download(session: SessionDep, study_id: int, export_format: ExportFormat) -
     disposition = f'attachment; filename="{export.filename}"'
     # A spreadsheet sits in a temporary file: sent in pieces, never read into memory whole.
     return StreamingResponse(export.chunks(), media_type=export.media_type,
-                             headers={"Content-Disposition": disposition})
+                             headers={"Content-Disposition": disposition},
+                             background=BackgroundTask(release_memory))
 
 
 @router.get("/studies/{study_id}/export.xlsx", name="export_xlsx")

@@ -72,7 +72,11 @@ class Styles:
 
     def __init__(self) -> None:
         self.keys: dict[StyleKey, int] = {(0, None): 0, (-1, None): 1}  # 0: plain, 1: header
-        self.wrapped: set[int] = set()  # style ids whose column wraps
+        self.wrapped: set[int] = set()  # columns (sheet * 10,000 + column) whose text wraps
+
+    def wrap(self, sheet: int, column: int) -> None:
+        """Every cell of this sheet's column wraps its text (the header excepted)."""
+        self.wrapped.add(sheet * 10_000 + column)
 
     def of(self, sheet: int, column: int, number_format: str | None) -> int:
         """The style id of a cell of this sheet's column with this number format."""
@@ -86,14 +90,14 @@ class Styles:
         formats = sorted({f for _, f in self.keys if f is not None})
         format_ids = {f: 164 + i for i, f in enumerate(formats)}
         xfs = []
-        for (slot, number_format), style_id in sorted(self.keys.items(), key=lambda k: k[1]):
+        for slot, number_format in sorted(self.keys, key=self.keys.__getitem__):
             if slot == -1:
                 xfs.append('<xf numFmtId="0" fontId="1" fillId="2" borderId="1" xfId="0" '
                            'applyFont="1" applyFill="1" applyBorder="1"/>')
                 continue
             number = format_ids.get(number_format or "", 0)
             applied = ' applyNumberFormat="1"' if number else ""
-            if style_id in self.wrapped:
+            if slot in self.wrapped:
                 xfs.append(f'<xf numFmtId="{number}" fontId="0" fillId="0" borderId="0" '
                            f'xfId="0"{applied} applyAlignment="1"><alignment vertical="top" '
                            'wrapText="1"/></xf>')
@@ -118,6 +122,11 @@ class Styles:
                 '</cellStyles></styleSheet>')
 
 
+# The most characters a number in this format can show (format_number: "-9.9e-308"): a column
+# whose widest line is already longer need not format its numbers to measure them.
+LONGEST_NUMBER = {"0.0E+0": 9}
+
+
 class SheetWriter:
     """One sheet: its rows go to a temporary file as XML while each column's widest line is
     measured; `finish` sets the widths (and which columns wrap) once the last row is in."""
@@ -131,22 +140,40 @@ class SheetWriter:
         self.letters = [get_column_letter(n) for n in range(1, len(columns) + 1)]
         self.longest = [shown_length(c.header, c.number_format) for c in columns]
         self.rows = 1
-        self.column_styles: list[list[int]] = [[] for _ in columns]
-        header = "".join(self._text_cell(letter, 1, spreadsheet_text(c.header), 1)
+        self.formats = [c.number_format for c in columns]
+        self.plain = [styles.of(key, n, None) for n in range(1, len(columns) + 1)]
+        self.shaped = [styles.of(key, n, c.number_format) for n, c in enumerate(columns, 1)]
+        self.bounds = [LONGEST_NUMBER.get(c.number_format or "", 1 << 30) for c in columns]
+        header = "".join(_text_cell(f"{letter}1", spreadsheet_text(c.header), 1)
                          for letter, c in zip(self.letters, columns, strict=True))
         self.body.write(f'<row r="1">{header}</row>'.encode())
 
     def append(self, row: Sequence[Cell]) -> None:
         """Write one row (its cells in column order)."""
+        if len(row) != len(self.columns):
+            raise ValueError(f"{self.title}: a row of {len(row)} cells for "
+                             f"{len(self.columns)} columns")
         self.rows += 1
         number = self.rows
         cells = []
-        for position, (value, column) in enumerate(zip(row, self.columns, strict=True)):
-            length = shown_length(value, column.number_format)
-            if length > self.longest[position]:
-                self.longest[position] = length
-            cells.append(self._cell(position, f"{self.letters[position]}{number}", value,
-                                    column.number_format))
+        longest = self.longest
+        for position, value in enumerate(row):
+            ref = f"{self.letters[position]}{number}"
+            if value is None:
+                cells.append(f'<c r="{ref}" s="{self.plain[position]}"/>')
+            elif isinstance(value, str):
+                if len(value) > longest[position]:
+                    self._measure(position, value)
+                cells.append(_text_cell(ref, cell_text(value), self.plain[position]))
+            elif isinstance(value, date):
+                self._measure(position, value)
+                cells.append(self._date_cell(position, ref, value))
+            else:
+                if longest[position] < self.bounds[position]:
+                    self._measure(position, value)
+                kind = "b" if isinstance(value, bool) else "n"
+                cells.append(f'<c r="{ref}" s="{self.shaped[position]}" t="{kind}">'
+                             f"<v>{_number(value)}</v></c>")
         self.body.write(f'<row r="{number}">{"".join(cells)}</row>'.encode())
 
     def extend(self, rows: Iterable[Sequence[Cell]]) -> None:
@@ -154,43 +181,23 @@ class SheetWriter:
         for row in rows:
             self.append(row)
 
-    def _style(self, position: int, number_format: str | None) -> int:
-        style = self.styles.of(self.key, position + 1, number_format)
-        self.column_styles[position].append(style)
-        return style
+    def _measure(self, position: int, value: Cell) -> None:
+        length = shown_length(value, self.formats[position])
+        if length > self.longest[position]:
+            self.longest[position] = length
 
-    def _cell(self, position: int, ref: str, value: Cell, number_format: str | None) -> str:
-        if isinstance(value, str):
-            return self._text_cell(ref, 0, cell_text(value), self._style(position, None))
-        if value is None:
-            return f'<c r="{ref}" s="{self._style(position, None)}"/>'
-        if isinstance(value, date):
-            default = MOMENT_DEFAULT if isinstance(value, datetime) else DAY_DEFAULT
-            style = self._style(position, number_format or default)
-            return f'<c r="{ref}" s="{style}" t="n"><v>{_number(to_excel(value))}</v></c>'  # type: ignore[no-untyped-call]
-        style = self._style(position, number_format)
-        kind = "b" if isinstance(value, bool) else "n"
-        return f'<c r="{ref}" s="{style}" t="{kind}"><v>{_number(value)}</v></c>'
-
-    @staticmethod
-    def _text_cell(ref: str | int, row: int, text: str, style: int) -> str:
-        where = f"{ref}{row}" if row else ref
-        if text == "":
-            return f'<c r="{where}" s="{style}" t="inlineStr"/>'
-        stripped = text.strip()
-        space = ' xml:space="preserve"' if stripped and stripped != text else ""
-        return (f'<c r="{where}" s="{style}" t="inlineStr"><is><t{space}>{escape(text)}</t>'
-                '</is></c>')
+    def _date_cell(self, position: int, ref: str, value: date) -> str:
+        default = MOMENT_DEFAULT if isinstance(value, datetime) else DAY_DEFAULT
+        style = self.styles.of(self.key, position + 1, self.formats[position] or default)
+        serial = to_excel(value)  # type: ignore[no-untyped-call]
+        return f'<c r="{ref}" s="{style}" t="n"><v>{_number(serial)}</v></c>'
 
     def finish(self) -> int:
-        """Fix the widths and the wrapped columns; the XML's length (it is then written)."""
-        widths = []
-        for position, longest in enumerate(self.longest):
-            widths.append(max(NARROWEST, min(WIDEST, longest + 2)))
+        """Fix the widths and the wrapped columns; the rows written."""
+        self.widths = [max(NARROWEST, min(WIDEST, longest + 2)) for longest in self.longest]
+        for position, longest in enumerate(self.longest, 1):
             if longest + 2 > WIDEST:
-                self.styles.wrapped.update(self.column_styles[position])
-            self.column_styles[position] = []
-        self.widths = widths
+                self.styles.wrap(self.key, position)
         return self.rows
 
     def write_to(self, target: IO[bytes]) -> None:
@@ -214,6 +221,15 @@ class SheetWriter:
 
     def _filter(self) -> str:
         return f'<autoFilter ref="{self.filter_ref}"/>' if self.filter_ref else ""
+
+
+def _text_cell(ref: str, text: str, style: int) -> str:
+    """An inline string cell, as openpyxl writes one (xml:space kept for edge whitespace)."""
+    if text == "":
+        return f'<c r="{ref}" s="{style}" t="inlineStr"/>'
+    stripped = text.strip()
+    space = ' xml:space="preserve"' if stripped and stripped != text else ""
+    return f'<c r="{ref}" s="{style}" t="inlineStr"><is><t{space}>{escape(text)}</t></is></c>'
 
 
 def _number(value: float) -> str:

@@ -39,7 +39,12 @@ from app.services.exchange.report_source import (
 )
 from app.services.exchange.report_summary import SUMMARY_ROWS, ReportKind
 from app.services.exchange.study_file import export_study
+from app.services.study import results, spread
 from app.services.study.tree import NotFoundError, get_study
+
+# Caches keyed per scenario that a whole-study pass fills (see release_memory).
+STUDY_SIZED_CACHES = (results.assess, results.compute_cached,
+                      results._assessment_of_row_tuple, spread._lines)
 
 
 class ExportFormat(StrEnum):
@@ -101,11 +106,15 @@ class ExportFile:
 
     @property
     def content(self) -> bytes:
-        """The whole file as bytes (the command line and tests)."""
+        """The whole file as bytes (the command line and tests); a temporary file is read
+        once, closed, and its bytes kept."""
         if isinstance(self.body, bytes):
             return self.body
-        self.body.seek(0)
-        return self.body.read()
+        with self.body as source:
+            source.seek(0)
+            whole = source.read()
+        object.__setattr__(self, "body", whole)  # frozen: the same content, now in memory
+        return whole
 
     def chunks(self) -> Iterator[bytes]:
         """The file in pieces for a streamed download; a temporary file is closed after."""
@@ -186,14 +195,19 @@ def build_export(
         revision = f"{working_copy_label(session, study_id)}: working copy, not signed"
         write_study_workbook(session, study_id, target, cautions=cautions,
                              exported_at=now.replace(tzinfo=None), revision=revision)
-    release_memory()
     return ExportFile(name, info.media_type, target)
 
 
 def release_memory() -> None:
-    """Hand the memory a large export used back to the system: collect the cycles, then ask
-    glibc to return its free pages (malloc_trim; elsewhere, nothing to do). Without it the
-    server keeps the peak of its largest download as resident memory."""
+    """Hand the memory a large download used back to the system (run after it is sent).
+
+    A study-sized pass leaves the results core's per-scenario caches full (a rebuild of the
+    stored results fills them with every scenario; since the stored results, nothing reads a
+    whole study through them again), then the cycles are collected and glibc is asked to
+    return its free pages (malloc_trim; elsewhere, nothing to do). Without this the server
+    keeps the peak of its largest download as resident memory."""
+    for cache in STUDY_SIZED_CACHES:
+        cache.cache_clear()
     gc.collect()
     name = ctypes.util.find_library("c")
     trim = getattr(ctypes.CDLL(name), "malloc_trim", None) if name else None
