@@ -125,6 +125,7 @@ class Styles:
 # The most characters a number in this format can show (format_number: "-9.9e-308"): a column
 # whose widest line is already longer need not format its numbers to measure them.
 LONGEST_NUMBER = {"0.0E+0": 9}
+REMEMBERED_LENGTH, REMEMBERED_TEXTS = 200, 4_096
 
 
 class SheetWriter:
@@ -144,6 +145,7 @@ class SheetWriter:
         self.plain = [styles.of(key, n, None) for n in range(1, len(columns) + 1)]
         self.shaped = [styles.of(key, n, c.number_format) for n, c in enumerate(columns, 1)]
         self.bounds = [LONGEST_NUMBER.get(c.number_format or "", 1 << 30) for c in columns]
+        self.texts: dict[str, str] = {}
         header = "".join(_text_cell(f"{letter}1", spreadsheet_text(c.header), 1)
                          for letter, c in zip(self.letters, columns, strict=True))
         self.body.write(f'<row r="1">{header}</row>'.encode())
@@ -156,7 +158,7 @@ class SheetWriter:
         self.rows += 1
         number = self.rows
         cells = []
-        longest = self.longest
+        longest, texts = self.longest, self.texts
         for position, value in enumerate(row):
             ref = f"{self.letters[position]}{number}"
             if value is None:
@@ -164,7 +166,10 @@ class SheetWriter:
             elif isinstance(value, str):
                 if len(value) > longest[position]:
                     self._measure(position, value)
-                cells.append(_text_cell(ref, cell_text(value), self.plain[position]))
+                inner = texts.get(value)
+                if inner is None:
+                    inner = self._remember(value)
+                cells.append(f'<c r="{ref}" s="{self.plain[position]}" t="inlineStr"{inner}')
             elif isinstance(value, date):
                 self._measure(position, value)
                 cells.append(self._date_cell(position, ref, value))
@@ -175,6 +180,16 @@ class SheetWriter:
                 cells.append(f'<c r="{ref}" s="{self.shaped[position]}" t="{kind}">'
                              f"<v>{_number(value)}</v></c>")
         self.body.write(f'<row r="{number}">{"".join(cells)}</row>'.encode())
+
+    def _remember(self, value: str) -> str:
+        """A text cell's XML after its attributes; short texts (labels, words) are kept, as
+        they repeat down a column, until a few thousand are kept."""
+        inner = _text_inner(cell_text(value))
+        if len(value) <= REMEMBERED_LENGTH:
+            if len(self.texts) >= REMEMBERED_TEXTS:
+                self.texts.clear()
+            self.texts[value] = inner
+        return inner
 
     def extend(self, rows: Iterable[Sequence[Cell]]) -> None:
         """Write several rows."""
@@ -224,12 +239,19 @@ class SheetWriter:
 
 
 def _text_cell(ref: str, text: str, style: int) -> str:
-    """An inline string cell, as openpyxl writes one (xml:space kept for edge whitespace)."""
+    """An inline string cell, as openpyxl writes one."""
+    return f'<c r="{ref}" s="{style}" t="inlineStr"{_text_inner(text)}'
+
+
+def _text_inner(text: str) -> str:
+    """What follows an inline string cell's attributes (xml:space kept for edge whitespace,
+    as openpyxl does; & < > escaped as ElementTree escapes text)."""
     if text == "":
-        return f'<c r="{ref}" s="{style}" t="inlineStr"/>'
+        return "/>"
     stripped = text.strip()
     space = ' xml:space="preserve"' if stripped and stripped != text else ""
-    return f'<c r="{ref}" s="{style}" t="inlineStr"><is><t{space}>{escape(text)}</t></is></c>'
+    escaped = text.replace("&", "&amp;").replace("<", "&lt;").replace(">", "&gt;")
+    return f"><is><t{space}>{escaped}</t></is></c>"
 
 
 def _number(value: float) -> str:
