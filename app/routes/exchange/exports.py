@@ -4,7 +4,6 @@ from typing import Annotated
 
 from fastapi import APIRouter, File, Request, UploadFile
 from fastapi.responses import JSONResponse
-from starlette.background import BackgroundTask
 from starlette.responses import RedirectResponse, Response, StreamingResponse
 
 from app.archive import all_studies_archive
@@ -53,11 +52,11 @@ def read_exports(request: Request, study_id: int, session: SessionDep) -> Respon
 def _download(session: SessionDep, study_id: int, export_format: ExportFormat) -> Response:
     export = build_export(session=session, study_id=study_id, export_format=export_format,
                           env=templates.env)
+    release_memory()  # what the study-sized pass held is garbage now; the file is ready
     disposition = f'attachment; filename="{export.filename}"'
     # A spreadsheet sits in a temporary file: sent in pieces, never read into memory whole.
     return StreamingResponse(export.chunks(), media_type=export.media_type,
-                             headers={"Content-Disposition": disposition},
-                             background=BackgroundTask(release_memory))
+                             headers={"Content-Disposition": disposition})
 
 
 @router.get("/studies/{study_id}/export.xlsx", name="export_xlsx")
