@@ -27,7 +27,6 @@ from openpyxl.utils.datetime import to_excel
 from app.services.exchange.export_tables import (
     Cell,
     Column,
-    StudyData,
     Table,
     shown_number,
     spreadsheet_text,
@@ -391,23 +390,6 @@ def cover_table(study: dict[str, str], *, cautions: str, exported_at: datetime,
     ]  # fmt: skip
     columns = (Column("About this file"), Column("", "yyyy-mm-dd hh:mm"))
     return Table("About", columns, rows)
-
-
-def workbook_bytes(
-    tables: Sequence[Table], data: StudyData, *, cautions: str, exported_at: datetime,
-    revision: str = "",
-) -> bytes:
-    """The workbook as .xlsx bytes: the cover first, then each table on its own sheet."""
-    workbook = WorkbookWriter()
-    workbook.table(cover_table(data["study"], cautions=cautions, exported_at=exported_at,
-                               revision=revision))
-    for table in tables:
-        workbook.table(table)
-    with tempfile.TemporaryFile() as target:
-        workbook.save(target, title=data["study"]["title"], creator="Tallyroom",
-                      created=exported_at)
-        target.seek(0)
-        return target.read()
 
 
 def cell_text(text: str) -> str:
