@@ -4,12 +4,17 @@ from typing import Annotated
 
 from fastapi import APIRouter, File, Request, UploadFile
 from fastapi.responses import JSONResponse
-from starlette.responses import RedirectResponse, Response
+from starlette.responses import RedirectResponse, Response, StreamingResponse
 
 from app.archive import all_studies_archive
 from app.routes.deps import SessionDep
 from app.routes.rendering import render, templates
-from app.services.exchange.exports import ExportFormat, build_export, read_export_page
+from app.services.exchange.exports import (
+    ExportFormat,
+    build_export,
+    read_export_page,
+    release_memory,
+)
 from app.services.exchange.study_file import StudyFileError
 from app.services.exchange.study_import import import_study_upload, max_file_bytes
 from app.services.exchange.study_schema import SCHEMA_PATH, SCHEMA_VERSION, study_json_schema
@@ -47,9 +52,11 @@ def read_exports(request: Request, study_id: int, session: SessionDep) -> Respon
 def _download(session: SessionDep, study_id: int, export_format: ExportFormat) -> Response:
     export = build_export(session=session, study_id=study_id, export_format=export_format,
                           env=templates.env)
+    release_memory()  # what the study-sized pass held is garbage now; the file is ready
     disposition = f'attachment; filename="{export.filename}"'
-    return Response(export.content, media_type=export.media_type,
-                    headers={"Content-Disposition": disposition})
+    # A spreadsheet sits in a temporary file: sent in pieces, never read into memory whole.
+    return StreamingResponse(export.chunks(), media_type=export.media_type,
+                             headers={"Content-Disposition": disposition})
 
 
 @router.get("/studies/{study_id}/export.xlsx", name="export_xlsx")

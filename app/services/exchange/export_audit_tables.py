@@ -4,10 +4,12 @@ warnings with their sources, and the safety functions the gaps ask for.
 Kept apart from export_tables.py (the scenario and step columns) so each grows on its own.
 """
 
+from collections.abc import Callable
 from dataclasses import dataclass
 
 from app.likelihood.check_base import CheckWarning
 from app.likelihood.types import SilStatus
+from app.services.exchange.export_source import ExportScenario, tree_scenarios
 from app.services.exchange.export_tables import (
     DEMAND_LABELS,
     RRF,
@@ -15,9 +17,7 @@ from app.services.exchange.export_tables import (
     Cell,
     Column,
     Table,
-    scenario_refs,
 )
-from app.services.risk.ipl_checks import scenario_warnings
 from app.services.study.tree import StudyTree
 
 VERIFY_MARKER = " [verify against your copy]"
@@ -44,19 +44,20 @@ def warning_source(warning: CheckWarning) -> str:
 
 def added_functions(tree: StudyTree) -> list[AddedFunction]:
     """Every scenario whose gap asks for an added safety function, in worksheet order."""
-    numbers = scenario_refs(tree)
-    found = []
-    for item in tree.scenario_branches():
-        result = item.outcome.result
-        if result is None or result.sil_target.status is SilStatus.NONE_NEEDED:
-            continue
-        target = result.sil_target
-        found.append(AddedFunction(
-            f"{numbers[item.scenario.id or 0]} {item.scenario.cause}".strip(), target.label,
-            DEMAND_LABELS[target.demand_mode],
-            result.demand.demand_rate_per_year if result.demand else None,
-            target.required_rrf, target.required_pfd, target.required_pfh))
-    return found
+    return [f for item in tree_scenarios(tree) if (f := added_function(item)) is not None]
+
+
+def added_function(item: ExportScenario) -> AddedFunction | None:
+    """The safety function one scenario's gap asks for (None: none needed, or no figures)."""
+    result = item.result
+    if result is None or result.sil_target.status is SilStatus.NONE_NEEDED:
+        return None
+    target = result.sil_target
+    return AddedFunction(
+        f"{item.number} {item.scenario.cause}".strip(), target.label,
+        DEMAND_LABELS[target.demand_mode],
+        result.demand.demand_rate_per_year if result.demand else None,
+        target.required_rrf, target.required_pfd, target.required_pfh)
 
 
 FUNCTION_COLUMNS = (
@@ -64,48 +65,47 @@ FUNCTION_COLUMNS = (
     Column("Demand rate (/yr)", SCIENTIFIC), Column("Required RRF", RRF),
     Column("Required PFDavg", SCIENTIFIC), Column("Required PFH (/h)", SCIENTIFIC),
 )  # fmt: skip
+WARNING_COLUMNS = (Column("Scenario"), Column("Step"), Column("Check"), Column("Warning"),
+                   Column("Source"), Column("Doubts the credit"))
+SAFEGUARD_COLUMNS = (Column("Scenario"), Column("Safeguard"), Column("Note"), Column("Credited"))
+NOTE_COLUMNS = (Column("Scenario"), Column("Cause"), Column("Notes"))
 
 
-def function_table(tree: StudyTree) -> Table:
-    """One row per added safety function."""
-    rows: list[list[Cell]] = [
-        [f.scenario, f.target, f.mode, f.demand_rate, f.required_rrf, f.required_pfd,
-         f.required_pfh] for f in added_functions(tree)]
-    return Table("Added functions", FUNCTION_COLUMNS, rows)
+def function_rows(item: ExportScenario) -> list[list[Cell]]:
+    """The scenario's added safety function as a row (none when it asks for none)."""
+    f = added_function(item)
+    return [] if f is None else [[f.scenario, f.target, f.mode, f.demand_rate,
+                                  f.required_rrf, f.required_pfd, f.required_pfh]]
 
 
-def warning_table(tree: StudyTree) -> Table:
-    """Every IPL-check warning with its scenario, step, rule, sentence and source."""
-    numbers = scenario_refs(tree)
-    columns = (Column("Scenario"), Column("Step"), Column("Check"), Column("Warning"),
-               Column("Source"), Column("Doubts the credit"))
-    rows: list[list[Cell]] = [
-        [numbers[item.scenario.id or 0], w.step_label, w.rule.replace("_", " "), w.message,
-         warning_source(w), "yes" if w.withdraws_credit else "no"]
-        for item in tree.scenario_branches() for w in scenario_warnings(item)]
-    return Table("Warnings", columns, rows)
+def warning_rows(item: ExportScenario) -> list[list[Cell]]:
+    """Every IPL-check warning of one scenario with its step, rule, sentence and source."""
+    return [[item.number, w.step_label, w.rule.replace("_", " "), w.message,
+             warning_source(w), "yes" if w.withdraws_credit else "no"] for w in item.warnings]
 
 
-def safeguard_table(tree: StudyTree) -> Table:
-    """Safeguards the team listed but did not credit as IPLs."""
-    numbers = scenario_refs(tree)
-    columns = (Column("Scenario"), Column("Safeguard"), Column("Note"), Column("Credited"))
-    rows: list[list[Cell]] = [
-        [numbers[item.scenario.id or 0], s.description, s.note, "no (not an IPL)"]
-        for item in tree.scenario_branches() for s in item.safeguards]
-    return Table("Safeguards", columns, rows)
+def safeguard_rows(item: ExportScenario) -> list[list[Cell]]:
+    """Safeguards the team listed on one scenario but did not credit as IPLs."""
+    return [[item.number, s.description, s.note, "no (not an IPL)"] for s in item.safeguards]
 
 
-def notes_table(tree: StudyTree) -> Table:
-    """The notes written on each scenario (scenarios without notes left out)."""
-    numbers = scenario_refs(tree)
-    columns = (Column("Scenario"), Column("Cause"), Column("Notes"))
-    rows: list[list[Cell]] = [
-        [numbers[item.scenario.id or 0], item.scenario.cause, item.scenario.notes]
-        for item in tree.scenario_branches() if item.scenario.notes.strip()]
-    return Table("Notes", columns, rows)
+def note_rows(item: ExportScenario) -> list[list[Cell]]:
+    """The scenario's notes (no row when it has none)."""
+    scenario = item.scenario
+    return [[item.number, scenario.cause, scenario.notes]] if scenario.notes.strip() else []
+
+
+AUDIT_SHEETS: tuple[tuple[str, tuple[Column, ...], Callable[[ExportScenario],
+                                                            list[list[Cell]]]], ...] = (
+    ("Safeguards", SAFEGUARD_COLUMNS, safeguard_rows), ("Notes", NOTE_COLUMNS, note_rows),
+    ("Warnings", WARNING_COLUMNS, warning_rows),
+    ("Added functions", FUNCTION_COLUMNS, function_rows),
+)
+"""The auditor's sheets in workbook order: title, columns and each scenario's rows."""
 
 
 def audit_tables(tree: StudyTree) -> tuple[Table, ...]:
-    """The auditor's sheets, in workbook order."""
-    return (safeguard_table(tree), notes_table(tree), warning_table(tree), function_table(tree))
+    """The auditor's sheets of a computed study tree (the from-scratch path)."""
+    items = list(tree_scenarios(tree))
+    return tuple(Table(title, columns, [row for item in items for row in rows_of(item)])
+                 for title, columns, rows_of in AUDIT_SHEETS)

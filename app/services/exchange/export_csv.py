@@ -6,9 +6,17 @@ UTF-8 file in the local code page and garbles every non-Latin letter.
 
 import csv
 import io
+from collections.abc import Iterable, Sequence
 from datetime import date
+from typing import IO
 
-from app.services.exchange.export_tables import Cell, Table, shown_number, spreadsheet_text
+from app.services.exchange.export_tables import (
+    Cell,
+    Column,
+    Table,
+    shown_number,
+    spreadsheet_text,
+)
 
 BYTE_ORDER_MARK = "\ufeff"
 
@@ -26,6 +34,30 @@ def table_csv(table: Table, *, cautions: str = "") -> bytes:
     if cautions:
         writer.writerow(["Cautions", spreadsheet_text(cautions)])
     return (BYTE_ORDER_MARK + buffer.getvalue()).encode("utf-8")
+
+
+ROWS_PER_WRITE = 200
+
+
+def write_csv(target: IO[bytes], columns: Sequence[Column], rows: Iterable[Sequence[Cell]], *,
+              cautions: str = "") -> None:
+    """table_csv's bytes written into an open binary file a few hundred rows at a time, so a
+    table of any length is never held whole."""
+    buffer = io.StringIO()
+    writer = csv.writer(buffer, lineterminator="\r\n")
+    buffer.write(BYTE_ORDER_MARK)
+    writer.writerow([spreadsheet_text(column.header) for column in columns])
+    formats = [column.number_format for column in columns]
+    for count, row in enumerate(rows, 1):
+        writer.writerow([csv_cell(value, shape)
+                         for value, shape in zip(row, formats, strict=True)])
+        if count % ROWS_PER_WRITE == 0:
+            target.write(buffer.getvalue().encode("utf-8"))
+            buffer.seek(0)
+            buffer.truncate()
+    if cautions:
+        writer.writerow(["Cautions", spreadsheet_text(cautions)])
+    target.write(buffer.getvalue().encode("utf-8"))
 
 
 def csv_cell(value: Cell, number_format: str | None = None) -> str:

@@ -7,7 +7,7 @@ the facilitator hid the names on the room view, the exports number the people in
 open round's estimates are never in the file, so never here.
 """
 
-from collections.abc import Sequence
+from collections.abc import Mapping, Sequence
 from dataclasses import dataclass
 
 from app.likelihood.agreement import AGREEMENT_METHOD_LABELS, AgreementMethod
@@ -68,9 +68,17 @@ class RoundSummary:
         return f"Scenario {self.scenario}, {self.step}"
 
 
+StepWords = Mapping[tuple[str, int], str]
+
+
+def step_words(kind: str, description: str) -> str:
+    """"enabling condition 'Ullage …'"."""
+    return f"{step_kind_words(kind)} '{description}'"
+
+
 def _step_words(data: StudyData) -> dict[tuple[str, int], str]:
     """(scenario ref, place) -> "enabling condition 'Ullage …'"."""
-    return {(s["ref"], place): f"{step_kind_words(step['kind'])} '{step['description']}'"
+    return {(s["ref"], place): step_words(step["kind"], step["description"])
             for n in data["nodes"] for d in n["deviations"] for s in d["scenarios"]
             for place, step in enumerate(s["steps"], 1)}
 
@@ -89,10 +97,12 @@ def _estimates(found: StudyData) -> tuple[EstimateLine, ...]:
                  for index, e in enumerate(found["estimates"], 1))
 
 
-def round_summaries(data: StudyData, numbers: dict[str, str] | None = None
-                    ) -> tuple[RoundSummary, ...]:
-    """Every round of the file, steps' rounds in worksheet order, then the words'."""
-    named, steps = numbers or {}, _step_words(data)
+def round_summaries(data: StudyData, numbers: dict[str, str] | None = None,
+                    steps_named: StepWords | None = None) -> tuple[RoundSummary, ...]:
+    """Every round of the file, steps' rounds in worksheet order, then the words'.
+    `steps_named`: the words of the steps rounds ask about, when `data` has no nodes."""
+    named = numbers or {}
+    steps = _step_words(data) if steps_named is None else steps_named
     summaries = []
     for found in data.get("estimate_rounds", []):
         unit = EstimateUnit(found["unit"])
@@ -165,7 +175,8 @@ def word_scale_table(data: StudyData) -> Table:
     return Table("Word scale", columns, rows)
 
 
-def round_tables(data: StudyData, numbers: dict[str, str] | None = None) -> tuple[Table, ...]:
+def round_tables(data: StudyData, numbers: dict[str, str] | None = None,
+                 steps_named: StepWords | None = None) -> tuple[Table, ...]:
     """The workbook's sheets of rounds, estimates and the word scale."""
-    summaries = round_summaries(data, numbers)
+    summaries = round_summaries(data, numbers, steps_named)
     return rounds_table(summaries), estimates_table(summaries), word_scale_table(data)

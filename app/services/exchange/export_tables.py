@@ -8,18 +8,27 @@ not a validated StudyFile: an export must never fail because stored text is long
 format allows on import.
 """
 
-from collections.abc import Callable, Sequence
+from collections.abc import Callable, Iterable, Iterator, Sequence
 from dataclasses import dataclass
 from datetime import UTC, date, datetime
 from typing import Any
 
+from sqlmodel import Session
+
 from app.likelihood.numbers import format_number, format_orders, format_rrf
 from app.likelihood.types import DemandMode, Receptor, ScenarioResult, StepKind
 from app.likelihood.typical import typical_by_key
+from app.services.exchange.export_source import (
+    ExportScenario,
+    deviation_words,
+    node_words,
+    stored_scenarios,
+    tree_scenarios,
+)
 from app.services.exchange.study_file import scenario_ref
-from app.services.study.results import Assessment, required_rrf_cell
+from app.services.study.results import required_rrf_cell
 from app.services.study.spread import ScenarioSpread
-from app.services.study.tree import DeviationBranch, NodeBranch, ScenarioBranch, StudyTree
+from app.services.study.tree import DeviationBranch, NodeBranch, StudyTree
 
 Cell = str | float | int | date | datetime | None
 StudyData = dict[str, Any]
@@ -150,59 +159,65 @@ def file_ref_numbers(tree: StudyTree) -> dict[str, str]:
 
 def node_label(node_branch: NodeBranch) -> str:
     """'1 · Feed drum'."""
-    return f"{node_branch.node.number} · {node_branch.node.name}"
+    return node_words(node_branch.node)
 
 
 def deviation_label(deviation_branch: DeviationBranch) -> str:
     """'More Level'."""
-    return f"{deviation_branch.deviation.guideword} {deviation_branch.deviation.parameter}"
+    return deviation_words(deviation_branch.deviation)
+
+
+def scenario_rows(scenarios: Iterable[ExportScenario]) -> Iterator[list[Cell]]:
+    """One row per scenario: what it is, its numbers and what it asks for."""
+    return (scenario_row(item) for item in scenarios)
 
 
 def scenario_table(tree: StudyTree) -> Table:
-    """One row per scenario: what it is, its numbers and what it asks for."""
-    refs = scenario_refs(tree)
-    rows = [
-        _scenario_row(refs[item.scenario.id or 0], node_branch, deviation_branch, item)
-        for node_branch in tree.nodes
-        for deviation_branch in node_branch.deviations
-        for item in deviation_branch.scenarios
-    ]
-    return Table("Scenarios", SCENARIO_COLUMNS, rows)
+    """The scenario table of a computed study tree (the from-scratch path)."""
+    return Table("Scenarios", SCENARIO_COLUMNS, list(scenario_rows(tree_scenarios(tree))))
 
 
 def computed_figures(tree: StudyTree) -> list[dict[str, Cell]]:
-    """The scenario table's rows as the JSON study file carries them: exact values (the CSV
-    rounds them as the screen shows them), keyed by the CSV's headers and the file ref."""
-    refs = {number: ref for ref, number in file_ref_numbers(tree).items()}
+    """The scenario table's rows as the JSON study file carries them, from a computed tree."""
+    return figures_of_rows(scenario_table(tree).rows)
+
+
+def stored_computed_figures(session: Session, study_id: int) -> list[dict[str, Cell]]:
+    """computed_figures from the stored results, read one node at a time."""
+    return figures_of_rows(scenario_rows(stored_scenarios(session, study_id)))
+
+
+def figures_of_rows(rows: Iterable[list[Cell]]) -> list[dict[str, Cell]]:
+    """Scenario rows as the JSON study file carries them: exact values (the CSV rounds them as
+    the screen shows them), keyed by the CSV's headers and the file ref (S1, S2, ... in
+    worksheet order)."""
     headers = [column.header for column in SCENARIO_COLUMNS]
-    return [{"ref": refs.get(str(row[0]), ""), **dict(zip(headers, row, strict=True))}
-            for row in scenario_table(tree).rows]
+    return [{"ref": scenario_ref(index), **dict(zip(headers, row, strict=True))}
+            for index, row in enumerate(rows)]
 
 
-def _scenario_row(
-    ref: str, node_branch: NodeBranch, deviation_branch: DeviationBranch, item: ScenarioBranch
-) -> list[Cell]:
-    scenario, outcome, result = item.scenario, item.outcome, item.outcome.result
-    category = outcome.governing_category
+def scenario_row(item: ExportScenario) -> list[Cell]:
+    """One scenario's row of the scenario table."""
+    scenario, result, category = item.scenario, item.result, item.category
     initiating = next((s for s in item.steps if s.kind == StepKind.INITIATING_EVENT), None)
     credited = [s for s in item.steps if s.kind == StepKind.IPL and s.credited]
     head: list[Cell] = [
-        ref, node_label(node_branch), deviation_label(deviation_branch), scenario.cause,
+        item.number, item.node_label, item.deviation_label, scenario.cause,
         scenario.consequence, category.name if category else "",
         category.tolerable_frequency if category else None,
         initiating.description if initiating else "",
         initiating.value if initiating else None,
     ]
-    if result is None or outcome.assessment is None:
+    if result is None:
         return [*head, None, None, len(credited), None, None, None, None, None, "", "",
-                outcome.no_figures_words, *[None] * len(METHOD_COLUMNS),
+                item.no_figures_words, *[None] * len(METHOD_COLUMNS),
                 *uncertainty_cells(None)]
     target = result.sil_target
     return [
         *head, result.enabling_product, result.modifier_product, len(credited),
         result.ipl_product, result.mitigated_frequency, result.ratio, result.gap_orders,
         required_rrf_cell(result), target.label, DEMAND_LABELS[target.demand_mode],
-        _status(result), *_method_cells(outcome.assessment), *uncertainty_cells(item.spread),
+        _status(result), *_method_cells(item, result), *uncertainty_cells(item.spread),
     ]
 
 
@@ -210,22 +225,22 @@ def _status(result: ScenarioResult) -> str:
     return "meets target" if result.meets_target else "short of target"
 
 
-def _method_cells(assessment: Assessment) -> list[Cell]:
+def _method_cells(item: ExportScenario, result: ScenarioResult) -> list[Cell]:
     """Demand, governing receptor, each receptor's line, then the withdrawn figures."""
-    figures = assessment.as_credited
-    demand = figures.result.demand
-    lines = {line.receptor: line for line in figures.receptors.lines}
+    demand = result.demand
+    lines = {line.receptor: line for line in item.lines}
     cells: list[Cell] = [demand.demand_rate_per_year if demand else None,
-                         demand.formula if demand else "", figures.governing.receptor.value]
+                         demand.formula if demand else "",
+                         item.governing.value if item.governing else ""]
     for receptor in Receptor:
         line = lines.get(receptor)
         cells += ([line.mitigated_frequency, line.tolerable_frequency, line.ratio,
                    line.demand.sil_target.label] if line else [None, None, None, "not rated"])
-    withdrawn = assessment.withdrawn
+    withdrawn = item.withdrawn
     if withdrawn is None:
         return [*cells, "", None, None, "", ""]
-    return [*cells, "; ".join(assessment.withdrawn_labels), withdrawn.result.mitigated_frequency,
-            withdrawn.result.ratio, withdrawn.result.sil_target.label, _status(withdrawn.result)]
+    return [*cells, "; ".join(item.withdrawn_labels), withdrawn.mitigated_frequency,
+            withdrawn.ratio, withdrawn.sil_target.label, _status(withdrawn)]
 
 
 STEP_COLUMNS = (
@@ -237,27 +252,26 @@ STEP_COLUMNS = (
 )  # fmt: skip
 
 
+def step_rows(item: ExportScenario) -> Iterator[list[Cell]]:
+    """One row per step of one scenario, with the scenario's number."""
+    for number, step in enumerate(item.steps, 1):
+        yield [item.number, item.node_label, number, step.kind.label, step.description,
+               step.value, step.value_text, "yes" if step.credited else "no",
+               step.ipl_type or "", step.system_tag, step.sil_claimed,
+               step.response_time_minutes, step.basis, typical_words(step.typical_key),
+               *_step_spread_cells(item, step.id)]
+
+
 def step_table(tree: StudyTree) -> Table:
-    """One row per step of every scenario, with the scenario's ref."""
-    refs = scenario_refs(tree)
-    rows: list[list[Cell]] = []
-    for node_branch in tree.nodes:
-        for item in node_branch.scenario_branches():
-            for number, step in enumerate(item.steps, 1):
-                rows.append([
-                    refs[item.scenario.id or 0], node_label(node_branch), number,
-                    step.kind.label, step.description, step.value,
-                    step.value_text, "yes" if step.credited else "no", step.ipl_type or "",
-                    step.system_tag, step.sil_claimed, step.response_time_minutes, step.basis,
-                    typical_words(step.typical_key), *_step_spread_cells(item, step.id),
-                ])
-    return Table("Steps", STEP_COLUMNS, rows)
+    """One row per step of every scenario (from a computed tree)."""
+    return Table("Steps", STEP_COLUMNS,
+                 [row for item in tree_scenarios(tree) for row in step_rows(item)])
 
 
-def _step_spread_cells(item: ScenarioBranch, step_id: int | None) -> list[Cell]:
+def _step_spread_cells(item: ExportScenario, step_id: int | None) -> list[Cell]:
     """The step's EF and where it came from (blank when the scenario has no figures)."""
-    note = next((n for n in item.spread.notes if n.step_id == step_id), None) if (
-        item.spread) else None
+    spread = item.spread if item.result is not None else None
+    note = next((n for n in spread.notes if n.step_id == step_id), None) if spread else None
     if note is None:
         return [None, ""]
     return [note.factor.value, note.note]

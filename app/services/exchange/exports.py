@@ -4,13 +4,18 @@ Rendering the PDF needs the app's template environment (its filters and the caut
 pass it in, so this service never imports the web layer.
 """
 
+import ctypes
+import ctypes.util
+import gc
 import json
 import re
+import tempfile
 import unicodedata
+from collections.abc import Iterator
 from dataclasses import dataclass
 from datetime import UTC, datetime
 from enum import StrEnum
-from typing import Any
+from typing import IO, Any
 
 from jinja2 import Environment
 from sqlmodel import Session, col, select
@@ -18,16 +23,14 @@ from sqlmodel.sql.expression import SelectOfScalar
 
 from app.db.ids import read_row_id
 from app.db.models import Study
-from app.services.exchange.export_audit_tables import audit_tables
-from app.services.exchange.export_csv import table_csv
-from app.services.exchange.export_rounds import round_tables
+from app.services.exchange.export_csv import write_csv
+from app.services.exchange.export_source import stored_scenarios
 from app.services.exchange.export_tables import (
-    all_tables,
-    computed_figures,
-    file_ref_numbers,
-    scenario_table,
+    SCENARIO_COLUMNS,
+    scenario_rows,
+    stored_computed_figures,
 )
-from app.services.exchange.export_xlsx import workbook_bytes
+from app.services.exchange.export_workbook import write_study_workbook
 from app.services.exchange.report import html_to_pdf
 from app.services.exchange.report_source import (
     get_frozen_revision,
@@ -36,7 +39,12 @@ from app.services.exchange.report_source import (
 )
 from app.services.exchange.report_summary import SUMMARY_ROWS, ReportKind
 from app.services.exchange.study_file import export_study
-from app.services.study.tree import NotFoundError, get_study, load_study_tree
+from app.services.study import results, spread
+from app.services.study.tree import NotFoundError, get_study
+
+# Caches keyed per scenario that a whole-study pass fills (see release_memory).
+STUDY_SIZED_CACHES = (results.assess, results.compute_cached,
+                      results._assessment_of_row_tuple, spread._lines)
 
 
 class ExportFormat(StrEnum):
@@ -84,13 +92,39 @@ FORMATS = (
 FORMAT_INFO = {info.format: info for info in FORMATS}
 
 
+CHUNK_BYTES = 1 << 16
+
+
 @dataclass(frozen=True)
 class ExportFile:
-    """A finished export: the name to save it under, its media type and its bytes."""
+    """A finished export: the name to save it under, its media type and its bytes, held in
+    memory or (a spreadsheet of any size) in a temporary file that `chunks` reads out."""
 
     filename: str
     media_type: str
-    content: bytes
+    body: bytes | IO[bytes]
+
+    @property
+    def content(self) -> bytes:
+        """The whole file as bytes (the command line and tests); a temporary file is read
+        once, closed, and its bytes kept."""
+        if isinstance(self.body, bytes):
+            return self.body
+        with self.body as source:
+            source.seek(0)
+            whole = source.read()
+        object.__setattr__(self, "body", whole)  # frozen: the same content, now in memory
+        return whole
+
+    def chunks(self) -> Iterator[bytes]:
+        """The file in pieces for a streamed download; a temporary file is closed after."""
+        if isinstance(self.body, bytes):
+            yield self.body
+            return
+        with self.body as source:
+            source.seek(0)
+            while chunk := source.read(CHUNK_BYTES):
+                yield chunk
 
 
 @dataclass(frozen=True)
@@ -145,7 +179,7 @@ def build_export(
     # Each format loads only what it writes: the file needs no computed tree, the CSV no history.
     cautions: str = env.globals["cautions"]  # type: ignore[assignment]
     if export_format is ExportFormat.JSON:
-        figures = computed_figures(load_study_tree(session, study_id))
+        figures = stored_computed_figures(session, study_id)
         data = {**export_study(session, study_id), "cautions": cautions,
                 "computed_figures": figures}
         return ExportFile(name, info.media_type, study_json_bytes(data))
@@ -153,18 +187,32 @@ def build_export(
     if export_format is ExportFormat.PDF:
         return ExportFile(name, info.media_type,
                           html_to_pdf(live_report_html(session, study_id, env=env, when=now)))
-    tree = load_study_tree(session, study_id)
+    target = tempfile.TemporaryFile()  # noqa: SIM115 - ExportFile.chunks closes it
     if export_format is ExportFormat.CSV:
-        return ExportFile(name, info.media_type,
-                          table_csv(scenario_table(tree), cautions=cautions))
-    data = export_study(session, study_id)
-    tables = (*all_tables(tree, data), *audit_tables(tree),
-              *round_tables(data, file_ref_numbers(tree)))
-    content = workbook_bytes(tables, data,
-                             cautions=cautions, exported_at=now.replace(tzinfo=None),
-                             revision=f"{working_copy_label(session, study_id)}: working copy, "
-                                      f"not signed")
-    return ExportFile(name, info.media_type, content)
+        write_csv(target, SCENARIO_COLUMNS, scenario_rows(stored_scenarios(session, study_id)),
+                  cautions=cautions)
+    else:
+        revision = f"{working_copy_label(session, study_id)}: working copy, not signed"
+        write_study_workbook(session, study_id, target, cautions=cautions,
+                             exported_at=now.replace(tzinfo=None), revision=revision)
+    return ExportFile(name, info.media_type, target)
+
+
+def release_memory() -> None:
+    """Hand the memory a large download used back to the system (run after it is sent).
+
+    A study-sized pass leaves the results core's per-scenario caches full (a rebuild of the
+    stored results fills them with every scenario; since the stored results, nothing reads a
+    whole study through them again), then the cycles are collected and glibc is asked to
+    return its free pages (malloc_trim; elsewhere, nothing to do). Without this the server
+    keeps the peak of its largest download as resident memory."""
+    for cache in STUDY_SIZED_CACHES:
+        cache.cache_clear()
+    gc.collect()
+    name = ctypes.util.find_library("c")
+    trim = getattr(ctypes.CDLL(name), "malloc_trim", None) if name else None
+    if trim is not None:
+        trim(0)
 
 
 def studies_titled(title: str) -> SelectOfScalar[Study]:

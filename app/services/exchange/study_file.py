@@ -208,12 +208,17 @@ def _ordered(session: Session, model: Any, study_id: int) -> list[Any]:
     return fetch_plain_rows(session, plain_rows_of_study(model, study_id))
 
 
-def export_study(session: Session, study_id: int, *, with_history: bool = True) -> dict[str, Any]:
-    """The whole study as a plain dict in the file format (see study_schema)."""
+def export_study(session: Session, study_id: int, *, with_history: bool = True,
+                 with_nodes: bool = True) -> dict[str, Any]:
+    """The whole study as a plain dict in the file format (see study_schema).
+
+    `with_nodes` False: no nodes and no revision snapshots, only what the workbook's other
+    sheets read (it takes the scenarios from the stored results, one node at a time)."""
     study = get_study(session, study_id)
     categories = _ordered(session, SeverityCategory, study_id)
     category_refs = {c.id: f"C{i}" for i, c in enumerate(categories, 1)}
-    nodes_out, scenario_refs = _export_nodes(session, study_id, category_refs)
+    nodes_out, scenario_refs = (_export_nodes(session, study_id, category_refs) if with_nodes
+                                else ([], _scenario_refs(session, study_id)))
     participants = _ordered(session, Participant, study_id)
     people_refs = {p.id: f"P{i}" for i, p in enumerate(participants, 1)}
     data: dict[str, Any] = {
@@ -239,8 +244,20 @@ def export_study(session: Session, study_id: int, *, with_history: bool = True) 
     }
     if with_history:
         data["change_log"] = _export_log(session, study_id, scenario_refs)
-        data.update(export_revisions(session, study_id, live=data))
+        if with_nodes:
+            data.update(export_revisions(session, study_id, live=data))
     return data
+
+
+def _scenario_refs(session: Session, study_id: int) -> dict[int, str]:
+    """Each scenario's file ref (S1, S2, ...) in worksheet order, read as ids only."""
+    placed = fetch_plain_rows(session, select(Scenario.id).join(
+        Deviation, col(Deviation.id) == col(Scenario.deviation_id)).join(
+        Node, col(Node.id) == col(Deviation.node_id)).where(
+        col(Scenario.study_id) == study_id).order_by(
+        col(Node.position), col(Node.id), col(Deviation.position), col(Deviation.id),
+        col(Scenario.position), col(Scenario.id)))
+    return {row.id: scenario_ref(index) for index, row in enumerate(placed)}
 
 
 def _export_nodes(

@@ -174,14 +174,9 @@ LineKey = tuple[tuple[Receptor, float, float, bool], ...]
 """Each computed line as (receptor, mitigated, tolerable, meets): what the spread reads of it."""
 
 
-@lru_cache(maxsize=65_536)
-def _lines(paired: tuple[tuple[StepInput, ErrorFactor], ...],
-           computed: LineKey) -> tuple[LineSpread, ...]:
-    """Each rated receptor's distribution around its already computed line.
-
-    Cached on its frozen inputs, like results.assess: a page showing a whole study recomputes
-    only the scenarios whose numbers or error factors changed.
-    """
+def _fresh_lines(paired: tuple[tuple[StepInput, ErrorFactor], ...],
+                 computed: LineKey) -> tuple[LineSpread, ...]:
+    """Each rated receptor's distribution around its already computed line."""
     steps = [step for step, _ in paired]
     lines = []
     for receptor, mitigated, tolerable, meets in computed:
@@ -192,13 +187,21 @@ def _lines(paired: tuple[tuple[StepInput, ErrorFactor], ...],
     return tuple(lines)
 
 
+# Cached on its frozen inputs, like results.assess: a page showing a whole study recomputes only
+# the scenarios whose numbers or error factors changed. An export (every scenario once, then
+# never again) computes without it, so the server keeps no study-sized cache after a download.
+_lines = lru_cache(maxsize=65_536)(_fresh_lines)
+
+
 def scenario_spread(steps: Iterable[StoredStep], targets: Targets,
                     inputs: ErrorFactorInputs = NO_INPUTS,
-                    receptors: ReceptorAssessment | None = None) -> ScenarioSpread | None:
+                    receptors: ReceptorAssessment | None = None, *,
+                    remember: bool = True) -> ScenarioSpread | None:
     """The scenario's lognormal per receptor line; None without targets or with invalid steps.
 
     `receptors` is the scenario's computed assessment as credited when the caller has it (the
-    medians and verdicts are not computed twice); otherwise it is computed here.
+    medians and verdicts are not computed twice); otherwise it is computed here. `remember`
+    False: computed without the cache (a whole-study export).
     """
     ordered = sorted(steps, key=lambda s: (s.position, s.id or 0))
     if not targets or any(getattr(s, "value", None) is None for s in ordered):
@@ -209,7 +212,8 @@ def scenario_spread(steps: Iterable[StoredStep], targets: Targets,
         found = receptors or assess_receptors(inputs_of, dict(targets))
         computed = tuple((line.receptor, line.mitigated_frequency, line.tolerable_frequency,
                           line.meets_target) for line in found.lines)
-        lines = _lines(tuple(zip(inputs_of, factors, strict=True)), computed)
+        paired = tuple(zip(inputs_of, factors, strict=True))
+        lines = (_lines if remember else _fresh_lines)(paired, computed)
     except LikelihoodInputError:
         return None
     notes = tuple(StepSpreadNote(s.id, s.kind, s.description, f, _round_number(inputs, s.id))
