@@ -6,10 +6,12 @@ pass it in, so this service never imports the web layer.
 
 import json
 import re
+import tempfile
 import unicodedata
 from dataclasses import dataclass
 from datetime import UTC, datetime
 from enum import StrEnum
+from pathlib import Path
 from typing import Any
 
 from jinja2 import Environment
@@ -28,11 +30,10 @@ from app.services.exchange.export_tables import (
     scenario_table,
 )
 from app.services.exchange.export_xlsx import workbook_bytes
-from app.services.exchange.report import html_to_pdf
 from app.services.exchange.report_source import (
     get_frozen_revision,
-    live_report_html,
     working_copy_label,
+    write_report_pdf,
 )
 from app.services.exchange.report_summary import SUMMARY_ROWS, ReportKind
 from app.services.exchange.study_file import export_study
@@ -77,8 +78,9 @@ FORMATS = (
     FormatInfo(ExportFormat.PDF, "Report (.pdf)", "application/pdf",
                "A printable report: cover, scope and criteria, attendance, every scenario's steps "
                "with basis and warnings, ladders, the risk picture, the actions, the added "
-               "functions and the warnings by rule. Made in the background. The summary beside "
-               "it stays a few pages at any size: criteria, risk picture, added functions, "
+               "functions and the warnings by rule. Built in the background, its progress "
+               "shown. The summary beside it stays a few pages at any size: criteria, risk "
+               "picture, added functions, "
                f"actions and the {SUMMARY_ROWS} scenarios furthest short of target."),
 )  # fmt: skip
 FORMAT_INFO = {info.format: info for info in FORMATS}
@@ -136,6 +138,16 @@ def study_json_bytes(data: dict[str, Any]) -> bytes:
     return (json.dumps(data, ensure_ascii=False, separators=(",", ":")) + "\n").encode("utf-8")
 
 
+def report_pdf_bytes(session: Session, study_id: int, *, env: Environment,
+                     when: datetime) -> bytes:
+    """The full report of the live study, built here and now (for scripts and the command
+    line; the export page builds it in the background), laid out part by part as there."""
+    with tempfile.TemporaryDirectory(prefix="tallyroom-report-") as folder:
+        target = Path(folder) / "report.pdf"
+        write_report_pdf(session, study_id, target, env=env, when=when)
+        return target.read_bytes()
+
+
 def build_export(
     *, session: Session, study_id: int, export_format: ExportFormat, env: Environment
 ) -> ExportFile:
@@ -151,8 +163,8 @@ def build_export(
         return ExportFile(name, info.media_type, study_json_bytes(data))
     now = datetime.now(UTC).replace(microsecond=0)
     if export_format is ExportFormat.PDF:
-        return ExportFile(name, info.media_type,
-                          html_to_pdf(live_report_html(session, study_id, env=env, when=now)))
+        return ExportFile(name, info.media_type, report_pdf_bytes(session, study_id, env=env,
+                                                                  when=now))
     tree = load_study_tree(session, study_id)
     if export_format is ExportFormat.CSV:
         return ExportFile(name, info.media_type,

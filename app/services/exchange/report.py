@@ -3,6 +3,7 @@
 from collections import defaultdict
 from dataclasses import dataclass
 from datetime import date, datetime
+from pathlib import Path
 
 from jinja2 import Environment
 from weasyprint import HTML, URLFetcher
@@ -219,6 +220,12 @@ def _report_step(step: Step) -> ReportStep:
 def report_html(report: Report, *, env: Environment) -> str:
     """The report as an HTML document (every value escaped by the template environment)."""
     return env.get_template(REPORT_TEMPLATE).render(report=report, picture=report.picture)
+
+
+def html_to_pdf_file(html: str, target: Path) -> None:
+    """Lay the HTML out as PDF straight into `target` (as html_to_pdf, without the bytes)."""
+    fetcher = URLFetcher(allowed_protocols={"data"})
+    HTML(string=html, base_url=".", url_fetcher=fetcher).write_pdf(target)
 
 
 def html_to_pdf(html: str) -> bytes:

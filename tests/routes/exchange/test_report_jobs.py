@@ -12,6 +12,7 @@ from sqlmodel import Session, select
 
 from app.db.models import Revision, Study
 from app.services.exchange import report_jobs
+from tests.conftest import TEST_DATABASE_URL
 from tests.helpers import HX
 
 
@@ -79,13 +80,15 @@ def test_the_working_copys_report_says_since_which_revision_and_not_signed(
 
 
 def test_an_unknown_job_is_404_and_an_unfinished_one_409(
-    client: TestClient, demo_study: Study
+    client: TestClient, demo_study: Study, tmp_path: Path
 ) -> None:
     study_id = demo_study.id or 0
     assert client.get(f"/studies/{study_id}/report-jobs/nope").status_code == 404
-    job = report_jobs.start_report_job(engine=None, env=None, study_id=study_id,  # type: ignore[arg-type]
-                                       revision_id=None, filename="x.pdf",
-                                       runner=lambda *_: None)
+    assert client.get(f"/studies/{study_id}/report-jobs/..%2F..%2Fx").status_code == 404
+    folder = report_jobs.reports_folder(TEST_DATABASE_URL)
+    job = report_jobs.start_report_job(folder, study_id=study_id, revision_id=None,
+                                       filename="x.pdf", database_url=TEST_DATABASE_URL,
+                                       launch=lambda *_: (0, ""))
     response = client.get(f"/studies/{study_id}/report-jobs/{job.job_id}/file")
-    assert response.status_code == 409 and "not ready yet (queued)" in response.text
+    assert response.status_code == 409 and "not ready yet" in response.text
     assert client.get(f"/studies/{study_id + 1}/report-jobs/{job.job_id}").status_code == 404
