@@ -3,8 +3,8 @@
 The demand rate is how often the process reaches the condition the added function acts on:
 initiating frequency x enabling conditions x PFD of each credited layer acting before it.
 Conditional modifiers (ignition, presence, vulnerability) act after the release and never
-reduce it (CCPS 2001 concept; from memory). Mode: low demand at most once a year, else high
-(IEC 61511-1:2016, definitions of the modes of operation; from memory). Low demand: required
+reduce it (CCPS 2001 concept; recalled). Mode: low demand at most once a year, else high
+(IEC 61511-1:2016, definitions of the modes of operation; recalled). Low demand: required
 RRF = mitigated / tolerable. High demand: required PFH = tolerable / (8760 x conditional
 modifiers x PFD of layers acting after the function) per hour.
 """

@@ -1,6 +1,6 @@
 """PFDavg of a safety function from the simplified equations of IEC 61508-6:2010 Annex B.
 
-Equations from memory of B.3.2.2 (see REFERENCE.md section 2). Rates are per hour, times in
+Equations recalled from B.3.2.2 (see REFERENCE.md section 2). Rates are per hour, times in
 hours. tCE and tGE are the channel and group equivalent mean down times.
 """
 

@@ -118,7 +118,7 @@ DEFAULT_MODIFIER_RECEPTORS: dict[ModifierKind, frozenset[Receptor]] = {
     ModifierKind.OTHER: ALL_RECEPTORS,
 }
 """Presence of people and their vulnerability (probability of injury or fatality) say nothing
-about harm to the environment or an asset; an ignition does (CCPS 2013 concept; from memory)."""
+about harm to the environment or an asset; an ignition does (CCPS 2013 concept; recalled)."""
 
 
 class LikelihoodInputError(ValueError):
