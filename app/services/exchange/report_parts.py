@@ -8,7 +8,9 @@ a 1,000-scenario study laid out as one document held 2.8 GB (DEVELOPERS.md, "PDF
 """
 
 from collections.abc import Callable, Iterator, Sequence
+from concurrent.futures import ProcessPoolExecutor
 from dataclasses import dataclass, replace
+from multiprocessing import get_context
 from pathlib import Path
 
 from jinja2 import Environment
@@ -86,22 +88,40 @@ def part_html(report: Report, part: ReportPart, *, env: Environment) -> str:
 
 
 def build_report_pdf(report: Report, target: Path, *, env: Environment,
-                     progress: PartProgress | None = None) -> int:
-    """Lay the report out part by part into `target`; the number of pages."""
+                     progress: PartProgress | None = None, workers: int = 1) -> int:
+    """Lay the report out part by part into `target`; the number of pages. With `workers`
+    above 1, that many processes lay parts out side by side (each part's HTML is made here)."""
     parts = split_report(report)
-    files: list[Path] = []
+    files = [target.with_name(f"{target.stem}.part{n:04d}.pdf") for n in range(len(parts))]
+    tell = progress or _silent
     try:
-        for number, part in enumerate(parts):
-            if progress is not None:
-                progress(number, len(parts), part.label)
-            files.append(target.with_name(f"{target.stem}.part{number:04d}.pdf"))
-            html_to_pdf_file(part_html(report, part, env=env), files[-1])
-        if progress is not None:
-            progress(len(parts), len(parts), "joining the parts")
+        if workers > 1:
+            _lay_out_in_processes(report, parts, files, env=env, progress=tell,
+                                  workers=workers)
+        else:
+            for number, (part, file) in enumerate(zip(parts, files, strict=True)):
+                tell(number, len(parts), part.label)
+                html_to_pdf_file(part_html(report, part, env=env), file)
+        tell(len(parts), len(parts), "joining the parts")
         return join_parts(files, target)
     finally:
         for file in files:
             file.unlink(missing_ok=True)
+
+
+def _silent(_done: int, _total: int, _label: str) -> None:
+    return None
+
+
+def _lay_out_in_processes(report: Report, parts: list[ReportPart], files: list[Path], *,
+                          env: Environment, progress: PartProgress, workers: int) -> None:
+    # spawn, not fork: a fresh interpreter holds no copy of this one's study tree.
+    with ProcessPoolExecutor(max_workers=workers, mp_context=get_context("spawn")) as pool:
+        pending = [pool.submit(html_to_pdf_file, part_html(report, part, env=env), file)
+                   for part, file in zip(parts, files, strict=True)]
+        for number, future in enumerate(pending):
+            progress(number, len(parts), parts[number].label)
+            future.result()
 
 
 def join_parts(files: Sequence[Path], target: Path) -> int:

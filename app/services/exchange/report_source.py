@@ -110,9 +110,10 @@ def revision_report_html(session: Session, study_id: int, revision_id: int, *,
 def write_report_pdf(session: Session, study_id: int, target: Path, *, env: Environment,
                      when: datetime, revision_id: int | None = None,
                      kind: ReportKind = ReportKind.FULL,
-                     progress: PartProgress | None = None) -> int:
-    """Write the report (full: laid out part by part; summary: one short document) of the
-    live study or a frozen revision into `target`; its number of pages."""
+                     progress: PartProgress | None = None, workers: int = 1) -> int:
+    """Write the report (full: laid out part by part, by `workers` processes side by side
+    when above 1; summary: one short document) of the live study or a frozen revision into
+    `target`; its number of pages."""
     with report_source(session, study_id, revision_id) as source:
         if kind is ReportKind.SUMMARY:
             if progress is not None:
@@ -122,4 +123,4 @@ def write_report_pdf(session: Session, study_id: int, target: Path, *, env: Envi
                 target)
             return len(PdfReader(target).pages)
         report = build_report(source.tree, source.data, when=when, signature=source.signature)
-        return build_report_pdf(report, target, env=env, progress=progress)
+        return build_report_pdf(report, target, env=env, progress=progress, workers=workers)
