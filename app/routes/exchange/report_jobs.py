@@ -69,8 +69,9 @@ def download_report_job(study_id: int, job_key: str, session: SessionDep) -> Res
     """The finished PDF; 409 while it is still being built."""
     job = _job_or_404(session, study_id, job_key)
     if job.state is not report_jobs.JobState.READY:
-        return Response(f"The report is not ready yet ({job.progress}).", status_code=409,
-                        media_type="text/plain; charset=utf-8")
+        why = job.error if job.state is report_jobs.JobState.FAILED else (
+            f"The report is not ready yet ({job.progress}).")
+        return Response(why, status_code=409, media_type="text/plain; charset=utf-8")
     path = report_jobs.pdf_path(_folder(session), job.job_id)
     if not path.is_file():
         raise NotFoundError("This report's file has been cleared away: build the report again.")

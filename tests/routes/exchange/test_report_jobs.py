@@ -92,3 +92,20 @@ def test_an_unknown_job_is_404_and_an_unfinished_one_409(
     response = client.get(f"/studies/{study_id}/report-jobs/{job.job_id}/file")
     assert response.status_code == 409 and "not ready yet" in response.text
     assert client.get(f"/studies/{study_id + 1}/report-jobs/{job.job_id}").status_code == 404
+
+
+def test_a_failed_build_shows_why_and_a_way_back_never_a_server_error(
+    client: TestClient, demo_study: Study
+) -> None:
+    study_id = demo_study.id or 0
+    folder = report_jobs.reports_folder(TEST_DATABASE_URL)
+    job = report_jobs.ReportJob("c" * 32, study_id, None, report_jobs.ReportKind.FULL,
+                                "r.pdf", "2026-11-12T15:30:00+00:00",
+                                state=report_jobs.JobState.FAILED,
+                                error="The report could not be built: There is no study 5.")
+    report_jobs.write_job(folder, job)
+    page = client.get(f"/studies/{study_id}/report-jobs/{job.job_id}")
+    assert page.status_code == 200
+    assert "The report could not be built: There is no study 5." in page.text
+    assert "hx-get" not in page.text.split('id="report-job"')[1].split(">")[0]  # stops polling
+    assert client.get(f"/studies/{study_id}/report-jobs/{job.job_id}/file").status_code == 409
