@@ -7,7 +7,6 @@ import subprocess
 from pathlib import Path
 
 import pytest
-
 from playwright.sync_api import Page, expect
 
 from app.db.models import Study
