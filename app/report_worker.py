@@ -8,13 +8,15 @@ TALLYROOM_DATABASE_URL, which the server sets to its own.
 import sys
 from pathlib import Path
 
-from app.db.session import get_db_engine
-from app.routes.rendering import templates
-from app.services.exchange.report_build import build_job
-
 
 def main(argv: list[str]) -> int:
     """Build the job named on the command line."""
+    # Imported here, not above: the layout processes this one spawns import this module as
+    # their main module, and they need none of the app (report_layout.py).
+    from app.db.session import get_db_engine
+    from app.routes.rendering import templates
+    from app.services.exchange.report_build import build_job
+
     if len(argv) != 3:
         print("usage: python -m app.report_worker FOLDER JOB_ID", file=sys.stderr)
         return 2

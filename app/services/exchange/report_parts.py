@@ -24,9 +24,10 @@ from pypdf.generic import (
     PdfObject,
 )
 
-from app.services.exchange.report import REPORT_TEMPLATE, Report, ReportNode, html_to_pdf_file
+from app.services.exchange.report import REPORT_TEMPLATE, Report, ReportNode
+from app.services.exchange.report_layout import html_to_pdf_file
 
-PART_SCENARIOS = 60
+PART_SCENARIOS = 30
 """Scenarios laid out in one part: small enough that a part's boxes stay a few hundred MB,
 large enough that the pages a part leaves half empty stay few (measured, DEVELOPERS.md)."""
 

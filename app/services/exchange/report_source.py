@@ -18,7 +18,8 @@ from sqlmodel import Session, SQLModel
 from app.db.models import Revision, latest_revision_label
 from app.db.session import build_db_engine
 from app.services.exchange.export_tables import StudyData
-from app.services.exchange.report import Signature, build_report, html_to_pdf_file, report_html
+from app.services.exchange.report import Signature, build_report, report_html
+from app.services.exchange.report_layout import html_to_pdf_file
 from app.services.exchange.report_parts import PartProgress, build_report_pdf
 from app.services.exchange.report_summary import ReportKind, build_summary, summary_html
 from app.services.exchange.study_file import export_study

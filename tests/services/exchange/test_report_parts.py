@@ -13,7 +13,8 @@ from sqlmodel import Session
 
 from app.db.models import Study
 from app.routes.rendering import templates
-from app.services.exchange.report import build_report, html_to_pdf_file
+from app.services.exchange.report import build_report
+from app.services.exchange.report_layout import html_to_pdf_file
 from app.services.exchange.report_parts import join_parts, part_html, split_report
 from app.services.exchange.study_file import export_study
 from app.services.study.tree import load_study_tree
