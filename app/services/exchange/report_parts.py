@@ -89,10 +89,11 @@ def part_html(report: Report, part: ReportPart, *, env: Environment) -> str:
 
 
 def build_report_pdf(report: Report, target: Path, *, env: Environment,
-                     progress: PartProgress | None = None, workers: int = 1) -> int:
+                     progress: PartProgress | None = None, workers: int = 1,
+                     per_part: int = PART_SCENARIOS) -> int:
     """Lay the report out part by part into `target`; the number of pages. With `workers`
     above 1, that many processes lay parts out side by side (each part's HTML is made here)."""
-    parts = split_report(report)
+    parts = split_report(report, per_part)
     files = [target.with_name(f"{target.stem}.part{n:04d}.pdf") for n in range(len(parts))]
     tell = progress or _silent
     try:

@@ -15,7 +15,12 @@ from app.db.models import Study
 from app.routes.rendering import templates
 from app.services.exchange.report import build_report
 from app.services.exchange.report_layout import html_to_pdf_file
-from app.services.exchange.report_parts import join_parts, part_html, split_report
+from app.services.exchange.report_parts import (
+    build_report_pdf,
+    join_parts,
+    part_html,
+    split_report,
+)
 from app.services.exchange.study_file import export_study
 from app.services.study.tree import load_study_tree
 
@@ -64,3 +69,28 @@ def test_joined_parts_number_every_page_n_of_n(tmp_path: Path) -> None:
     assert [s.split(" page ")[0] for s in sheets] == expected
     assert [s.split(" page ")[1] for s in sheets] == [f"{n} of 6" for n in range(1, 7)]
     assert PdfReader(target).metadata.title == "T"  # type: ignore[union-attr]
+
+
+@pytest.mark.skipif(shutil.which("pdftotext") is None, reason="poppler-utils not installed")
+def test_two_layout_processes_give_every_scenario_in_order_on_numbered_pages(
+    session: Session, demo_study: Study, tmp_path: Path
+) -> None:
+    tree = load_study_tree(session, demo_study.id or 0)
+    report = build_report(tree, export_study(session, demo_study.id or 0), when=WHEN)
+    seen: list[tuple[int, int]] = []
+    target = tmp_path / "report.pdf"
+    pages = build_report_pdf(report, target, env=templates.env, workers=2, per_part=2,
+                             progress=lambda done, total, _label: seen.append((done, total)))
+    total = len(split_report(report, 2))
+    assert total > 4
+    assert seen == [(n, total) for n in range(total + 1)]
+    text = subprocess.run(["pdftotext", str(target), "-"], check=True, capture_output=True,
+                          text=True).stdout
+    sheets = [" ".join(t.split()) for t in text.split("\f") if t.strip()]
+    assert len(sheets) == pages
+    assert all(f"page {n} of {pages}" in s for n, s in enumerate(sheets, 1))
+    refs = [e.ref for n in report.nodes for e in n.scenarios]
+    whole = " ".join(sheets)
+    places = [whole.index(f"{ref} · ") for ref in refs]
+    assert places == sorted(places)
+    assert list(tmp_path.iterdir()) == [target]  # the parts' files are gone
