@@ -3,6 +3,7 @@ prints its label and sign-off on every page."""
 
 import shutil
 import subprocess
+import threading
 import time
 from pathlib import Path
 
@@ -86,12 +87,14 @@ def test_an_unknown_job_is_404_and_an_unfinished_one_409(
     assert client.get(f"/studies/{study_id}/report-jobs/nope").status_code == 404
     assert client.get(f"/studies/{study_id}/report-jobs/..%2F..%2Fx").status_code == 404
     folder = report_jobs.reports_folder(TEST_DATABASE_URL)
+    release = threading.Event()
     job = report_jobs.start_report_job(folder, study_id=study_id, revision_id=None,
                                        filename="x.pdf", database_url=TEST_DATABASE_URL,
-                                       launch=lambda *_: (0, ""))
+                                       launch=lambda *_: (release.wait(10), (0, ""))[1])
     response = client.get(f"/studies/{study_id}/report-jobs/{job.job_id}/file")
     assert response.status_code == 409 and "not ready yet" in response.text
     assert client.get(f"/studies/{study_id + 1}/report-jobs/{job.job_id}").status_code == 404
+    release.set()
 
 
 def test_a_failed_build_shows_why_and_a_way_back_never_a_server_error(

@@ -95,6 +95,7 @@ def test_a_build_of_a_study_that_is_gone_fails_with_the_reason(
     assert failed is not None and failed.state is JobState.FAILED
     assert failed.error == "The report could not be built: There is no study 987654."
     assert not report_jobs.pdf_path(tmp_path, job.job_id).exists()
+    assert failed.peak_mb > 20  # this process at least (the build's memory, for make bench)
 
 
 def test_finished_jobs_are_kept_a_day_and_at_most_jobs_kept(tmp_path: Path) -> None:
