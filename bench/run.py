@@ -136,7 +136,7 @@ class SizeRun:
                 self.measure_exports(client, study)
                 self.add("rss_exports_mb", server.rss_mb())
             if "freeze" in chosen:
-                self.measure_freeze(client, study)
+                self.measure_freeze(client, study, marks)
             if "pdf" in chosen:
                 self.measure_pdf(client, study, server)
         finally:
@@ -221,19 +221,31 @@ class SizeRun:
         self.add(f"{key}_mb", done.size / 1e6)
         return done
 
-    def measure_freeze(self, client: BrowserClient, study: str) -> None:
-        """Freeze one revision, then export the JSON again and try importing it back."""
+    def measure_freeze(self, client: BrowserClient, study: str, marks: Landmarks) -> None:
+        """Freeze a revision, edit one value, freeze a second; then export the JSON again
+        (two revisions) and try importing it back."""
         if not self.budget.fits("freeze", self.size):
             self.add("freeze_s", None, "skipped: would not fit the time budget")
             return
         client.open_page(f"{study}/revisions")
+        self.freeze_one(client, study, "freeze_s", 1)
+        edited = client.post(f"{study}/steps/{marks.edit_step}/value",
+                             {"value_text": "1 in 77", "client": "bench-client", "seq": "9999"},
+                             hx=edit_headers(marks))
+        if edited.status != 200:
+            self.add("freeze_again_s", None, f"the edit between answered HTTP {edited.status}")
+        elif self.budget.fits("freeze", self.size):
+            self.freeze_one(client, study, "freeze_again_s", 2)
+        self.measure_reimport(client, study)
+
+    def freeze_one(self, client: BrowserClient, study: str, key: str, number: int) -> None:
+        """POST the freeze form once, as the revisions page sends it."""
         frozen = client.post(f"{study}/revisions", {
-            "label": "Bench revision 1", "note": "Invented revision for the benchmark",
+            "label": f"Bench revision {number}", "note": "Invented revision for the benchmark",
             "signed_off_by": "Invented reviewer"})
         self.budget.record("freeze", self.size, frozen.seconds)
         ok = frozen.status in (200, 303)
-        self.add("freeze_s", frozen.seconds, "" if ok else f"HTTP {frozen.status}")
-        self.measure_reimport(client, study)
+        self.add(key, frozen.seconds, "" if ok else f"HTTP {frozen.status}")
 
     def measure_reimport(self, client: BrowserClient, study: str) -> None:
         """Whether the JSON export of a study with a revision imports back (a new database)."""

@@ -1,11 +1,10 @@
 """Study content shared by the export and import tests: hostile text, an edited demo study."""
 
-import json
-
 from sqlmodel import Session, func, select
 
 from app.db.models import Participant, Revision, Scenario, Step, Study, text_limit
 from app.db.queries import fetch_rows_of_study
+from app.db.snapshot_store import store_snapshot
 from app.likelihood.types import StepKind
 from app.services.exchange.study_file import export_study
 from tests.factories import (
@@ -67,7 +66,8 @@ def edit_demo_study(session: Session, study: Study) -> None:
     session.commit()
     snapshot = export_study(session, study.id, with_history=False)
     session.add(Revision(study_id=study.id, label="Rev 1", note="issued for comment",
-                         frozen_by="Test Scribe", snapshot=json.dumps(snapshot)))
+                         frozen_by="Test Scribe",
+                         snapshot_parts=store_snapshot(session, study.id or 0, snapshot)))
     session.commit()
 
 

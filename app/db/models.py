@@ -327,7 +327,7 @@ class ChangeLogEntry(SQLModel, table=True):
 
 
 class Revision(SQLModel, table=True):
-    """A frozen, read-only snapshot of a study."""
+    """A frozen, read-only snapshot of a study, stored as shared parts (SnapshotPart)."""
 
     id: int | None = Field(default=None, primary_key=True)
     study_id: int = _study_fk()
@@ -337,7 +337,27 @@ class Revision(SQLModel, table=True):
     frozen_by: str = Field(default="", max_length=120)
     signed_off_by: str = Field(default="", max_length=120)
     signed_off_at: datetime | None = None
-    snapshot: str = Field(sa_column=Column(Text, nullable=False))
+    # The snapshot's manifest (JSON): its keys in order, each naming a part's digest, "nodes" a
+    # list of them (app/db/snapshot_parts.py). app/db/snapshot_store.py writes and reads it.
+    snapshot_parts: str = Field(sa_column=Column(Text, nullable=False))
+
+    @property
+    def snapshot(self) -> str:
+        """The whole snapshot as a study file's JSON text, put together from its parts through
+        the session the revision was read in (like a lazily loaded relationship)."""
+        from app.db.snapshot_store import snapshot_text  # it reads this module's tables
+
+        return snapshot_text(self)
+
+
+class SnapshotPart(SQLModel, table=True):
+    """One part of revision snapshots (a node, the criteria, ...), stored once per study and
+    keyed by the SHA-256 of its compact JSON text; revisions share parts that did not change."""
+
+    __tablename__ = "snapshot_part"
+    study_id: int = Field(foreign_key="study.id", ondelete="CASCADE", primary_key=True)
+    digest: str = Field(max_length=64, primary_key=True)
+    content: str = Field(sa_column=Column(Text, nullable=False))
 
 
 # The newest frozen revision's label, read with the study in one correlated subquery, so every
@@ -518,6 +538,23 @@ class ScenarioResultRow(SQLModel, table=True):
     demand_mode: str = Field(default="", max_length=20)
     withdrawn_mitigated_frequency: float | None = None
     withdrawn_ratio: float | None = None
+    # What the risk picture counts and ranks over the whole study, read without `figures`:
+    # the SIL band of the needed added function, the same drawn with flagged credits
+    # withdrawn (set only for a flagged scenario), the IPL-check warnings and the verdict's
+    # uncertainty (governing line as credited, from the steps' error factors).
+    sil_band: str = Field(default="", max_length=40, sa_column_kwargs={"server_default": ""})
+    withdrawn_category_id: int | None = None
+    withdrawn_gap_orders: float | None = None
+    withdrawn_sil_band: str = Field(default="", max_length=40,
+                                    sa_column_kwargs={"server_default": ""})
+    withdrawn_demand_mode: str = Field(default="", max_length=20,
+                                       sa_column_kwargs={"server_default": ""})
+    warning_count: int = Field(default=0, sa_column_kwargs={"server_default": "0"})
+    uncertain: bool = Field(default=False, sa_column_kwargs={"server_default": false()})
+    p_meets: float | None = None
+    spread_median: float | None = None
+    spread_p05: float | None = None
+    spread_p95: float | None = None
     error: str = Field(default="", sa_column_kwargs={"default": ""})
     figures: str = Field(default="{}", sa_type=Text)
 

@@ -86,7 +86,7 @@ def _step_figure_columns() -> list[Any]:
             Step.cause_type, Step.final_element_tag, Step.alarm_on_bpcs,
             Step.crew, Step.per_opportunity_probability,
             Step.opportunities_per_year, Step.time_available_minutes,
-            Step.time_to_detect_and_act_minutes]
+            Step.time_to_detect_and_act_minutes, Step.error_factor]
 
 
 def step_figures_of_study(study_id: int) -> Any:

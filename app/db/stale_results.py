@@ -6,9 +6,11 @@ events note the scenarios concerned in `session.info`; the study core
 commits. Nothing here knows the arithmetic: any row that carries a `scenario_id` (a step, a
 safeguard, or a table another change adds) marks its scenario, before and after a move; a
 scenario marks itself; a severity category marks the scenarios it rates; a deviation moved to
-another node marks its scenarios. Deleted scenarios (and those a deleted node or deviation
-takes with it in the database's cascade) have their stored results read before they go, so
-their counts can be taken out of the totals.
+another node marks its scenarios; a study whose default error factors change marks all its
+scenarios and an estimate round its step's scenario (the stored uncertainty reads both).
+Deleted scenarios (and those a deleted node or deviation takes with it in the database's
+cascade) have their stored results read before they go, so their counts can be taken out of
+the totals.
 """
 
 from dataclasses import dataclass, field
@@ -21,12 +23,15 @@ from sqlalchemy.orm import UOWTransaction
 from app.db.models import (
     ChangeLogEntry,
     Deviation,
+    EstimateRound,
     FieldEdit,
     Node,
     ResultTotal,
     Scenario,
     ScenarioResultRow,
     SeverityCategory,
+    Step,
+    Study,
 )
 
 # Any in this module: session events hand over rows of any table model (the ORM boundary).
@@ -88,6 +93,10 @@ def _note_before_flush(session: OrmSession, _flush: UOWTransaction, _instances: 
         notes.scenario_ids.update(_scenario_ids_of(row))
         if isinstance(row, SeverityCategory):
             notes.scenario_ids.update(_rated_by(session, row.id))
+        elif isinstance(row, Study) and row not in deleted and _defaults_changed(row):
+            notes.scenario_ids.update(_scenarios_where(session, _in_study(row.id)))
+        elif isinstance(row, EstimateRound):
+            notes.scenario_ids.update(_scenario_of_step(session, row.step_id))
         elif isinstance(row, Deviation) and row not in deleted and _moved(row, "node_id"):
             notes.scenario_ids.update(_scenarios_where(session, Scenario.deviation_id == row.id))
         elif isinstance(row, Deviation) and row in deleted:
@@ -123,11 +132,34 @@ def _scenarios_where(session: OrmSession, condition: Any) -> list[int]:
     return list(session.connection().execute(statement.where(condition)).scalars())
 
 
+def _defaults_changed(study: Study) -> bool:
+    """Whether a study's default error factors change (its scenarios' spread reads them)."""
+    return any(attr.history.has_changes() for attr in inspect(study).attrs
+               if attr.key.startswith("error_factor_default_"))
+
+
+def _in_study(study_id: int | None) -> Any:
+    """The condition 'the scenario is in this study'."""
+    table: Any = Scenario
+    return table.study_id == study_id
+
+
+def _scenario_of_step(session: OrmSession, step_id: int | None) -> list[int]:
+    """The scenario of an estimate round's step (a round's outcome feeds its error factor)."""
+    if step_id is None:
+        return []
+    table: Any = Step
+    return list(session.connection().execute(
+        select(table.scenario_id).where(table.id == step_id)).scalars())
+
+
 def _note_after_flush(session: OrmSession, _flush: UOWTransaction) -> None:
     # New rows have their ids only now; the lists still show what this flush wrote.
     notes = stale_of(session)
     for row in session.new:
         notes.scenario_ids.update(_scenario_ids_of(row))
+        if isinstance(row, EstimateRound):
+            notes.scenario_ids.update(_scenario_of_step(session, row.step_id))
     notes.scenario_ids -= set(notes.removed)
 
 

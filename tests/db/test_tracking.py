@@ -96,4 +96,4 @@ def test_text_limits_come_from_the_columns_the_database_enforces() -> None:
     assert text_limit(Scenario, "cause") == 2000
     assert text_limit(Study, "title") == 200
     with pytest.raises(ValueError, match="has no length limit"):
-        text_limit(Revision, "snapshot")
+        text_limit(Revision, "snapshot_parts")

@@ -1,19 +1,20 @@
 """Studies: the list, one study's overview, and a study's own life (new, edit, copy, delete)."""
 
 from dataclasses import replace
+from typing import Annotated
 
-from fastapi import APIRouter, Request
+from fastapi import APIRouter, Query, Request
 from starlette.responses import RedirectResponse, Response
 
 from app.access.roles import Role, allow
 from app.routes.deps import SessionDep, read_page_edit, read_seen
-from app.routes.rendering import render
+from app.routes.rendering import is_htmx, render
 from app.routes.urls import path_for
 from app.services.exchange.study_import import duplicate_study as copy_whole_study
 from app.services.study import lifecycle
 from app.services.study import listing as study_service
+from app.services.study import overview as overview_service
 from app.services.study.conflicts import ConflictError
-from app.services.study.overview import read_study_overview
 
 router = APIRouter()
 FORM_PAGE = "study/form.html"
@@ -58,8 +59,20 @@ async def create_study(request: Request, session: SessionDep) -> Response:
 @router.get("/studies/{study_id}", name="read_study")
 def read_study(request: Request, study_id: int, session: SessionDep) -> Response:
     """One study: its nodes and every scenario's frequency, target and gap."""
-    overview = read_study_overview(session=session, study_id=study_id)
-    return render(request, "study/detail.html", {"page": overview})
+    overview = overview_service.read_study_overview(session=session, study_id=study_id)
+    return render(request, "study/detail.html",
+                  {"page": overview, "lines_page": overview_service.LINES_PAGE})
+
+
+@router.get("/studies/{study_id}/nodes/{node_id}/lines", name="read_node_lines")
+def read_lines_of_node(request: Request, study_id: int, node_id: int, session: SessionDep,
+                       lines_from: Annotated[int, Query(ge=0, le=10_000_000)] = 0) -> Response:
+    """One node's scenario lines, 100 from `lines_from`: the overview of a large study opens
+    them here (htmx swaps in the lines alone; without JavaScript it is a page of its own)."""
+    page = overview_service.read_node_lines(session=session, study_id=study_id,
+                                            node_id=node_id, start=lines_from)
+    return render(request, "study/node_lines.html", {"page": page},
+                  block="lines" if is_htmx(request) else None)
 
 
 @router.get("/studies/{study_id}/edit", name="edit_study")

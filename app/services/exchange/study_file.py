@@ -15,7 +15,6 @@ from app.db.models import (
     Participant,
     Recommendation,
     RecommendationScenario,
-    Revision,
     Safeguard,
     Scenario,
     SessionDay,
@@ -24,6 +23,8 @@ from app.db.models import (
     saved_id,
 )
 from app.db.queries import fetch_plain_rows, plain_rows_of_study
+from app.db.snapshot_parts import SnapshotPartsError
+from app.services.exchange.study_file_revisions import expand_revision_parts, export_revisions
 from app.services.exchange.study_file_rounds import export_rounds, export_word_scale
 from app.services.exchange.study_schema import (
     FILE_FORMAT,
@@ -64,14 +65,23 @@ def parse_study_file(raw: str | bytes) -> StudyFile:
         raise StudyFileError(f"the file nests more than {MAX_NESTING} levels deep; a study "
                              f"file nests far less")
     _check_format_and_version(data)
-    _check_size(data)
-    upgraded = upgrade_study_data(data)
-    if upgraded is not data:  # an older version: validate the upgraded rows
+    expanded = _with_revision_snapshots(data)
+    _check_size(expanded)
+    upgraded = upgrade_study_data(expanded)
+    if upgraded is not data:  # parts put together or an older version: validate the result
         text = json.dumps(upgraded)
     try:
         return StudyFile.model_validate_json(text, strict=True)
     except ValidationError as err:
         raise StudyFileError(_describe_validation(err)) from err
+
+
+def _with_revision_snapshots(data: dict[str, Any]) -> dict[str, Any]:
+    """The file with each revision's snapshot put together from the parts it names."""
+    try:
+        return expand_revision_parts(data)
+    except SnapshotPartsError as err:
+        raise StudyFileError(str(err)) from err
 
 
 def _decoded(raw: str | bytes) -> str:
@@ -228,7 +238,7 @@ def export_study(session: Session, study_id: int, *, with_history: bool = True) 
     }
     if with_history:
         data["change_log"] = _export_log(session, study_id, scenario_refs)
-        data["revisions"] = _export_revisions(session, study_id)
+        data.update(export_revisions(session, study_id, live=data))
     return data
 
 
@@ -343,17 +353,4 @@ def _export_log(
          "summary": e.summary,
          "scenario": scenario_refs.get(e.scenario_id) if e.scenario_id else None}
         for e in entries
-    ]
-
-
-def _export_revisions(session: Session, study_id: int) -> list[dict[str, Any]]:
-    revisions = session.exec(
-        select(Revision).where(Revision.study_id == study_id).order_by(col(Revision.id))
-    ).all()
-    return [
-        {"label": r.label, "note": r.note, "frozen_at": r.frozen_at.isoformat(),
-         "frozen_by": r.frozen_by, "signed_off_by": r.signed_off_by,
-         "signed_off_at": r.signed_off_at.isoformat() if r.signed_off_at else None,
-         "snapshot": json.loads(r.snapshot)}
-        for r in revisions
     ]

@@ -26,6 +26,7 @@ from app.db.models import (
     saved_id,
 )
 from app.db.queries import fetch_plain_rows, placed_rows_of_study
+from app.db.snapshot_store import store_snapshot
 from app.db.tracking import SUPPRESS_LOG_KEY
 from app.services.exchange.study_file import StudyFileError, export_study, parse_study_file
 from app.services.exchange.study_file_rounds import import_rounds
@@ -267,10 +268,13 @@ def _import_history(
             **entry.model_dump(exclude={"scenario"}),
         ))
     for revision in data.revisions:
+        if revision.snapshot is None:  # parse_study_file puts every snapshot together
+            raise StudyFileError(f"revision '{revision.label}' has no snapshot")
         # A snapshot without cautions (every one frozen in the app) is stored without them.
         # Likewise the optional keys of issue 13, so an older snapshot is kept as it was.
         unset = {key for key in ("cautions", "estimate_rounds", "word_scale")
                  if key not in revision.snapshot.model_fields_set}
-        snapshot = json.dumps(revision.snapshot.model_dump(mode="json", exclude=unset))
-        session.add(Revision(study_id=study_id, snapshot=snapshot,
-                             **revision.model_dump(exclude={"snapshot"})))
+        manifest = store_snapshot(session, study_id,
+                                  revision.snapshot.model_dump(mode="json", exclude=unset))
+        session.add(Revision(study_id=study_id, snapshot_parts=manifest, **revision.model_dump(
+            exclude={"snapshot", "snapshot_from_parts"})))

@@ -336,7 +336,11 @@ class StudySnapshot(FileRow):
 
 
 class RevisionRow(FileRow):
-    """A frozen revision with its snapshot (a study file without history), validated alike."""
+    """A frozen revision with its snapshot (a study file without history), validated alike.
+
+    The snapshot is embedded (`snapshot`) or named part by part (`snapshot_from_parts`, the
+    parts in the file's `snapshot_parts`); reading puts it together before validating it.
+    """
 
     label: str = Field(min_length=1, max_length=60)
     note: str = Field(default="", max_length=2000)
@@ -344,7 +348,20 @@ class RevisionRow(FileRow):
     frozen_by: str = Field(default="", max_length=120)
     signed_off_by: str = Field(default="", max_length=120)
     signed_off_at: datetime | None = None
-    snapshot: StudySnapshot
+    snapshot: StudySnapshot | None = None
+    # Optional in schema version 2 (issue 14): written instead of `snapshot`.
+    snapshot_from_parts: dict[str, str | list[str]] | None = Field(
+        default=None, description="the snapshot's keys in order, each naming the SHA-256 "
+        "digest of its part in the file's snapshot_parts ('nodes': one digest per node); a "
+        "scenario without a ref in a node part is S1, S2, ... in order across the snapshot")
+
+    @model_validator(mode="after")
+    def has_its_snapshot(self) -> "RevisionRow":
+        """A revision carries its snapshot, embedded or named part by part (not both)."""
+        if (self.snapshot is None) == (self.snapshot_from_parts is None):
+            raise ValueError("a revision has either a snapshot or snapshot_from_parts (with "
+                             "the parts in the file's snapshot_parts), exactly one of them")
+        return self
 
 
 class StudyFile(StudySnapshot):
@@ -357,6 +374,11 @@ class StudyFile(StudySnapshot):
 
     change_log: list[ChangeLogRow] = []
     revisions: list[RevisionRow] = []
+    # Optional in schema version 2 (issue 14): the parts revisions name, each once.
+    snapshot_parts: dict[str, Any] = Field(
+        default={}, description="every snapshot part a revision names, keyed by the SHA-256 "
+        "of the part's compact JSON text (no spaces, keys in the order written, UTF-8); a part "
+        "whose content does not match its key refuses the file")
     computed_figures: list[dict[str, float | int | str | None]] = Field(
         default=[], description="each scenario's figures as Tallyroom computed them when the "
         "file was written: the CSV's columns with exact values, keyed by the CSV's headers, "

@@ -1,6 +1,5 @@
 """Revisions: freeze the study as a named, signed-off snapshot; view and compare snapshots."""
 
-import json
 from dataclasses import dataclass, field
 from typing import Any
 
@@ -8,6 +7,7 @@ from sqlmodel import Session, col, select
 
 from app.db.ids import read_row_id
 from app.db.models import ChangeLogEntry, Revision, Study, text_limit, utc_now
+from app.db.snapshot_store import load_snapshot, store_snapshot
 from app.db.tracking import SUPPRESS_LOG_KEY
 from app.services.exchange.study_file import export_study
 from app.services.record.comparison import (
@@ -58,11 +58,13 @@ def freeze_revision(
     """Store the study as it is now, read-only, with who froze it and who signed it off."""
     get_study(session, study_id)
     cleaned = _read_freeze_form(session, study_id, values)
-    snapshot = json.dumps(export_study(session, study_id, with_history=False))
+    # Only the parts the study does not hold yet are written: an unchanged node costs its digest.
+    manifest = store_snapshot(session, study_id, export_study(session, study_id,
+                                                              with_history=False))
     now = utc_now()
     revision = Revision(study_id=study_id, label=cleaned["label"], note=cleaned["note"],
                         frozen_at=now, frozen_by=frozen_by, signed_off_by=cleaned["signed_off_by"],
-                        signed_off_at=now, snapshot=snapshot)
+                        signed_off_at=now, snapshot_parts=manifest)
     session.add(revision)
     session.flush()
     if not session.info.get(SUPPRESS_LOG_KEY):
@@ -152,7 +154,7 @@ def read_frozen(*, session: Session, study_id: int, revision_id: int) -> FrozenP
     """A revision's snapshot, ready to show read-only."""
     study = get_study(session, study_id)
     revision = get_revision(session=session, study_id=study_id, revision_id=revision_id)
-    snapshot = json.loads(revision.snapshot)
+    snapshot = load_snapshot(session, revision)
     return FrozenPage(study, revision, snapshot, frozen_nodes(snapshot))
 
 
@@ -196,8 +198,8 @@ def build_comparison_page(
         newer, to_label = export_study(session, study_id, with_history=False), "the live study"
     else:
         picked = _pick(session, study_id, "to", typed_to)
-        newer, to_label = json.loads(picked.snapshot), f"revision {picked.label}"
-    diff = diff_studies(json.loads(older.snapshot), newer)
+        newer, to_label = load_snapshot(session, picked), f"revision {picked.label}"
+    diff = diff_studies(load_snapshot(session, older), newer)
     return ComparePage(study, revisions, typed_from, typed_to, f"revision {older.label}",
                        to_label, diff)
 

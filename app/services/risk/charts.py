@@ -245,9 +245,11 @@ def _short_label(text: str, limit: int = 48) -> str:
     return text if len(text) <= limit else text[: limit - 1].rstrip() + "…"
 
 
-def build_gap_bars(items: Sequence[GapBarInput]) -> GapBars:
-    """Lay out one bar per scenario, in the given order, on a shared orders-of-magnitude axis."""
-    low, high = _axis_range([i.gap_orders for i in items])
+def build_gap_bars(items: Sequence[GapBarInput],
+                   axis_gaps: Sequence[float] | None = None) -> GapBars:
+    """Lay out one bar per scenario, in the given order, on a shared orders-of-magnitude axis
+    (spanning `axis_gaps` when given: a page of bars on the whole study's axis)."""
+    low, high = _axis_range([i.gap_orders for i in items] if axis_gaps is None else axis_gaps)
     scale = BAR_AREA_W / (high - low)
     zero_x = BAR_LABEL_W + (0 - low) * scale
     bars = []

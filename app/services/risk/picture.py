@@ -1,9 +1,11 @@
-"""The study risk picture: scenarios ranked by gap, sums, matrix, gap bars and SIL needs."""
+"""The study risk picture computed from the study tree: ranking, sums, matrix, gap bars, SIL needs.
+
+The PDF report draws it; the page reads the same figures from the stored rows
+(stored_picture.py), tested equal to this computation.
+"""
 
 from collections import Counter
 from dataclasses import dataclass
-
-from sqlmodel import Session
 
 from app.db.models import SeverityCategory
 from app.likelihood.completeness import left_out_words
@@ -20,13 +22,13 @@ from app.services.risk.charts import (
 )
 from app.services.risk.ipl_checks import ScenarioWarnings, study_warnings
 from app.services.study.listing import NodeTotals, totals_of
+from app.services.study.result_figures import SIL_BANDS
 from app.services.study.results import Figures
 from app.services.study.tree import (
     NodeBranch,
     ScenarioBranch,
     StudyTree,
     WorksheetSpot,
-    load_study_tree,
 )
 
 
@@ -151,7 +153,7 @@ class RiskPicture:
         return left_out_words(len(self.incomplete))
 
 
-BAND_ORDER = ("Below SIL 1", "SIL 1", "SIL 2", "SIL 3", "SIL 4", "Beyond one function")
+BAND_ORDER = SIL_BANDS
 DEMAND_WORDS = {DemandMode.LOW: "low demand", DemandMode.HIGH: "high demand"}
 
 
@@ -347,27 +349,3 @@ def select_cell(picture: RiskPicture, key: str) -> CellSelection:
             f"(cells read like 'cat-3:decade--4')."
         )
     return CellSelection(key, cell.title, tuple(r for r in picture.ranked if r.cell == key))
-
-
-@dataclass(frozen=True)
-class RiskPage:
-    """The risk picture page: the study, its picture and an optional selected cell."""
-
-    tree: StudyTree
-    picture: RiskPicture
-    selection: CellSelection | None
-    cell_error: str
-
-
-def read_risk_page(*, session: Session, study_id: int, cell: str | None = None,
-                   withdrawn: bool = False, most_likely_first: bool = False) -> RiskPage:
-    """Load and compute the study, then pick out the requested matrix cell if any."""
-    tree = load_study_tree(session, study_id)
-    picture = build_risk_picture(tree, withdrawn=withdrawn, most_likely_first=most_likely_first)
-    selection, error = None, ""
-    if cell:
-        try:
-            selection = select_cell(picture, cell)
-        except UnknownCellError as err:
-            error = str(err)
-    return RiskPage(tree, picture, selection, error)

@@ -26,7 +26,10 @@ from app.services.study.results import (
     assessment_of_rows,
     outcome_of,
     receptor_categories,
+    targets_of,
+    warnings_of,
 )
+from app.services.study.spread import NO_INPUTS, ErrorFactorInputs, scenario_spread
 
 # Any in this module: plain rows from SQLAlchemy carry no column types, and the JSON is untyped.
 
@@ -104,16 +107,71 @@ def figures_json(assessment: Assessment, rated: Mapping[Receptor, Any]) -> str:
     }, separators=(",", ":"))
 
 
-def scenario_columns(rating: Any, steps: tuple[Any, ...], categories: Mapping[int, Any]
-                     ) -> dict[str, Any]:
+SIL_BANDS = ("Below SIL 1", "SIL 1", "SIL 2", "SIL 3", "SIL 4", "Beyond one function")
+"""The bands added functions are counted in, weakest first."""
+
+
+def sil_band(target: SilTarget) -> str:
+    """The band the risk picture counts an added function in: 'SIL 2', 'Below SIL 1',
+    'Beyond one function' (or the target's own label for any other status)."""
+    if target.status is SilStatus.SIL:
+        return f"SIL {target.sil}"
+    if target.status is SilStatus.BELOW_SIL1:
+        return "Below SIL 1"
+    return "Beyond one function" if target.status is SilStatus.BEYOND_ONE_FUNCTION \
+        else target.label
+
+
+def _withdrawn_columns(assessment: Assessment, rated: Mapping[Receptor, Any]) -> dict[str, Any]:
+    """The governing category, gap, band and demand mode drawn with flagged credits withdrawn
+    (only for a scenario a check flags; the others are drawn as credited either way)."""
+    withdrawn = assessment.withdrawn
+    if withdrawn is None:
+        return {"withdrawn_category_id": None, "withdrawn_gap_orders": None,
+                "withdrawn_sil_band": "", "withdrawn_demand_mode": ""}
+    target = withdrawn.result.sil_target
+    return {"withdrawn_category_id": rated[withdrawn.governing.receptor].id,
+            "withdrawn_gap_orders": withdrawn.result.gap_orders,
+            "withdrawn_sil_band": sil_band(target),
+            "withdrawn_demand_mode": str(target.demand_mode)}
+
+
+def _spread_columns(steps: tuple[Any, ...], assessment: Assessment,
+                    rated: Mapping[Receptor, Any], inputs: ErrorFactorInputs) -> dict[str, Any]:
+    """The governing line's uncertainty as credited (None where no spread can be drawn)."""
+    spread = scenario_spread(steps, targets_of(rated), inputs,
+                             assessment.as_credited.receptors)
+    if spread is None:
+        return dict(SPREAD_NONE)
+    line = spread.governing
+    d = line.distribution
+    return {"uncertain": line.uncertain, "p_meets": d.probability_meets_target,
+            "spread_median": d.median, "spread_p05": d.p05, "spread_p95": d.p95}
+
+
+SPREAD_NONE: dict[str, Any] = {"uncertain": False, "p_meets": None, "spread_median": None,
+                               "spread_p05": None, "spread_p95": None}
+
+
+def scenario_columns(rating: Any, steps: tuple[Any, ...], categories: Mapping[int, Any],
+                     inputs: ErrorFactorInputs = NO_INPUTS) -> dict[str, Any]:
     """One scenario computed from plain rows, as the columns of its stored row."""
     people_not_rated = bool(rating.people_not_rated)
     assessment, category, error = outcome_of(rating, steps, categories,
                                              people_not_rated=people_not_rated,
                                              assessed=assessment_of_rows)
+    warning_count = len(warnings_of(steps))
     if assessment is None or category is None:
-        return {**NOT_COMPUTED, "incomplete": is_incomplete(rating, steps), "error": error}
+        return {**NOT_COMPUTED, "incomplete": is_incomplete(rating, steps), "error": error,
+                "warning_count": warning_count}
     rated = receptor_categories(rating, categories, people_not_rated=people_not_rated)
+    return {**_computed_columns(assessment, category, rated),
+            **_withdrawn_columns(assessment, rated), "warning_count": warning_count,
+            **_spread_columns(steps, assessment, rated, inputs)}
+
+
+def _computed_columns(assessment: Assessment, category: Any,
+                      rated: Mapping[Receptor, Any]) -> dict[str, Any]:
     result = assessment.as_credited.result
     withdrawn = assessment.withdrawn.result if assessment.withdrawn else None
     return {"computed": True, "incomplete": False, "short": not result.meets_target,
@@ -127,6 +185,7 @@ def scenario_columns(rating: Any, steps: tuple[Any, ...], categories: Mapping[in
             "demand_mode": str(result.sil_target.demand_mode),
             "withdrawn_mitigated_frequency": withdrawn.mitigated_frequency if withdrawn else None,
             "withdrawn_ratio": withdrawn.ratio if withdrawn else None, "error": "",
+            "sil_band": sil_band(result.sil_target),
             "figures": figures_json(assessment, rated)}
 
 
@@ -135,7 +194,9 @@ NOT_COMPUTED: dict[str, Any] = {
     "short_withdrawn": False,
     "category_id": None, "gap_orders": None, "receptor": "", "mitigated_frequency": None,
     "tolerable_frequency": None, "ratio": None, "sil_label": "", "demand_mode": "",
-    "withdrawn_mitigated_frequency": None, "withdrawn_ratio": None, "figures": "{}"}
+    "withdrawn_mitigated_frequency": None, "withdrawn_ratio": None, "figures": "{}",
+    "sil_band": "", "withdrawn_category_id": None, "withdrawn_gap_orders": None,
+    "withdrawn_sil_band": "", "withdrawn_demand_mode": "", **SPREAD_NONE}
 
 
 @dataclass(frozen=True)

@@ -70,11 +70,15 @@ def study_defaults(study: Any) -> dict[StepKind, float]:
     return {kind: float(value) for kind, value in found.items() if value is not None}
 
 
-def load_error_factor_inputs(session: Session, study: Study) -> ErrorFactorInputs:
-    """The study's defaults and each step's last revealed or agreed round, in two queries."""
+def load_error_factor_inputs(session: Session, study: Study,
+                             step_ids: Sequence[int] | None = None) -> ErrorFactorInputs:
+    """The study's defaults and each step's last revealed or agreed round, in two queries
+    (only the rounds of `step_ids` when given: an edit reads its own scenario's)."""
+    which = (col(EstimateRound.step_id).in_(list(step_ids)) if step_ids is not None
+             else col(EstimateRound.step_id).is_not(None))
     rounds = session.exec(
         select(EstimateRound.id, EstimateRound.step_id, EstimateRound.number)
-        .where(EstimateRound.study_id == study.id, col(EstimateRound.step_id).is_not(None),
+        .where(EstimateRound.study_id == study.id, which,
                col(EstimateRound.state).in_([RoundState.REVEALED, RoundState.AGREED]))
     ).all()
     last: dict[int, tuple[int, int]] = {}

@@ -17,7 +17,7 @@ from collections import defaultdict
 from collections.abc import Iterable, Mapping
 from typing import Any
 
-from sqlalchemy import bindparam, delete, event, insert, select, update
+from sqlalchemy import bindparam, delete, event, func, insert, select, update
 from sqlalchemy.orm import Session as OrmSession
 from sqlmodel import Session
 
@@ -33,10 +33,11 @@ from app.db.queries import (
 from app.db.stale_results import forget, note_stale_results, stale_of
 from app.services.study.listing import NodeTotals
 from app.services.study.result_figures import scenario_columns
+from app.services.study.spread import NO_INPUTS, ErrorFactorInputs, load_error_factor_inputs
 
 # Any in this module: plain rows from SQLAlchemy carry no column types (the ORM boundary).
 
-RESULTS_VERSION = 1
+RESULTS_VERSION = 2  # 2: the risk picture's fields (band, withdrawn, warnings, spread)
 STUDY_ROW = 0  # result_total.node_id of a study's own counts
 BATCH = 500  # ids per IN list
 COUNTS = ("scenario_count", "short_count", "unresolved_count", "flagged_count",
@@ -62,6 +63,15 @@ def _categories(session: Session, study_id: int) -> dict[int, Any]:
     return {row.id: row for row in fetch_plain_rows(session, category_targets_of_study(study_id))}
 
 
+def _inputs_of(session: Session, study_id: int, steps: Iterable[Any]) -> ErrorFactorInputs:
+    """What the error factors read besides the steps: the study's defaults and these steps'
+    last revealed or agreed rounds (only theirs: an edit reads its own scenario's)."""
+    study = session.get(Study, study_id)
+    if study is None:
+        return NO_INPUTS
+    return load_error_factor_inputs(session, study, sorted(step.id for step in steps))
+
+
 def compute_rows(session: Session, scenario_ids: Iterable[int]) -> dict[int, dict[str, Any]]:
     """The stored-row columns of a few scenarios, read from their own rows only."""
     computed: dict[int, dict[str, Any]] = {}
@@ -70,13 +80,18 @@ def compute_rows(session: Session, scenario_ids: Iterable[int]) -> dict[int, dic
         steps: dict[int, list[Any]] = defaultdict(list)
         for step in fetch_plain_rows(session, step_figures_of_scenario_ids(batch)):
             steps[step.scenario_id].append(step)
-        for rating in fetch_plain_rows(session, scenario_ratings_of_scenarios(batch)):
+        ratings = fetch_plain_rows(session, scenario_ratings_of_scenarios(batch))
+        inputs = {study_id: _inputs_of(session, study_id, [
+            step for rating in ratings if rating.study_id == study_id
+            for step in steps[rating.id]]) for study_id in {r.study_id for r in ratings}}
+        for rating in ratings:
             if rating.study_id not in categories:
                 categories[rating.study_id] = _categories(session, rating.study_id)
             computed[rating.id] = {
                 "scenario_id": rating.id, "study_id": rating.study_id,
                 "node_id": rating.node_id,
-                **scenario_columns(rating, tuple(steps[rating.id]), categories[rating.study_id])}
+                **scenario_columns(rating, tuple(steps[rating.id]), categories[rating.study_id],
+                                   inputs[rating.study_id])}
     return computed
 
 
@@ -86,8 +101,10 @@ def compute_study_rows(session: Session, study_id: int) -> dict[int, dict[str, A
     steps: dict[int, list[Any]] = defaultdict(list)
     for step in fetch_plain_rows(session, step_figures_of_study(study_id)):
         steps[step.scenario_id].append(step)
+    study = session.get(Study, study_id)
+    inputs = load_error_factor_inputs(session, study) if study is not None else NO_INPUTS
     return {rating.id: {"scenario_id": rating.id, "study_id": study_id, "node_id": rating.node_id,
-                        **scenario_columns(rating, tuple(steps[rating.id]), categories)}
+                        **scenario_columns(rating, tuple(steps[rating.id]), categories, inputs)}
             for rating in fetch_plain_rows(session, scenario_ratings_of_study(study_id))}
 
 
@@ -270,11 +287,10 @@ def install_stored_results() -> None:
         note_stale_results(lambda name, fn: event.listen(OrmSession, name, fn))
 
 
-def stored_rows_in_order(session: Session, study_id: int) -> list[Any]:
-    """Every scenario of the study with its stored headline, in worksheet order (plain rows)."""
-    ensure_current(session, study_id)
+def _headlines(study_id: int) -> Any:
+    """Each scenario of the study with its stored headline, in worksheet order (a statement)."""
     stored: Any = ScenarioResultRow
-    return list(session.connection().execute(
+    return (
         select(Scenario.id, Scenario.cause, Scenario.consequence, Deviation.node_id,  # type: ignore[call-overload]
                Deviation.guideword, Deviation.parameter, stored.computed, stored.incomplete,
                stored.error,
@@ -285,4 +301,37 @@ def stored_rows_in_order(session: Session, study_id: int) -> list[Any]:
         .join(Deviation, Deviation.id == Scenario.deviation_id)
         .join(stored, stored.scenario_id == Scenario.id)
         .where(Scenario.study_id == study_id)
-        .order_by(Deviation.position, Deviation.id, Scenario.position, Scenario.id)))
+        .order_by(Deviation.position, Deviation.id, Scenario.position, Scenario.id))
+
+
+def stored_rows_in_order(session: Session, study_id: int) -> list[Any]:
+    """Every scenario of the study with its stored headline, in worksheet order (plain rows)."""
+    ensure_current(session, study_id)
+    return list(session.connection().execute(_headlines(study_id)))
+
+
+def stored_rows_of_node(session: Session, study_id: int, node_id: int, start: int,
+                        count: int) -> list[Any]:
+    """`count` scenarios of one node from the `start`-th, with their stored headlines."""
+    ensure_current(session, study_id)
+    statement = _headlines(study_id).where(Deviation.node_id == node_id)
+    return list(session.connection().execute(statement.offset(start).limit(count)))
+
+
+def node_summaries(session: Session, study_id: int) -> tuple[dict[int, dict[str, int]],
+                                                             dict[int, float]]:
+    """Per node: how many scenarios short of target need an added function in each SIL
+    band, and the worst gap (largest, orders of magnitude) of its computed scenarios; two
+    grouped SELECTs over the stored rows (index on study and node)."""
+    ensure_current(session, study_id)
+    stored: Any = ScenarioResultRow
+    bands: dict[int, dict[str, int]] = defaultdict(dict)
+    for node_id, band, count in session.connection().execute(
+            select(stored.node_id, stored.sil_band, func.count())
+            .where(stored.study_id == study_id, stored.computed, stored.short)
+            .group_by(stored.node_id, stored.sil_band)):
+        bands[node_id][band] = count
+    worst = {node_id: gap for node_id, gap in session.connection().execute(
+        select(stored.node_id, func.max(stored.gap_orders))
+        .where(stored.study_id == study_id, stored.computed).group_by(stored.node_id))}
+    return dict(bands), worst

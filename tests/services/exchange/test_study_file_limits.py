@@ -19,6 +19,7 @@ from app.services.exchange.study_file import (
     export_study,
     parse_study_file,
 )
+from app.services.exchange.study_file_revisions import expand_revision_parts
 from app.services.exchange.study_import import import_study_text
 from app.settings import get_settings
 from tests.samples import study_count
@@ -28,12 +29,13 @@ Data = dict[str, Any]
 
 @pytest.fixture
 def demo_file(session: Session, demo_study: Study) -> Data:
-    """The demo study exported with its history (a revision is frozen first)."""
+    """The demo study exported with its history (a revision is frozen first), its revision's
+    snapshot embedded as files written before issue 14 have it."""
     from app.services.record.revisions import freeze_revision
 
     freeze_revision(session=session, study_id=demo_study.id or 0, frozen_by="T",
                     values={"label": "A", "note": "", "signed_off_by": "T"})
-    return export_study(session, demo_study.id or 0)
+    return expand_revision_parts(export_study(session, demo_study.id or 0))
 
 
 def refused(session: Session, data: Data | str) -> str:

@@ -26,6 +26,7 @@ from app.db.models import (
 from app.services.estimates import answers, rounds
 from app.services.estimates.answers import Answerer
 from app.services.exchange.study_file import StudyFileError, export_study
+from app.services.exchange.study_file_revisions import expand_revision_parts
 from app.services.exchange.study_import import import_study_text
 from app.services.record.revisions import freeze_revision
 from app.settings import get_settings
@@ -130,13 +131,13 @@ def test_a_frozen_revision_carries_the_rounds_and_an_older_snapshot_stays_as_it_
     study_id = demo_study.id or 0
     freeze_revision(session=session, study_id=study_id, frozen_by="T",
                     values={"label": "A", "note": "", "signed_off_by": "T"})
-    data = export_study(session, study_id)
+    data = expand_revision_parts(export_study(session, study_id))  # the snapshot embedded
     snapshot = data["revisions"][0]["snapshot"]
     assert snapshot["estimate_rounds"] == data["estimate_rounds"]
     assert snapshot["word_scale"] == data["word_scale"]
     del snapshot["estimate_rounds"], snapshot["word_scale"]  # as frozen before issue 13
     copy = import_study_text(session, json.dumps(data))
-    stored = export_study(session, copy.id or 0)["revisions"][0]["snapshot"]
+    stored = expand_revision_parts(export_study(session, copy.id or 0))["revisions"][0]["snapshot"]
     assert "estimate_rounds" not in stored and "word_scale" not in stored
 
 

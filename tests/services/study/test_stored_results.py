@@ -131,8 +131,37 @@ def change_criteria(session: Session, study_id: int, seed: int) -> None:
                                     receptor=str(category.receptor)))
 
 
+def change_error_factor_defaults(session: Session, study_id: int, seed: int) -> None:
+    """The study's default error factors: every scenario's stored uncertainty reads them."""
+    from app.db.models import Study
+    from app.services.risk.error_factor_defaults import save_defaults
+    study = session.get(Study, study_id)
+    assert study is not None
+    texts = ("", "3", "10", "2")
+    save_defaults(session=session, study_id=study_id, version=study.version,
+                  form={kind.value: texts[(seed + i) % len(texts)]
+                        for i, kind in enumerate(StepKind)})
+
+
+def reveal_a_round(session: Session, study_id: int, seed: int) -> None:
+    """A revealed estimate round on a step: its spread becomes that step's error factor."""
+    from app.services.estimates.answers import Answerer, give_estimate
+    from app.services.estimates.rounds import open_round, reveal_round
+    step_id = pick(session, Step, study_id, seed)
+    if step_id is None:
+        return
+    opened = open_round(session=session, study_id=study_id, step_id=step_id,
+                        question="How likely?")
+    for person, text in (("Ann", "0.01"), ("Bo", ("0.1", "0.03", "0.5")[seed % 3])):
+        give_estimate(session=session, study_id=study_id, round_id=opened.id or 0,
+                      answerer=Answerer(person, None), text=text)
+    reveal_round(session=session, study_id=study_id, round_id=opened.id or 0)
+    session.commit()
+
+
 OPS: tuple[Op, ...] = (type_value, type_value, toggle_credit, rate, add_step, add_scenario,
-                       delete_some, undo, move, change_criteria)
+                       delete_some, undo, move, change_criteria, change_error_factor_defaults,
+                       reveal_a_round)
 REFUSALS = (StructureInputError, NothingToUndoError, LikelihoodInputError, FieldInputError)
 
 
@@ -227,3 +256,20 @@ def test_an_incomplete_scenario_is_counted_apart_and_back_in_when_rated(session:
     edit_field(session=session, study_id=study_id, kind_name="scenario", row_id=scenario_id,
                changes={"severity_category_id": category})
     assert stored_counts(session, study_id)[STUDY_ROW] == before
+
+
+def test_the_stored_picture_fields_follow_error_factor_defaults_and_rounds(
+        session: Session) -> None:
+    """The uncertainty and warning fields are stored, and move when only what the error
+    factors read changes (the study's defaults, a revealed round), not a step's own value."""
+    study_id = load_demo_study(session).id or 0
+    ensure_current(session, study_id)
+    before = stored_rows(session, study_id)
+    assert any(row["warning_count"] for row in before.values())
+    assert any(row["uncertain"] for row in before.values())
+    change_error_factor_defaults(session, study_id, 1)
+    assert_stored_equals_recomputed(session, study_id)
+    after = stored_rows(session, study_id)
+    assert [r["p_meets"] for r in after.values()] != [r["p_meets"] for r in before.values()]
+    reveal_a_round(session, study_id, 3)
+    assert_stored_equals_recomputed(session, study_id)
