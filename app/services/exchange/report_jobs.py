@@ -164,7 +164,8 @@ def _unfinished_job(folder: Path, study_id: int, revision_id: int | None,
 
 
 def remove_old_jobs(folder: Path, *, now: float | None = None) -> None:
-    """Delete finished jobs' files older than a day and all but the newest JOBS_KEPT."""
+    """Delete finished jobs' files older than a day and all but the newest JOBS_KEPT, and
+    the half-made files of builds nobody watches."""
     if not folder.is_dir():
         return
     states = sorted(folder.glob("*.json"), key=lambda p: p.stat().st_mtime, reverse=True)
@@ -174,6 +175,10 @@ def remove_old_jobs(folder: Path, *, now: float | None = None) -> None:
             continue
         state.unlink(missing_ok=True)
         pdf_path(folder, state.stem).unlink(missing_ok=True)
+    # A build that was killed leaves its half-made files; nobody watches its job any more.
+    for leftover in folder.glob("*.building*"):
+        if leftover.name.split(".")[0] not in _watched:
+            leftover.unlink(missing_ok=True)
 
 
 def start_report_job(folder: Path, *, study_id: int, revision_id: int | None, filename: str,

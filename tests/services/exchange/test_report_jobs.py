@@ -110,6 +110,7 @@ def test_finished_jobs_are_kept_a_day_and_at_most_jobs_kept(tmp_path: Path) -> N
         for path in (report_jobs.state_path(tmp_path, job_id),
                      report_jobs.pdf_path(tmp_path, job_id)):
             os.utime(path, (stamp, stamp))
+    (tmp_path / f"{ids[0]}.building.part0003.pdf").write_bytes(b"%PDF-")  # a killed build
     report_jobs.remove_old_jobs(tmp_path, now=now)
     kept = sorted(p.stem for p in tmp_path.glob("*.json"))
     # ids[3] is two days old; of the rest, the newest JOBS_KEPT stay.
