@@ -15,6 +15,7 @@ from collections.abc import Iterator
 from dataclasses import dataclass
 from datetime import UTC, datetime
 from enum import StrEnum
+from pathlib import Path
 from typing import IO, Any
 
 from jinja2 import Environment
@@ -31,11 +32,10 @@ from app.services.exchange.export_tables import (
     stored_computed_figures,
 )
 from app.services.exchange.export_workbook import write_study_workbook
-from app.services.exchange.report import html_to_pdf
 from app.services.exchange.report_source import (
     get_frozen_revision,
-    live_report_html,
     working_copy_label,
+    write_report_pdf,
 )
 from app.services.exchange.report_summary import SUMMARY_ROWS, ReportKind
 from app.services.exchange.study_file import export_study
@@ -85,8 +85,9 @@ FORMATS = (
     FormatInfo(ExportFormat.PDF, "Report (.pdf)", "application/pdf",
                "A printable report: cover, scope and criteria, attendance, every scenario's steps "
                "with basis and warnings, ladders, the risk picture, the actions, the added "
-               "functions and the warnings by rule. Made in the background. The summary beside "
-               "it stays a few pages at any size: criteria, risk picture, added functions, "
+               "functions and the warnings by rule. Built in the background, its progress "
+               "shown. The summary beside it stays a few pages at any size: criteria, risk "
+               "picture, added functions, "
                f"actions and the {SUMMARY_ROWS} scenarios furthest short of target."),
 )  # fmt: skip
 FORMAT_INFO = {info.format: info for info in FORMATS}
@@ -170,6 +171,16 @@ def study_json_bytes(data: dict[str, Any]) -> bytes:
     return (json.dumps(data, ensure_ascii=False, separators=(",", ":")) + "\n").encode("utf-8")
 
 
+def report_pdf_bytes(session: Session, study_id: int, *, env: Environment,
+                     when: datetime) -> bytes:
+    """The full report of the live study, built here and now (for scripts and the command
+    line; the export page builds it in the background), laid out part by part as there."""
+    with tempfile.TemporaryDirectory(prefix="tallyroom-report-") as folder:
+        target = Path(folder) / "report.pdf"
+        write_report_pdf(session, study_id, target, env=env, when=when)
+        return target.read_bytes()
+
+
 def build_export(
     *, session: Session, study_id: int, export_format: ExportFormat, env: Environment
 ) -> ExportFile:
@@ -185,8 +196,8 @@ def build_export(
         return ExportFile(name, info.media_type, study_json_bytes(data))
     now = datetime.now(UTC).replace(microsecond=0)
     if export_format is ExportFormat.PDF:
-        return ExportFile(name, info.media_type,
-                          html_to_pdf(live_report_html(session, study_id, env=env, when=now)))
+        return ExportFile(name, info.media_type, report_pdf_bytes(session, study_id, env=env,
+                                                                  when=now))
     target = tempfile.TemporaryFile()  # noqa: SIM115 - ExportFile.chunks closes it
     if export_format is ExportFormat.CSV:
         write_csv(target, SCENARIO_COLUMNS, scenario_rows(stored_scenarios(session, study_id)),

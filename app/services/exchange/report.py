@@ -5,7 +5,6 @@ from dataclasses import dataclass
 from datetime import date, datetime
 
 from jinja2 import Environment
-from weasyprint import HTML, URLFetcher
 
 from app.db.models import Node, Step, Study
 from app.likelihood.check_base import CheckWarning
@@ -33,6 +32,9 @@ from app.services.exchange.export_tables import (
     scenario_refs,
     typical_words,
 )
+
+# Laid out by report_layout.py; named here too, where the report is.
+from app.services.exchange.report_layout import html_to_pdf as html_to_pdf
 from app.services.risk.ipl_checks import scenario_warnings
 from app.services.risk.picture import RiskPicture, build_risk_picture
 from app.services.study.listing import NodeTotals, totals_of
@@ -219,12 +221,3 @@ def _report_step(step: Step) -> ReportStep:
 def report_html(report: Report, *, env: Environment) -> str:
     """The report as an HTML document (every value escaped by the template environment)."""
     return env.get_template(REPORT_TEMPLATE).render(report=report, picture=report.picture)
-
-
-def html_to_pdf(html: str) -> bytes:
-    """Lay the HTML out as PDF; only data: URLs may be fetched, so nothing leaves the machine."""
-    fetcher = URLFetcher(allowed_protocols={"data"})
-    # WeasyPrint is untyped (a boundary): write_pdf() gives bytes when no target is passed.
-    pdf: bytes | None = HTML(string=html, base_url=".", url_fetcher=fetcher).write_pdf()
-    assert pdf is not None
-    return pdf

@@ -1,12 +1,18 @@
-"""In a real browser: 'Make the report' shows progress, then a download link for the PDF."""
+"""In a real browser: 'Build the full report' shows its progress part by part, then a download
+link for the PDF, whose pages pdftotext reads."""
 
+import re
+import shutil
+import subprocess
 from pathlib import Path
 
+import pytest
 from playwright.sync_api import Page, expect
 
 from app.db.models import Study
 
 
+@pytest.mark.skipif(shutil.which("pdftotext") is None, reason="poppler-utils not installed")
 def test_the_report_shows_progress_then_downloads(
     page: Page, live_server: str, demo_study: Study, artifacts: Path
 ) -> None:
@@ -14,15 +20,26 @@ def test_the_report_shows_progress_then_downloads(
     page.locator("#start-report").click()
     job = page.locator("#report-job")
     expect(job).to_contain_text("Making the report")
+    expect(page.locator("#report-refresh")).to_be_visible()  # without JavaScript: reload
+    expect(page.locator("#report-progress")).to_contain_text("part ", timeout=60_000)
+    progress = page.locator("#report-progress").inner_text()
     page.screenshot(path=str(artifacts / "report-in-progress.png"))
+    assert re.match(r"part \d+ of \d+: \w", progress), progress  # e.g. "part 2 of 3: scenarios …"
     link = page.locator("#report-download")
     expect(link).to_be_visible(timeout=120_000)
+    expect(job).to_contain_text("pages")
     page.screenshot(path=str(artifacts / "report-ready.png"))
     with page.expect_download() as download_info:
         link.click()
     saved = artifacts / "demo-report.pdf"
     download_info.value.save_as(saved)
     assert saved.read_bytes().startswith(b"%PDF-")
+    text = subprocess.run(["pdftotext", str(saved), "-"], check=True, capture_output=True,
+                          text=True).stdout
+    pages = [" ".join(p.split()) for p in text.split("\f") if p.strip()]
+    assert demo_study.title.split(" - ")[0] in pages[0]  # pdftotext may drop a dash at a break
+    assert all(f"page {n} of {len(pages)}" in p for n, p in enumerate(pages, 1))
+    assert any("3 · Scenarios by node" in p for p in pages)
 
 
 def test_the_summary_beside_it_shows_progress_then_downloads_a_summary_pdf(

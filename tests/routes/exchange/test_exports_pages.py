@@ -36,7 +36,7 @@ def test_the_export_page_offers_every_format_with_its_command(
     assert rows[0] == ["Format", "What the file holds", "Download", "Command line"]
     name = f"tallyroom-{study_id}-export-check-invented"
     assert [(row[0], row[2], row[3]) for row in rows[1:]] == [
-        (label, "Make the report Make the summary" if fmt == "pdf" else f"Download {fmt}",
+        (label, "Build the full report Build the summary" if fmt == "pdf" else f"Download {fmt}",
          f"tallyroom export {study_id} --format {fmt} --out {name}.{fmt}")
         for label, fmt in [("Workbook (.xlsx)", "xlsx"), ("Scenario table (.csv)", "csv"),
                            ("Study file (.json)", "json"), ("Report (.pdf)", "pdf")]

@@ -3,6 +3,7 @@ prints its label and sign-off on every page."""
 
 import shutil
 import subprocess
+import threading
 import time
 from pathlib import Path
 
@@ -12,6 +13,7 @@ from sqlmodel import Session, select
 
 from app.db.models import Revision, Study
 from app.services.exchange import report_jobs
+from tests.conftest import TEST_DATABASE_URL
 from tests.helpers import HX
 
 
@@ -79,13 +81,34 @@ def test_the_working_copys_report_says_since_which_revision_and_not_signed(
 
 
 def test_an_unknown_job_is_404_and_an_unfinished_one_409(
-    client: TestClient, demo_study: Study
+    client: TestClient, demo_study: Study, tmp_path: Path
 ) -> None:
     study_id = demo_study.id or 0
     assert client.get(f"/studies/{study_id}/report-jobs/nope").status_code == 404
-    job = report_jobs.start_report_job(engine=None, env=None, study_id=study_id,  # type: ignore[arg-type]
-                                       revision_id=None, filename="x.pdf",
-                                       runner=lambda *_: None)
+    assert client.get(f"/studies/{study_id}/report-jobs/..%2F..%2Fx").status_code == 404
+    folder = report_jobs.reports_folder(TEST_DATABASE_URL)
+    release = threading.Event()
+    job = report_jobs.start_report_job(folder, study_id=study_id, revision_id=None,
+                                       filename="x.pdf", database_url=TEST_DATABASE_URL,
+                                       launch=lambda *_: (release.wait(10), (0, ""))[1])
     response = client.get(f"/studies/{study_id}/report-jobs/{job.job_id}/file")
-    assert response.status_code == 409 and "not ready yet (queued)" in response.text
+    assert response.status_code == 409 and "not ready yet" in response.text
     assert client.get(f"/studies/{study_id + 1}/report-jobs/{job.job_id}").status_code == 404
+    release.set()
+
+
+def test_a_failed_build_shows_why_and_a_way_back_never_a_server_error(
+    client: TestClient, demo_study: Study
+) -> None:
+    study_id = demo_study.id or 0
+    folder = report_jobs.reports_folder(TEST_DATABASE_URL)
+    job = report_jobs.ReportJob("c" * 32, study_id, None, report_jobs.ReportKind.FULL,
+                                "r.pdf", "2026-11-12T15:30:00+00:00",
+                                state=report_jobs.JobState.FAILED,
+                                error="The report could not be built: There is no study 5.")
+    report_jobs.write_job(folder, job)
+    page = client.get(f"/studies/{study_id}/report-jobs/{job.job_id}")
+    assert page.status_code == 200
+    assert "The report could not be built: There is no study 5." in page.text
+    assert "hx-get" not in page.text.split('id="report-job"')[1].split(">")[0]  # stops polling
+    assert client.get(f"/studies/{study_id}/report-jobs/{job.job_id}/file").status_code == 409
