@@ -237,6 +237,7 @@ class StoredResult:
     withdrawn: StoredFigures | None
     withdrawn_labels: tuple[str, ...]
     error: str
+    incomplete: bool = False  # no figures because frequency or severity is still missing
 
     @classmethod
     def of_row(cls, row: Any) -> "StoredResult":
@@ -246,7 +247,8 @@ class StoredResult:
         return cls(int(row.scenario_id), int(row.node_id),
                    StoredFigures.read(data["credited"]) if data else None,
                    StoredFigures.read(withdrawn) if withdrawn else None,
-                   tuple(data.get("withdrawn_labels", ())), str(row.error))
+                   tuple(data.get("withdrawn_labels", ())), str(row.error),
+                   bool(getattr(row, "incomplete", False)))  # label-only rows leave it out
 
     def figures(self, *, withdrawn: bool) -> StoredFigures | None:
         """As credited, or with flagged credits withdrawn where a check flags one."""
