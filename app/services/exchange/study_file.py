@@ -5,6 +5,7 @@ from collections import defaultdict
 from typing import Any
 
 from pydantic import ValidationError
+from sqlalchemy import String, type_coerce
 from sqlmodel import Session, col, select
 
 from app.db.models import (
@@ -322,17 +323,21 @@ STEP_KEYS = ("kind", *STEP_FIELDS, "proof_test", *METHOD_FIELDS, "receptors", *C
 
 def _steps_by_scenario(session: Session, study_id: int) -> dict[int, list[dict[str, Any]]]:
     """Each scenario's steps in the file's form, read as the file's columns only (no row
-    objects, no timestamps) and laid out by position."""
+    objects, no timestamps) and laid out by position. The kind is read as its stored text
+    (the StepKind round trip was a tenth of a large study's build)."""
     grouped: dict[int, list[dict[str, Any]]] = defaultdict(list)
-    rows = fetch_plain_rows(session, plain_rows_of_study(Step, study_id,
-                                                         ("scenario_id", *STEP_KEYS)))
+    statement = plain_rows_of_study(Step, study_id, ("scenario_id", *STEP_KEYS))
+    kind_text = type_coerce(Step.__table__.c.kind, String)  # type: ignore[attr-defined]
+    rows = fetch_plain_rows(session, statement.with_only_columns(
+        statement.selected_columns[0], kind_text, *statement.selected_columns[2:]))
+    proof_at, receptors_at = STEP_KEYS.index("proof_test"), STEP_KEYS.index("receptors")
     for row in rows:
-        scenario_id, values = row[0], tuple(row)[1:]
-        step = dict(zip(STEP_KEYS, values, strict=True))
-        step["kind"] = step["kind"].value
-        step["proof_test"] = json.loads(step["proof_test"]) if step["proof_test"] else None
-        step["receptors"] = stored_receptors(step["receptors"])
-        grouped[scenario_id].append(step)
+        values = list(row)[1:]
+        if values[proof_at]:
+            values[proof_at] = json.loads(values[proof_at])
+        if values[receptors_at] is not None:
+            values[receptors_at] = stored_receptors(values[receptors_at])
+        grouped[row[0]].append(dict(zip(STEP_KEYS, values, strict=True)))
     return grouped
 
 
