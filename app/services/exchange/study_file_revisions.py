@@ -11,6 +11,7 @@ an embedded `snapshot` (which older files have, and still import).
 """
 
 import json
+from collections.abc import Callable
 from typing import Any
 
 from sqlmodel import Session, col, select
@@ -19,11 +20,13 @@ from app.db.models import Revision
 from app.db.snapshot_parts import (
     SnapshotPartsError,
     assemble_snapshot,
+    legacy_part_text,
     manifest_digests,
     part_digest,
     part_text,
     read_manifest,
     split_snapshot,
+    text_holds,
 )
 from app.db.snapshot_store import part_texts, revision_manifest
 
@@ -35,7 +38,8 @@ PART_RULE = ("every part a revision names must be in the file: in snapshot_parts
              "study's own content unchanged")
 # Not study content: what a revision's snapshot never holds.
 HISTORY_KEYS = frozenset({"change_log", "revisions", PARTS_KEY, "computed_figures"})
-DIGEST_RULE = "a part's key must be the SHA-256 of its compact JSON text"
+DIGEST_RULE = ("a part's key must be the SHA-256 of its compact JSON text (as orjson writes "
+               "it, or as Python's json.dumps did before)")
 
 
 def export_revisions(session: Session, study_id: int, live: dict[str, Any]) -> dict[str, Any]:
@@ -74,11 +78,33 @@ def expand_revision_parts(data: dict[str, Any]) -> dict[str, Any]:
         return data
     # As texts, each read afresh where it is used: no snapshot shares an object with the
     # study content or another revision, so changing one never changes another.
-    parts = {**split_snapshot(_content(data))[1], **_checked_parts(data.get(PARTS_KEY, {}))}
+    content = _content(data)
+    parts = {**_live_parts(content, part_text), **_checked_parts(data.get(PARTS_KEY, {}))}
+    named = [digest for revision in revisions or [] if isinstance(revision, dict)
+             for digest in _named(revision.get(FROM_PARTS_KEY))]
+    if any(digest not in parts for digest in named):  # a file written before orjson
+        parts = {**_live_parts(content, legacy_part_text), **parts}
     expanded = {key: value for key, value in data.items() if key != PARTS_KEY}
     expanded["revisions"] = [
         _expanded(revision, index, parts) for index, revision in enumerate(revisions or [])]
     return expanded
+
+
+def _named(manifest: Any) -> list[str]:
+    """The digests a manifest names, if it is shaped as one (its shape is checked later)."""
+    if not isinstance(manifest, dict):
+        return []
+    return [d for named in manifest.values()
+            for d in (named if isinstance(named, list) else [named]) if isinstance(d, str)]
+
+
+def _live_parts(content: dict[str, Any], text_of: Callable[[Any], str]) -> dict[str, str]:
+    """The file's own study content as parts; none when it cannot be written as JSON exactly
+    (a part naming it is then missing, and refused by that rule)."""
+    try:
+        return split_snapshot(content, text_of)[1]
+    except (TypeError, ValueError):  # orjson's refusal; a lone surrogate in UTF-8
+        return {}
 
 
 def _checked_parts(parts: Any) -> dict[str, str]:
@@ -87,13 +113,38 @@ def _checked_parts(parts: Any) -> dict[str, str]:
         raise SnapshotPartsError(f"{PARTS_KEY}: an object of parts keyed by their digests")
     texts = {}
     for digest, value in parts.items():
-        texts[digest] = part_text(value)
-        actual = part_digest(texts[digest])
-        if actual != digest:
+        text = _text_keyed(digest, value)
+        if text is None:
             raise SnapshotPartsError(
-                f"{PARTS_KEY}.{digest}: the part's content hashes to {actual}; {DIGEST_RULE} "
-                f"(the file was changed after it was written)")
+                f"{PARTS_KEY}.{digest}: the part's content hashes to {_digest_of(value)}; "
+                f"{DIGEST_RULE} (the file was changed after it was written)")
+        texts[digest] = text
     return texts
+
+
+def _digest_of(value: Any) -> str:
+    """The digest a part's content has today (or had, when orjson cannot write it)."""
+    try:
+        return part_digest(part_text(value))
+    except (TypeError, ValueError):
+        try:
+            return part_digest(legacy_part_text(value))
+        except (TypeError, ValueError):
+            return "no digest (it is not writable as JSON text)"
+
+
+def _text_keyed(digest: Any, value: Any) -> str | None:
+    """The part's text whose SHA-256 is `digest` (today's text, else the legacy one); None
+    when neither is."""
+    for text_of in (part_text, legacy_part_text):
+        try:
+            text = text_of(value)
+            if part_digest(text) == digest and (text_of is legacy_part_text
+                                                or text_holds(text, value)):
+                return text
+        except (TypeError, ValueError):  # not writable exactly in that form
+            continue
+    return None
 
 
 def _expanded(revision: Any, index: int, parts: dict[str, str]) -> Any:
