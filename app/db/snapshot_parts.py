@@ -99,6 +99,33 @@ def _parts_of(key: str, value: Any, text_of: Callable[[Any], str]) -> Iterator[s
         yield text_of(stripped)
 
 
+def split_with_known_nodes(snapshot: dict[str, Any], nodes: list[tuple[str | None, int]],
+                           ) -> tuple[Manifest, dict[str, str]]:
+    """split_snapshot of a snapshot whose `nodes` holds only the nodes not known yet.
+
+    `nodes` gives every node of the whole snapshot in order: its part's digest when known
+    (a node unchanged since it was last split), else None, and the number of scenarios
+    before it in the study (so a built node's sequential refs are left out as split_snapshot
+    leaves them). The built nodes are taken from snapshot["nodes"] in order."""
+    manifest, parts = split_snapshot({key: value for key, value in snapshot.items()
+                                      if key != NODES_KEY})
+    built = iter(snapshot.get(NODES_KEY, []))
+    digests: list[str] = []
+    for known, scenarios_before in nodes:
+        if known is None:
+            stripped = _without_sequential_refs(next(built), scenarios_before)[0]
+            text = part_text(stripped)
+            known = part_digest(text)
+            parts.setdefault(known, text)
+        digests.append(known)
+    if next(built, None) is not None:
+        raise ValueError("more nodes were built than the node list leaves unknown")
+    ordered: Manifest = {}
+    for key in snapshot:  # the snapshot's own key order, nodes in place
+        ordered[key] = digests if key == NODES_KEY else manifest[key]
+    return ordered, parts
+
+
 def assemble_snapshot(manifest: Manifest, value_of: Callable[[str], Any]) -> dict[str, Any]:
     """The snapshot a manifest names, reading each part with `value_of(digest)`.
 

@@ -31,8 +31,13 @@ DIGESTS_PER_QUERY = 500
 def store_snapshot(session: Session, study_id: int, snapshot: dict[str, Any]) -> str:
     """Store the parts of `snapshot` the study does not hold yet; its manifest as JSON text
     (for Revision.snapshot_parts). Flushes nothing else and does not commit."""
-    manifest, parts = split_snapshot(snapshot)
-    held = _held_digests(session, study_id, parts)
+    return store_parts(session, study_id, *split_snapshot(snapshot))
+
+
+def store_parts(session: Session, study_id: int, manifest: Manifest,
+                parts: dict[str, str]) -> str:
+    """Store the parts (digest -> text) the study does not hold yet; the manifest as JSON."""
+    held = held_digests(session, study_id, parts)
     new = [{"study_id": study_id, "digest": digest, "content": text}
            for digest, text in parts.items() if digest not in held]
     if new:
@@ -67,7 +72,8 @@ def part_texts(session: Session, study_id: int, digests: Iterable[str]) -> dict[
     return dict(_stored(session, study_id, digests, with_content=True))
 
 
-def _held_digests(session: Session, study_id: int, digests: Iterable[str]) -> set[str]:
+def held_digests(session: Session, study_id: int, digests: Iterable[str]) -> set[str]:
+    """Which of these parts the study holds."""
     return {digest for digest, _ in _stored(session, study_id, digests, with_content=False)}
 
 

@@ -2,6 +2,7 @@
 
 import json
 from collections import defaultdict
+from collections.abc import Collection
 from typing import Any
 
 from pydantic import ValidationError
@@ -210,16 +211,25 @@ def _ordered(session: Session, model: Any, study_id: int) -> list[Any]:
 
 
 def export_study(session: Session, study_id: int, *, with_history: bool = True,
-                 with_nodes: bool = True) -> dict[str, Any]:
+                 with_nodes: bool = True, node_ids: Collection[int] | None = None,
+                 ) -> dict[str, Any]:
     """The whole study as a plain dict in the file format (see study_schema).
 
     `with_nodes` False: no nodes and no revision snapshots, only what the workbook's other
-    sheets read (it takes the scenarios from the stored results, one node at a time)."""
+    sheets read (it takes the scenarios from the stored results, one node at a time).
+    `node_ids`: `nodes` holds only these nodes, in the study's order (a freeze builds only
+    the nodes changed since its last one; scenario refs stay the whole study's)."""
     study = get_study(session, study_id)
     categories = _ordered(session, SeverityCategory, study_id)
     category_refs = {c.id: f"C{i}" for i, c in enumerate(categories, 1)}
-    nodes_out, scenario_refs = (_export_nodes(session, study_id, category_refs) if with_nodes
-                                else ([], _scenario_refs(session, study_id)))
+    if not with_nodes:
+        nodes_out, scenario_refs = [], _scenario_refs(session, study_id)
+    elif node_ids is not None:
+        scenario_refs = _scenario_refs(session, study_id)
+        nodes_out = _export_nodes(session, study_id, category_refs, scenario_refs,
+                                  set(node_ids))[0]
+    else:
+        nodes_out, scenario_refs = _export_nodes(session, study_id, category_refs)
     participants = _ordered(session, Participant, study_id)
     people_refs = {p.id: f"P{i}" for i, p in enumerate(participants, 1)}
     data: dict[str, Any] = {
@@ -261,22 +271,52 @@ def _scenario_refs(session: Session, study_id: int) -> dict[int, str]:
     return {row.id: scenario_ref(index) for index, row in enumerate(placed)}
 
 
+# The columns the file reads (no timestamps, whose conversion was a tenth of reading them).
+NODE_COLUMNS = ("id", "number", "name", "design_intent", "drawing_reference")
+DEVIATION_COLUMNS = ("id", "node_id", "guideword", "parameter", "description")
+SAFEGUARD_COLUMNS = ("scenario_id", "description", "note")
+
+
+def _of_nodes(model: Any, node_ids: set[int]) -> Any:
+    """The condition that a row of `model` (node, deviation, scenario, step or safeguard)
+    belongs to one of these nodes."""
+    ids = sorted(node_ids)
+    if model is Node:
+        return col(Node.id).in_(ids)
+    if model is Deviation:
+        return col(Deviation.node_id).in_(ids)
+    deviations = select(Deviation.id).where(col(Deviation.node_id).in_(ids))
+    if model is Scenario:
+        return col(Scenario.deviation_id).in_(deviations)
+    scenarios = select(Scenario.id).where(col(Scenario.deviation_id).in_(deviations))
+    return model.scenario_id.in_(scenarios)
+
+
 def _export_nodes(
-    session: Session, study_id: int, category_refs: dict[int | None, str]
+    session: Session, study_id: int, category_refs: dict[int | None, str],
+    refs: dict[int, str] | None = None, only: set[int] | None = None,
 ) -> tuple[list[dict[str, Any]], dict[int, str]]:
-    deviations = _by_parent(_ordered(session, Deviation, study_id), "node_id")
-    scenarios = _by_parent(fetch_plain_rows(session, plain_rows_of_study(
-        Scenario, study_id, SCENARIO_COLUMNS)), "deviation_id")
-    steps = _steps_by_scenario(session, study_id)
-    safeguards = _by_parent(_ordered(session, Safeguard, study_id), "scenario_id")
+    """The nodes in the file's form and each scenario's ref; `only` some nodes, whose
+    scenarios then take their refs from `refs` (the whole study's)."""
+    def rows(model: Any, names: tuple[str, ...]) -> list[Any]:
+        statement = plain_rows_of_study(model, study_id, names)
+        return fetch_plain_rows(session, statement if only is None
+                                else statement.where(_of_nodes(model, only)))
+
+    deviations = _by_parent(rows(Deviation, DEVIATION_COLUMNS), "node_id")
+    scenarios = _by_parent(rows(Scenario, SCENARIO_COLUMNS), "deviation_id")
+    steps = _steps_by_scenario(session, study_id, None if only is None
+                               else _of_nodes(Step, only))
+    safeguards = _by_parent(rows(Safeguard, SAFEGUARD_COLUMNS), "scenario_id")
     scenario_refs: dict[int, str] = {}
     nodes_out = []
-    for node in _ordered(session, Node, study_id):
+    for node in rows(Node, NODE_COLUMNS):
         deviations_out = []
         for deviation in deviations[node.id]:
             scenarios_out = []
             for scenario in scenarios[deviation.id]:
-                scenario_refs[scenario.id] = scenario_ref(len(scenario_refs))
+                scenario_refs[scenario.id] = (scenario_ref(len(scenario_refs)) if refs is None
+                                              else refs[scenario.id])
                 scenarios_out.append(
                     _export_scenario(scenario, scenario_refs[scenario.id], category_refs,
                                      steps[scenario.id], safeguards[scenario.id])
@@ -321,22 +361,31 @@ STEP_KEYS = ("kind", *STEP_FIELDS, "proof_test", *METHOD_FIELDS, "receptors", *C
              "error_factor")
 
 
-def _steps_by_scenario(session: Session, study_id: int) -> dict[int, list[dict[str, Any]]]:
+def _steps_by_scenario(session: Session, study_id: int,
+                       condition: Any = None) -> dict[int, list[dict[str, Any]]]:
     """Each scenario's steps in the file's form, read as the file's columns only (no row
     objects, no timestamps) and laid out by position. The kind is read as its stored text
     (the StepKind round trip was a tenth of a large study's build)."""
     grouped: dict[int, list[dict[str, Any]]] = defaultdict(list)
     statement = plain_rows_of_study(Step, study_id, ("scenario_id", *STEP_KEYS))
+    if condition is not None:
+        statement = statement.where(condition)
     kind_text = type_coerce(Step.__table__.c.kind, String)  # type: ignore[attr-defined]
     rows = fetch_plain_rows(session, statement.with_only_columns(
         statement.selected_columns[0], kind_text, *statement.selected_columns[2:]))
     proof_at, receptors_at = STEP_KEYS.index("proof_test"), STEP_KEYS.index("receptors")
+    receptor_lists: dict[str, list[str] | None] = {}  # a handful of distinct stored texts
     for row in rows:
-        values = list(row)[1:]
-        if values[proof_at]:
-            values[proof_at] = json.loads(values[proof_at])
-        if values[receptors_at] is not None:
-            values[receptors_at] = stored_receptors(values[receptors_at])
+        values: Any = row[1:]
+        if values[proof_at] is not None or values[receptors_at] is not None:
+            values = list(values)
+            if values[proof_at]:
+                values[proof_at] = json.loads(values[proof_at])
+            if (text := values[receptors_at]) is not None:
+                if text not in receptor_lists:
+                    receptor_lists[text] = stored_receptors(text)
+                found = receptor_lists[text]
+                values[receptors_at] = None if found is None else list(found)
         grouped[row[0]].append(dict(zip(STEP_KEYS, values, strict=True)))
     return grouped
 

@@ -7,7 +7,7 @@ from sqlmodel import Session, col, select
 
 from app.db.ids import read_row_id
 from app.db.models import ChangeLogEntry, Revision, Study, text_limit, utc_now
-from app.db.snapshot_store import load_snapshot, store_snapshot
+from app.db.snapshot_store import load_snapshot
 from app.db.tracking import SUPPRESS_LOG_KEY
 from app.services.exchange.study_file import export_study
 from app.services.record.comparison import (
@@ -18,6 +18,7 @@ from app.services.record.comparison import (
     diff_studies,
     scenario_numbers,
 )
+from app.services.record.freeze_parts import freeze_snapshot
 from app.services.study.errors import FieldInputError, length_problem
 from app.services.study.tree import NotFoundError, get_study
 
@@ -58,9 +59,9 @@ def freeze_revision(
     """Store the study as it is now, read-only, with who froze it and who signed it off."""
     get_study(session, study_id)
     cleaned = _read_freeze_form(session, study_id, values)
-    # Only the parts the study does not hold yet are written: an unchanged node costs its digest.
-    manifest = store_snapshot(session, study_id, export_study(session, study_id,
-                                                              with_history=False))
+    # Only the parts the study does not hold yet are written: an unchanged node costs its
+    # digest, and a node unchanged since this process last froze the study is not even built.
+    manifest = freeze_snapshot(session, study_id)
     now = utc_now()
     revision = Revision(study_id=study_id, label=cleaned["label"], note=cleaned["note"],
                         frozen_at=now, frozen_by=frozen_by, signed_off_by=cleaned["signed_off_by"],
