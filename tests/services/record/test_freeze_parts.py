@@ -235,13 +235,14 @@ def _freeze(session: Session, study_id: int, label: str) -> Revision:
 
 @pytest.fixture
 def built(monkeypatch: pytest.MonkeyPatch) -> list[set[int] | None]:
-    """The node ids each freeze built (None: the whole study)."""
+    """The node ids each freeze built (all of them when it built the whole study)."""
     calls: list[set[int] | None] = []
     real = freeze_parts.export_study
 
     def spy(session: Session, study_id: int, **options: Any) -> dict[str, Any]:
         node_ids = options.get("node_ids")
-        calls.append(None if node_ids is None else set(node_ids))
+        calls.append({n.id or 0 for n in _nodes(session, study_id)} if node_ids is None
+                     else set(node_ids))
         return real(session, study_id, **options)
 
     monkeypatch.setattr(freeze_parts, "export_study", spy)
