@@ -307,7 +307,9 @@ def _export_nodes(
     scenarios = _by_parent(rows(Scenario, SCENARIO_COLUMNS), "deviation_id")
     steps = _steps_by_scenario(session, study_id, None if only is None
                                else _of_nodes(Step, only))
-    safeguards = _by_parent(rows(Safeguard, SAFEGUARD_COLUMNS), "scenario_id")
+    safeguards: dict[int, list[dict[str, Any]]] = defaultdict(list)
+    for scenario_id, description, note in rows(Safeguard, SAFEGUARD_COLUMNS):
+        safeguards[scenario_id].append({"description": description, "note": note})
     scenario_refs: dict[int, str] = {}
     nodes_out = []
     for node in rows(Node, NODE_COLUMNS):
@@ -315,11 +317,12 @@ def _export_nodes(
         for deviation in deviations[node.id]:
             scenarios_out = []
             for scenario in scenarios[deviation.id]:
-                scenario_refs[scenario.id] = (scenario_ref(len(scenario_refs)) if refs is None
-                                              else refs[scenario.id])
+                scenario_id = scenario[0]
+                scenario_refs[scenario_id] = (scenario_ref(len(scenario_refs)) if refs is None
+                                              else refs[scenario_id])
                 scenarios_out.append(
-                    _export_scenario(scenario, scenario_refs[scenario.id], category_refs,
-                                     steps[scenario.id], safeguards[scenario.id])
+                    _export_scenario(tuple(scenario), scenario_refs[scenario_id], category_refs,
+                                     steps[scenario_id], safeguards[scenario_id])
                 )
             deviations_out.append(
                 {"guideword": deviation.guideword, "parameter": deviation.parameter,
@@ -338,20 +341,23 @@ SCENARIO_COLUMNS = ("id", "deviation_id", "cause", "consequence", "notes",
 
 
 def _export_scenario(
-    scenario: Any, ref: str, category_refs: dict[int | None, str],
-    steps: list[dict[str, Any]], safeguards: list[Safeguard],
+    scenario: tuple[Any, ...], ref: str, category_refs: dict[int | None, str],
+    steps: list[dict[str, Any]], safeguards: list[dict[str, Any]],
 ) -> dict[str, Any]:
+    """One scenario from its SCENARIO_COLUMNS, read by place (a plain row's attribute
+    look-ups were a third of building a large study's scenarios)."""
+    _, _, cause, consequence, notes, severity, environment, asset, not_rated = scenario
     return {
         "ref": ref,
-        "cause": scenario.cause,
-        "consequence": scenario.consequence,
-        "notes": scenario.notes,
-        "severity": category_refs.get(scenario.severity_category_id),
-        "environment_severity": category_refs.get(scenario.environment_category_id),
-        "asset_severity": category_refs.get(scenario.asset_category_id),
-        "people_not_rated": scenario.people_not_rated,
+        "cause": cause,
+        "consequence": consequence,
+        "notes": notes,
+        "severity": category_refs.get(severity),
+        "environment_severity": category_refs.get(environment),
+        "asset_severity": category_refs.get(asset),
+        "people_not_rated": not_rated,
         "steps": steps,
-        "safeguards": [{"description": s.description, "note": s.note} for s in safeguards],
+        "safeguards": safeguards,
     }
 
 
