@@ -42,6 +42,11 @@ class SnapshotPartsError(ValueError):
     """A manifest or a part that cannot be put together; the message names the rule."""
 
 
+class NodesMovedError(ValueError):
+    """The nodes built are not the ones the node list leaves unknown (the study's nodes
+    changed between the two reads): split the whole snapshot instead."""
+
+
 def part_text(value: Any) -> str:
     """The one text of a part: compact JSON as orjson writes it, keys in the order written.
 
@@ -113,13 +118,16 @@ def split_with_known_nodes(snapshot: dict[str, Any], nodes: list[tuple[str | Non
     digests: list[str] = []
     for known, scenarios_before in nodes:
         if known is None:
-            stripped = _without_sequential_refs(next(built), scenarios_before)[0]
+            node = next(built, None)
+            if node is None:
+                raise NodesMovedError("fewer nodes were built than the node list leaves unknown")
+            stripped = _without_sequential_refs(node, scenarios_before)[0]
             text = part_text(stripped)
             known = part_digest(text)
             parts.setdefault(known, text)
         digests.append(known)
     if next(built, None) is not None:
-        raise ValueError("more nodes were built than the node list leaves unknown")
+        raise NodesMovedError("more nodes were built than the node list leaves unknown")
     ordered: Manifest = {}
     for key in snapshot:  # the snapshot's own key order, nodes in place
         ordered[key] = digests if key == NODES_KEY else manifest[key]

@@ -36,7 +36,7 @@ from sqlmodel import Session, col
 
 from app.db.models import Deviation, Node, Safeguard, Scenario, SeverityCategory, Step
 from app.db.queries import fetch_plain_rows
-from app.db.snapshot_parts import split_with_known_nodes
+from app.db.snapshot_parts import NodesMovedError, split_snapshot, split_with_known_nodes
 from app.db.snapshot_store import held_digests, store_parts
 from app.services.exchange.study_file import export_study
 from app.services.study.tree import get_study
@@ -125,8 +125,13 @@ def freeze_snapshot(session: Session, study_id: int) -> str:
     to_build = [p.node_id for p in prints if known[p.node_id] is None]
     snapshot = export_study(session, study_id, with_history=False,  # all: the whole build
                             node_ids=None if len(to_build) == len(prints) else to_build)
-    manifest, parts = split_with_known_nodes(
-        snapshot, [(known[p.node_id], p.scenarios_before) for p in prints])
+    try:
+        manifest, parts = split_with_known_nodes(
+            snapshot, [(known[p.node_id], p.scenarios_before) for p in prints])
+    except NodesMovedError:  # a node added or deleted between the reads (PostgreSQL's READ
+        # COMMITTED reads each statement afresh): the whole study, remembering nothing
+        return store_parts(session, study_id, *split_snapshot(
+            export_study(session, study_id, with_history=False)))
     _remember(key, prints, manifest["nodes"])
     return store_parts(session, study_id, manifest, parts)
 

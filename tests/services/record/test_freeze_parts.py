@@ -27,7 +27,8 @@ from app.services.record import freeze_parts
 from app.services.record.revisions import freeze_revision
 from tests.helpers import TEST_AUTHOR
 
-Change = Callable[[Session, int], set[int] | None]  # the nodes it changes (None: every node)
+Change = Callable[[Session, int], set[int] | None]
+Data = dict[str, Any]  # the nodes it changes (None: every node)
 
 
 def _nodes(session: Session, study_id: int) -> list[Node]:
@@ -171,7 +172,8 @@ def _nodes_reordered(session: Session, study_id: int) -> set[int]:
     moved = set()
     for position, node in enumerate(reversed(nodes)):
         if node.position != position:
-            node.position, _ = position, moved.add(node.id or 0)
+            node.position = position
+            moved.add(node.id or 0)
     _save(session, *nodes)
     # No part changes, but a moved node's row did (its position): it is built again, which
     # costs time, never correctness. The manifest lists them in the new order.
@@ -237,7 +239,7 @@ def _freeze(session: Session, study_id: int, label: str) -> Revision:
 def built(monkeypatch: pytest.MonkeyPatch) -> list[set[int] | None]:
     """The node ids each freeze built (all of them when it built the whole study)."""
     calls: list[set[int] | None] = []
-    real = freeze_parts.export_study
+    real = export_study
 
     def spy(session: Session, study_id: int, **options: Any) -> dict[str, Any]:
         node_ids = options.get("node_ids")
@@ -285,3 +287,48 @@ def test_a_rolled_back_freeze_leaves_nothing_remembered_that_is_not_stored(
     assert built[1] == {n.id or 0 for n in _nodes(session, study_id)}
     assert load_snapshot(session, revision) == export_study(session, study_id,
                                                             with_history=False)
+
+
+def _freeze_with_a_change_between_the_reads(
+        session: Session, study_id: int, monkeypatch: pytest.MonkeyPatch,
+        change: Callable[[], None]) -> tuple[Revision, Data]:
+    """Freeze with `change` made (and flushed) right after the fingerprints are read, as
+    another save can land there on PostgreSQL (READ COMMITTED reads each statement afresh).
+    The manifest a whole build gave just before the change comes back too."""
+    real = freeze_parts.node_prints
+    before: Data = {}
+
+    def prints_then_change(session: Session, study_id: int) -> list[freeze_parts.NodePrint]:
+        prints = real(session, study_id)
+        before.update(split_snapshot(export_study(session, study_id, with_history=False))[0])
+        change()
+        session.flush()
+        return prints
+
+    monkeypatch.setattr(freeze_parts, "node_prints", prints_then_change)
+    return _freeze(session, study_id, "Rev B"), before
+
+
+def test_a_node_deleted_between_the_reads_that_was_to_be_built_gives_the_whole_study(
+        session: Session, demo_study: Study, monkeypatch: pytest.MonkeyPatch) -> None:
+    study_id = demo_study.id or 0
+    _freeze(session, study_id, "Rev A")
+    (changed,) = _step_value(session, study_id)  # the last node: the one the freeze builds
+    node = session.get(Node, changed)
+    second, _ = _freeze_with_a_change_between_the_reads(
+        session, study_id, monkeypatch, lambda: session.delete(node))
+    whole = export_study(session, study_id, with_history=False)
+    assert revision_manifest(second) == split_snapshot(whole)[0]
+    assert load_snapshot(session, second) == whole
+
+
+def test_a_node_added_between_the_reads_is_not_in_the_revision_frozen_before_it(
+        session: Session, demo_study: Study, monkeypatch: pytest.MonkeyPatch) -> None:
+    study_id = demo_study.id or 0
+    _freeze(session, study_id, "Rev A")
+    _step_value(session, study_id)
+    second, before = _freeze_with_a_change_between_the_reads(
+        session, study_id, monkeypatch, lambda: session.add(Node(
+            study_id=study_id, number="98", name="Added meanwhile", position=98)))
+    # The study's nodes as the fingerprints read them: the freeze is the earlier save.
+    assert revision_manifest(second) == before
