@@ -557,6 +557,9 @@ class ScenarioResultRow(SQLModel, table=True):
     spread_p95: float | None = None
     error: str = Field(default="", sa_column_kwargs={"default": ""})
     figures: str = Field(default="{}", sa_type=Text)
+    # What the CSV and workbook show of the results, laid out flat (issue 14): JSON written by
+    # services/study/table_figures.py, so an export reads and formats, computing nothing.
+    table_figures: str = Field(default="", sa_type=Text, sa_column_kwargs={"server_default": ""})
 
 
 class ResultTotal(SQLModel, table=True):

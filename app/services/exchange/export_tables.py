@@ -16,7 +16,7 @@ from typing import Any
 from sqlmodel import Session
 
 from app.likelihood.numbers import format_number, format_orders, format_rrf
-from app.likelihood.types import DemandMode, Receptor, ScenarioResult, StepKind
+from app.likelihood.types import DemandMode, Receptor, StepKind
 from app.likelihood.typical import typical_by_key
 from app.services.exchange.export_source import (
     ExportScenario,
@@ -26,8 +26,7 @@ from app.services.exchange.export_source import (
     tree_scenarios,
 )
 from app.services.exchange.study_file import scenario_ref
-from app.services.study.results import required_rrf_cell
-from app.services.study.spread import ScenarioSpread
+from app.services.study.table_figures import TableFigures, TableResult, TableSpread
 from app.services.study.tree import DeviationBranch, NodeBranch, StudyTree
 
 Cell = str | float | int | date | datetime | None
@@ -113,14 +112,14 @@ UNCERTAINTY_WORDS = {"meets": "meets (P >= 95 %)", "uncertain": "uncertain (5 % 
                      "misses": "misses (P <= 5 %)"}
 
 
-def uncertainty_cells(spread: ScenarioSpread | None) -> list[Cell]:
+def uncertainty_cells(spread: TableSpread | None) -> list[Cell]:
     """The governing line's median, percentiles, mean, EF, P(meets) and certainty."""
     if spread is None:
-        blank: list[Cell] = [None] * (len(UNCERTAINTY_COLUMNS) - 1)
-        return [*blank, ""]
-    d = spread.governing.distribution
-    return [d.median, d.p05, d.p95, d.mean, d.error_factor, d.probability_meets_target,
-            UNCERTAINTY_WORDS[d.confidence.value]]
+        return [*NO_SPREAD]
+    return [*spread[:6], UNCERTAINTY_WORDS[spread.confidence]]
+
+
+NO_SPREAD: tuple[Cell, ...] = (*[None] * (len(UNCERTAINTY_COLUMNS) - 1), "")
 
 
 SCENARIO_COLUMNS = (
@@ -198,9 +197,13 @@ def figures_of_rows(rows: Iterable[list[Cell]]) -> list[dict[str, Cell]]:
 
 def scenario_row(item: ExportScenario) -> list[Cell]:
     """One scenario's row of the scenario table."""
-    scenario, result, category = item.scenario, item.result, item.category
-    initiating = next((s for s in item.steps if s.kind == StepKind.INITIATING_EVENT), None)
-    credited = [s for s in item.steps if s.kind == StepKind.IPL and s.credited]
+    scenario, category, result = item.scenario, item.category, item.figures.result
+    initiating, credited = None, 0
+    for step in item.steps:
+        if step.kind == StepKind.INITIATING_EVENT and initiating is None:
+            initiating = step
+        elif step.kind == StepKind.IPL and step.credited:
+            credited += 1
     head: list[Cell] = [
         item.number, item.node_label, item.deviation_label, scenario.cause,
         scenario.consequence, category.name if category else "",
@@ -209,38 +212,37 @@ def scenario_row(item: ExportScenario) -> list[Cell]:
         initiating.value if initiating else None,
     ]
     if result is None:
-        return [*head, None, None, len(credited), None, None, None, None, None, "", "",
-                item.no_figures_words, *[None] * len(METHOD_COLUMNS),
-                *uncertainty_cells(None)]
-    target = result.sil_target
+        return [*head, None, None, credited, None, None, None, None, None, "", "",
+                item.no_figures_words, *NO_METHOD, *NO_SPREAD]
     return [
-        *head, result.enabling_product, result.modifier_product, len(credited),
+        *head, result.enabling_product, result.modifier_product, credited,
         result.ipl_product, result.mitigated_frequency, result.ratio, result.gap_orders,
-        required_rrf_cell(result), target.label, DEMAND_LABELS[target.demand_mode],
-        _status(result), *_method_cells(item, result), *uncertainty_cells(item.spread),
+        result.required_rrf_cell, result.sil_label, DEMAND_LABELS[DemandMode(result.demand_mode)],
+        STATUS[result.meets_target], *_method_cells(item.figures, result),
+        *uncertainty_cells(item.figures.spread),
     ]
 
 
-def _status(result: ScenarioResult) -> str:
-    return "meets target" if result.meets_target else "short of target"
+STATUS = {True: "meets target", False: "short of target"}
+NO_METHOD: tuple[Cell, ...] = (None,) * len(METHOD_COLUMNS)
+NOT_RATED: tuple[Cell, ...] = (None, None, None, "not rated")
 
 
-def _method_cells(item: ExportScenario, result: ScenarioResult) -> list[Cell]:
+def _method_cells(figures: TableFigures, result: TableResult) -> list[Cell]:
     """Demand, governing receptor, each receptor's line, then the withdrawn figures."""
-    demand = result.demand
-    lines = {line.receptor: line for line in item.lines}
-    cells: list[Cell] = [demand.demand_rate_per_year if demand else None,
-                         demand.formula if demand else "",
-                         item.governing.value if item.governing else ""]
-    for receptor in Receptor:
+    lines = {line.receptor: line for line in figures.lines}
+    cells: list[Cell] = [result.demand_rate, result.demand_formula, result.governing]
+    for receptor in RECEPTOR_VALUES:
         line = lines.get(receptor)
-        cells += ([line.mitigated_frequency, line.tolerable_frequency, line.ratio,
-                   line.demand.sil_target.label] if line else [None, None, None, "not rated"])
-    withdrawn = item.withdrawn
+        cells += line[1:] if line else NOT_RATED
+    withdrawn = figures.withdrawn
     if withdrawn is None:
         return [*cells, "", None, None, "", ""]
-    return [*cells, "; ".join(item.withdrawn_labels), withdrawn.mitigated_frequency,
-            withdrawn.ratio, withdrawn.sil_target.label, _status(withdrawn)]
+    return [*cells, "; ".join(figures.withdrawn_labels), withdrawn.mitigated_frequency,
+            withdrawn.ratio, withdrawn.sil_label, STATUS[withdrawn.meets_target]]
+
+
+RECEPTOR_VALUES = tuple(receptor.value for receptor in Receptor)
 
 
 STEP_COLUMNS = (
@@ -270,11 +272,8 @@ def step_table(tree: StudyTree) -> Table:
 
 def _step_spread_cells(item: ExportScenario, step_id: int | None) -> list[Cell]:
     """The step's EF and where it came from (blank when the scenario has no figures)."""
-    spread = item.spread if item.result is not None else None
-    note = next((n for n in spread.notes if n.step_id == step_id), None) if spread else None
-    if note is None:
-        return [None, ""]
-    return [note.factor.value, note.note]
+    factor = item.figures.step_factor(step_id)
+    return [None, ""] if factor is None else [factor.factor, factor.note]
 
 
 def typical_words(key: str | None) -> str:
