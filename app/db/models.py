@@ -54,7 +54,11 @@ class StepKindText(TypeDecorator[StepKind]):
         return None if value is None else StepKind(value).value
 
     def process_result_value(self, value: str | None, dialect: Dialect) -> StepKind | None:
-        return None if value is None else StepKind(value)
+        # A dict look-up: StepKind(value) was a tenth of a 10,000-scenario export's time.
+        return None if value is None else STEP_KINDS.get(value) or StepKind(value)
+
+
+STEP_KINDS = {kind.value: kind for kind in StepKind}
 
 
 class Receptor(StrEnum):
