@@ -73,7 +73,8 @@ def tree_scenarios(tree: StudyTree) -> Iterator[ExportScenario]:
         for d_index, deviation_branch in enumerate(node_branch.deviations, start=1):
             for s_index, item in enumerate(deviation_branch.scenarios, start=1):
                 outcome, assessment = item.outcome, item.outcome.assessment
-                figures = table_figures(assessment, item.spread if assessment else None,
+                figures = table_figures(item.steps, assessment,
+                                        item.spread if assessment else None,
                                         warnings_of(item.steps))
                 yield ExportScenario(
                     f"{node_number}.{d_index}.{s_index}", node_words(node_branch.node),
@@ -96,11 +97,11 @@ _STORED: Any = (ScenarioResultRow.scenario_id, ScenarioResultRow.computed,
                 ScenarioResultRow.category_id, ScenarioResultRow.table_figures)
 
 
-def stored_scenarios(session: Session, study_id: int, *, with_safeguards: bool = True
+def stored_scenarios(session: Session, study_id: int, *, with_rows: bool = True
                      ) -> Iterator[ExportScenario]:
     """Every scenario of the study from plain rows and its stored results, node by node: at
-    most one node's rows are held at a time (`with_safeguards` False: the CSV, which shows
-    none, does not read them)."""
+    most one node's rows are held at a time (`with_rows` False: no steps nor safeguards, for
+    the CSV, whose scenario table reads them from the stored figures)."""
     ensure_current(session, study_id)
     categories = {c.id: c for c in fetch_rows_of_study(session, SeverityCategory, study_id)
                   if c.id is not None}
@@ -108,11 +109,11 @@ def stored_scenarios(session: Session, study_id: int, *, with_safeguards: bool =
                              .where(Node.study_id == study_id)
                              .order_by(Node.position, Node.id))
     for node in nodes:
-        yield from _node_scenarios(session, node, categories, with_safeguards)
+        yield from _node_scenarios(session, node, categories, with_rows)
 
 
 def _node_scenarios(session: Session, node: Any, categories: Mapping[int, SeverityCategory],
-                    with_safeguards: bool) -> Iterator[ExportScenario]:
+                    with_rows: bool) -> Iterator[ExportScenario]:
     deviations = fetch_plain_rows(session, select_columns(*_DEVIATION).where(
         col(Deviation.node_id) == node.id).order_by(col(Deviation.position), col(Deviation.id)))
     scenarios = _grouped(fetch_plain_rows(session, select_columns(*_SCENARIO).join(
@@ -120,7 +121,7 @@ def _node_scenarios(session: Session, node: Any, categories: Mapping[int, Severi
         col(Deviation.node_id) == node.id).order_by(col(Scenario.position), col(Scenario.id))),
         "deviation_id")
     ids = [s.id for d in deviations for s in scenarios[d.id]]
-    steps, safeguards, stored = _rows_of_scenarios(session, ids, with_safeguards)
+    steps, safeguards, stored = _rows_of_scenarios(session, ids, with_rows)
     node_number, node_label = node.number or "(unnumbered)", node_words(node)
     for d_index, deviation in enumerate(deviations, start=1):
         deviation_label = deviation_words(deviation)
@@ -133,14 +134,13 @@ def _node_scenarios(session: Session, node: Any, categories: Mapping[int, Severi
                 "" if row.computed else _no_figures_words(row))
 
 
-def _rows_of_scenarios(session: Session, ids: list[int], with_safeguards: bool) -> tuple[
+def _rows_of_scenarios(session: Session, ids: list[int], with_rows: bool) -> tuple[
         dict[int, list[Any]], dict[int, list[Any]], dict[int, Any]]:
     steps: dict[int, list[Any]] = defaultdict(list)
     safeguards: dict[int, list[Any]] = defaultdict(list)
     stored: dict[int, Any] = {}
-    reads: list[tuple[Any, Any, dict[int, list[Any]]]] = [(Step, _STEP, steps)]
-    if with_safeguards:
-        reads.append((Safeguard, _SAFEGUARD, safeguards))
+    reads: list[tuple[Any, Any, dict[int, list[Any]]]] = [
+        (Step, _STEP, steps), (Safeguard, _SAFEGUARD, safeguards)] if with_rows else []
     for start in range(0, len(ids), BATCH):
         batch = ids[start:start + BATCH]
         for table, columns, into in reads:

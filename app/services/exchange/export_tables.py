@@ -16,7 +16,7 @@ from typing import Any
 from sqlmodel import Session
 
 from app.likelihood.numbers import format_number, format_orders, format_rrf
-from app.likelihood.types import DemandMode, Receptor, StepKind
+from app.likelihood.types import DemandMode, Receptor
 from app.likelihood.typical import typical_by_key
 from app.services.exchange.export_source import (
     ExportScenario,
@@ -197,19 +197,13 @@ def figures_of_rows(rows: Iterable[list[Cell]]) -> list[dict[str, Cell]]:
 
 def scenario_row(item: ExportScenario) -> list[Cell]:
     """One scenario's row of the scenario table."""
-    scenario, category, result = item.scenario, item.category, item.figures.result
-    initiating, credited = None, 0
-    for step in item.steps:
-        if step.kind == StepKind.INITIATING_EVENT and initiating is None:
-            initiating = step
-        elif step.kind == StepKind.IPL and step.credited:
-            credited += 1
+    scenario, category, figures = item.scenario, item.category, item.figures
+    result, credited = figures.result, figures.credited_ipls
     head: list[Cell] = [
         item.number, item.node_label, item.deviation_label, scenario.cause,
         scenario.consequence, category.name if category else "",
         category.tolerable_frequency if category else None,
-        initiating.description if initiating else "",
-        initiating.value if initiating else None,
+        figures.initiating_description, figures.initiating_value,
     ]
     if result is None:
         return [*head, None, None, credited, None, None, None, None, None, "", "",

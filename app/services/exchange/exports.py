@@ -200,7 +200,7 @@ def build_export(
                                                                   when=now))
     target = tempfile.TemporaryFile()  # noqa: SIM115 - ExportFile.chunks closes it
     if export_format is ExportFormat.CSV:
-        scenarios = stored_scenarios(session, study_id, with_safeguards=False)
+        scenarios = stored_scenarios(session, study_id, with_rows=False)
         write_csv(target, SCENARIO_COLUMNS, scenario_rows(scenarios), cautions=cautions)
     else:
         revision = f"{working_copy_label(session, study_id)}: working copy, not signed"

@@ -195,14 +195,14 @@ def scenario_columns(rating: Any, steps: tuple[Any, ...], categories: Mapping[in
     if assessment is None or category is None:
         return {**NOT_COMPUTED, "incomplete": is_incomplete(rating, steps), "error": error,
                 "warning_count": len(warnings),
-                "table_figures": table_figures(None, None, warnings).json()}
+                "table_figures": table_figures(steps, None, None, warnings).json()}
     rated = receptor_categories(rating, categories, people_not_rated=people_not_rated)
     spread = scenario_spread(steps, targets_of(rated), inputs,
                              assessment.as_credited.receptors)
     return {**_computed_columns(assessment, category, rated),
             **_withdrawn_columns(assessment, rated), "warning_count": len(warnings),
             **_spread_columns(spread),
-            "table_figures": table_figures(assessment, spread, warnings).json()}
+            "table_figures": table_figures(steps, assessment, spread, warnings).json()}
 
 
 def _computed_columns(assessment: Assessment, category: Any,

@@ -15,12 +15,12 @@ study's stored rows are rebuilt once.
 """
 
 import json
-from collections.abc import Sequence
-from dataclasses import dataclass
+from collections.abc import Iterable, Sequence
+from dataclasses import dataclass, fields
 from typing import Any, NamedTuple
 
 from app.likelihood.check_base import CheckWarning
-from app.likelihood.types import SilStatus
+from app.likelihood.types import SilStatus, StepKind
 from app.services.study.results import Assessment, required_rrf_cell
 from app.services.study.spread import ScenarioSpread
 
@@ -99,8 +99,12 @@ class TableWarning(NamedTuple):
 
 @dataclass(frozen=True)
 class TableFigures:
-    """One scenario's figures as the export tables read them (`result` None: no figures)."""
+    """One scenario's figures as the export tables read them (`result` None: no figures),
+    with what the scenario table shows of its steps (so the CSV reads no step)."""
 
+    initiating_description: str  # the first initiating event's ("" without one)
+    initiating_value: float | None
+    credited_ipls: int
     result: TableResult | None
     lines: tuple[TableLine, ...]
     withdrawn: TableWithdrawn | None
@@ -115,15 +119,15 @@ class TableFigures:
 
     def json(self) -> str:
         """The stored form: each record as a list in field order."""
-        return json.dumps([self.result, self.lines, self.withdrawn, self.withdrawn_labels,
-                           self.spread, self.step_factors, self.warnings],
+        return json.dumps([getattr(self, item.name) for item in fields(self)],
                           separators=(",", ":"))
 
     @classmethod
     def read(cls, text: str) -> "TableFigures":
         """The stored form read back (the numbers as they were: JSON floats round-trip)."""
-        result, lines, withdrawn, labels, spread, factors, warnings = json.loads(text)
-        return cls(TableResult(*result) if result else None,
+        (description, value, credited, result, lines, withdrawn, labels, spread, factors,
+         warnings) = json.loads(text)
+        return cls(description, value, credited, TableResult(*result) if result else None,
                    tuple(TableLine(*line) for line in lines),
                    TableWithdrawn(*withdrawn) if withdrawn else None, tuple(labels),
                    TableSpread(*spread) if spread else None,
@@ -137,15 +141,25 @@ def table_warnings(warnings: Sequence[CheckWarning]) -> tuple[TableWarning, ...]
                               w.verify_against_copy, w.withdraws_credit) for w in warnings)
 
 
-def table_figures(assessment: Assessment | None, spread: ScenarioSpread | None,
-                  warnings: Sequence[CheckWarning]) -> TableFigures:
-    """A scenario's export figures from its computed assessment (None: not computed), its
-    spread as credited and its warnings."""
+def table_figures(steps: Iterable[Any], assessment: Assessment | None,
+                  spread: ScenarioSpread | None, warnings: Sequence[CheckWarning]
+                  ) -> TableFigures:
+    """A scenario's export figures from its steps (stored rows or objects), its computed
+    assessment (None: not computed), its spread as credited and its warnings."""
+    initiating, credited_ipls = None, 0
+    for step in sorted(steps, key=lambda s: (s.position, s.id or 0)):
+        if step.kind == StepKind.INITIATING_EVENT and initiating is None:
+            initiating = step
+        elif step.kind == StepKind.IPL and step.credited:
+            credited_ipls += 1
+    head = (initiating.description if initiating else "",
+            initiating.value if initiating else None, credited_ipls)
     if assessment is None:
-        return TableFigures(None, (), None, (), None, (), table_warnings(warnings))
+        return TableFigures(*head, None, (), None, (), None, (), table_warnings(warnings))
     credited = assessment.as_credited
     withdrawn = assessment.withdrawn.result if assessment.withdrawn else None
     return TableFigures(
+        *head,
         _result(credited.result, str(credited.governing.receptor.value)),
         tuple(TableLine(str(line.receptor.value), line.mitigated_frequency,
                         line.tolerable_frequency, line.ratio, line.demand.sil_target.label)
