@@ -183,7 +183,7 @@ def computed_figures(tree: StudyTree) -> list[dict[str, Cell]]:
 
 def stored_computed_figures(session: Session, study_id: int) -> list[dict[str, Cell]]:
     """computed_figures from the stored results, read one node at a time."""
-    return figures_of_rows(scenario_rows(stored_scenarios(session, study_id)))
+    return figures_of_rows(scenario_rows(stored_scenarios(session, study_id, with_rows=False)))
 
 
 def figures_of_rows(rows: Iterable[list[Cell]]) -> list[dict[str, Cell]]:
