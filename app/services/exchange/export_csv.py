@@ -50,7 +50,8 @@ def write_csv(target: IO[bytes], columns: Sequence[Column], rows: Iterable[Seque
     writer.writerow([spreadsheet_text(column.header) for column in columns])
     cells = [cell_writer(column.number_format) for column in columns]
     for count, row in enumerate(rows, 1):
-        writer.writerow([write(value) for write, value in zip(cells, row, strict=True)])
+        writer.writerow(["" if value is None else write(value)
+                         for write, value in zip(cells, row, strict=True)])
         if count % ROWS_PER_WRITE == 0:
             target.write(buffer.getvalue().encode("utf-8"))
             buffer.seek(0)
@@ -60,15 +61,28 @@ def write_csv(target: IO[bytes], columns: Sequence[Column], rows: Iterable[Seque
     target.write(buffer.getvalue().encode("utf-8"))
 
 
+REMEMBERED_NUMBERS = 65_536  # shown texts kept per column while one file is written
+
+
 def cell_writer(number_format: str | None) -> Callable[[Cell], str]:
-    """csv_cell for one column, with the common kinds (float, text, nothing) first: a large
-    table has a million cells."""
+    """csv_cell for one column, with the common kinds (float, text) first: a large table has
+    half a million cells. A column's numbers repeat (the same frequencies, products and
+    targets down a study), so each one's shown text is kept once made; zero never is, as
+    0.0 and -0.0 are one key but are written apart ("0", "-0")."""
     shown = SHOWN_AS.get(number_format or "")
+    texts: dict[float, str] = {}
 
     def write(value: Cell) -> str:
         kind = type(value)
         if kind is float:
-            return shown(value) if shown else f"{value:.10g}"  # type: ignore[arg-type]
+            if shown is None:
+                return f"{value:.10g}"
+            text = texts.get(value)  # type: ignore[arg-type]
+            if text is None:
+                text = shown(value)  # type: ignore[arg-type]
+                if value and len(texts) < REMEMBERED_NUMBERS:
+                    texts[value] = text  # type: ignore[index]
+            return text
         if kind is str:
             return spreadsheet_text(value)  # type: ignore[arg-type]
         return csv_cell(value, number_format)

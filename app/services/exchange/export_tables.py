@@ -11,12 +11,13 @@ format allows on import.
 from collections.abc import Callable, Iterable, Iterator, Sequence
 from dataclasses import dataclass
 from datetime import UTC, date, datetime
+from functools import lru_cache
 from typing import Any
 
 from sqlmodel import Session
 
 from app.likelihood.numbers import format_number, format_orders, format_rrf
-from app.likelihood.types import DemandMode, Receptor
+from app.likelihood.types import DemandMode, Receptor, StepKind
 from app.likelihood.typical import typical_by_key
 from app.services.exchange.export_source import (
     ExportScenario,
@@ -249,13 +250,19 @@ STEP_COLUMNS = (
 
 
 def step_rows(item: ExportScenario) -> Iterator[list[Cell]]:
-    """One row per step of one scenario, with the scenario's number."""
+    """One row per step of one scenario, with the scenario's number, its EF and the EF's
+    source (blank when the scenario has no figures)."""
+    factors = {factor.step_id: factor for factor in item.figures.step_factors}
     for number, step in enumerate(item.steps, 1):
-        yield [item.number, item.node_label, number, step.kind.label, step.description,
+        factor = factors.get(step.id)
+        yield [item.number, item.node_label, number, KIND_LABELS[step.kind], step.description,
                step.value, step.value_text, "yes" if step.credited else "no",
                step.ipl_type or "", step.system_tag, step.sil_claimed,
                step.response_time_minutes, step.basis, typical_words(step.typical_key),
-               *_step_spread_cells(item, step.id)]
+               *((None, "") if factor is None else factor[1:])]
+
+
+KIND_LABELS = {kind: kind.label for kind in StepKind}
 
 
 def step_table(tree: StudyTree) -> Table:
@@ -264,12 +271,7 @@ def step_table(tree: StudyTree) -> Table:
                  [row for item in tree_scenarios(tree) for row in step_rows(item)])
 
 
-def _step_spread_cells(item: ExportScenario, step_id: int | None) -> list[Cell]:
-    """The step's EF and where it came from (blank when the scenario has no figures)."""
-    factor = item.figures.step_factor(step_id)
-    return [None, ""] if factor is None else [factor.factor, factor.note]
-
-
+@lru_cache(maxsize=1_024)  # a few catalogue rows, repeated down a study's steps
 def typical_words(key: str | None) -> str:
     """'BPCS loop, independent of the cause: 0.01 to 0.1; CCPS … [verify against your copy]'."""
     row = typical_by_key(key) if key else None

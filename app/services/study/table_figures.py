@@ -113,10 +113,6 @@ class TableFigures:
     step_factors: tuple[StepFactor, ...]
     warnings: tuple[TableWarning, ...]
 
-    def step_factor(self, step_id: int | None) -> StepFactor | None:
-        """The step's EF and its source (None: no spread, or not a step of this scenario)."""
-        return next((f for f in self.step_factors if f.step_id == step_id), None)
-
     def json(self) -> str:
         """The stored form: each record as a list in field order."""
         return json.dumps([getattr(self, item.name) for item in fields(self)],
