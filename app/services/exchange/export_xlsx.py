@@ -144,6 +144,7 @@ class SheetWriter:
         self.shaped = [styles.of(key, n, c.number_format) for n, c in enumerate(columns, 1)]
         self.bounds = [LONGEST_NUMBER.get(c.number_format or "", 1 << 30) for c in columns]
         self.texts: dict[str, str] = {}
+        self.measured: list[set[float]] = [set() for _ in columns]
         # Each cell's XML around its row number, per column: '<c r="B' + '12' + '" s="3"/>'.
         self.opens = [f'<c r="{letter}' for letter in self.letters]
         self.empty_tails = [f'" s="{style}"/>' for style in self.plain]
@@ -177,9 +178,10 @@ class SheetWriter:
                 add(f"{opens[position]}{number}{self.text_tails[position]}{inner}")
             elif kind is float or kind is int:
                 if longest[position] < bounds[position]:
-                    self._measure(position, value)
+                    self._measure_number(position, value)  # type: ignore[arg-type]
+                text = "%.16g" % value  # type: ignore[str-format]  # noqa: UP031 - see _number
                 add(f"{opens[position]}{number}{self.number_tails[position]}"
-                    f"{_number(value)}</v></c>")  # type: ignore[arg-type]
+                    f"{'' if text in NOT_FINITE else text}</v></c>")
             else:
                 add(self._other_cell(position, f"{self.letters[position]}{number}", value))
         self.body.write(f'<row r="{number}">{"".join(cells)}</row>'.encode())
@@ -216,6 +218,18 @@ class SheetWriter:
         """Write several rows."""
         for row in rows:
             self.append(row)
+
+    def _measure_number(self, position: int, value: float) -> None:
+        """_measure, once per distinct number of a column (zero always: 0.0 and -0.0 are one
+        key but are shown apart)."""
+        measured = self.measured[position]
+        if value and value in measured:
+            return
+        self._measure(position, value)
+        if value:
+            if len(measured) >= REMEMBERED_TEXTS:
+                measured.clear()
+            measured.add(value)
 
     def _measure(self, position: int, value: Cell) -> None:
         length = shown_length(value, self.formats[position])
