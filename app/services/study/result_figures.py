@@ -8,7 +8,8 @@ withdrawn. `StoredFigures.read` turns that JSON back into the core's own result 
 page drawn from stored rows uses the same templates as one drawn from a fresh computation.
 
 A later field (an uncertainty band, say) goes under `extra` in the JSON, or a new column when
-a sum or a ranking needs it, and RESULTS_VERSION (stored_results.py) is raised.
+a sum or a ranking needs it, and RESULTS_VERSION (stored_results.py) is raised. What the
+spreadsheet exports show is stored apart, flat, in `table_figures` (table_figures.py).
 """
 
 import json
