@@ -21,6 +21,7 @@ from app.services.exchange.report_parts import (
     part_html,
     split_report,
 )
+from app.services.exchange.report_scenarios import Words, printed_part
 from app.services.exchange.study_file import export_study
 from app.services.study.tree import load_study_tree
 
@@ -43,10 +44,18 @@ def test_parts_hold_every_scenario_once_in_order_and_at_most_n_each(
     for before, part in pairwise(middle):
         assert part.continued == (before.nodes[-1].node.id == part.nodes[0].node.id)
     assert any(p.continued for p in middle)
-    html = part_html(report, middle[1], env=templates.env)
-    assert html.count("<article") == sum(len(n.scenarios) for n in middle[1].nodes)
-    assert "1 · Scope and risk criteria" not in html and "4 · Risk picture" not in html
-    assert f'<span class="study-title-string">{demo_study.title}</span>' in html
+    # A part of scenarios is drawn from its words (report_pages.py): one record per scenario,
+    # the node it goes on with headed "(continued)".
+    printed = printed_part(report, middle[1].nodes, words=Words.of(templates.env),
+                           continued=middle[1].continued, first=False)
+    assert [s.anchor for n in printed.nodes for s in n.scenarios] == [
+        f"scenario-{e.ref}" for n in middle[1].nodes for e in n.scenarios]
+    assert printed.nodes[0].title.endswith("(continued)") == middle[1].continued
+    assert printed.section_title == "" and printed.study_title == demo_study.title
+    front, back = (part_html(report, p, env=templates.env) for p in (parts[0], parts[-1]))
+    assert "1 · Scope and risk criteria" in front and "4 · Risk picture" not in front
+    assert "1 · Scope and risk criteria" not in back and "4 · Risk picture" in back
+    assert f'<span class="study-title-string">{demo_study.title}</span>' in back
 
 
 @pytest.mark.skipif(shutil.which("pdftotext") is None, reason="poppler-utils not installed")
