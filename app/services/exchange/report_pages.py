@@ -2,186 +2,188 @@
 file, joined afterwards with the front and back matter WeasyPrint lays out (report_parts.py).
 
 Why not WeasyPrint here too: it costs 0.1-0.25 CPU seconds per scenario whatever the markup
-(measured, DEVELOPERS.md "PDF report"), two minutes of two cores for 1,000 scenarios; fpdf2
-places text lines and draws the ladder directly. The page has the report's look: A4, the same
-margins, DejaVu Sans, the running title and revision on top, the signature and cautions at
-the foot, and room for the "page n of N" stamped after joining.
+(measured, DEVELOPERS.md "PDF report"), two minutes of two cores for 1,000 scenarios; these
+pages set their text themselves (report_type.py) and draw the ladder directly. The page has
+the report's look: A4, the same margins, DejaVu Sans, the running title and revision on top,
+the signature and cautions at the foot, and room for the "page n of N" stamped after joining.
 """
 
 from pathlib import Path
 from typing import Any
 
-from fpdf import FPDF, FontFace
-from fpdf.enums import TableBordersLayout, XPos, YPos
+from fpdf import FPDF
 
 from app.services.exchange.report_printed import (
     PrintedNode,
     PrintedPart,
     PrintedScenario,
+    PrintedStep,
     Run,
 )
+from app.services.exchange.report_type import INK, Line, TypeSetter, add_fonts
 from app.services.worksheet.ladder import LadderBand, LadderView
 
-FONT_FOLDER = Path("/usr/share/fonts/truetype/dejavu")
-CJK_FONT = Path("/usr/share/fonts/opentype/noto/NotoSansCJK-Regular.ttc")
-"""Used only for the characters DejaVu lacks (Chinese, Japanese, Korean), when installed."""
-
-INK, GREY, DARK = (29, 35, 43), (90, 100, 112), (38, 50, 63)
-RULE, ACCENT = (216, 212, 204), (181, 84, 27)
+DARK, RULE, ACCENT = (38, 50, 63), (216, 212, 204), (181, 84, 27)
 STATE_COLOURS = {"meets": (31, 111, 74), "short": (155, 44, 31), "unknown": (107, 91, 0)}
-PAGE_WIDTH, LEFT, RIGHT, TOP, BOTTOM = 210.0, 14.0, 14.0, 16.0, 34.0
+PAGE_WIDTH, PAGE_HEIGHT, LEFT, RIGHT, TOP, BOTTOM = 210.0, 297.0, 14.0, 14.0, 16.0, 34.0
 TEXT_WIDTH = PAGE_WIDTH - LEFT - RIGHT
+FOOT_WIDTH = 150.0
 LADDER_WIDTH, LADDER_GAP = 70.0, 3.0
-LINE = 3.6  # mm per line of 8.6 pt text (line height 1.2)
+LINE = 3.6  # mm per line of 8.6 pt text
+ASCENT = 0.78  # of a line, from its top to the baseline
 KEEP_WITH_HEADING = 38.0
 """A scenario starts on a new page unless its heading, cause and first steps fit (mm)."""
-STEP_COLUMNS = (17, 48, 13, 11, 11)
+CELL_PAD_X, CELL_PAD_Y = 1.2, 0.5
+STEP_COLUMNS = tuple(TEXT_WIDTH * share / 100 for share in (17, 48, 13, 11, 11))
 STEP_HEADINGS = ("Step", "Description, basis and typical value", "As entered", "Value",
                  "Credited")
 
 
 class ScenarioPages(FPDF):
-    """A4 pages with the report's running header and footer."""
+    """A4 pages with the report's running header and footer, and a cursor `y` (mm from the
+    top) that moves down as text is set and starts a new page when the text would not fit."""
 
     def __init__(self, part: PrintedPart) -> None:
         super().__init__(unit="mm", format="A4")
         self.part = part
         self.set_margins(LEFT, TOP, RIGHT)
-        self.set_auto_page_break(True, margin=BOTTOM)
-        self.c_margin = 1.2
-        for style, name in (("", "DejaVuSans"), ("B", "DejaVuSans-Bold"),
-                            ("I", "DejaVuSans-Oblique")):
-            self.add_font("DejaVu", style, FONT_FOLDER / f"{name}.ttf")
-        self.add_font("DejaVuMono", "", FONT_FOLDER / "DejaVuSansMono.ttf")
-        self.add_font("DejaVuMono", "I", FONT_FOLDER / "DejaVuSansMono-Oblique.ttf")
-        if part.needs_cjk and CJK_FONT.exists():
-            self.add_font("NotoCJK", "", CJK_FONT, collection_font_number=2)
-            self.set_fallback_fonts(["NotoCJK"], exact_match=False)
+        self.set_auto_page_break(False)
+        add_fonts(self, cjk=part.needs_cjk)
+        self.type = TypeSetter(self, cjk=part.needs_cjk)
         self.set_title(part.document_title)
         self.set_creator("Tallyroom")
+        self._foot: list[Line] | None = None
+        self.y_at = TOP
 
     def header(self) -> None:
         """The study's title on the left and its revision on the right, small and grey."""
-        self._font("", 7.5, GREY)
-        self.set_xy(LEFT, 8)
-        self.cell(TEXT_WIDTH / 2, 4, self.part.study_title)
-        self.cell(TEXT_WIDTH / 2, 4, self.part.revision, align="R")
-        self.set_xy(LEFT, TOP)
+        self.type.draw_line([("running", self.part.study_title)], LEFT, 11)
+        self.type.draw_line([("running", self.part.revision)], LEFT, 11, align="R",
+                            width=TEXT_WIDTH)
 
     def footer(self) -> None:
         """The signature and the cautions on every page, above the page number's place."""
-        top = 297 - BOTTOM + 1
+        top = PAGE_HEIGHT - BOTTOM + 1
         self.set_draw_color(*ACCENT)
         self.set_line_width(0.21)
-        self.line(LEFT, top, LEFT + 150, top)
-        self.set_xy(LEFT, top + 1.5)
-        self._font("", 6.6, (61, 70, 81))
-        self.multi_cell(150, 2.8, self.part.signature, new_x=XPos.LMARGIN, new_y=YPos.NEXT,
-                        padding=0)
-        self._font("B", 6.6, (61, 70, 81))
-        self.write(2.8, "Cautions. ")
-        self._font("", 6.6, (61, 70, 81))
-        self.set_right_margin(PAGE_WIDTH - LEFT - 150)
-        self.write(2.8, self.part.cautions)
-        self.set_right_margin(RIGHT)
+        self.line(LEFT, top, LEFT + FOOT_WIDTH, top)
+        if self._foot is None:
+            self._foot = self.type.wrap([("foot", self.part.signature + "\n"),
+                                         ("foot-B", "Cautions. "),
+                                         ("foot", self.part.cautions)], FOOT_WIDTH)
+        for number, line in enumerate(self._foot):
+            self.type.draw_line(line, LEFT, top + 3.8 + number * 2.8)
 
-    def _font(self, style: str, size: float, colour: tuple[int, int, int]) -> None:
-        self.set_font("DejaVu", style, size)
-        self.set_text_color(*colour)
+    def new_page(self) -> None:
+        """A fresh page, the cursor at its top."""
+        self.add_page()
+        self.y_at = TOP
 
-    def runs(self, runs: tuple[Run, ...], height: float = LINE) -> None:
-        """Running text in several styles, wrapped within the current margins."""
-        for style, text in runs:
-            if style.startswith("status-"):
-                self._font("B", 9.5, STATE_COLOURS[style.removeprefix("status-")])
-            elif style == "key":
-                self._font("", 7, GREY)
-            else:
-                self._font(style, 8.6, INK)
-            self.write(height, text)
-        self.ln(height)
+    def room(self, height: float) -> None:
+        """Start a new page unless `height` mm still fit on this one."""
+        if self.y_at + height > PAGE_HEIGHT - BOTTOM:
+            self.new_page()
+
+    def lines(self, lines: list[Line], *, x: float = LEFT, height: float = LINE) -> None:
+        """Set lines at the cursor, going on on a new page when the page is full."""
+        for line in lines:
+            self.room(height)
+            self.type.draw_line(line, x, self.y_at + ASCENT * height)
+            self.y_at += height
+
+    def runs(self, runs: tuple[Run, ...], *, width: float = TEXT_WIDTH,
+             height: float = LINE) -> None:
+        """Running text in several styles, wrapped to `width` mm from the left margin."""
+        self.lines(self.type.wrap(runs, width), height=height)
+
+    def rule(self, colour: tuple[int, int, int], width: float, length: float = TEXT_WIDTH,
+             x: float = LEFT) -> None:
+        """A horizontal line at the cursor."""
+        self.set_draw_color(*colour)
+        self.set_line_width(width)
+        self.line(x, self.y_at, x + length, self.y_at)
 
 
 def write_scenario_pages(part: PrintedPart, target: Path) -> int:
     """Draw the part's scenario pages into `target`; the number of pages."""
     pdf = ScenarioPages(part)
-    pdf.add_page()
+    pdf.new_page()
     if part.section_title:
-        _section_title(pdf, part.section_title)
+        pdf.lines([[("h2", part.section_title)]], height=6)
+        pdf.y_at += 1
+        pdf.rule(DARK, 0.42)
+        pdf.y_at += 3
     for node in part.nodes:
         _node(pdf, node)
     pdf.output(str(target))
     return pdf.page_no()
 
 
-def _section_title(pdf: ScenarioPages, title: str) -> None:
-    pdf._font("B", 13, INK)
-    pdf.cell(TEXT_WIDTH, 7, title, new_x=XPos.LMARGIN, new_y=YPos.NEXT)
-    pdf.set_draw_color(*DARK)
-    pdf.set_line_width(0.42)
-    pdf.line(LEFT, pdf.get_y(), LEFT + TEXT_WIDTH, pdf.get_y())
-    pdf.ln(3)
-
-
 def _node(pdf: ScenarioPages, node: PrintedNode) -> None:
-    if pdf.will_page_break(KEEP_WITH_HEADING + 14):
-        pdf.add_page()
-    pdf.ln(2)
-    pdf._font("B", 10.5, INK)
-    pdf.multi_cell(TEXT_WIDTH, 5, node.title, new_x=XPos.LMARGIN, new_y=YPos.NEXT, padding=0)
+    pdf.room(KEEP_WITH_HEADING + 14)
+    pdf.y_at += 2
+    pdf.runs((("h3", node.title),), height=5)
     for number, line in enumerate(node.lines):
-        pdf._font("", 8.6, (61, 70, 81) if number == 0 else GREY)
-        pdf.multi_cell(TEXT_WIDTH, LINE, line, new_x=XPos.LMARGIN, new_y=YPos.NEXT, padding=0)
-    pdf.ln(2)
+        pdf.runs((("soft" if number == 0 else "muted", line),))
+    pdf.y_at += 2
     for scenario in node.scenarios:
         _scenario(pdf, scenario)
 
 
 def _scenario(pdf: ScenarioPages, scenario: PrintedScenario) -> None:
-    if pdf.will_page_break(KEEP_WITH_HEADING):
-        pdf.add_page()
-    pdf.set_draw_color(*STATE_COLOURS[scenario.state])
-    pdf.set_line_width(0.8)
-    pdf.line(LEFT, pdf.get_y(), LEFT + TEXT_WIDTH, pdf.get_y())
-    pdf.ln(1.2)
-    pdf.runs(scenario.heading, 4.4)
+    pdf.room(KEEP_WITH_HEADING)
+    pdf.rule(STATE_COLOURS[scenario.state], 0.8)
+    pdf.y_at += 1.2
+    pdf.runs(scenario.heading, height=4.4)
     pdf.runs(scenario.cause_consequence)
-    _steps(pdf, scenario)
+    _steps(pdf, scenario.steps)
     if scenario.warnings:
         pdf.runs(scenario.warnings)
     _figures_and_ladder(pdf, scenario)
     if scenario.safeguards:
-        pdf._font("", 8.6, GREY)
-        pdf.multi_cell(TEXT_WIDTH, LINE, scenario.safeguards, new_x=XPos.LMARGIN,
-                       new_y=YPos.NEXT, padding=0)
-    pdf.ln(3.5)
+        pdf.runs((("muted", scenario.safeguards),))
+    pdf.y_at += 3.5
 
 
-def _steps(pdf: ScenarioPages, scenario: PrintedScenario) -> None:
-    pdf._font("", 8.6, INK)
-    pdf.set_fill_color(255, 255, 255)
-    pdf.set_draw_color(*RULE)
-    pdf.set_line_width(0.18)
-    headings = FontFace(family="DejaVu", emphasis="BOLD", size_pt=7, color=GREY)
-    with pdf.table(col_widths=STEP_COLUMNS, width=TEXT_WIDTH, line_height=LINE,
-                   headings_style=headings, borders_layout=TableBordersLayout.HORIZONTAL_LINES,
-                   padding=(0.5, 1.2), repeat_headings=1, first_row_as_headings=True,
-                   v_align="TOP",
-                   text_align=("LEFT", "LEFT", "LEFT", "RIGHT", "LEFT")) as table:
-        table.row(STEP_HEADINGS)
-        for step in scenario.steps:
-            style = None if step.is_credited else FontFace(emphasis="ITALICS", color=GREY)
-            row = table.row(style=style)
-            for text in (step.kind, step.description, step.typed):
-                row.cell(text)
-            row.cell(step.value, style=_mono(style))
-            row.cell(step.credited)
-    pdf.ln(1)
+def _steps(pdf: ScenarioPages, steps: tuple[PrintedStep, ...]) -> None:
+    """The steps as a table: a heading row (again on each new page), a rule under each row."""
+    _step_headings(pdf)
+    for step in steps:
+        plain, number = ("", "mono") if step.is_credited else ("I", "mono-I")
+        cells = [pdf.type.wrap(((style, text),), width - 2 * CELL_PAD_X)
+                 for style, text, width in zip(
+                     (plain, plain, plain, number, plain),
+                     (step.kind, step.description, step.typed, step.value, step.credited),
+                     STEP_COLUMNS, strict=True)]
+        height = max(len(lines) for lines in cells) * LINE + 2 * CELL_PAD_Y
+        if pdf.y_at + height > PAGE_HEIGHT - BOTTOM:
+            pdf.new_page()
+            _step_headings(pdf)
+        _row(pdf, cells, aligns="LLLRL")
+        pdf.y_at += height
+        pdf.rule(RULE, 0.18)
+    pdf.y_at += 1
 
 
-def _mono(style: FontFace | None) -> FontFace:
-    return FontFace(family="DejaVuMono", size_pt=8,
-                    color=style.color if style else None)
+def _step_headings(pdf: ScenarioPages) -> None:
+    cells = [pdf.type.wrap((("th", text),), width - 2 * CELL_PAD_X)
+             for text, width in zip(STEP_HEADINGS, STEP_COLUMNS, strict=True)]
+    height = max(len(lines) for lines in cells) * 3.0 + 2 * CELL_PAD_Y
+    pdf.room(height + 2 * LINE)
+    _row(pdf, cells, aligns="LLLRL", line=3.0)
+    pdf.y_at += height
+    pdf.rule(INK, 0.35)
+
+
+def _row(pdf: ScenarioPages, cells: list[list[Line]], *, aligns: str,
+         line: float = LINE) -> None:
+    x = LEFT
+    for lines, width, align in zip(cells, STEP_COLUMNS, aligns, strict=True):
+        for number, set_line in enumerate(lines):
+            pdf.type.draw_line(set_line, x + CELL_PAD_X,
+                               pdf.y_at + CELL_PAD_Y + (number + ASCENT) * line,
+                               align=align, width=width - 2 * CELL_PAD_X)
+        x += width
 
 
 def _figures_and_ladder(pdf: ScenarioPages, scenario: PrintedScenario) -> None:
@@ -190,14 +192,11 @@ def _figures_and_ladder(pdf: ScenarioPages, scenario: PrintedScenario) -> None:
         pdf.runs(scenario.figures)
         return
     height = LADDER_WIDTH * ladder.height / ladder.width
-    if pdf.will_page_break(height + 1):
-        pdf.add_page()
-    top = pdf.get_y()
+    pdf.room(height + 1)
+    top = pdf.y_at
     draw_ladder(pdf, ladder, scenario.band, PAGE_WIDTH - RIGHT - LADDER_WIDTH, top)
-    pdf.set_right_margin(RIGHT + LADDER_WIDTH + LADDER_GAP)
-    pdf.runs(scenario.figures, 3.4)
-    pdf.set_right_margin(RIGHT)
-    pdf.set_y(max(pdf.get_y(), top + height) + 1)
+    pdf.runs(scenario.figures, width=TEXT_WIDTH - LADDER_WIDTH - LADDER_GAP, height=3.4)
+    pdf.y_at = max(pdf.y_at, top + height) + 1
 
 
 def draw_ladder(pdf: ScenarioPages, ladder: LadderView, band: LadderBand | None,

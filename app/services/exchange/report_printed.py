@@ -11,8 +11,9 @@ from dataclasses import dataclass
 from app.services.worksheet.ladder import LadderBand, LadderView
 
 Run = tuple[str, str]
-"""A piece of running text and its style: "" plain, "B" bold, "key" a small grey label,
-"status-meets", "status-short" or "status-unknown" the coloured verdict."""
+"""A piece of running text and its style (report_type.STYLES): "" plain, "B" bold, "key" a
+small grey label, "heading" a scenario's heading, "status-meets", "status-short" or
+"status-unknown" its coloured verdict."""
 
 
 @dataclass(frozen=True)

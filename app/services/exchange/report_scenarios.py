@@ -114,7 +114,7 @@ def printed_scenario(entry: ReportScenario, words: Words) -> PrintedScenario:
     return PrintedScenario(
         anchor=f"scenario-{entry.ref}", state=state,
         heading=((f"status-{state}", _verdict(entry, words)),
-                 ("B", f" {entry.ref} · {entry.deviation} · {category}")),
+                 ("heading", f" {entry.ref} · {entry.deviation} · {category}")),
         cause_consequence=(("B", "Cause: "), ("", scenario.cause + "\n"),
                            ("B", "Consequence: "), ("", scenario.consequence)),
         steps=tuple(_printed_step(step, words) for step in entry.steps),
