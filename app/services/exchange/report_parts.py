@@ -10,7 +10,7 @@ with the document (1,000 scenarios as one document: 2.8 GB); fpdf2 draws a scena
 """
 
 from collections.abc import Callable, Iterator, Sequence
-from concurrent.futures import ProcessPoolExecutor, as_completed
+from concurrent.futures import ProcessPoolExecutor
 from dataclasses import dataclass, replace
 from multiprocessing import get_context
 from pathlib import Path
@@ -28,7 +28,7 @@ from pypdf.generic import (
 )
 
 from app.services.exchange.report import REPORT_TEMPLATE, Report, ReportNode
-from app.services.exchange.report_layout import html_to_pdf_file
+from app.services.exchange.report_layout import exit_with_parent, html_to_pdf_file
 from app.services.exchange.report_pages import write_scenario_pages
 from app.services.exchange.report_scenarios import Words, printed_part
 
@@ -100,15 +100,16 @@ LayoutJob = tuple[Callable[[Any, Path], object], Any]
 back), a PrintedPart for the scenario pages (report_pages.py)."""
 
 
-def layout_jobs(report: Report, parts: Sequence[ReportPart], *,
-                env: Environment) -> Iterator[LayoutJob]:
-    """Each part's layout job, in page order, made one at a time (so only the parts being laid
-    out are held as words)."""
+def layout_jobs(report: Report, parts: Sequence[ReportPart], *, env: Environment,
+                matter: bool = True) -> Iterator[LayoutJob]:
+    """Each part's layout job, in page order, made one at a time (so only the part being laid
+    out is held as words); without `matter`, the parts of scenarios only."""
     words = Words.of(env)
     first = True
     for part in parts:
         if part.section != "scenarios":
-            yield html_to_pdf_file, part_html(report, part, env=env)
+            if matter:
+                yield html_to_pdf_file, part_html(report, part, env=env)
             continue
         yield write_scenario_pages, printed_part(report, part.nodes, words=words,
                                                  continued=part.continued, first=first)
@@ -145,21 +146,34 @@ def _silent(_done: int, _total: int, _label: str) -> None:
 
 def _lay_out_in_processes(report: Report, parts: list[ReportPart], files: list[Path], *,
                           env: Environment, progress: PartProgress, workers: int) -> None:
-    """The back part (the longest WeasyPrint layout) goes first so the other process lays the
-    scenario parts out meanwhile; progress counts the parts finished."""
-    order = [len(parts) - 1, *range(len(parts) - 1)]
-    jobs = list(layout_jobs(report, parts, env=env))
-    # spawn, not fork: a fresh interpreter holds no copy of this one's study tree; a layout
-    # process whose parent dies stops at its next part (the pool's queue closes).
-    with ProcessPoolExecutor(max_workers=workers, mp_context=get_context("spawn")) as pool:
-        pending = {pool.submit(jobs[n][0], jobs[n][1], files[n]): n for n in order}
-        del jobs
-        progress(0, len(parts), parts[order[0]].label)
-        for done, future in enumerate(as_completed(pending), 1):
+    """The front and back matter (WeasyPrint, the back part the longest single layout) go to
+    `workers - 1` spawned processes while this one draws the scenario parts (fpdf2): one
+    process fewer holding its own memory (DEVELOPERS.md, "Laid out in parts"). Progress
+    counts the parts finished."""
+    done = 0
+
+    def finished(label: str) -> None:
+        nonlocal done
+        done += 1
+        if done < len(parts):  # after the last, the caller says "joining the parts"
+            progress(done, len(parts), label)
+
+    # spawn, not fork: a fresh interpreter holds no copy of this one's study tree; each
+    # process exits when this one dies (report_layout.exit_with_parent).
+    with ProcessPoolExecutor(max_workers=workers - 1, mp_context=get_context("spawn"),
+                             initializer=exit_with_parent) as pool:
+        matter = [n for n, part in enumerate(parts) if part.section != "scenarios"]
+        pending = [pool.submit(html_to_pdf_file, part_html(report, parts[n], env=env), files[n])
+                   for n in reversed(matter)]
+        progress(0, len(parts), parts[-1].label)
+        drawn = [n for n, part in enumerate(parts) if part.section == "scenarios"]
+        jobs = layout_jobs(report, parts, env=env, matter=False)
+        for number, (lay_out, given) in zip(drawn, jobs, strict=True):
+            lay_out(given, files[number])
+            finished(parts[number].label)
+        for future in pending:
             future.result()
-            if done < len(parts):  # after the last, the caller says "joining the parts"
-                left = [parts[n].label for f, n in pending.items() if not f.done()]
-                progress(done, len(parts), left[0] if left else parts[pending[future]].label)
+            finished("joining the parts")
 
 
 def join_parts(files: Sequence[Path], target: Path) -> int:
