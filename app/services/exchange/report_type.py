@@ -176,6 +176,10 @@ def _append(line: Line, style: str, text: str) -> None:
 
 
 def _trim(line: Line) -> None:
-    if line:
+    """Drop the spaces a line ends with (over as many runs as they take)."""
+    while line:
         style, text = line[-1]
-        line[-1] = (style, text.rstrip())
+        if text.rstrip():
+            line[-1] = (style, text.rstrip())
+            return
+        line.pop()
