@@ -10,7 +10,7 @@ with the document (1,000 scenarios as one document: 2.8 GB); fpdf2 draws a scena
 """
 
 from collections.abc import Callable, Iterator, Sequence
-from concurrent.futures import ProcessPoolExecutor
+from concurrent.futures import Future, ProcessPoolExecutor
 from dataclasses import dataclass, replace
 from multiprocessing import get_context
 from pathlib import Path
@@ -95,6 +95,11 @@ def part_html(report: Report, part: ReportPart, *, env: Environment) -> str:
                                                      part=part)
 
 
+HANDED_SHARE = 3
+"""The spawned process lays out the front and back matter, then the last third of the scenario
+parts (1/HANDED_SHARE): the matter costs it about what a third of the scenarios cost the
+worker, so both finish near the same time (measured, DEVELOPERS.md "Laid out in parts")."""
+
 LayoutJob = tuple[Callable[[Any, Path], object], Any]
 """What lays one part out into its file, and what it is given: HTML for WeasyPrint (front and
 back), a PrintedPart for the scenario pages (report_pages.py)."""
@@ -146,10 +151,10 @@ def _silent(_done: int, _total: int, _label: str) -> None:
 
 def _lay_out_in_processes(report: Report, parts: list[ReportPart], files: list[Path], *,
                           env: Environment, progress: PartProgress, workers: int) -> None:
-    """The front and back matter (WeasyPrint, the back part the longest single layout) go to
-    `workers - 1` spawned processes while this one draws the scenario parts (fpdf2): one
-    process fewer holding its own memory (DEVELOPERS.md, "Laid out in parts"). Progress
-    counts the parts finished."""
+    """The front and back matter (WeasyPrint) and the last scenario parts go to `workers - 1`
+    spawned processes while this one draws the other scenario parts (fpdf2): one process
+    fewer holding its own memory (DEVELOPERS.md, "Laid out in parts"). Progress counts the
+    parts finished."""
     done = 0
 
     def finished(label: str) -> None:
@@ -160,15 +165,20 @@ def _lay_out_in_processes(report: Report, parts: list[ReportPart], files: list[P
 
     # spawn, not fork: a fresh interpreter holds no copy of this one's study tree; each
     # process exits when this one dies (report_layout.exit_with_parent).
+    drawn = [n for n, part in enumerate(parts) if part.section == "scenarios"]
+    jobs = dict(zip(drawn, layout_jobs(report, parts, env=env, matter=False), strict=True))
+    handed = set(drawn[len(drawn) - len(drawn) // HANDED_SHARE:])
     with ProcessPoolExecutor(max_workers=workers - 1, mp_context=get_context("spawn"),
                              initializer=exit_with_parent) as pool:
         matter = [n for n, part in enumerate(parts) if part.section != "scenarios"]
-        pending = [pool.submit(html_to_pdf_file, part_html(report, parts[n], env=env), files[n])
-                   for n in reversed(matter)]
+        pending: list[Future[object]] = [
+            pool.submit(html_to_pdf_file, part_html(report, parts[n], env=env), files[n])
+            for n in reversed(matter)]
+        for number in sorted(handed):
+            lay_out, given = jobs.pop(number)
+            pending.append(pool.submit(lay_out, given, files[number]))
         progress(0, len(parts), parts[-1].label)
-        drawn = [n for n, part in enumerate(parts) if part.section == "scenarios"]
-        jobs = layout_jobs(report, parts, env=env, matter=False)
-        for number, (lay_out, given) in zip(drawn, jobs, strict=True):
+        for number, (lay_out, given) in jobs.items():
             lay_out(given, files[number])
             finished(parts[number].label)
         for future in pending:
