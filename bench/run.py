@@ -295,7 +295,8 @@ class SizeRun:
         job = read_job(self.database.parent / REPORTS_FOLDER_NAME, found.group(1))
         if job is not None:
             self.add("pdf_pages", job.pages)
-            self.add("pdf_peak_mb", job.peak_mb, "the build's worker process (ru_maxrss)")
+            self.add("pdf_peak_mb", job.peak_mb,
+                     "the build's worker and its layout process together (sampled)")
         self.add("rss_pdf_mb", server.rss_mb(), f"server at most {server_peak:.0f} MB meanwhile")
 
     def poll_pdf_job(self, client: BrowserClient, job_path: str, server: Server,
