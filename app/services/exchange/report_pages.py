@@ -68,7 +68,7 @@ class ScenarioPages(FPDF):
         self.set_line_width(0.21)
         self.line(LEFT, top, LEFT + FOOT_WIDTH, top)
         if self._foot is None:
-            self._foot = self.type.wrap([("foot", self.part.signature + "\n"),
+            self._foot = self.type.wrap([("foot-B", self.part.signature + "\n"),
                                          ("foot-B", "Cautions. "),
                                          ("foot", self.part.cautions)], FOOT_WIDTH)
         for number, line in enumerate(self._foot):
