@@ -56,10 +56,14 @@ class ScenarioPages(FPDF):
         self.y_at = TOP
 
     def header(self) -> None:
-        """The study's title on the left and its revision on the right, small and grey."""
-        self.type.draw_line([("running", self.part.study_title)], LEFT, 11)
-        self.type.draw_line([("running", self.part.revision)], LEFT, 11, align="R",
-                            width=TEXT_WIDTH)
+        """The study's title on the left (its first line, when too long for the room the
+        revision leaves) and its revision on the right, small and grey."""
+        revision: Line = [("running", self.part.revision)]
+        room = TEXT_WIDTH - self.type.line_width(revision) - 6
+        title = self.type.wrap((("running", self.part.study_title),), room)
+        shown = title[0] + ([("running", " …")] if len(title) > 1 else [])
+        self.type.draw_line(shown, LEFT, 11)
+        self.type.draw_line(revision, LEFT, 11, align="R", width=TEXT_WIDTH)
 
     def footer(self) -> None:
         """The signature and the cautions on every page, above the page number's place."""
