@@ -110,9 +110,10 @@ class WalCheckpoints:
 def warm_up() -> None:
     """What the first requests would otherwise pay: compiling every template; then the
     start's objects (routes, models, templates, caches) are frozen out of the collector, so
-    a full collection does not walk them again (measured: 170 ms inside one edit)."""
+    a full collection does not walk them again (measured: 170 ms inside one edit). No
+    collection first: it costs about a second here, on every app start of the test suite,
+    and would free only the start's little garbage."""
     compile_templates()
-    gc.collect()
     gc.freeze()
 
 
