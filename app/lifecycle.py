@@ -15,6 +15,7 @@ import asyncio
 import gc
 import logging
 import sqlite3
+import threading
 from collections.abc import AsyncIterator
 from contextlib import asynccontextmanager, suppress
 from pathlib import Path
@@ -81,17 +82,20 @@ class WalCheckpoints:
         self.database = database
         self.connection = sqlite3.connect(database, timeout=0, check_same_thread=False)
         self.last_seen: Fingerprint = fingerprint(database)
+        # A stop cancels the waiting task, not its thread: close waits for a round in progress.
+        self.in_use = threading.Lock()
 
     def checkpoint_if_written(self) -> tuple[int, int, int] | None:
         """(busy, frames in the log, frames copied) after a PASSIVE checkpoint, or None when
         nothing was written since the last round."""
-        current = fingerprint(self.database)
-        if current == self.last_seen:
-            return None
-        busy, logged, copied = self.connection.execute(
-            "PRAGMA wal_checkpoint(PASSIVE)").fetchone()
-        self.last_seen = fingerprint(self.database)
-        return int(busy), int(logged), int(copied)
+        with self.in_use:
+            current = fingerprint(self.database)
+            if current == self.last_seen:
+                return None
+            busy, logged, copied = self.connection.execute(
+                "PRAGMA wal_checkpoint(PASSIVE)").fetchone()
+            self.last_seen = fingerprint(self.database)
+            return int(busy), int(logged), int(copied)
 
     async def every(self, seconds: float) -> None:
         """Checkpoint every `seconds` on a worker thread until cancelled."""
@@ -103,8 +107,9 @@ class WalCheckpoints:
                 log.exception("background checkpoint of %s failed", self.database)
 
     def close(self) -> None:
-        """Close this checkpointer's own connection."""
-        self.connection.close()
+        """Close this checkpointer's own connection (after a round in progress)."""
+        with self.in_use:
+            self.connection.close()
 
 
 def warm_up() -> None:
