@@ -84,13 +84,14 @@ class WalCheckpoints:
         self.last_seen: Fingerprint = fingerprint(database)
         # A stop cancels the waiting task, not its thread: close waits for a round in progress.
         self.in_use = threading.Lock()
+        self.closed = False
 
     def checkpoint_if_written(self) -> tuple[int, int, int] | None:
         """(busy, frames in the log, frames copied) after a PASSIVE checkpoint, or None when
         nothing was written since the last round."""
         with self.in_use:
             current = fingerprint(self.database)
-            if current == self.last_seen:
+            if self.closed or current == self.last_seen:
                 return None
             busy, logged, copied = self.connection.execute(
                 "PRAGMA wal_checkpoint(PASSIVE)").fetchone()
@@ -109,6 +110,7 @@ class WalCheckpoints:
     def close(self) -> None:
         """Close this checkpointer's own connection (after a round in progress)."""
         with self.in_use:
+            self.closed = True
             self.connection.close()
 
 

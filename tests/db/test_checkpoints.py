@@ -5,6 +5,7 @@ leaves the log longer than `wal_autocheckpoint` pages copies it back, inside tha
 """
 
 import sqlite3
+from concurrent.futures import ThreadPoolExecutor
 from contextlib import closing
 from pathlib import Path
 
@@ -70,3 +71,22 @@ def test_the_server_checkpoints_each_round_only_what_was_written(tmp_path: Path)
         db_engine.dispose()
     with closing(sqlite3.connect(database)) as raw:
         assert raw.execute("SELECT count(*) FROM edit").fetchone() == (25,)
+
+
+def test_closing_waits_for_a_round_in_progress_and_later_rounds_do_nothing(
+    tmp_path: Path,
+) -> None:
+    # A stop cancels the task that waits for a round, not the round's thread: closing the
+    # connection under a running checkpoint crashed the interpreter before the lock.
+    database = tmp_path / "t.db"
+    db_engine = _database(database)
+    checkpoints = WalCheckpoints(database)
+    _write(db_engine, 50)
+    with ThreadPoolExecutor(max_workers=4) as pool:
+        rounds = [pool.submit(checkpoints.checkpoint_if_written) for _ in range(4)]
+        checkpoints.close()
+        for done in rounds:
+            done.result()  # none raised
+    _write(db_engine, 5)
+    assert checkpoints.checkpoint_if_written() is None
+    db_engine.dispose()
