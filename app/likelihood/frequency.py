@@ -9,6 +9,7 @@ from __future__ import annotations
 import math
 from collections.abc import Sequence
 from fractions import Fraction
+from functools import lru_cache
 
 from app.likelihood.demand import sif_demand
 from app.likelihood.exact import as_decimal, exact_product, exact_ratio, log10_exact, to_float
@@ -58,10 +59,20 @@ def _the_initiating_event(steps: Sequence[StepInput]) -> StepInput:
 
 
 def _ladder(ordered: Sequence[StepInput]) -> tuple[LadderPoint, ...]:
+    running = _running_products(tuple(float(step.value) for step in ordered))
+    return tuple(LadderPoint(step.label, step.kind, step.value, after)
+                 for step, after in zip(ordered, running, strict=True))
+
+
+# Remembered per sequence of numbers (labels play no part): a study repeats a few ladders
+# over thousands of scenarios. Exact, as the rest of the arithmetic (see exact.py).
+@lru_cache(maxsize=65_536)
+def _running_products(values: tuple[float, ...]) -> tuple[float, ...]:
+    """The frequency after each factor, each running product exact and rounded once."""
     points, running = [], Fraction(1)
-    for step in ordered:
-        running *= as_decimal(step.value)
-        points.append(LadderPoint(step.label, step.kind, step.value, to_float(running)))
+    for value in values:
+        running *= as_decimal(value)
+        points.append(to_float(running))
     return tuple(points)
 
 

@@ -188,7 +188,8 @@ def scenario_columns(rating: Any, steps: tuple[Any, ...], categories: Mapping[in
     assessment, category, error = outcome_of(rating, steps, categories,
                                              people_not_rated=people_not_rated,
                                              assessed=assessment_of_rows)
-    warning_count = len(warnings_of(steps))
+    # The assessment holds the same checks' warnings; only an uncomputed scenario runs them.
+    warning_count = len(assessment.warnings if assessment is not None else warnings_of(steps))
     if assessment is None or category is None:
         return {**NOT_COMPUTED, "incomplete": is_incomplete(rating, steps), "error": error,
                 "warning_count": warning_count}
