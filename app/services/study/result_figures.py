@@ -23,6 +23,7 @@ from app.services.study.completeness import is_incomplete
 from app.services.study.results import (
     Assessment,
     Figures,
+    assessment_of_fresh,
     assessment_of_rows,
     outcome_of,
     receptor_categories,
@@ -165,10 +166,11 @@ def _withdrawn_columns(assessment: Assessment, rated: Mapping[Receptor, Any]) ->
 
 
 def _spread_columns(steps: tuple[Any, ...], assessment: Assessment,
-                    rated: Mapping[Receptor, Any], inputs: ErrorFactorInputs) -> dict[str, Any]:
+                    rated: Mapping[Receptor, Any], inputs: ErrorFactorInputs,
+                    remember: bool) -> dict[str, Any]:
     """The governing line's uncertainty as credited (None where no spread can be drawn)."""
     spread = scenario_spread(steps, targets_of(rated), inputs,
-                             assessment.as_credited.receptors)
+                             assessment.as_credited.receptors, remember=remember)
     if spread is None:
         return dict(SPREAD_NONE)
     line = spread.governing
@@ -182,12 +184,16 @@ SPREAD_NONE: dict[str, Any] = {"uncertain": False, "p_meets": None, "spread_medi
 
 
 def scenario_columns(rating: Any, steps: tuple[Any, ...], categories: Mapping[int, Any],
-                     inputs: ErrorFactorInputs = NO_INPUTS) -> dict[str, Any]:
-    """One scenario computed from plain rows, as the columns of its stored row."""
+                     inputs: ErrorFactorInputs = NO_INPUTS, *,
+                     remember: bool = True) -> dict[str, Any]:
+    """One scenario computed from plain rows, as the columns of its stored row.
+
+    remember False: nothing kept per scenario (a whole study computed once); the same figures.
+    """
     people_not_rated = bool(rating.people_not_rated)
-    assessment, category, error = outcome_of(rating, steps, categories,
-                                             people_not_rated=people_not_rated,
-                                             assessed=assessment_of_rows)
+    assessment, category, error = outcome_of(
+        rating, steps, categories, people_not_rated=people_not_rated,
+        assessed=assessment_of_rows if remember else assessment_of_fresh)
     # The assessment holds the same checks' warnings; only an uncomputed scenario runs them.
     warning_count = len(assessment.warnings if assessment is not None else warnings_of(steps))
     if assessment is None or category is None:
@@ -196,7 +202,7 @@ def scenario_columns(rating: Any, steps: tuple[Any, ...], categories: Mapping[in
     rated = receptor_categories(rating, categories, people_not_rated=people_not_rated)
     return {**_computed_columns(assessment, category, rated),
             **_withdrawn_columns(assessment, rated), "warning_count": warning_count,
-            **_spread_columns(steps, assessment, rated, inputs)}
+            **_spread_columns(steps, assessment, rated, inputs, remember)}
 
 
 def _computed_columns(assessment: Assessment, category: Any,
