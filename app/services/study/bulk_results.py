@@ -94,9 +94,10 @@ def _no_cycle_collection() -> Iterator[None]:
             gc.enable()
 
 
-def chunks_of(ratings: Sequence[Any], steps: Mapping[int, Sequence[Any]], size: int = CHUNK
-              ) -> list[Chunk]:
-    """The scenarios in chunks of `size`, each with its scenarios' steps."""
+def chunks_of(ratings: Sequence[Any], steps: Mapping[int, Sequence[Any]],
+              size: int | None = None) -> list[Chunk]:
+    """The scenarios in chunks of `size` (CHUNK), each with its scenarios' steps."""
+    size = size or CHUNK
     found = []
     for start in range(0, len(ratings), size):
         part = ratings[start:start + size]
@@ -107,10 +108,11 @@ def chunks_of(ratings: Sequence[Any], steps: Mapping[int, Sequence[Any]], size: 
 
 def compute_scenarios(study: StudyInputs, ratings: Sequence[Any],
                       steps: Mapping[int, Sequence[Any]], *,
-                      parallel_from: int = PARALLEL_FROM) -> dict[int, dict[str, Any]]:
-    """Every scenario's stored-row columns, keyed by scenario id, in the ratings' order."""
+                      parallel_from: int | None = None) -> dict[int, dict[str, Any]]:
+    """Every scenario's stored-row columns, keyed by scenario id, in the ratings' order
+    (on two processes from `parallel_from`, PARALLEL_FROM, scenarios)."""
     chunks = chunks_of(ratings, steps)
-    if len(ratings) < parallel_from or (os.cpu_count() or 1) < 2:
+    if len(ratings) < (parallel_from or PARALLEL_FROM) or (os.cpu_count() or 1) < 2:
         return _in_order([compute_chunk(study, chunk) for chunk in chunks])
     with ProcessPoolExecutor(max_workers=1, mp_context=get_context("spawn")) as helper:
         return _in_order(_shared(study, chunks, helper))
