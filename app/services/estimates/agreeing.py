@@ -14,7 +14,14 @@ from app.likelihood.agreement import agreement_basis as basis_sentence
 from app.likelihood.numbers import format_number
 from app.likelihood.types import LikelihoodInputError
 from app.services.estimates.reading import parse_estimate
-from app.services.estimates.rounds import estimates_of, get_round, get_step, stats_of, unit_for
+from app.services.estimates.rounds import (
+    claim_state,
+    estimates_of,
+    get_round,
+    get_step,
+    stats_of,
+    unit_for,
+)
 from app.services.study.errors import FieldInputError, nul_problem
 
 
@@ -80,6 +87,11 @@ def agree_round(*, session: Session, study_id: int, round_id: int,
         value, basis = agreed_value(agreement), basis_sentence(agreement)
     except LikelihoodInputError as error:
         raise FieldInputError("typed_text", error.message) from error
+    if not claim_state(session, found, RoundState.REVEALED, RoundState.AGREED):
+        session.rollback()
+        raise FieldInputError("method", "Agree: this round was agreed on another screen a "
+                                        "moment ago, so nothing was changed here; reload the "
+                                        "round to see the value it agreed.")
     step = get_step(session, study_id, found.step_id)
     step.value, step.value_text = value, format_number(value)
     step.basis = basis[: text_limit(Step, "basis")]

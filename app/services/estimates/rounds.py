@@ -4,6 +4,7 @@ Every change here commits. Rounds are not in the change log (editors read it whi
 open); agreeing (agreeing.py) writes the step, and that edit is logged.
 """
 
+from sqlalchemy import update
 from sqlmodel import Session, col, func, select
 
 from app.db.models import (
@@ -139,9 +140,31 @@ def reveal_round(*, session: Session, study_id: int, round_id: int) -> EstimateR
         return found
     if not estimates_of(session, round_id):
         raise FieldInputError("reveal", "Reveal: nobody has answered this round yet.")
-    found.state = RoundState.REVEALED
-    _touch(session, found)
+    if claim_state(session, found, RoundState.OPEN, RoundState.REVEALED):
+        session.commit()
+    else:
+        session.rollback()  # another screen revealed it first: show the round as it is now
+    session.refresh(found)
     return found
+
+
+def claim_state(session: Session, found: EstimateRound, before: RoundState,
+                after: RoundState) -> bool:
+    """Move the round from `before` to `after` in one guarded UPDATE; False (nothing written)
+    when another screen moved it first.
+
+    Reading the state and then writing it would let two screens both pass the check and the
+    later one silently win (agreeing twice, say); the guarded UPDATE lets one through.
+    """
+    claimed = session.execute(
+        update(EstimateRound)
+        .where(col(EstimateRound.id) == found.id, col(EstimateRound.state) == before)
+        .values(state=after, updated_at=utc_now())
+        .execution_options(synchronize_session=False))
+    if claimed.rowcount != 1:  # type: ignore[attr-defined]
+        return False
+    found.state = after
+    return True
 
 
 def set_names_shown(*, session: Session, study_id: int, round_id: int,

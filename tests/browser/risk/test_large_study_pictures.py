@@ -44,6 +44,11 @@ def test_a_large_studys_overview_opens_a_nodes_lines_and_the_risk_picture_pages(
     expect(lines.first).to_have_attribute("data-scenario",
                                           str(first.scenario_branches()[100].scenario.id))
     assert page.url == f"{live_server}/studies/{study_id}"  # opened in place
+    node.locator("[data-open-lines]").click()  # the summary closes the lines again
+    expect(lines.first).to_be_hidden()
+    node.locator("[data-open-lines]").click()  # and opens them where they were
+    expect(lines.first).to_have_attribute("data-scenario",
+                                          str(first.scenario_branches()[100].scenario.id))
     node.scroll_into_view_if_needed()
     page.screenshot(path=str(artifacts / "overview-large-node-open.png"))
 

@@ -57,9 +57,10 @@ def test_many_repeated_references_are_refused_in_well_under_a_second(
 ) -> None:
     # Counting each ref's repeats in turn took 24 s for a 349 KB file of this shape.
     demo_file["recommendations"][0]["scenarios"] = ["S1"] * 45_000  # ~270 KB of refs
-    started = time.perf_counter()
+    # CPU time of this process, so a busy machine does not fail it; quadratic work still does.
+    started = time.process_time()
     message = refused(session, demo_file)
-    assert time.perf_counter() - started < 1.0
+    assert time.process_time() - started < 1.0
     assert "scenario ref 'S1' is listed twice" in message
 
 
@@ -69,9 +70,9 @@ def test_many_distinct_references_validate_in_well_under_a_second(demo_file: Dat
                                                                      range(8_000)]}]
     raw = json.dumps(demo_file)
     assert len(raw) > 349_000
-    started = time.perf_counter()
+    started = time.process_time()
     parsed = parse_study_file(raw)
-    assert time.perf_counter() - started < 1.0
+    assert time.process_time() - started < 1.0
     assert len(parsed.session_days[0].attendees) == 8_000
 
 
