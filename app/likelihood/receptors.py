@@ -14,7 +14,7 @@ from functools import lru_cache
 
 from app.likelihood.demand import DemandKey, SifDemand, demand_key, sif_demand_of
 from app.likelihood.exact import exact_ratio, log10_exact, to_float
-from app.likelihood.frequency import compute_scenario
+from app.likelihood.frequency import check_scenario_inputs
 from app.likelihood.types import Receptor, SilStatus, StepInput, input_error
 from app.likelihood.validation import validate_frequency
 
@@ -83,7 +83,8 @@ def assess_receptors(
             label="Receptors",
         )
     first_tolerable = next(iter(rated.values()))
-    compute_scenario(steps, validate_frequency(first_tolerable, "Tolerable frequency"))  # checks
+    # The scenario's rules, checked as computing it would (the figures come per line).
+    check_scenario_inputs(steps, validate_frequency(first_tolerable, "Tolerable frequency"))
     lines = tuple(
         _line(steps, r, validate_frequency(rated[r], f"Tolerable frequency ({r})"))
         for r in Receptor if r in rated

@@ -14,6 +14,7 @@ a sum or a ranking needs it, and RESULTS_VERSION (stored_results.py) is raised.
 import json
 from collections.abc import Mapping
 from dataclasses import dataclass, fields, is_dataclass
+from functools import lru_cache
 from typing import Any
 
 from app.likelihood.demand import SifDemand
@@ -67,10 +68,23 @@ def _plain(value: Any, *, leave_out: str = "") -> Any:
         return value
     if kind is tuple or kind is list:
         return [_plain(item) for item in value]
+    if kind in SHARED_RESULTS and not leave_out:
+        return _plain_shared(value)
     names = _field_names(kind)
     if names is None:
         return value  # an enumeration: written as its text
     return {name: _plain(getattr(value, name)) for name in names if name != leave_out}
+
+
+SHARED_RESULTS = frozenset({SifDemand, ReceptorLine})
+"""Result types the arithmetic remembers per set of numbers, so one object serves many
+scenarios: laid out once each (the dicts are only ever read, by json.dumps)."""
+
+
+@lru_cache(maxsize=65_536)
+def _plain_shared(value: Any) -> Any:
+    names = _field_names(type(value)) or ()
+    return {name: _plain(getattr(value, name)) for name in names}
 
 
 def _result_data(result: ScenarioResult) -> dict[str, Any]:
