@@ -35,6 +35,7 @@ from app.db.tracking import SUPPRESS_LOG_KEY
 from app.services.exchange.study_file import StudyFileError, export_study, parse_study_file
 from app.services.exchange.study_file_rounds import import_rounds
 from app.services.exchange.study_schema import StudyFile
+from app.services.study.bulk_results import helper_started
 from app.services.study.step_fields import receptors_text
 from app.services.study.stored_results import write_study_results
 from app.settings import get_settings
@@ -82,7 +83,10 @@ def _size(count: int) -> str:
 
 def import_study_text(session: Session, raw: str | bytes) -> Study:
     """Validate and import a JSON study file; nothing is written when it is invalid."""
-    with _no_cycle_collection():
+    # A study large enough to share its computation gets its helper process started now,
+    # so the process starts while the file is read and written (at most one scenario per
+    # CONTENT_BYTES_PER_SCENARIO of file).
+    with _no_cycle_collection(), helper_started(len(raw) // CONTENT_BYTES_PER_SCENARIO):
         return import_study_file(session, parse_study_file(raw))
 
 

@@ -16,6 +16,7 @@ from collections.abc import Iterator, Mapping, Sequence
 from concurrent.futures import Future, ProcessPoolExecutor
 from concurrent.futures.process import BrokenProcessPool
 from contextlib import contextmanager
+from contextvars import ContextVar
 from dataclasses import dataclass
 from multiprocessing import get_context
 from typing import Any
@@ -114,8 +115,39 @@ def compute_scenarios(study: StudyInputs, ratings: Sequence[Any],
     chunks = chunks_of(ratings, steps)
     if len(ratings) < (parallel_from or PARALLEL_FROM) or (os.cpu_count() or 1) < 2:
         return _in_order([compute_chunk(study, chunk) for chunk in chunks])
-    with ProcessPoolExecutor(max_workers=1, mp_context=get_context("spawn")) as helper:
+    started = _STARTED.get()
+    if started is not None:
+        return _in_order(_shared(study, chunks, started))
+    with _helper() as helper:
         return _in_order(_shared(study, chunks, helper))
+
+
+def _helper() -> ProcessPoolExecutor:
+    return ProcessPoolExecutor(max_workers=1, mp_context=get_context("spawn"))
+
+
+_STARTED: ContextVar[ProcessPoolExecutor | None] = ContextVar("bulk_helper", default=None)
+
+
+@contextmanager
+def helper_started(expected_scenarios: int) -> Iterator[None]:
+    """Start the helper process now when about `expected_scenarios` will be computed inside
+    (an import: it starts while the file is read and written, not when computing begins);
+    compute_scenarios inside uses it. Stopped on leaving."""
+    if expected_scenarios < PARALLEL_FROM or (os.cpu_count() or 1) < 2:
+        yield
+        return
+    with _helper() as helper:
+        helper.submit(_ready)  # spawns the process and imports this module there
+        token = _STARTED.set(helper)
+        try:
+            yield
+        finally:
+            _STARTED.reset(token)
+
+
+def _ready() -> None:
+    """Nothing: run in the helper so it has started and imported the arithmetic."""
 
 
 def _shared(study: StudyInputs, chunks: list[Chunk], helper: ProcessPoolExecutor

@@ -121,3 +121,26 @@ def test_a_large_study_is_shared_with_a_helper_process(
     monkeypatch.setattr(bulk_results, "_shared", counted)
     compute_scenarios(study_inputs, ratings, steps)
     assert handed == [3]  # 120 scenarios in chunks of 40, shared with the helper
+
+
+@pytest.mark.usefixtures("two_processes")
+def test_a_helper_started_before_the_computation_is_the_one_it_uses(
+    session: Session, monkeypatch: pytest.MonkeyPatch
+) -> None:
+    study = import_study_text(session, json.dumps(build_study(120, seed=11)))
+    study_inputs, ratings, steps = bulk_inputs(session, study.id or 0)
+    started: list[object] = []
+    real_helper = bulk_results._helper
+
+    def counted() -> Any:
+        started.append(object())
+        return real_helper()
+
+    monkeypatch.setattr(bulk_results, "_helper", counted)
+    with bulk_results.helper_started(expected_scenarios=len(ratings)):
+        shared = compute_scenarios(study_inputs, ratings, steps)
+    assert len(started) == 1
+    assert shared == compute_scenarios(study_inputs, ratings, steps, parallel_from=10**9)
+    with bulk_results.helper_started(expected_scenarios=10):  # too few: no process started
+        compute_scenarios(study_inputs, ratings, steps, parallel_from=10**9)
+    assert len(started) == 1
