@@ -63,24 +63,31 @@ class StudyInputs:
 
 @dataclass(frozen=True)
 class Chunk:
-    """Some scenarios of a study (their rating rows) and all their steps."""
+    """Some scenarios of a study (their rating rows) and all their steps: the rows as read
+    here, named tuples in the helper (each read by attribute)."""
 
-    ratings: PlainRows
-    steps: PlainRows
+    ratings: Sequence[Any]
+    steps: Sequence[Any]
 
 
 def compute_chunk(study: StudyInputs, chunk: Chunk) -> dict[int, dict[str, Any]]:
     """The stored-row columns of each scenario of a chunk (run in either process)."""
     categories = {row.id: row for row in study.categories.named()}
     steps: dict[int, list[Any]] = {}
-    for step in chunk.steps.named():
+    for step in chunk.steps:
         steps.setdefault(step.scenario_id, []).append(step)
     with _no_cycle_collection():
         return {rating.id: {"scenario_id": rating.id, "study_id": study.study_id,
                             "node_id": rating.node_id,
                             **scenario_columns(rating, tuple(steps.get(rating.id, ())),
                                                categories, study.inputs, remember=False)}
-                for rating in chunk.ratings.named()}
+                for rating in chunk.ratings}
+
+
+def compute_sent_chunk(study: StudyInputs, ratings: PlainRows, steps: PlainRows
+                       ) -> dict[int, dict[str, Any]]:
+    """compute_chunk in the helper, on the rows sent as plain tuples."""
+    return compute_chunk(study, Chunk(ratings.named(), steps.named()))
 
 
 @contextmanager
@@ -97,14 +104,11 @@ def _no_cycle_collection() -> Iterator[None]:
 
 def chunks_of(ratings: Sequence[Any], steps: Mapping[int, Sequence[Any]],
               size: int | None = None) -> list[Chunk]:
-    """The scenarios in chunks of `size` (CHUNK), each with its scenarios' steps."""
+    """The scenarios in chunks of `size` (CHUNK), each with its scenarios' steps (the same
+    row objects: only a chunk sent to the helper is copied, as plain tuples)."""
     size = size or CHUNK
-    found = []
-    for start in range(0, len(ratings), size):
-        part = ratings[start:start + size]
-        part_steps = [step for rating in part for step in steps.get(rating.id, ())]
-        found.append(Chunk(PlainRows.of(part), PlainRows.of(part_steps)))
-    return found
+    return [Chunk(part, [step for rating in part for step in steps.get(rating.id, ())])
+            for part in (ratings[start:start + size] for start in range(0, len(ratings), size))]
 
 
 def compute_scenarios(study: StudyInputs, ratings: Sequence[Any],
@@ -163,7 +167,9 @@ def _shared(study: StudyInputs, chunks: list[Chunk], helper: ProcessPoolExecutor
             done[index] = _result_or_here(given.pop(index), study, chunks[index])
         while len(given) < HANDED_OVER and first < last and _helping(helper):
             last -= 1
-            given[last] = helper.submit(compute_chunk, study, chunks[last])
+            given[last] = helper.submit(compute_sent_chunk, study,
+                                        PlainRows.of(chunks[last].ratings),
+                                        PlainRows.of(chunks[last].steps))
         if first < last:
             done[first] = compute_chunk(study, chunks[first])
             first += 1
