@@ -247,12 +247,17 @@ def _step_values(study_id: int, placed: Placed) -> dict[str, Any]:
             "proof_test": proof_test, "receptors": receptors_text(step["receptors"])}
 
 
-@cache
 def _column_defaults(model: type[SQLModel]) -> dict[str, Any]:
-    """The model's field defaults (a Core insert builds no objects, so it fills them)."""
+    """The model's field defaults (a Core insert builds no objects, so it fills them), each
+    factory called now: a timestamp is this import's, not the first one's in the process."""
     return {name: field.get_default(call_default_factory=True)
-            for name, field in model.model_fields.items()
-            if name != "id" and not field.is_required()}
+            for name, field in _defaulted_fields(model)}
+
+
+@cache
+def _defaulted_fields(model: type[SQLModel]) -> tuple[tuple[str, Any], ...]:
+    return tuple((name, field) for name, field in model.model_fields.items()
+                 if name != "id" and not field.is_required())
 
 
 def _insert_placed(session: Session, model: type[SQLModel], what: str, parent_field: str,
@@ -285,15 +290,20 @@ def _insert_all(session: Session, model: type[SQLModel], rows: list[dict[str, An
         return
     statement, keys, processors = _driver_insert(model, connection.dialect,
                                                  tuple({**defaults, **rows[0]}))
-    connection.exec_driver_sql(statement, [
-        tuple(value if process is None else process(value)
-              for value, process in zip(_values(defaults, row, keys), processors, strict=True))
-        for row in rows])
+    # A column no row gives takes the same default in every row: converted once.
+    fixed = {key: value if process is None else process(value)
+             for key, process in zip(keys, processors, strict=True)
+             if key not in rows[0] for value in (defaults[key],)}
+    given = [(key, process) for key, process in zip(keys, processors, strict=True)
+             if key not in fixed]
+    connection.exec_driver_sql(statement, [_driver_row(row, keys, fixed, given) for row in rows])
 
 
-def _values(defaults: dict[str, Any], row: dict[str, Any], keys: tuple[str, ...]
-            ) -> Iterator[Any]:
-    return (row[key] if key in row else defaults[key] for key in keys)
+def _driver_row(row: dict[str, Any], keys: tuple[str, ...], fixed: dict[str, Any],
+                given: list[tuple[str, Any]]) -> tuple[Any, ...]:
+    """One row's parameters in the statement's column order, each converted as Core would."""
+    values = {key: row[key] if process is None else process(row[key]) for key, process in given}
+    return tuple(fixed[key] if key in fixed else values[key] for key in keys)
 
 
 @cache

@@ -46,3 +46,14 @@ def test_rows_written_through_the_driver_are_stored_as_the_orm_stores_them(
     assert all(step.created_at.year == study.created_at.year for step in read_back)
     assert len(session.exec(select(Scenario).where(Scenario.study_id == study.id)).all()) == 40
     assert session.get(Study, study.id) is not None
+
+
+def test_each_import_stamps_its_rows_with_its_own_time(session: Session) -> None:
+    # The rows' timestamps are defaults filled in by the import itself: a second import in
+    # the same process (a server) stamps its own time, not the first import's.
+    first = import_study_text(session, json.dumps(build_study(5, seed=1)))
+    second = import_study_text(session, json.dumps(build_study(5, seed=1)))
+    stamps = [max(step.created_at for step in session.exec(
+        select(Step).where(Step.study_id == study.id)).all()) for study in (first, second)]
+    assert stamps[1] > stamps[0]
+    assert stamps[1] >= second.created_at
