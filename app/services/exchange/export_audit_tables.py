@@ -8,7 +8,7 @@ from collections.abc import Callable
 from dataclasses import dataclass
 
 from app.likelihood.check_base import CheckWarning
-from app.likelihood.types import SilStatus
+from app.likelihood.types import DemandMode
 from app.services.exchange.export_source import ExportScenario, tree_scenarios
 from app.services.exchange.export_tables import (
     DEMAND_LABELS,
@@ -18,6 +18,7 @@ from app.services.exchange.export_tables import (
     Column,
     Table,
 )
+from app.services.study.table_figures import TableWarning
 from app.services.study.tree import StudyTree
 
 VERIFY_MARKER = " [verify against your copy]"
@@ -36,9 +37,10 @@ class AddedFunction:
     required_pfh: float | None
 
 
-def warning_source(warning: CheckWarning) -> str:
+def warning_source(warning: CheckWarning | TableWarning) -> str:
     """The warning's citation, with the marker when it still needs checking."""
-    text = warning.citation or warning.source
+    text = warning.citation if isinstance(warning, TableWarning) else (
+        warning.citation or warning.source)
     return text + VERIFY_MARKER if warning.verify_against_copy else text
 
 
@@ -49,15 +51,13 @@ def added_functions(tree: StudyTree) -> list[AddedFunction]:
 
 def added_function(item: ExportScenario) -> AddedFunction | None:
     """The safety function one scenario's gap asks for (None: none needed, or no figures)."""
-    result = item.result
-    if result is None or result.sil_target.status is SilStatus.NONE_NEEDED:
+    result = item.figures.result
+    if result is None or not result.needs_function:
         return None
-    target = result.sil_target
     return AddedFunction(
-        f"{item.number} {item.scenario.cause}".strip(), target.label,
-        DEMAND_LABELS[target.demand_mode],
-        result.demand.demand_rate_per_year if result.demand else None,
-        target.required_rrf, target.required_pfd, target.required_pfh)
+        f"{item.number} {item.scenario.cause}".strip(), result.sil_label,
+        DEMAND_LABELS[DemandMode(result.demand_mode)], result.demand_rate,
+        result.required_rrf, result.required_pfd, result.required_pfh)
 
 
 FUNCTION_COLUMNS = (
@@ -81,7 +81,8 @@ def function_rows(item: ExportScenario) -> list[list[Cell]]:
 def warning_rows(item: ExportScenario) -> list[list[Cell]]:
     """Every IPL-check warning of one scenario with its step, rule, sentence and source."""
     return [[item.number, w.step_label, w.rule.replace("_", " "), w.message,
-             warning_source(w), "yes" if w.withdraws_credit else "no"] for w in item.warnings]
+             warning_source(w), "yes" if w.withdraws_credit else "no"]
+            for w in item.figures.warnings]
 
 
 def safeguard_rows(item: ExportScenario) -> list[list[Cell]]:

@@ -6,11 +6,12 @@ UTF-8 file in the local code page and garbles every non-Latin letter.
 
 import csv
 import io
-from collections.abc import Iterable, Sequence
+from collections.abc import Callable, Iterable, Sequence
 from datetime import date
 from typing import IO
 
 from app.services.exchange.export_tables import (
+    SHOWN_AS,
     Cell,
     Column,
     Table,
@@ -47,10 +48,10 @@ def write_csv(target: IO[bytes], columns: Sequence[Column], rows: Iterable[Seque
     writer = csv.writer(buffer, lineterminator="\r\n")
     buffer.write(BYTE_ORDER_MARK)
     writer.writerow([spreadsheet_text(column.header) for column in columns])
-    formats = [column.number_format for column in columns]
+    cells = [cell_writer(column.number_format) for column in columns]
     for count, row in enumerate(rows, 1):
-        writer.writerow([csv_cell(value, shape)
-                         for value, shape in zip(row, formats, strict=True)])
+        writer.writerow(["" if value is None else write(value)
+                         for write, value in zip(cells, row, strict=True)])
         if count % ROWS_PER_WRITE == 0:
             target.write(buffer.getvalue().encode("utf-8"))
             buffer.seek(0)
@@ -58,6 +59,35 @@ def write_csv(target: IO[bytes], columns: Sequence[Column], rows: Iterable[Seque
     if cautions:
         writer.writerow(["Cautions", spreadsheet_text(cautions)])
     target.write(buffer.getvalue().encode("utf-8"))
+
+
+REMEMBERED_NUMBERS = 65_536  # shown texts kept per column while one file is written
+
+
+def cell_writer(number_format: str | None) -> Callable[[Cell], str]:
+    """csv_cell for one column, with the common kinds (float, text) first: a large table has
+    half a million cells. A column's numbers repeat (the same frequencies, products and
+    targets down a study), so each one's shown text is kept once made; zero never is, as
+    0.0 and -0.0 are one key but are written apart ("0", "-0")."""
+    shown = SHOWN_AS.get(number_format or "")
+    texts: dict[float, str] = {}
+
+    def write(value: Cell) -> str:
+        kind = type(value)
+        if kind is float:
+            if shown is None:
+                return f"{value:.10g}"
+            text = texts.get(value)  # type: ignore[arg-type]
+            if text is None:
+                text = shown(value)  # type: ignore[arg-type]
+                if value and len(texts) < REMEMBERED_NUMBERS:
+                    texts[value] = text  # type: ignore[index]
+            return text
+        if kind is str:
+            return spreadsheet_text(value)  # type: ignore[arg-type]
+        return csv_cell(value, number_format)
+
+    return write
 
 
 def csv_cell(value: Cell, number_format: str | None = None) -> str:

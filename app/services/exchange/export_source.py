@@ -2,16 +2,16 @@
 
 `stored_scenarios` reads plain rows one node at a time (never the whole study as objects) and
 takes each scenario's figures from its stored results (`scenario_result`, kept true on every
-save); only what no stored row holds is computed per scenario as the rows go by: the
-uncertainty spread (issue 13) and the IPL-check warnings. `tree_scenarios` gives the same
-records from a computed study tree, the from-scratch path the report and the tests use; the
-two must give identical tables (`tests/services/exchange/test_exports_stored_path.py`).
+save): what the tables show of the results is stored flat (`scenario_result.table_figures`:
+the results, the uncertainty spread of issue 13, each step's EF and the IPL-check warnings),
+so nothing is computed per scenario here. `tree_scenarios` gives the same records from a
+computed study tree, the from-scratch path the report and the tests use; the two must give
+identical tables (`tests/services/exchange/test_exports_stored_path.py`).
 """
 
 from collections import defaultdict
-from collections.abc import Callable, Iterable, Iterator, Mapping
-from dataclasses import dataclass, field
-from functools import cached_property
+from collections.abc import Iterable, Iterator, Mapping
+from dataclasses import dataclass
 from typing import Any
 
 from sqlalchemy import select as select_columns
@@ -27,19 +27,10 @@ from app.db.models import (
     Step,
 )
 from app.db.queries import fetch_plain_rows, fetch_rows_of_study
-from app.likelihood.check_base import CheckWarning
-from app.likelihood.receptors import ReceptorAssessment, ReceptorLine
-from app.likelihood.types import Receptor, ScenarioResult
-from app.services.study.result_figures import StoredResult
-from app.services.study.results import INCOMPLETE, receptor_categories, targets_of, warnings_of
-from app.services.study.spread import (
-    ErrorFactorInputs,
-    ScenarioSpread,
-    load_error_factor_inputs,
-    scenario_spread,
-)
+from app.services.study.results import INCOMPLETE, warnings_of
 from app.services.study.stored_results import ensure_current
-from app.services.study.tree import StudyTree, get_study
+from app.services.study.table_figures import TableFigures, table_figures
+from app.services.study.tree import StudyTree
 
 BATCH = 500  # scenario ids per IN list
 
@@ -49,9 +40,9 @@ class ExportScenario:
     """One scenario as every export table reads it: where it is, its rows, its figures.
 
     `scenario`, `steps` and `safeguards` are ORM objects or plain rows (read by attribute);
-    `result` is the governing result as credited (None: no figures, `no_figures_words` says
-    why), `lines` every rated receptor's line, `withdrawn` the result with flagged credits
-    withdrawn (None when no check doubts a credit).
+    `figures` is what the tables show of its results (`figures.result` None: no figures,
+    `no_figures_words` says why), the same record whether read from the stored row or built
+    from a computed tree.
     """
 
     number: str
@@ -60,24 +51,9 @@ class ExportScenario:
     scenario: Any
     steps: list[Any]
     safeguards: list[Any]
-    result: ScenarioResult | None
+    figures: TableFigures
     category: Any
-    lines: tuple[ReceptorLine, ...] = ()
-    governing: Receptor | None = None
-    withdrawn: ScenarioResult | None = None
-    withdrawn_labels: tuple[str, ...] = ()
     no_figures_words: str = ""
-    spread_source: Callable[[], ScenarioSpread | None] | None = field(default=None, repr=False)
-
-    @cached_property
-    def spread(self) -> ScenarioSpread | None:
-        """The governing line's lognormal, worked out once when a table first needs it."""
-        return self.spread_source() if self.spread_source else None
-
-    @cached_property
-    def warnings(self) -> list[CheckWarning]:
-        """The IPL-check warnings (never stored: only the workbook and the report list them)."""
-        return warnings_of(self.steps)
 
 
 def node_words(node: Any) -> str:
@@ -97,78 +73,81 @@ def tree_scenarios(tree: StudyTree) -> Iterator[ExportScenario]:
         for d_index, deviation_branch in enumerate(node_branch.deviations, start=1):
             for s_index, item in enumerate(deviation_branch.scenarios, start=1):
                 outcome, assessment = item.outcome, item.outcome.assessment
-                credited = assessment.as_credited if assessment else None
+                figures = table_figures(item.steps, assessment,
+                                        item.spread if assessment else None,
+                                        warnings_of(item.steps))
                 yield ExportScenario(
                     f"{node_number}.{d_index}.{s_index}", node_words(node_branch.node),
                     deviation_words(deviation_branch.deviation), item.scenario, item.steps,
-                    item.safeguards, outcome.result if assessment else None,
-                    outcome.governing_category,
-                    credited.receptors.lines if credited else (),
-                    credited.governing.receptor if credited else None,
-                    assessment.withdrawn.result if assessment and assessment.withdrawn else None,
-                    assessment.withdrawn_labels if assessment else (),
-                    outcome.no_figures_words, lambda item=item: item.spread)  # type: ignore[misc]
+                    item.safeguards, figures, outcome.governing_category,
+                    outcome.no_figures_words)
 
 
-@dataclass(frozen=True)
-class _StudyContext:
-    categories: Mapping[int, SeverityCategory]
-    inputs: ErrorFactorInputs
+# Only the columns the tables show (a whole-row read spent a fifth of the CSV's time turning
+# timestamps it never writes into datetimes). Any: ORM attributes as columns.
+_DEVIATION: Any = (Deviation.id, Deviation.guideword, Deviation.parameter)
+_SCENARIO: Any = (Scenario.id, Scenario.deviation_id, Scenario.cause, Scenario.consequence,
+                  Scenario.notes)
+_STEP: Any = (Step.scenario_id, Step.id, Step.kind, Step.description, Step.value,
+              Step.value_text, Step.credited, Step.ipl_type, Step.system_tag, Step.sil_claimed,
+              Step.response_time_minutes, Step.basis, Step.typical_key)
+_SAFEGUARD: Any = (Safeguard.scenario_id, Safeguard.description, Safeguard.note)
+_STORED: Any = (ScenarioResultRow.scenario_id, ScenarioResultRow.computed,
+                ScenarioResultRow.incomplete, ScenarioResultRow.error,
+                ScenarioResultRow.category_id, ScenarioResultRow.table_figures)
 
 
-def stored_scenarios(session: Session, study_id: int) -> Iterator[ExportScenario]:
+def stored_scenarios(session: Session, study_id: int, *, with_rows: bool = True
+                     ) -> Iterator[ExportScenario]:
     """Every scenario of the study from plain rows and its stored results, node by node: at
-    most one node's rows are held at a time."""
+    most one node's rows are held at a time (`with_rows` False: no steps nor safeguards, for
+    the CSV, whose scenario table reads them from the stored figures)."""
     ensure_current(session, study_id)
-    study = get_study(session, study_id)
-    context = _StudyContext(
-        {c.id: c for c in fetch_rows_of_study(session, SeverityCategory, study_id)
-         if c.id is not None},
-        load_error_factor_inputs(session, study))
+    categories = {c.id: c for c in fetch_rows_of_study(session, SeverityCategory, study_id)
+                  if c.id is not None}
     nodes = fetch_plain_rows(session, select_columns(Node.id, Node.number, Node.name)  # type: ignore[call-overload]
                              .where(Node.study_id == study_id)
                              .order_by(Node.position, Node.id))
     for node in nodes:
-        yield from _node_scenarios(session, node, context)
+        yield from _node_scenarios(session, node, categories, with_rows)
 
 
-def _plain(model: type[Any]) -> Any:
-    table: Any = model
-    return select_columns(*table.__table__.columns)
-
-
-def _node_scenarios(session: Session, node: Any, context: _StudyContext
-                    ) -> Iterator[ExportScenario]:
-    deviations = fetch_plain_rows(session, _plain(Deviation).where(
+def _node_scenarios(session: Session, node: Any, categories: Mapping[int, SeverityCategory],
+                    with_rows: bool) -> Iterator[ExportScenario]:
+    deviations = fetch_plain_rows(session, select_columns(*_DEVIATION).where(
         col(Deviation.node_id) == node.id).order_by(col(Deviation.position), col(Deviation.id)))
-    scenarios = _grouped(fetch_plain_rows(session, _plain(Scenario).join(
+    scenarios = _grouped(fetch_plain_rows(session, select_columns(*_SCENARIO).join(
         Deviation, col(Deviation.id) == col(Scenario.deviation_id)).where(
         col(Deviation.node_id) == node.id).order_by(col(Scenario.position), col(Scenario.id))),
         "deviation_id")
     ids = [s.id for d in deviations for s in scenarios[d.id]]
-    steps, safeguards, stored = _rows_of_scenarios(session, ids)
-    node_number = node.number or "(unnumbered)"
+    steps, safeguards, stored = _rows_of_scenarios(session, ids, with_rows)
+    node_number, node_label = node.number or "(unnumbered)", node_words(node)
     for d_index, deviation in enumerate(deviations, start=1):
+        deviation_label = deviation_words(deviation)
         for s_index, scenario in enumerate(scenarios[deviation.id], start=1):
-            yield _stored_scenario(
-                f"{node_number}.{d_index}.{s_index}", node_words(node),
-                deviation_words(deviation), scenario, steps[scenario.id],
-                safeguards[scenario.id], StoredResult.of_row(stored[scenario.id]), context)
+            row = stored[scenario.id]
+            yield ExportScenario(
+                f"{node_number}.{d_index}.{s_index}", node_label, deviation_label, scenario,
+                steps[scenario.id], safeguards[scenario.id], TableFigures.read(row.table_figures),
+                categories.get(row.category_id) if row.computed else None,
+                "" if row.computed else _no_figures_words(row))
 
 
-def _rows_of_scenarios(session: Session, ids: list[int]) -> tuple[
+def _rows_of_scenarios(session: Session, ids: list[int], with_rows: bool) -> tuple[
         dict[int, list[Any]], dict[int, list[Any]], dict[int, Any]]:
     steps: dict[int, list[Any]] = defaultdict(list)
     safeguards: dict[int, list[Any]] = defaultdict(list)
     stored: dict[int, Any] = {}
+    reads: list[tuple[Any, Any, dict[int, list[Any]]]] = [
+        (Step, _STEP, steps), (Safeguard, _SAFEGUARD, safeguards)] if with_rows else []
     for start in range(0, len(ids), BATCH):
         batch = ids[start:start + BATCH]
-        for model, into in ((Step, steps), (Safeguard, safeguards)):
-            table: Any = model
-            for row in fetch_plain_rows(session, _plain(model).where(
+        for table, columns, into in reads:
+            for row in fetch_plain_rows(session, select_columns(*columns).where(
                     table.scenario_id.in_(batch)).order_by(table.position, table.id)):
                 into[row.scenario_id].append(row)
-        for row in fetch_plain_rows(session, _plain(ScenarioResultRow).where(
+        for row in fetch_plain_rows(session, select_columns(*_STORED).where(
                 col(ScenarioResultRow.scenario_id).in_(batch))):
             stored[row.scenario_id] = row
     return steps, safeguards, stored
@@ -181,32 +160,6 @@ def _grouped(rows: Iterable[Any], key: str) -> dict[int, list[Any]]:
     return grouped
 
 
-def _no_figures_words(scenario: Any, stored: Any) -> str:
+def _no_figures_words(stored: Any) -> str:
     """As `ScenarioOutcome.no_figures_words` says it for the same scenario."""
     return f"{INCOMPLETE}: {stored.error}" if stored.incomplete else f"not computed: {stored.error}"
-
-
-def _stored_scenario(number: str, node_label: str, deviation_label: str, scenario: Any,
-                     steps: list[Any], safeguards: list[Any], stored: StoredResult,
-                     context: _StudyContext) -> ExportScenario:
-    credited = stored.credited
-    if credited is None:
-        return ExportScenario(number, node_label, deviation_label, scenario, steps, safeguards,
-                              None, None, no_figures_words=_no_figures_words(scenario, stored))
-    lines = tuple(stored_line.line for stored_line in credited.lines)
-    withdrawn = stored.withdrawn
-    return ExportScenario(
-        number, node_label, deviation_label, scenario, steps, safeguards, credited.result,
-        context.categories.get(credited.category_id), lines, credited.governing,
-        withdrawn.result if withdrawn else None, stored.withdrawn_labels,
-        spread_source=lambda: _spread(scenario, steps, lines, credited.governing, context))
-
-
-def _spread(scenario: Any, steps: list[Any], lines: tuple[ReceptorLine, ...],
-            governing: Receptor, context: _StudyContext) -> ScenarioSpread | None:
-    """The spread around the stored lines (the medians and verdicts are not computed again)."""
-    rated = receptor_categories(scenario, context.categories,
-                                people_not_rated=scenario.people_not_rated)
-    line = next(x for x in lines if x.receptor is governing)
-    return scenario_spread(steps, targets_of(rated), context.inputs,
-                           ReceptorAssessment(lines, line, ()), remember=False)

@@ -11,12 +11,13 @@ format allows on import.
 from collections.abc import Callable, Iterable, Iterator, Sequence
 from dataclasses import dataclass
 from datetime import UTC, date, datetime
+from functools import lru_cache
 from typing import Any
 
 from sqlmodel import Session
 
 from app.likelihood.numbers import format_number, format_orders, format_rrf
-from app.likelihood.types import DemandMode, Receptor, ScenarioResult, StepKind
+from app.likelihood.types import DemandMode, Receptor, StepKind
 from app.likelihood.typical import typical_by_key
 from app.services.exchange.export_source import (
     ExportScenario,
@@ -26,8 +27,7 @@ from app.services.exchange.export_source import (
     tree_scenarios,
 )
 from app.services.exchange.study_file import scenario_ref
-from app.services.study.results import required_rrf_cell
-from app.services.study.spread import ScenarioSpread
+from app.services.study.table_figures import TableFigures, TableResult, TableSpread
 from app.services.study.tree import DeviationBranch, NodeBranch, StudyTree
 
 Cell = str | float | int | date | datetime | None
@@ -113,14 +113,14 @@ UNCERTAINTY_WORDS = {"meets": "meets (P >= 95 %)", "uncertain": "uncertain (5 % 
                      "misses": "misses (P <= 5 %)"}
 
 
-def uncertainty_cells(spread: ScenarioSpread | None) -> list[Cell]:
+def uncertainty_cells(spread: TableSpread | None) -> list[Cell]:
     """The governing line's median, percentiles, mean, EF, P(meets) and certainty."""
     if spread is None:
-        blank: list[Cell] = [None] * (len(UNCERTAINTY_COLUMNS) - 1)
-        return [*blank, ""]
-    d = spread.governing.distribution
-    return [d.median, d.p05, d.p95, d.mean, d.error_factor, d.probability_meets_target,
-            UNCERTAINTY_WORDS[d.confidence.value]]
+        return [*NO_SPREAD]
+    return [*spread[:6], UNCERTAINTY_WORDS[spread.confidence]]
+
+
+NO_SPREAD: tuple[Cell, ...] = (*[None] * (len(UNCERTAINTY_COLUMNS) - 1), "")
 
 
 SCENARIO_COLUMNS = (
@@ -184,7 +184,7 @@ def computed_figures(tree: StudyTree) -> list[dict[str, Cell]]:
 
 def stored_computed_figures(session: Session, study_id: int) -> list[dict[str, Cell]]:
     """computed_figures from the stored results, read one node at a time."""
-    return figures_of_rows(scenario_rows(stored_scenarios(session, study_id)))
+    return figures_of_rows(scenario_rows(stored_scenarios(session, study_id, with_rows=False)))
 
 
 def figures_of_rows(rows: Iterable[list[Cell]]) -> list[dict[str, Cell]]:
@@ -198,49 +198,46 @@ def figures_of_rows(rows: Iterable[list[Cell]]) -> list[dict[str, Cell]]:
 
 def scenario_row(item: ExportScenario) -> list[Cell]:
     """One scenario's row of the scenario table."""
-    scenario, result, category = item.scenario, item.result, item.category
-    initiating = next((s for s in item.steps if s.kind == StepKind.INITIATING_EVENT), None)
-    credited = [s for s in item.steps if s.kind == StepKind.IPL and s.credited]
+    scenario, category, figures = item.scenario, item.category, item.figures
+    result, credited = figures.result, figures.credited_ipls
     head: list[Cell] = [
         item.number, item.node_label, item.deviation_label, scenario.cause,
         scenario.consequence, category.name if category else "",
         category.tolerable_frequency if category else None,
-        initiating.description if initiating else "",
-        initiating.value if initiating else None,
+        figures.initiating_description, figures.initiating_value,
     ]
     if result is None:
-        return [*head, None, None, len(credited), None, None, None, None, None, "", "",
-                item.no_figures_words, *[None] * len(METHOD_COLUMNS),
-                *uncertainty_cells(None)]
-    target = result.sil_target
+        return [*head, None, None, credited, None, None, None, None, None, "", "",
+                item.no_figures_words, *NO_METHOD, *NO_SPREAD]
     return [
-        *head, result.enabling_product, result.modifier_product, len(credited),
+        *head, result.enabling_product, result.modifier_product, credited,
         result.ipl_product, result.mitigated_frequency, result.ratio, result.gap_orders,
-        required_rrf_cell(result), target.label, DEMAND_LABELS[target.demand_mode],
-        _status(result), *_method_cells(item, result), *uncertainty_cells(item.spread),
+        result.required_rrf_cell, result.sil_label, DEMAND_LABELS[DemandMode(result.demand_mode)],
+        STATUS[result.meets_target], *_method_cells(item.figures, result),
+        *uncertainty_cells(item.figures.spread),
     ]
 
 
-def _status(result: ScenarioResult) -> str:
-    return "meets target" if result.meets_target else "short of target"
+STATUS = {True: "meets target", False: "short of target"}
+NO_METHOD: tuple[Cell, ...] = (None,) * len(METHOD_COLUMNS)
+NOT_RATED: tuple[Cell, ...] = (None, None, None, "not rated")
 
 
-def _method_cells(item: ExportScenario, result: ScenarioResult) -> list[Cell]:
+def _method_cells(figures: TableFigures, result: TableResult) -> list[Cell]:
     """Demand, governing receptor, each receptor's line, then the withdrawn figures."""
-    demand = result.demand
-    lines = {line.receptor: line for line in item.lines}
-    cells: list[Cell] = [demand.demand_rate_per_year if demand else None,
-                         demand.formula if demand else "",
-                         item.governing.value if item.governing else ""]
-    for receptor in Receptor:
+    lines = {line.receptor: line for line in figures.lines}
+    cells: list[Cell] = [result.demand_rate, result.demand_formula, result.governing]
+    for receptor in RECEPTOR_VALUES:
         line = lines.get(receptor)
-        cells += ([line.mitigated_frequency, line.tolerable_frequency, line.ratio,
-                   line.demand.sil_target.label] if line else [None, None, None, "not rated"])
-    withdrawn = item.withdrawn
+        cells += line[1:] if line else NOT_RATED
+    withdrawn = figures.withdrawn
     if withdrawn is None:
         return [*cells, "", None, None, "", ""]
-    return [*cells, "; ".join(item.withdrawn_labels), withdrawn.mitigated_frequency,
-            withdrawn.ratio, withdrawn.sil_target.label, _status(withdrawn)]
+    return [*cells, "; ".join(figures.withdrawn_labels), withdrawn.mitigated_frequency,
+            withdrawn.ratio, withdrawn.sil_label, STATUS[withdrawn.meets_target]]
+
+
+RECEPTOR_VALUES = tuple(receptor.value for receptor in Receptor)
 
 
 STEP_COLUMNS = (
@@ -253,13 +250,19 @@ STEP_COLUMNS = (
 
 
 def step_rows(item: ExportScenario) -> Iterator[list[Cell]]:
-    """One row per step of one scenario, with the scenario's number."""
+    """One row per step of one scenario, with the scenario's number, its EF and the EF's
+    source (blank when the scenario has no figures)."""
+    factors = {factor.step_id: factor for factor in item.figures.step_factors}
     for number, step in enumerate(item.steps, 1):
-        yield [item.number, item.node_label, number, step.kind.label, step.description,
+        factor = factors.get(step.id)
+        yield [item.number, item.node_label, number, KIND_LABELS[step.kind], step.description,
                step.value, step.value_text, "yes" if step.credited else "no",
                step.ipl_type or "", step.system_tag, step.sil_claimed,
                step.response_time_minutes, step.basis, typical_words(step.typical_key),
-               *_step_spread_cells(item, step.id)]
+               *((None, "") if factor is None else factor[1:])]
+
+
+KIND_LABELS = {kind: kind.label for kind in StepKind}
 
 
 def step_table(tree: StudyTree) -> Table:
@@ -268,15 +271,7 @@ def step_table(tree: StudyTree) -> Table:
                  [row for item in tree_scenarios(tree) for row in step_rows(item)])
 
 
-def _step_spread_cells(item: ExportScenario, step_id: int | None) -> list[Cell]:
-    """The step's EF and where it came from (blank when the scenario has no figures)."""
-    spread = item.spread if item.result is not None else None
-    note = next((n for n in spread.notes if n.step_id == step_id), None) if spread else None
-    if note is None:
-        return [None, ""]
-    return [note.factor.value, note.note]
-
-
+@lru_cache(maxsize=1_024)  # a few catalogue rows, repeated down a study's steps
 def typical_words(key: str | None) -> str:
     """'BPCS loop, independent of the cause: 0.01 to 0.1; CCPS … [verify against your copy]'."""
     row = typical_by_key(key) if key else None

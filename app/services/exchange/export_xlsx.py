@@ -16,7 +16,6 @@ import tempfile
 import zipfile
 from collections.abc import Iterable, Iterator, Sequence
 from datetime import date, datetime
-from math import isinf, isnan
 from typing import IO
 from xml.sax.saxutils import escape, quoteattr
 
@@ -145,40 +144,65 @@ class SheetWriter:
         self.shaped = [styles.of(key, n, c.number_format) for n, c in enumerate(columns, 1)]
         self.bounds = [LONGEST_NUMBER.get(c.number_format or "", 1 << 30) for c in columns]
         self.texts: dict[str, str] = {}
+        self.measured: list[set[float]] = [set() for _ in columns]
+        # Each cell's XML around its row number, per column: '<c r="B' + '12' + '" s="3"/>'.
+        self.opens = [f'<c r="{letter}' for letter in self.letters]
+        self.empty_tails = [f'" s="{style}"/>' for style in self.plain]
+        self.text_tails = [f'" s="{style}" t="inlineStr"' for style in self.plain]
+        self.number_tails = [f'" s="{style}" t="n"><v>' for style in self.shaped]
         header = "".join(_text_cell(f"{letter}1", spreadsheet_text(c.header), 1)
                          for letter, c in zip(self.letters, columns, strict=True))
         self.body.write(f'<row r="1">{header}</row>'.encode())
 
     def append(self, row: Sequence[Cell]) -> None:
-        """Write one row (its cells in column order)."""
+        """Write one row (its cells in column order). Floats, ints and plain text, most of a
+        large study's million cells, take the short way; anything else `_other_cell`."""
         if len(row) != len(self.columns):
             raise ValueError(f"{self.title}: a row of {len(row)} cells for "
                              f"{len(self.columns)} columns")
         self.rows += 1
-        number = self.rows
-        cells = []
-        longest, texts = self.longest, self.texts
+        number = str(self.rows)
+        cells: list[str] = []
+        add = cells.append
+        longest, texts, bounds, opens = self.longest, self.texts, self.bounds, self.opens
         for position, value in enumerate(row):
-            ref = f"{self.letters[position]}{number}"
+            kind = type(value)
             if value is None:
-                cells.append(f'<c r="{ref}" s="{self.plain[position]}"/>')
-            elif isinstance(value, str):
-                if len(value) > longest[position]:
+                add(f"{opens[position]}{number}{self.empty_tails[position]}")
+            elif kind is str:
+                if len(value) > longest[position]:  # type: ignore[arg-type]
                     self._measure(position, value)
-                inner = texts.get(value)
+                inner = texts.get(value)  # type: ignore[arg-type]
                 if inner is None:
-                    inner = self._remember(value)
-                cells.append(f'<c r="{ref}" s="{self.plain[position]}" t="inlineStr"{inner}')
-            elif isinstance(value, date):
-                self._measure(position, value)
-                cells.append(self._date_cell(position, ref, value))
+                    inner = self._remember(value)  # type: ignore[arg-type]
+                add(f"{opens[position]}{number}{self.text_tails[position]}{inner}")
+            elif kind is float or kind is int:
+                if longest[position] < bounds[position]:
+                    self._measure_number(position, value)  # type: ignore[arg-type]
+                text = "%.16g" % value  # type: ignore[str-format]  # noqa: UP031 - see _number
+                add(f"{opens[position]}{number}{self.number_tails[position]}"
+                    f"{'' if text in NOT_FINITE else text}</v></c>")
             else:
-                if longest[position] < self.bounds[position]:
-                    self._measure(position, value)
-                kind = "b" if isinstance(value, bool) else "n"
-                cells.append(f'<c r="{ref}" s="{self.shaped[position]}" t="{kind}">'
-                             f"<v>{_number(value)}</v></c>")
+                add(self._other_cell(position, f"{self.letters[position]}{number}", value))
         self.body.write(f'<row r="{number}">{"".join(cells)}</row>'.encode())
+
+    def _other_cell(self, position: int, ref: str, value: Cell) -> str:
+        """A cell of any other type: a date or time, a bool, text or a number of a subtype."""
+        if isinstance(value, str):
+            if len(value) > self.longest[position]:
+                self._measure(position, value)
+            inner = self.texts.get(value)
+            if inner is None:
+                inner = self._remember(value)
+            return f'<c r="{ref}" s="{self.plain[position]}" t="inlineStr"{inner}'
+        if isinstance(value, date):
+            self._measure(position, value)
+            return self._date_cell(position, ref, value)
+        if self.longest[position] < self.bounds[position]:
+            self._measure(position, value)
+        kind = "b" if isinstance(value, bool) else "n"
+        return (f'<c r="{ref}" s="{self.shaped[position]}" t="{kind}">'
+                f"<v>{_number(value)}</v></c>")  # type: ignore[arg-type]
 
     def _remember(self, value: str) -> str:
         """A text cell's XML after its attributes; short texts (labels, words) are kept, as
@@ -194,6 +218,18 @@ class SheetWriter:
         """Write several rows."""
         for row in rows:
             self.append(row)
+
+    def _measure_number(self, position: int, value: float) -> None:
+        """_measure, once per distinct number of a column (zero always: 0.0 and -0.0 are one
+        key but are shown apart)."""
+        measured = self.measured[position]
+        if value and value in measured:
+            return
+        self._measure(position, value)
+        if value:
+            if len(measured) >= REMEMBERED_TEXTS:
+                measured.clear()
+            measured.add(value)
 
     def _measure(self, position: int, value: Cell) -> None:
         length = shown_length(value, self.formats[position])
@@ -253,9 +289,13 @@ def _text_inner(text: str) -> str:
     return f"><is><t{space}>{escaped}</t></is></c>"
 
 
+NOT_FINITE = frozenset({"nan", "inf", "-inf"})
+
+
 def _number(value: float) -> str:
     """A number as openpyxl writes it: 16 significant figures; nothing for NaN or infinity."""
-    return "" if isnan(value) or isinf(value) else "%.16g" % value  # noqa: UP031 - as openpyxl
+    text = "%.16g" % value  # noqa: UP031 - as openpyxl
+    return "" if text in NOT_FINITE else text
 
 
 def _pane(freeze: str) -> str:

@@ -200,8 +200,8 @@ def build_export(
                                                                   when=now))
     target = tempfile.TemporaryFile()  # noqa: SIM115 - ExportFile.chunks closes it
     if export_format is ExportFormat.CSV:
-        write_csv(target, SCENARIO_COLUMNS, scenario_rows(stored_scenarios(session, study_id)),
-                  cautions=cautions)
+        scenarios = stored_scenarios(session, study_id, with_rows=False)
+        write_csv(target, SCENARIO_COLUMNS, scenario_rows(scenarios), cautions=cautions)
     else:
         revision = f"{working_copy_label(session, study_id)}: working copy, not signed"
         write_study_workbook(session, study_id, target, cautions=cautions,

@@ -8,7 +8,8 @@ withdrawn. `StoredFigures.read` turns that JSON back into the core's own result 
 page drawn from stored rows uses the same templates as one drawn from a fresh computation.
 
 A later field (an uncertainty band, say) goes under `extra` in the JSON, or a new column when
-a sum or a ranking needs it, and RESULTS_VERSION (stored_results.py) is raised.
+a sum or a ranking needs it, and RESULTS_VERSION (stored_results.py) is raised. What the
+spreadsheet exports show is stored apart, flat, in `table_figures` (table_figures.py).
 """
 
 import json
@@ -31,7 +32,13 @@ from app.services.study.results import (
     targets_of,
     warnings_of,
 )
-from app.services.study.spread import NO_INPUTS, ErrorFactorInputs, scenario_spread
+from app.services.study.spread import (
+    NO_INPUTS,
+    ErrorFactorInputs,
+    ScenarioSpread,
+    scenario_spread,
+)
+from app.services.study.table_figures import table_figures
 
 # Any in this module: plain rows from SQLAlchemy carry no column types, and the JSON is untyped.
 
@@ -179,12 +186,8 @@ def _withdrawn_columns(assessment: Assessment, rated: Mapping[Receptor, Any]) ->
             "withdrawn_demand_mode": str(target.demand_mode)}
 
 
-def _spread_columns(steps: tuple[Any, ...], assessment: Assessment,
-                    rated: Mapping[Receptor, Any], inputs: ErrorFactorInputs,
-                    remember: bool) -> dict[str, Any]:
+def _spread_columns(spread: ScenarioSpread | None) -> dict[str, Any]:
     """The governing line's uncertainty as credited (None where no spread can be drawn)."""
-    spread = scenario_spread(steps, targets_of(rated), inputs,
-                             assessment.as_credited.receptors, remember=remember)
     if spread is None:
         return dict(SPREAD_NONE)
     line = spread.governing
@@ -209,14 +212,18 @@ def scenario_columns(rating: Any, steps: tuple[Any, ...], categories: Mapping[in
         rating, steps, categories, people_not_rated=people_not_rated,
         assessed=assessment_of_rows if remember else assessment_of_fresh)
     # The assessment holds the same checks' warnings; only an uncomputed scenario runs them.
-    warning_count = len(assessment.warnings if assessment is not None else warnings_of(steps))
+    warnings = list(assessment.warnings) if assessment is not None else warnings_of(steps)
     if assessment is None or category is None:
         return {**NOT_COMPUTED, "incomplete": is_incomplete(rating, steps), "error": error,
-                "warning_count": warning_count}
+                "warning_count": len(warnings),
+                "table_figures": table_figures(steps, None, None, warnings).json()}
     rated = receptor_categories(rating, categories, people_not_rated=people_not_rated)
+    spread = scenario_spread(steps, targets_of(rated), inputs,
+                             assessment.as_credited.receptors, remember=remember)
     return {**_computed_columns(assessment, category, rated),
-            **_withdrawn_columns(assessment, rated), "warning_count": warning_count,
-            **_spread_columns(steps, assessment, rated, inputs, remember)}
+            **_withdrawn_columns(assessment, rated), "warning_count": len(warnings),
+            **_spread_columns(spread),
+            "table_figures": table_figures(steps, assessment, spread, warnings).json()}
 
 
 def _computed_columns(assessment: Assessment, category: Any,

@@ -188,8 +188,9 @@ def _fresh_lines(paired: tuple[tuple[StepInput, ErrorFactor], ...],
 
 
 # Cached on its frozen inputs, like results.assess: a page showing a whole study recomputes only
-# the scenarios whose numbers or error factors changed. An export (every scenario once, then
-# never again) computes without it, so the server keeps no study-sized cache after a download.
+# the scenarios whose numbers or error factors changed. A pass that reads every scenario once
+# (remember=False) computes without it, so the server keeps no study-sized cache after it (the
+# exports compute no spread: they read the stored one, see table_figures.py).
 _lines = lru_cache(maxsize=65_536)(_fresh_lines)
 
 

@@ -38,7 +38,8 @@ from app.services.study.spread import NO_INPUTS, ErrorFactorInputs, load_error_f
 
 # Any in this module: plain rows from SQLAlchemy carry no column types (the ORM boundary).
 
-RESULTS_VERSION = 2  # 2: the risk picture's fields (band, withdrawn, warnings, spread)
+RESULTS_VERSION = 3  # 2: the risk picture's fields (band, withdrawn, warnings, spread);
+# 3: what the spreadsheet exports show (table_figures)
 STUDY_ROW = 0  # result_total.node_id of a study's own counts
 BATCH = 500  # ids per IN list
 COUNTS = ("scenario_count", "short_count", "unresolved_count", "flagged_count",

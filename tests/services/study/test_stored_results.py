@@ -4,7 +4,9 @@ The stored rows and running counts are moved by each edit's own difference; thes
 random sequences of the worksheet's, the criteria page's and undo's own service calls on the
 demo study and then compare what is stored with everything computed again from the current
 inputs (`compute_study_rows`, and the counts through the older whole-study path
-`totals.study_totals`, which never reads a stored row). Hypothesis draws the sequences.
+`totals.study_totals`, which never reads a stored row), and what the exports read of each
+row (`table_figures`) with what the from-scratch export path builds from the computed study
+tree. Hypothesis draws the sequences.
 """
 
 import json
@@ -21,6 +23,7 @@ from app.db.models import Deviation, Node, ResultTotal, Scenario, ScenarioResult
 from app.db.tracking import AUTHOR_KEY
 from app.demo import load_demo_study
 from app.likelihood.types import LikelihoodInputError, StepKind
+from app.services.exchange.export_source import tree_scenarios
 from app.services.exchange.study_import import import_study_text
 from app.services.risk.criteria import CategoryForm, save_category
 from app.services.study.errors import FieldInputError
@@ -34,7 +37,9 @@ from app.services.study.stored_results import (
     is_current,
     stored_node_totals,
 )
+from app.services.study.table_figures import TableFigures
 from app.services.study.totals import study_totals
+from app.services.study.tree import load_study_tree
 from app.services.worksheet.edits import edit_field, edit_step_value
 from app.services.worksheet.structure import StructureInputError, create_row, move_row
 from app.services.worksheet.undo import NothingToUndoError, delete_row, undo_last_delete
@@ -183,12 +188,24 @@ def stored_counts(session: Session, study_id: int) -> dict[int, dict[str, int]]:
                 table.study_id == study_id))}
 
 
+def assert_table_figures_equal_the_tree(session: Session, study_id: int,
+                                        rows: dict[int, dict[str, Any]]) -> None:
+    """What the exports read of each stored row equals what the from-scratch path builds
+    from the computed study tree (ORM objects, the tree's own spread and checks)."""
+    tree = load_study_tree(session, study_id)
+    assert {scenario_id: TableFigures.read(row["table_figures"])
+            for scenario_id, row in rows.items()} == {
+        item.scenario.id: item.figures for item in tree_scenarios(tree)}
+
+
 def assert_stored_equals_recomputed(session: Session, study_id: int) -> None:
     """Stored rows equal a recomputation; counts equal a recount and the whole-study path."""
     session.expire_all()
     assert is_current(session, study_id)  # kept up to date by the edits, not rebuilt here
     fresh = compute_study_rows(session, study_id)
-    assert stored_rows(session, study_id) == fresh
+    rows = stored_rows(session, study_id)
+    assert rows == fresh
+    assert_table_figures_equal_the_tree(session, study_id, rows)
     recount = Moves()
     recount.by_key[(study_id, STUDY_ROW)] = dict.fromkeys(COUNTS, 0)
     for row in fresh.values():
