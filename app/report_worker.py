@@ -16,10 +16,12 @@ def main(argv: list[str]) -> int:
     from app.db.session import get_db_engine
     from app.routes.rendering import templates
     from app.services.exchange.report_build import build_job
+    from app.services.exchange.report_layout import exit_with_parent
 
     if len(argv) != 3:
         print("usage: python -m app.report_worker FOLDER JOB_ID", file=sys.stderr)
         return 2
+    exit_with_parent()  # a server that stopped collects no report: stop building it
     build_job(Path(argv[1]), argv[2], engine=get_db_engine(), env=templates.env)
     return 0
 

@@ -36,6 +36,9 @@ class Settings(BaseSettings):
     # how often the server looks for edits to copy.
     backup_keep: int = Field(default=20, ge=0)
     backup_interval_seconds: float = Field(default=300.0, gt=0)
+    # How often the server copies an SQLite write-ahead log into the database file, off the
+    # request path (app/lifecycle.py WalCheckpoints).
+    wal_checkpoint_seconds: float = Field(default=1.0, gt=0)
 
     @field_validator("database_url")
     @classmethod

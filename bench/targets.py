@@ -70,7 +70,8 @@ TARGETS = [
            yes_no=True),
     Target("pdf_s", "PDF report", "s", up_to(30.0, 1_000)),
     Target("rss_pdf_mb", "server memory after the PDF", "MB", up_to(500.0, 1_000)),
-    Target("pdf_peak_mb", "PDF build peak memory (worker process)", "MB", up_to(500.0, 1_000)),
+    Target("pdf_peak_mb", "PDF build peak memory (worker and layout process)", "MB",
+           up_to(500.0, 1_000)),
     Target("pdf_pages", "PDF report pages", "", report_only),
 ]
 BY_KEY = {target.key: target for target in TARGETS}

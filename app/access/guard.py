@@ -4,17 +4,23 @@
    without this session's token, is refused with 403 before the route or its database
    session runs, so nothing changes.
 2. `check_role`: finds who is asking (`request.state.access`) and compares their role with
-   the route's declared minimum (app/access/roles.py).
+   the route's declared minimum (app/access/roles.py). It reads the access state through the
+   request's one database session (`app.db.session.get_session`, which the route's
+   `SessionDep` receives too: FastAPI makes a dependency once per request) and stamps it
+   with the author's name for the change log.
 """
 
-from fastapi import HTTPException, Request
+from typing import Annotated
+
+from fastapi import Depends, HTTPException, Request
 from sqlmodel import Session
 
 from app.access.csrf import SAFE_METHODS, is_cross_site, sent_token, token_matches
 from app.access.roles import Access, minimum_role
 from app.access.sessions import resolve_access
-from app.access.state import load_state
-from app.db.session import get_db_engine
+from app.access.state import session_generation
+from app.db.session import get_session
+from app.db.tracking import AUTHOR_KEY
 from app.settings import Settings
 
 CROSS_SITE = ("Refused: this change was sent from another site or a file, not from a "
@@ -37,12 +43,12 @@ async def refuse_cross_site_writes(request: Request) -> None:
         raise HTTPException(403, NO_TOKEN)
 
 
-def check_role(request: Request) -> None:
+def check_role(request: Request, db: Annotated[Session, Depends(get_session)]) -> None:
     """Record who is asking; refuse a route their role does not reach."""
     settings: Settings = request.app.state.settings
-    with Session(get_db_engine()) as db:
-        access = resolve_access(request, load_state(db), settings)
+    access = resolve_access(request, session_generation(db), settings)
     request.state.access = access
+    db.info[AUTHOR_KEY] = access.name
     minimum = minimum_role(request.scope.get("endpoint"))
     if minimum is None or access.may(minimum):
         return

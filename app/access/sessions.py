@@ -38,8 +38,8 @@ def ensure_session(request: Request) -> dict[str, object]:
     return data
 
 
-def _current(data: dict[str, object], state: AccessState) -> bool:
-    return "gen" not in data or data["gen"] == state.session_generation
+def _current(data: dict[str, object], generation: int) -> bool:
+    return "gen" not in data or data["gen"] == generation
 
 
 def _network_role(data: dict[str, object], today: date) -> Role | None:
@@ -50,10 +50,11 @@ def _network_role(data: dict[str, object], today: date) -> Role | None:
     return role
 
 
-def resolve_access(request: Request, state: AccessState, settings: Settings) -> Access:
-    """Who is asking. On loopback the person at this computer is the facilitator."""
+def resolve_access(request: Request, generation: int, settings: Settings) -> Access:
+    """Who is asking (`generation`: the access state's session generation). On loopback the
+    person at this computer is the facilitator."""
     data = request.session
-    if not _current(data, state):
+    if not _current(data, generation):
         data.clear()
     name = str(data.get("name", ""))[:NAME_LIMIT]
     sid = str(data.get("sid", ""))

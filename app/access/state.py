@@ -2,7 +2,9 @@
 
 import secrets
 from datetime import date
+from typing import Any
 
+from sqlalchemy import select
 from sqlalchemy.exc import IntegrityError
 from sqlmodel import Session
 
@@ -11,6 +13,9 @@ from app.access.passphrase import hash_passphrase, verify_passphrase
 from app.db.models import AccessState
 
 ROW_ID = 1
+_STATE: Any = AccessState  # Any: the model's columns as SQL expressions (the ORM boundary)
+# Built once: every request's access check reads it.
+_GENERATION = select(_STATE.session_generation).where(_STATE.id == ROW_ID)
 
 
 def load_state(session: Session) -> AccessState:
@@ -26,6 +31,13 @@ def load_state(session: Session) -> AccessState:
     found = session.get(AccessState, ROW_ID)
     assert found is not None
     return found
+
+
+def session_generation(session: Session) -> int:
+    """The current session generation (every request's access check needs only this): one
+    column from a prebuilt statement, no row object; the row is made on first use."""
+    found = session.connection().execute(_GENERATION).scalar()
+    return int(found) if found is not None else load_state(session).session_generation
 
 
 def has_passphrase(session: Session) -> bool:

@@ -14,13 +14,22 @@ from app.settings import get_settings
 
 # Any in this module: SQLAlchemy's connection and pragma hooks are untyped (the driver boundary).
 
+# A commit that leaves the write-ahead log longer than this many pages (4 KB each) copies the
+# log into the database file itself, inside the request that committed (SQLite's default is
+# 1,000). The server copies it in the background every second (app/lifecycle.py,
+# WalCheckpoints), so a request reaches this bound only if that falls far behind; a process
+# without it (the CLI, the tests) still checkpoints here, so the log cannot grow without bound.
+WAL_AUTOCHECKPOINT_PAGES = 10_000
+
 
 def _set_sqlite_pragmas(dbapi_connection: Any, _record: Any) -> None:
     # SQLite leaves foreign keys off by default; cascades and integrity rely on them.
+    # synchronous stays at its default FULL: a commit's log frame is on disk before the reply.
     cursor = dbapi_connection.cursor()
     cursor.execute("PRAGMA foreign_keys=ON")
     cursor.execute("PRAGMA journal_mode=WAL")
     cursor.execute("PRAGMA busy_timeout=5000")
+    cursor.execute(f"PRAGMA wal_autocheckpoint={WAL_AUTOCHECKPOINT_PAGES}")
     cursor.close()
 
 

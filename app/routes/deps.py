@@ -1,6 +1,6 @@
 """Request dependencies, aliased once for every router."""
 
-from collections.abc import Iterator, Mapping
+from collections.abc import Mapping
 from typing import Annotated, Any
 
 from fastapi import Depends, HTTPException, Request
@@ -10,8 +10,7 @@ from sqlmodel import Session
 from app.access.csrf import FIELD as CSRF_FIELD
 from app.access.guard import current_access
 from app.db.ids import MAX_ROW_ID, read_row_id
-from app.db.session import get_db_engine
-from app.db.tracking import AUTHOR_KEY
+from app.db.session import get_session
 from app.services.study.conflicts import PageEdit
 
 
@@ -21,8 +20,9 @@ def author_name(request: Request) -> str:
     return access.name if access else ""
 
 
-def check_path_ids(request: Request) -> None:
-    """Every `…_id` in the path must be a row id (app-wide dependency, runs before the route).
+async def check_path_ids(request: Request) -> None:
+    """Every `…_id` in the path must be a row id (app-wide dependency, runs before the route;
+    async, as it reads no database: no trip through the thread pool).
 
     A page (GET) naming an impossible row is not understood (400); a write answers 422 naming
     the rule, like any other refused input.
@@ -37,17 +37,19 @@ def check_path_ids(request: Request) -> None:
                                            "msg": rule, "input": value}])
 
 
-def get_session(request: Request) -> Iterator[Session]:
-    """One database session per request, stamped with the author for the change log."""
-    with Session(get_db_engine()) as session:
-        session.info[AUTHOR_KEY] = author_name(request)
-        yield session
-
-
+# The request's one database session: the access check (app/access/guard.check_role) opened
+# it first and stamped it with the author for the change log.
 SessionDep = Annotated[Session, Depends(get_session)]
 # The bounds of a row id typed into a query or form field (`Query(**ID_BOUNDS)`).
 ID_BOUNDS = {"ge": 1, "le": MAX_ROW_ID}
-AuthorDep = Annotated[str, Depends(author_name)]
+
+
+async def _author_of_request(request: Request) -> str:
+    # As a dependency: async, no thread-pool trip for reading the request's own state.
+    return author_name(request)
+
+
+AuthorDep = Annotated[str, Depends(_author_of_request)]
 
 
 ORIGINAL_PREFIX = "orig_"

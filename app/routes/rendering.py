@@ -74,6 +74,9 @@ def isolate_bidi(value: Any) -> Any:
 
 templates = Jinja2Blocks(directory=str(PROJECT_ROOT / "templates"))
 templates.env.finalize = isolate_bidi
+# Templates change only with a release: without this every render (and every include in it)
+# asks the file system whether its file changed.
+templates.env.auto_reload = False
 
 
 def sci(value: float | None) -> str:
@@ -120,6 +123,14 @@ templates.env.globals.update(confidence_words=VERDICT_CONFIDENCE_LABELS, median_
 templates.env.globals.update(cautions=CAUTIONS, room_caution=ROOM_CAUTION,
                              step_kinds=tuple(StepKind),
                              path_for=_template_path_for, worksheet_path=worksheet_path)
+
+
+def compile_templates() -> int:
+    """Compile every template now (the server's warm-up), so no request pays for it; how many."""
+    names = templates.env.list_templates(extensions=["html"])
+    for name in names:
+        templates.env.get_template(name)
+    return len(names)
 
 
 def is_htmx(request: Request) -> bool:

@@ -17,6 +17,8 @@ NAMED_EXCEPTIONS = {
     ("worksheet", "app.services.risk.ipl_checks"): "the worksheet shows each scenario's warnings",
     ("exchange", "app.services.worksheet.ladder"): "the report draws each scenario's ladder",
     ("exchange", "app.services.risk.picture"): "the report includes the risk picture",
+    ("exchange", "app.services.risk.charts"): "the report's gap chart: the largest gaps on the "
+                                              "whole study's axis",
     ("exchange", "app.services.risk.ipl_checks"): "the report lists each scenario's warnings",
     ("record", "app.services.exchange.study_file"): "a revision is a frozen study file",
     ("record", "app.services.exchange.export_csv"): "the change log downloads through the one "

@@ -11,7 +11,9 @@ from app.routes.deps import SessionDep
 from app.routes.rendering import render, templates
 from app.services.exchange.exports import (
     ExportFormat,
+    ReportTooLargeError,
     build_export,
+    check_report_in_request,
     read_export_page,
     release_memory,
 )
@@ -78,8 +80,16 @@ def export_json(study_id: int, session: SessionDep) -> Response:
 
 
 @router.get("/studies/{study_id}/export.pdf", name="export_pdf")
-def export_pdf(study_id: int, session: SessionDep) -> Response:
-    """The printable study report."""
+def export_pdf(request: Request, study_id: int, session: SessionDep) -> Response:
+    """The printable study report, built here for a study of up to REQUEST_REPORT_SCENARIOS;
+    above that, the export page (409) saying so, with the background build on it."""
+    try:
+        check_report_in_request(session, study_id)
+    except ReportTooLargeError as refusal:
+        page = read_export_page(session=session, study_id=study_id)
+        return render(request, "exchange/exports/index.html",
+                      {"page": page, "study": page.study, "schema_version": SCHEMA_VERSION,
+                       "report_notice": str(refusal)}, status_code=409)
     return _download(session, study_id, ExportFormat.PDF)
 
 

@@ -19,11 +19,11 @@ from pathlib import Path
 from typing import IO, Any
 
 from jinja2 import Environment
-from sqlmodel import Session, col, select
+from sqlmodel import Session, col, func, select
 from sqlmodel.sql.expression import SelectOfScalar
 
 from app.db.ids import read_row_id
-from app.db.models import Study
+from app.db.models import Scenario, Study
 from app.services.exchange.export_csv import write_csv
 from app.services.exchange.export_source import stored_scenarios
 from app.services.exchange.export_tables import (
@@ -169,6 +169,31 @@ def study_json_bytes(data: dict[str, Any]) -> bytes:
     10,000-scenario study is a third of its indented size, and writes in a fraction of the
     time); `python -m json.tool` shows it indented."""
     return (json.dumps(data, ensure_ascii=False, separators=(",", ":")) + "\n").encode("utf-8")
+
+
+REQUEST_REPORT_SCENARIOS = 200
+"""The largest study whose full report `/export.pdf` builds in the request: a few seconds
+(DEVELOPERS.md, "PDF report"). A larger one is built in the background from the export page,
+so one download never holds a server thread for half a minute."""
+
+
+class ReportTooLargeError(ValueError):
+    """A study too large for its report to be built in the request; says where to get it."""
+
+
+def check_report_in_request(session: Session, study_id: int) -> None:
+    """ReportTooLargeError, in words, when the study's full report is too large to build in
+    the request (`REQUEST_REPORT_SCENARIOS`); NotFoundError when there is no such study."""
+    get_study(session, study_id)
+    count = int(session.exec(select(func.count()).select_from(Scenario)
+                             .where(Scenario.study_id == study_id)).one())
+    if count > REQUEST_REPORT_SCENARIOS:
+        raise ReportTooLargeError(
+            f"This study has {count:,} scenarios: a full report of more than "
+            f"{REQUEST_REPORT_SCENARIOS:,} is built in the background, so the server stays "
+            "quick for everyone meanwhile. Choose \u201cBuild the full report\u201d below to "
+            "follow its progress and download it when it is ready (or \u201cBuild the "
+            "summary\u201d for a few pages), or run the command line shown beside it.")
 
 
 def report_pdf_bytes(session: Session, study_id: int, *, env: Environment,

@@ -1,7 +1,7 @@
 """The printable study report: display-ready data, its HTML, and the PDF WeasyPrint makes of it."""
 
 from collections import defaultdict
-from dataclasses import dataclass
+from dataclasses import dataclass, replace
 from datetime import date, datetime
 
 from jinja2 import Environment
@@ -35,6 +35,7 @@ from app.services.exchange.export_tables import (
 
 # Laid out by report_layout.py; named here too, where the report is.
 from app.services.exchange.report_layout import html_to_pdf as html_to_pdf
+from app.services.risk.charts import GapBarInput, build_gap_bars
 from app.services.risk.ipl_checks import scenario_warnings
 from app.services.risk.picture import RiskPicture, build_risk_picture
 from app.services.study.listing import NodeTotals, totals_of
@@ -42,6 +43,10 @@ from app.services.study.tree import ScenarioBranch, StudyTree
 from app.services.worksheet.ladder import LadderBand, LadderView, build_ladder, ladder_band
 
 REPORT_TEMPLATE = "exchange/report/study.html"
+GAP_BARS_SHOWN = 50
+"""Bars of the report's gap chart: the largest gaps, as many as one page holds (an A4 page
+holds about 54 at the chart's scale; a longer drawing cannot break across pages and was cut
+off by the page). Every scenario's gap is in its own figures in section 3."""
 
 
 @dataclass(frozen=True)
@@ -154,13 +159,24 @@ def build_report(tree: StudyTree, data: StudyData, *, when: datetime,
         generated_at=when, totals=totals_of(tree.scenario_branches()),
         criteria=criteria_table(data), attendance=attendance_table(data),
         actions=(actions := action_table(data, file_ref_numbers(tree))),
-        nodes=nodes, picture=build_risk_picture(tree),
+        nodes=nodes, picture=_report_picture(build_risk_picture(tree)),
         functions=tuple(added_functions(tree)), rules=warnings_by_rule(nodes),
         overdue=overdue_actions(actions, when.date()),
         signature=signature or Signature(f"{tree.study.revision_label}"),
         rounds=round_summaries(data, file_ref_numbers(tree)),
         word_scale=word_scale_table(data),
     )
+
+
+def _report_picture(picture: RiskPicture) -> RiskPicture:
+    """The risk picture with its gap chart cut to the `GAP_BARS_SHOWN` largest gaps, drawn on
+    the whole study's axis."""
+    if len(picture.ranked) <= GAP_BARS_SHOWN:
+        return picture
+    shown = [GapBarInput(f"{r.node_label}: {r.label}", r.gap_orders, r.spot)
+             for r in picture.ranked[:GAP_BARS_SHOWN]]
+    return replace(picture, gap_bars=build_gap_bars(
+        shown, axis_gaps=[r.gap_orders for r in picture.ranked]))
 
 
 def warnings_by_rule(nodes: tuple[ReportNode, ...]) -> tuple[RuleCount, ...]:

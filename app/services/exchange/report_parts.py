@@ -1,17 +1,20 @@
-"""The full report laid out part by part: the front matter, the scenarios a slice at a time, the
-back matter. Each part is its own WeasyPrint document, written to a file and dropped before the
-next, so the memory a build needs is that of its largest part, not of the whole report; the
-parts are then joined and every page stamped "page n of N" (N is known only then).
+"""The full report laid out part by part: the front matter and the back matter by WeasyPrint
+(HTML from the report template), the scenarios a slice at a time by fpdf2 (report_pages.py).
+Each part is written to a file of its own, so the memory a build needs is that of its largest
+part, not of the whole report; the parts are then joined and every page stamped "page n of N"
+(N is known only then).
 
-WeasyPrint's time grows with the boxes it lays out and its memory with the whole document:
-a 1,000-scenario study laid out as one document held 2.8 GB (DEVELOPERS.md, "PDF report").
+WeasyPrint costs 0.1-0.25 CPU seconds per scenario whatever the markup and its memory grows
+with the document (1,000 scenarios as one document: 2.8 GB); fpdf2 draws a scenario in about
+0.03 s (DEVELOPERS.md, "PDF report").
 """
 
 from collections.abc import Callable, Iterator, Sequence
-from concurrent.futures import ProcessPoolExecutor
+from concurrent.futures import Future, ProcessPoolExecutor
 from dataclasses import dataclass, replace
 from multiprocessing import get_context
 from pathlib import Path
+from typing import Any
 
 from jinja2 import Environment
 from pypdf import PdfReader, PdfWriter
@@ -25,11 +28,14 @@ from pypdf.generic import (
 )
 
 from app.services.exchange.report import REPORT_TEMPLATE, Report, ReportNode
-from app.services.exchange.report_layout import html_to_pdf_file
+from app.services.exchange.report_layout import exit_with_parent, html_to_pdf_file
+from app.services.exchange.report_pages import write_scenario_pages
+from app.services.exchange.report_scenarios import Words, printed_part
 
-PART_SCENARIOS = 30
-"""Scenarios laid out in one part: small enough that a part's boxes stay a few hundred MB,
-large enough that the pages a part leaves half empty stay few (measured, DEVELOPERS.md)."""
+PART_SCENARIOS = 100
+"""Scenarios drawn in one part (fpdf2, report_pages.py): a part costs about half a CPU second
+to start (fonts) and 0.03 s per scenario, and holds its pages until written; 100 keep the
+start-up small, the memory low and the progress moving (measured, DEVELOPERS.md)."""
 
 PartProgress = Callable[[int, int, str], None]
 """Told (parts done, parts in all, what is being laid out now) as the build goes."""
@@ -83,16 +89,43 @@ def _scenarios_part(batch: list[ReportNode], continued: bool) -> ReportPart:
 
 
 def part_html(report: Report, part: ReportPart, *, env: Environment) -> str:
-    """One part as an HTML document of its own (the report's template, this part only)."""
+    """The front or back part as an HTML document of its own (the report's template, this
+    part only)."""
     return env.get_template(REPORT_TEMPLATE).render(report=report, picture=report.picture,
                                                      part=part)
+
+
+HANDED_SHARE = 3
+"""The spawned process lays out the front and back matter, then the last third of the scenario
+parts (1/HANDED_SHARE): the matter costs it about what a third of the scenarios cost the
+worker, so both finish near the same time (measured, DEVELOPERS.md "Laid out in parts")."""
+
+LayoutJob = tuple[Callable[[Any, Path], object], Any]
+"""What lays one part out into its file, and what it is given: HTML for WeasyPrint (front and
+back), a PrintedPart for the scenario pages (report_pages.py)."""
+
+
+def layout_jobs(report: Report, parts: Sequence[ReportPart], *, env: Environment,
+                matter: bool = True) -> Iterator[LayoutJob]:
+    """Each part's layout job, in page order, made one at a time (so only the part being laid
+    out is held as words); without `matter`, the parts of scenarios only."""
+    words = Words.of(env)
+    first = True
+    for part in parts:
+        if part.section != "scenarios":
+            if matter:
+                yield html_to_pdf_file, part_html(report, part, env=env)
+            continue
+        yield write_scenario_pages, printed_part(report, part.nodes, words=words,
+                                                 continued=part.continued, first=first)
+        first = False
 
 
 def build_report_pdf(report: Report, target: Path, *, env: Environment,
                      progress: PartProgress | None = None, workers: int = 1,
                      per_part: int = PART_SCENARIOS) -> int:
     """Lay the report out part by part into `target`; the number of pages. With `workers`
-    above 1, that many processes lay parts out side by side (each part's HTML is made here)."""
+    above 1, that many processes lay parts out side by side (each part's input is made here)."""
     parts = split_report(report, per_part)
     files = [target.with_name(f"{target.stem}.part{n:04d}.pdf") for n in range(len(parts))]
     tell = progress or _silent
@@ -101,9 +134,10 @@ def build_report_pdf(report: Report, target: Path, *, env: Environment,
             _lay_out_in_processes(report, parts, files, env=env, progress=tell,
                                   workers=workers)
         else:
-            for number, (part, file) in enumerate(zip(parts, files, strict=True)):
-                tell(number, len(parts), part.label)
-                html_to_pdf_file(part_html(report, part, env=env), file)
+            jobs = layout_jobs(report, parts, env=env)
+            for number, ((lay_out, given), file) in enumerate(zip(jobs, files, strict=True)):
+                tell(number, len(parts), parts[number].label)
+                lay_out(given, file)
         tell(len(parts), len(parts), "joining the parts")
         return join_parts(files, target)
     finally:
@@ -117,13 +151,39 @@ def _silent(_done: int, _total: int, _label: str) -> None:
 
 def _lay_out_in_processes(report: Report, parts: list[ReportPart], files: list[Path], *,
                           env: Environment, progress: PartProgress, workers: int) -> None:
-    # spawn, not fork: a fresh interpreter holds no copy of this one's study tree.
-    with ProcessPoolExecutor(max_workers=workers, mp_context=get_context("spawn")) as pool:
-        pending = [pool.submit(html_to_pdf_file, part_html(report, part, env=env), file)
-                   for part, file in zip(parts, files, strict=True)]
-        for number, future in enumerate(pending):
-            progress(number, len(parts), parts[number].label)
+    """The front and back matter (WeasyPrint) and the last scenario parts go to `workers - 1`
+    spawned processes while this one draws the other scenario parts (fpdf2): one process
+    fewer holding its own memory (DEVELOPERS.md, "Laid out in parts"). Progress counts the
+    parts finished."""
+    done = 0
+
+    def finished(label: str) -> None:
+        nonlocal done
+        done += 1
+        if done < len(parts):  # after the last, the caller says "joining the parts"
+            progress(done, len(parts), label)
+
+    # spawn, not fork: a fresh interpreter holds no copy of this one's study tree; each
+    # process exits when this one dies (report_layout.exit_with_parent).
+    drawn = [n for n, part in enumerate(parts) if part.section == "scenarios"]
+    jobs = dict(zip(drawn, layout_jobs(report, parts, env=env, matter=False), strict=True))
+    handed = set(drawn[len(drawn) - len(drawn) // HANDED_SHARE:])
+    with ProcessPoolExecutor(max_workers=workers - 1, mp_context=get_context("spawn"),
+                             initializer=exit_with_parent) as pool:
+        matter = [n for n, part in enumerate(parts) if part.section != "scenarios"]
+        pending: list[Future[object]] = [
+            pool.submit(html_to_pdf_file, part_html(report, parts[n], env=env), files[n])
+            for n in reversed(matter)]
+        for number in sorted(handed):
+            lay_out, given = jobs.pop(number)
+            pending.append(pool.submit(lay_out, given, files[number]))
+        progress(0, len(parts), parts[-1].label)
+        for number, (lay_out, given) in jobs.items():
+            lay_out(given, files[number])
+            finished(parts[number].label)
+        for future in pending:
             future.result()
+            finished("joining the parts")
 
 
 def join_parts(files: Sequence[Path], target: Path) -> int:

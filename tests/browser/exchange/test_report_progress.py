@@ -57,3 +57,27 @@ def test_the_summary_beside_it_shows_progress_then_downloads_a_summary_pdf(
     saved = artifacts / "demo-summary.pdf"
     download_info.value.save_as(saved)
     assert saved.read_bytes().startswith(b"%PDF-")
+
+
+def test_a_pdf_link_too_large_for_the_request_leads_to_the_build_with_progress(
+    page: Page, live_server: str, demo_study: Study, artifacts: Path,
+    monkeypatch: pytest.MonkeyPatch
+) -> None:
+    """Following /export.pdf of a study above REQUEST_REPORT_SCENARIOS lands at once on the
+    export page, which says why and offers the background build; that build downloads."""
+    from app.services.exchange import exports
+
+    monkeypatch.setattr(exports, "REQUEST_REPORT_SCENARIOS", 1)
+    response = page.goto(f"{live_server}/studies/{demo_study.id}/export.pdf")
+    assert response is not None and response.status == 409
+    notice = page.locator("#report-notice")
+    expect(notice).to_contain_text("is built in the background")
+    page.screenshot(path=str(artifacts / "report-too-large-notice.png"))
+    page.locator("#start-report").click()
+    link = page.locator("#report-download")
+    expect(link).to_be_visible(timeout=120_000)
+    with page.expect_download() as download_info:
+        link.click()
+    saved = artifacts / "demo-report-from-notice.pdf"
+    download_info.value.save_as(saved)
+    assert saved.read_bytes().startswith(b"%PDF-")

@@ -11,7 +11,7 @@ import pytest
 from fastapi.testclient import TestClient
 from sqlmodel import Session, select
 
-from app.db.models import Revision, Study
+from app.db.models import Revision, Scenario, Study
 from app.services.exchange import report_jobs
 from tests.conftest import TEST_DATABASE_URL
 from tests.helpers import HX
@@ -112,3 +112,30 @@ def test_a_failed_build_shows_why_and_a_way_back_never_a_server_error(
     assert "The report could not be built: There is no study 5." in page.text
     assert "hx-get" not in page.text.split('id="report-job"')[1].split(">")[0]  # stops polling
     assert client.get(f"/studies/{study_id}/report-jobs/{job.job_id}/file").status_code == 409
+
+
+def test_export_pdf_of_a_study_too_large_to_build_in_the_request_points_to_the_build(
+    client: TestClient, session: Session, demo_study: Study, monkeypatch: pytest.MonkeyPatch
+) -> None:
+    """Above REQUEST_REPORT_SCENARIOS, /export.pdf answers at once with the export page (409)
+    saying why and where: the background build on that page. At the limit it builds here."""
+    from app.services.exchange import exports
+    from tests.helpers import text_of
+
+    study_id = demo_study.id or 0
+    count = len(session.exec(select(Scenario.id).where(Scenario.study_id == study_id)).all())
+    monkeypatch.setattr(exports, "REQUEST_REPORT_SCENARIOS", count - 1)
+    refused = client.get(f"/studies/{study_id}/export.pdf")
+    assert refused.status_code == 409
+    assert refused.headers["content-type"].startswith("text/html")
+    notice = text_of(refused.text, "report-notice")
+    assert f"This study has {count} scenarios" in notice
+    assert f"more than {count - 1} is built in the background" in notice
+    assert "Build the full report" in notice and 'id="start-report"' in refused.text
+    monkeypatch.setattr(exports, "REQUEST_REPORT_SCENARIOS", count)
+    built = client.get(f"/studies/{study_id}/export.pdf")
+    assert built.status_code == 200 and built.content.startswith(b"%PDF-")
+
+
+def test_a_missing_study_is_a_404_not_a_refusal(client: TestClient) -> None:
+    assert client.get("/studies/987654/export.pdf").status_code == 404

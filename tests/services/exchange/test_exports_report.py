@@ -14,6 +14,7 @@ from app.db.models import Study
 from app.routes.rendering import CAUTIONS, templates
 from app.services.exchange.exports import ExportFormat, build_export
 from app.services.exchange.report import build_report, report_html
+from app.services.exchange.report_scenarios import Words, printed_part
 from app.services.exchange.study_file import export_study
 from app.services.study.tree import load_study_tree
 from tests.samples import FORMULA_TEXTS, SCRIPTS, make_hostile_study
@@ -87,16 +88,22 @@ def test_the_report_draws_a_ladder_per_computed_scenario_and_the_risk_picture(
 ) -> None:
     tree = load_study_tree(session, demo_study.id or 0)
     data = export_study(session, demo_study.id or 0)
-    html = report_html(build_report(tree, data, when=WHEN), env=templates.env)
+    report = build_report(tree, data, when=WHEN)
+    html = report_html(report, env=templates.env)
+    # The scenario pages are drawn from their words (report_pages.py), all nodes in one part.
+    printed = printed_part(report, report.nodes, words=Words.of(templates.env),
+                           continued=False, first=True)
+    scenarios = [s for node in printed.nodes for s in node.scenarios]
     computed = [s for s in tree.scenario_branches() if s.outcome.result is not None]
-    assert html.count('<svg class="ladder"') == len(computed) >= 15
+    assert sum(s.ladder is not None for s in scenarios) == len(computed) >= 15
     assert html.count('<svg class="risk-matrix"') == 1
     assert html.count('<svg class="gap-bars"') == 1
+    titles = [node.title for node in printed.nodes]
     for node_branch in tree.nodes:
-        assert f"Node {node_branch.node.number} · {node_branch.node.name}" in html
+        assert f"Node {node_branch.node.number} · {node_branch.node.name}" in titles
     assert "2026-11-12 15:30 UTC" in html
     assert all(f"<td>{p['name']}</td>" in html for p in data["participants"])
-    assert html.count('id="scenario-') == len(tree.scenario_branches())
+    assert len(scenarios) == len(tree.scenario_branches())
 
 
 def test_hostile_text_is_escaped_in_the_report_source_and_the_pdf_still_renders(
