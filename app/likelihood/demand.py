@@ -11,8 +11,9 @@ modifiers x PFD of layers acting after the function) per hour.
 
 from __future__ import annotations
 
-from collections.abc import Sequence
+from collections.abc import Iterable, Sequence
 from dataclasses import dataclass
+from functools import lru_cache
 
 from app.likelihood.exact import exact_product, to_float
 from app.likelihood.numbers import format_number
@@ -28,7 +29,7 @@ from app.likelihood.types import (
 )
 from app.likelihood.units import HOURS_PER_YEAR
 
-__all__ = ["SifDemand", "modifiers_for", "sif_demand"]
+__all__ = ["DemandKey", "SifDemand", "demand_key", "modifiers_for", "sif_demand", "sif_demand_of"]
 
 
 @dataclass(frozen=True)
@@ -89,6 +90,22 @@ def _formula(demand: float, target: SilTarget, mitigated: float, tolerable: floa
             f"{format_number(after)}){pfh}")
 
 
+DemandKey = tuple[tuple[float, ...], tuple[float, ...], tuple[float, ...]]
+"""A demand's factors, each list sorted: before the function, modifiers, layers after it."""
+
+
+def demand_key(steps: Sequence[StepInput], receptor: Receptor | None = None) -> DemandKey:
+    """What sif_demand reads of the steps: the three lists of factors, each sorted (the
+    products are exact, so their order cannot change a figure)."""
+    return (_sorted_floats(_demand_factors(steps)),
+            _sorted_floats(s.value for s in modifiers_for(steps, receptor)),
+            _sorted_floats(_credited_layers(steps, after=True)))
+
+
+def _sorted_floats(values: Iterable[float]) -> tuple[float, ...]:
+    return tuple(sorted(map(float, values)))
+
+
 def sif_demand(
     steps: Sequence[StepInput], tolerable_frequency: float, receptor: Receptor | None = None
 ) -> SifDemand:
@@ -97,10 +114,20 @@ def sif_demand(
     The steps are taken as valid (compute_scenario checks them); receptor None applies every
     conditional modifier, as the whole-scenario figures do.
     """
+    return sif_demand_of(demand_key(steps, receptor), tolerable_frequency)
+
+
+# Remembered per distinct set of numbers (labels play no part): a study repeats a few
+# products over thousands of scenarios, so a whole-study computation mostly looks them up.
+# typed: an int and a float tolerable frequency are kept apart, as written.
+@lru_cache(maxsize=65_536, typed=True)
+def sif_demand_of(key: DemandKey, tolerable_frequency: float) -> SifDemand:
+    """sif_demand from its factors (demand_key)."""
+    before, modifier_values, after_values = key
     # Each product is exact over the numbers as typed and rounded once (see exact.py).
-    demand_exact = exact_product(_demand_factors(steps))
-    modifiers_exact = exact_product(s.value for s in modifiers_for(steps, receptor))
-    after_layers_exact = exact_product(_credited_layers(steps, after=True))
+    demand_exact = exact_product(before)
+    modifiers_exact = exact_product(modifier_values)
+    after_layers_exact = exact_product(after_values)
     demand, modifiers = to_float(demand_exact), to_float(modifiers_exact)
     after_layers = to_float(after_layers_exact)
     mitigated = to_float(demand_exact * modifiers_exact * after_layers_exact)

@@ -9,6 +9,7 @@ from __future__ import annotations
 import math
 from collections.abc import Sequence
 from fractions import Fraction
+from functools import lru_cache
 
 from app.likelihood.demand import sif_demand
 from app.likelihood.exact import as_decimal, exact_product, exact_ratio, log10_exact, to_float
@@ -22,7 +23,8 @@ from app.likelihood.types import (
 )
 from app.likelihood.validation import validate_frequency, validate_probability
 
-__all__ = ["compute_scenario", "validate_frequency", "validate_probability"]
+__all__ = ["check_scenario_inputs", "compute_scenario", "validate_frequency",
+           "validate_probability"]
 
 _LADDER_ORDER = (
     StepKind.INITIATING_EVENT,
@@ -58,10 +60,20 @@ def _the_initiating_event(steps: Sequence[StepInput]) -> StepInput:
 
 
 def _ladder(ordered: Sequence[StepInput]) -> tuple[LadderPoint, ...]:
+    running = _running_products(tuple(float(step.value) for step in ordered))
+    return tuple(LadderPoint(step.label, step.kind, step.value, after)
+                 for step, after in zip(ordered, running, strict=True))
+
+
+# Remembered per sequence of numbers (labels play no part): a study repeats a few ladders
+# over thousands of scenarios. Exact, as the rest of the arithmetic (see exact.py).
+@lru_cache(maxsize=65_536)
+def _running_products(values: tuple[float, ...]) -> tuple[float, ...]:
+    """The frequency after each factor, each running product exact and rounded once."""
     points, running = [], Fraction(1)
-    for step in ordered:
-        running *= as_decimal(step.value)
-        points.append(LadderPoint(step.label, step.kind, step.value, to_float(running)))
+    for value in values:
+        running *= as_decimal(value)
+        points.append(to_float(running))
     return tuple(points)
 
 
@@ -74,12 +86,20 @@ def _product_of(steps: Sequence[StepInput], kind: StepKind) -> float:
     return to_float(exact_product(step.value for step in steps if step.kind == kind))
 
 
-def compute_scenario(steps: Sequence[StepInput], tolerable_frequency: float) -> ScenarioResult:
-    """Mitigated frequency, gap to the tolerable frequency, SIL target and ladder of a scenario."""
+def check_scenario_inputs(steps: Sequence[StepInput], tolerable_frequency: float
+                          ) -> tuple[StepInput, float]:
+    """Every rule compute_scenario checks, raising as it would; the initiating event and the
+    tolerable frequency. Past these nothing in compute_scenario raises: a frequency is at most
+    1e4 a year and a probability at most 1, so every product is finite."""
     for step in steps:
         _validate_step(step)
     initiating = _the_initiating_event(steps)
-    tolerable = validate_frequency(tolerable_frequency, "Tolerable frequency")
+    return initiating, validate_frequency(tolerable_frequency, "Tolerable frequency")
+
+
+def compute_scenario(steps: Sequence[StepInput], tolerable_frequency: float) -> ScenarioResult:
+    """Mitigated frequency, gap to the tolerable frequency, SIL target and ladder of a scenario."""
+    initiating, tolerable = check_scenario_inputs(steps, tolerable_frequency)
     ordered = _in_ladder_order(steps)  # sorted() is stable: given order kept within a kind
     demand = sif_demand(ordered, tolerable)  # mode from the demand rate, not the mitigated one
     mitigated = demand.mitigated_frequency  # the exact product of every counted step

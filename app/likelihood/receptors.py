@@ -10,10 +10,11 @@ from __future__ import annotations
 import math
 from collections.abc import Mapping, Sequence
 from dataclasses import dataclass
+from functools import lru_cache
 
-from app.likelihood.demand import SifDemand, sif_demand
+from app.likelihood.demand import DemandKey, SifDemand, demand_key, sif_demand_of
 from app.likelihood.exact import exact_ratio, log10_exact, to_float
-from app.likelihood.frequency import compute_scenario
+from app.likelihood.frequency import check_scenario_inputs
 from app.likelihood.types import Receptor, SilStatus, StepInput, input_error
 from app.likelihood.validation import validate_frequency
 
@@ -45,7 +46,13 @@ class ReceptorAssessment:
 
 
 def _line(steps: Sequence[StepInput], receptor: Receptor, tolerable: float) -> ReceptorLine:
-    demand = sif_demand(steps, tolerable, receptor)
+    return _line_of(receptor, tolerable, demand_key(steps, receptor))
+
+
+# Remembered per receptor, target and set of numbers (labels play no part), as sif_demand_of.
+@lru_cache(maxsize=65_536, typed=True)
+def _line_of(receptor: Receptor, tolerable: float, key: DemandKey) -> ReceptorLine:
+    demand = sif_demand_of(key, tolerable)
     ratio = exact_ratio(demand.mitigated_frequency, tolerable)
     return ReceptorLine(
         receptor=receptor,
@@ -76,7 +83,8 @@ def assess_receptors(
             label="Receptors",
         )
     first_tolerable = next(iter(rated.values()))
-    compute_scenario(steps, validate_frequency(first_tolerable, "Tolerable frequency"))  # checks
+    # The scenario's rules, checked as computing it would (the figures come per line).
+    check_scenario_inputs(steps, validate_frequency(first_tolerable, "Tolerable frequency"))
     lines = tuple(
         _line(steps, r, validate_frequency(rated[r], f"Tolerable frequency ({r})"))
         for r in Receptor if r in rated

@@ -35,6 +35,7 @@ from app.db.tracking import SUPPRESS_LOG_KEY
 from app.services.exchange.study_file import StudyFileError, export_study, parse_study_file
 from app.services.exchange.study_file_rounds import import_rounds
 from app.services.exchange.study_schema import StudyFile
+from app.services.study.bulk_results import helper_started
 from app.services.study.step_fields import receptors_text
 from app.services.study.stored_results import write_study_results
 from app.settings import get_settings
@@ -82,7 +83,10 @@ def _size(count: int) -> str:
 
 def import_study_text(session: Session, raw: str | bytes) -> Study:
     """Validate and import a JSON study file; nothing is written when it is invalid."""
-    with _no_cycle_collection():
+    # A study large enough to share its computation gets its helper process started now,
+    # so the process starts while the file is read and written (at most one scenario per
+    # CONTENT_BYTES_PER_SCENARIO of file).
+    with _no_cycle_collection(), helper_started(len(raw) // CONTENT_BYTES_PER_SCENARIO):
         return import_study_file(session, parse_study_file(raw))
 
 
@@ -243,12 +247,17 @@ def _step_values(study_id: int, placed: Placed) -> dict[str, Any]:
             "proof_test": proof_test, "receptors": receptors_text(step["receptors"])}
 
 
-@cache
 def _column_defaults(model: type[SQLModel]) -> dict[str, Any]:
-    """The model's field defaults (a Core insert builds no objects, so it fills them)."""
+    """The model's field defaults (a Core insert builds no objects, so it fills them), each
+    factory called now: a timestamp is this import's, not the first one's in the process."""
     return {name: field.get_default(call_default_factory=True)
-            for name, field in model.model_fields.items()
-            if name != "id" and not field.is_required()}
+            for name, field in _defaulted_fields(model)}
+
+
+@cache
+def _defaulted_fields(model: type[SQLModel]) -> tuple[tuple[str, Any], ...]:
+    return tuple((name, field) for name, field in model.model_fields.items()
+                 if name != "id" and not field.is_required())
 
 
 def _insert_placed(session: Session, model: type[SQLModel], what: str, parent_field: str,
@@ -270,12 +279,45 @@ def _insert_placed(session: Session, model: type[SQLModel], what: str, parent_fi
 
 
 def _insert_all(session: Session, model: type[SQLModel], rows: list[dict[str, Any]]) -> None:
-    """Insert rows with one Core executemany (every row sends the same columns)."""
-    if rows:
-        table: Any = model
-        defaults = _column_defaults(model)
-        session.connection().execute(insert(table.__table__),
-                                     [{**defaults, **row} for row in rows])
+    """Insert rows with one executemany (every row sends the same columns)."""
+    if not rows:
+        return
+    table: Any = model
+    defaults = _column_defaults(model)
+    connection = session.connection()
+    if connection.dialect.name != "sqlite":  # PostgreSQL: Core batches them into few statements
+        connection.execute(insert(table.__table__), [{**defaults, **row} for row in rows])
+        return
+    statement, keys, processors = _driver_insert(model, connection.dialect,
+                                                 tuple({**defaults, **rows[0]}))
+    # A column no row gives takes the same default in every row: converted once.
+    fixed = {key: value if process is None else process(value)
+             for key, process in zip(keys, processors, strict=True)
+             if key not in rows[0] for value in (defaults[key],)}
+    given = [(key, process) for key, process in zip(keys, processors, strict=True)
+             if key not in fixed]
+    connection.exec_driver_sql(statement, [_driver_row(row, keys, fixed, given) for row in rows])
+
+
+def _driver_row(row: dict[str, Any], keys: tuple[str, ...], fixed: dict[str, Any],
+                given: list[tuple[str, Any]]) -> tuple[Any, ...]:
+    """One row's parameters in the statement's column order, each converted as Core would."""
+    values = {key: row[key] if process is None else process(row[key]) for key, process in given}
+    return tuple(fixed[key] if key in fixed else values[key] for key in keys)
+
+
+@cache
+def _driver_insert(model: type[SQLModel], dialect: Any, keys: tuple[str, ...]
+                   ) -> tuple[str, tuple[str, ...], tuple[Any, ...]]:
+    """The INSERT as the driver runs it (qmark), its columns in order and each column's
+    conversion: what Core would do per row, done once per table (Core built and checked each
+    row's parameters, most of the time the rows took to write on SQLite)."""
+    table: Any = model
+    compiled: Any = insert(table.__table__).compile(dialect=dialect, column_keys=list(keys))
+    order = tuple(compiled.positiontup)
+    return (str(compiled), order,
+            tuple(table.__table__.c[key].type.dialect_impl(dialect).bind_processor(dialect)
+                  for key in order))
 
 
 def _flush_all(session: Session, rows: list[Any]) -> None:

@@ -15,6 +15,7 @@ spreadsheet exports show is stored apart, flat, in `table_figures` (table_figure
 import json
 from collections.abc import Mapping
 from dataclasses import dataclass, fields, is_dataclass
+from functools import lru_cache
 from typing import Any
 
 from app.likelihood.demand import SifDemand
@@ -24,6 +25,7 @@ from app.services.study.completeness import is_incomplete
 from app.services.study.results import (
     Assessment,
     Figures,
+    assessment_of_fresh,
     assessment_of_rows,
     outcome_of,
     receptor_categories,
@@ -73,10 +75,23 @@ def _plain(value: Any, *, leave_out: str = "") -> Any:
         return value
     if kind is tuple or kind is list:
         return [_plain(item) for item in value]
+    if kind in SHARED_RESULTS and not leave_out:
+        return _plain_shared(value)
     names = _field_names(kind)
     if names is None:
         return value  # an enumeration: written as its text
     return {name: _plain(getattr(value, name)) for name in names if name != leave_out}
+
+
+SHARED_RESULTS = frozenset({SifDemand, ReceptorLine})
+"""Result types the arithmetic remembers per set of numbers, so one object serves many
+scenarios: laid out once each (the dicts are only ever read, by json.dumps)."""
+
+
+@lru_cache(maxsize=65_536)
+def _plain_shared(value: Any) -> Any:
+    names = _field_names(type(value)) or ()
+    return {name: _plain(getattr(value, name)) for name in names}
 
 
 def _result_data(result: ScenarioResult) -> dict[str, Any]:
@@ -186,20 +201,25 @@ SPREAD_NONE: dict[str, Any] = {"uncertain": False, "p_meets": None, "spread_medi
 
 
 def scenario_columns(rating: Any, steps: tuple[Any, ...], categories: Mapping[int, Any],
-                     inputs: ErrorFactorInputs = NO_INPUTS) -> dict[str, Any]:
-    """One scenario computed from plain rows, as the columns of its stored row."""
+                     inputs: ErrorFactorInputs = NO_INPUTS, *,
+                     remember: bool = True) -> dict[str, Any]:
+    """One scenario computed from plain rows, as the columns of its stored row.
+
+    remember False: nothing kept per scenario (a whole study computed once); the same figures.
+    """
     people_not_rated = bool(rating.people_not_rated)
-    assessment, category, error = outcome_of(rating, steps, categories,
-                                             people_not_rated=people_not_rated,
-                                             assessed=assessment_of_rows)
-    warnings = warnings_of(steps)
+    assessment, category, error = outcome_of(
+        rating, steps, categories, people_not_rated=people_not_rated,
+        assessed=assessment_of_rows if remember else assessment_of_fresh)
+    # The assessment holds the same checks' warnings; only an uncomputed scenario runs them.
+    warnings = list(assessment.warnings) if assessment is not None else warnings_of(steps)
     if assessment is None or category is None:
         return {**NOT_COMPUTED, "incomplete": is_incomplete(rating, steps), "error": error,
                 "warning_count": len(warnings),
                 "table_figures": table_figures(steps, None, None, warnings).json()}
     rated = receptor_categories(rating, categories, people_not_rated=people_not_rated)
     spread = scenario_spread(steps, targets_of(rated), inputs,
-                             assessment.as_credited.receptors)
+                             assessment.as_credited.receptors, remember=remember)
     return {**_computed_columns(assessment, category, rated),
             **_withdrawn_columns(assessment, rated), "warning_count": len(warnings),
             **_spread_columns(spread),

@@ -30,7 +30,12 @@ from app.likelihood.types import (
 )
 from app.likelihood.withdrawn import withdraw_flagged_credits
 from app.services.study.completeness import CompletableScenario, missing_of
-from app.services.study.step_fields import cause_type_of, modifier_kind_of, receptor_set
+from app.services.study.step_fields import (
+    cause_type_of,
+    ipl_type_of,
+    modifier_kind_of,
+    receptor_set,
+)
 
 NO_CATEGORY = "no severity category: no target to compare with"
 NONE_NEEDED = "none needed"
@@ -201,7 +206,7 @@ def step_inputs(steps: Iterable[StoredStep]) -> list[StepInput]:
 
 def _ipl_type(stored: str | None) -> IplType | None:
     # An unknown stored type checks as "no type given" rather than failing the page.
-    return IplType(stored) if stored in tuple(IplType) else None
+    return ipl_type_of(stored)
 
 
 def checked_step(step: StoredStep, cause_system_tag: str = "") -> CheckedStep:
@@ -253,12 +258,29 @@ def steps_for_receptor(steps: Sequence[StepInput], receptor: Receptor) -> list[S
 Targets = tuple[tuple[Receptor, float], ...]
 
 
-def _figures(steps: Sequence[StepInput], targets: Targets) -> Figures:
+Computer = Callable[[tuple[StepInput, ...], float], ScenarioResult]
+
+
+def _figures(steps: Sequence[StepInput], targets: Targets,
+             compute: Computer) -> Figures:
     receptors = assess_receptors(steps, dict(targets))
     line = receptors.governing
-    result = compute_cached(tuple(steps_for_receptor(steps, line.receptor)),
-                            line.tolerable_frequency)
+    result = compute(tuple(steps_for_receptor(steps, line.receptor)), line.tolerable_frequency)
     return Figures(result, receptors)
+
+
+def _assessed(steps: tuple[CheckedStep, ...], targets: Targets,
+              compute: Computer) -> Assessment:
+    warnings = tuple(check_scenario(steps))
+    as_credited = _figures([s.to_step_input() for s in steps], targets, compute)
+    flagged = sorted({w.step_index for w in warnings
+                      if w.withdraws_credit and w.step_index is not None})
+    if not flagged:
+        return Assessment(as_credited, None, warnings, ())
+    withdrawn = withdraw_flagged_credits(steps, warnings)
+    return Assessment(as_credited,
+                      _figures([s.to_step_input() for s in withdrawn], targets, compute),
+                      warnings, tuple(steps[i].label for i in flagged))
 
 
 @lru_cache(maxsize=65_536)
@@ -268,15 +290,14 @@ def assess(steps: tuple[CheckedStep, ...], targets: Targets) -> Assessment:
     Cached on its inputs (all frozen): a page showing a whole study recomputes only the
     scenarios whose numbers changed. Raises LikelihoodInputError for invalid steps.
     """
-    warnings = tuple(check_scenario(steps))
-    as_credited = _figures([s.to_step_input() for s in steps], targets)
-    flagged = sorted({w.step_index for w in warnings
-                      if w.withdraws_credit and w.step_index is not None})
-    if not flagged:
-        return Assessment(as_credited, None, warnings, ())
-    withdrawn = withdraw_flagged_credits(steps, warnings)
-    return Assessment(as_credited, _figures([s.to_step_input() for s in withdrawn], targets),
-                      warnings, tuple(steps[i].label for i in flagged))
+    return _assessed(steps, targets, compute_cached)
+
+
+def assess_fresh(steps: tuple[CheckedStep, ...], targets: Targets) -> Assessment:
+    """assess without remembering anything per scenario: a whole study computed once (an
+    import, a rebuild) would only fill the caches with entries never asked for again. The
+    arithmetic's caches of numbers (labels play no part) still serve it."""
+    return _assessed(steps, targets, compute_scenario)
 
 
 @lru_cache(maxsize=65_536)
@@ -289,10 +310,24 @@ def assessment_of(
     steps: Iterable[StoredStep], targets: Targets
 ) -> tuple[Assessment | None, str]:
     """The scenario's assessment, or None and the message of the rule its steps break."""
+    return _assessment_by(assess, steps, targets)
+
+
+def assessment_of_fresh(
+    steps: Iterable[StoredStep], targets: Targets
+) -> tuple[Assessment | None, str]:
+    """assessment_of through assess_fresh (nothing remembered per scenario)."""
+    return _assessment_by(assess_fresh, steps, targets)
+
+
+def _assessment_by(
+    assessor: Callable[[tuple[CheckedStep, ...], Targets], Assessment],
+    steps: Iterable[StoredStep], targets: Targets
+) -> tuple[Assessment | None, str]:
     if not targets:
         return None, NO_CATEGORY
     try:
-        return assess(tuple(checked_steps(steps)), targets), ""
+        return assessor(tuple(checked_steps(steps)), targets), ""
     except LikelihoodInputError as err:
         return None, err.message
 

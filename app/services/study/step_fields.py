@@ -5,13 +5,31 @@ default of its kind when empty; unknown stored words are left out rather than fa
 """
 
 from collections.abc import Iterable
+from enum import StrEnum
+from functools import lru_cache
+from typing import Any, TypeVar
 
 from app.likelihood.check_base import CauseType
-from app.likelihood.types import ModifierKind, Receptor
+from app.likelihood.types import IplType, ModifierKind, Receptor
+
+Known = TypeVar("Known", bound=StrEnum)
 
 
+def known_members(kind: type[Known]) -> dict[Any, Known]:
+    """Each member by its text and by itself, for one dict look-up instead of a scan of the
+    enumeration per stored step (an Enum member hashes by its name, not its text)."""
+    return {**{member.value: member for member in kind}, **{member: member for member in kind}}
+
+
+_MODIFIER_KINDS = known_members(ModifierKind)
+_CAUSE_TYPES = known_members(CauseType)
+_IPL_TYPES = known_members(IplType)
+
+
+@lru_cache(maxsize=256)
 def receptor_set(stored: str | None) -> frozenset[Receptor] | None:
-    """The receptors a stored text names; None (kind's default) for no text."""
+    """The receptors a stored text names; None (kind's default) for no text (remembered:
+    a study stores a handful of such texts)."""
     if not stored or not stored.strip():
         return None
     names = {part.strip() for part in stored.split(",")}
@@ -35,9 +53,14 @@ def receptors_text(values: Iterable[str] | None) -> str | None:
 
 def modifier_kind_of(stored: str | None) -> ModifierKind | None:
     """A stored modifier kind; unknown text reads as no kind given."""
-    return ModifierKind(stored) if stored in tuple(ModifierKind) else None
+    return _MODIFIER_KINDS.get(stored)
 
 
 def cause_type_of(stored: str | None) -> CauseType | None:
     """A stored cause type; unknown text reads as no type given."""
-    return CauseType(stored) if stored in tuple(CauseType) else None
+    return _CAUSE_TYPES.get(stored)
+
+
+def ipl_type_of(stored: str | None) -> IplType | None:
+    """A stored IPL type; unknown text reads as no type given."""
+    return _IPL_TYPES.get(stored)

@@ -31,6 +31,7 @@ from app.db.queries import (
     step_figures_of_study,
 )
 from app.db.stale_results import forget, note_stale_results, stale_of
+from app.services.study.bulk_results import PlainRows, StudyInputs, compute_scenarios
 from app.services.study.listing import NodeTotals
 from app.services.study.result_figures import scenario_columns
 from app.services.study.spread import NO_INPUTS, ErrorFactorInputs, load_error_factor_inputs
@@ -100,15 +101,15 @@ def compute_rows(session: Session, scenario_ids: Iterable[int]) -> dict[int, dic
 
 def compute_study_rows(session: Session, study_id: int) -> dict[int, dict[str, Any]]:
     """Every scenario of one study computed from plain rows (the from-scratch path)."""
-    categories = _categories(session, study_id)
     steps: dict[int, list[Any]] = defaultdict(list)
     for step in fetch_plain_rows(session, step_figures_of_study(study_id)):
         steps[step.scenario_id].append(step)
     study = session.get(Study, study_id)
     inputs = load_error_factor_inputs(session, study) if study is not None else NO_INPUTS
-    return {rating.id: {"scenario_id": rating.id, "study_id": study_id, "node_id": rating.node_id,
-                        **scenario_columns(rating, tuple(steps[rating.id]), categories, inputs)}
-            for rating in fetch_plain_rows(session, scenario_ratings_of_study(study_id))}
+    categories = fetch_plain_rows(session, CATEGORY_TARGETS, {"study_id": study_id})
+    return compute_scenarios(StudyInputs(study_id, PlainRows.of(categories), inputs),
+                             fetch_plain_rows(session, scenario_ratings_of_study(study_id)),
+                             steps)
 
 
 class Moves:
