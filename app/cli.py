@@ -6,21 +6,29 @@ import os
 import sys
 from collections.abc import Callable, Sequence
 from pathlib import Path
+from typing import TYPE_CHECKING, Any
 
 from sqlmodel import Session
 
 from app.cli_data import DATA_COMMANDS, add_data_commands
-from app.db.migrate import (
-    alembic_config,
-    database_is_new,
-    database_place,
-    pending_migrations,
-    upgrade_database,
-)
 from app.db.session import get_db_engine
 from app.settings import LOOPBACK_HOSTS, Settings, get_settings
 
+if TYPE_CHECKING:  # imported when first used (module __getattr__ below)
+    from app.db.migrate import alembic_config, upgrade_database
+
 __all__ = ["alembic_config", "main", "upgrade_database"]
+
+
+def __getattr__(name: str) -> Any:
+    """`alembic_config` and `upgrade_database` of app.db.migrate, imported when first asked
+    for: Alembic is imported only by the commands that migrate (it was a fifth of starting
+    `tallyroom import`, and of starting its helper process, which imports this module)."""
+    if name in ("alembic_config", "upgrade_database"):
+        from app.db import migrate
+
+        return getattr(migrate, name)
+    raise AttributeError(f"module {__name__!r} has no attribute {name!r}")
 
 COMMANDS: dict[str, Callable[[argparse.Namespace], int]] = {}
 
@@ -28,6 +36,13 @@ COMMANDS: dict[str, Callable[[argparse.Namespace], int]] = {}
 def cmd_migrate(_args: argparse.Namespace) -> int:
     """Run `alembic upgrade head` on the configured database (after a backup when behind),
     and say which it was: created, brought up to date, or already up to date."""
+    from app.db.migrate import (
+        database_is_new,
+        database_place,
+        pending_migrations,
+        upgrade_database,
+    )
+
     url = get_settings().database_url
     place = database_place(url)
     was_new = database_is_new(url)
