@@ -191,8 +191,8 @@ def figures_of_rows(rows: Iterable[list[Cell]]) -> list[dict[str, Cell]]:
     """Scenario rows as the JSON study file carries them: exact values (the CSV rounds them as
     the screen shows them), keyed by the CSV's headers and the file ref (S1, S2, ... in
     worksheet order)."""
-    headers = [column.header for column in SCENARIO_COLUMNS]
-    return [{"ref": scenario_ref(index), **dict(zip(headers, row, strict=True))}
+    keys = ("ref", *(column.header for column in SCENARIO_COLUMNS))
+    return [dict(zip(keys, (scenario_ref(index), *row), strict=True))  # one dict, not two
             for index, row in enumerate(rows)]
 
 
