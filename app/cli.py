@@ -154,9 +154,11 @@ def cmd_export(args: argparse.Namespace) -> int:
         assert study.id is not None
         export = build_export(session=session, study_id=study.id,
                               export_format=ExportFormat(args.format), env=templates.env)
+        content = export.content  # the JSON study file is written as it is read: in the session
+        title = study.title
     out = Path(args.out or export.filename)
-    out.write_bytes(export.content)
-    print(f"wrote {out} ({len(export.content):,} bytes): study {study.id} '{study.title}'")
+    out.write_bytes(content)
+    print(f"wrote {out} ({len(content):,} bytes): study {study.id} '{title}'")
     return 0
 
 

@@ -1,6 +1,6 @@
 """The one place that creates the database engine and configures its connections."""
 
-from collections.abc import Iterator
+from collections.abc import AsyncIterator
 from functools import lru_cache
 from pathlib import Path
 from typing import Any
@@ -54,7 +54,9 @@ def get_db_engine() -> Engine:
     return build_db_engine(get_settings().database_url)
 
 
-def get_session() -> Iterator[Session]:
-    """One session per request."""
+async def get_session() -> AsyncIterator[Session]:
+    """One session per request. Async, so FastAPI opens and closes it on the event loop
+    instead of a thread-pool trip each way: opening a session touches no database, and
+    closing it returns the connection (a rollback of nothing once the route committed)."""
     with Session(get_db_engine()) as session:
         yield session

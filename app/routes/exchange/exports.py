@@ -1,5 +1,6 @@
 """Study files in and out: the export page, each download, the file format's schema, import."""
 
+from collections.abc import Iterator
 from typing import Annotated
 
 from fastapi import APIRouter, File, Request, UploadFile
@@ -56,9 +57,16 @@ def _download(session: SessionDep, study_id: int, export_format: ExportFormat) -
                           env=templates.env)
     release_memory()  # what the study-sized pass held is garbage now; the file is ready
     disposition = f'attachment; filename="{export.filename}"'
-    # A spreadsheet sits in a temporary file: sent in pieces, never read into memory whole.
-    return StreamingResponse(export.chunks(), media_type=export.media_type,
+    # A spreadsheet sits in a temporary file: sent in pieces, never read into memory whole;
+    # the JSON study file is written as it is sent (the request's session stays open until
+    # the response is done).
+    return StreamingResponse(_then_release(export.chunks()), media_type=export.media_type,
                              headers={"Content-Disposition": disposition})
+
+
+def _then_release(chunks: Iterator[bytes]) -> Iterator[bytes]:
+    yield from chunks
+    release_memory()  # what a file written while sent held
 
 
 @router.get("/studies/{study_id}/export.xlsx", name="export_xlsx")

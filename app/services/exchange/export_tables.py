@@ -184,16 +184,27 @@ def computed_figures(tree: StudyTree) -> list[dict[str, Cell]]:
 
 def stored_computed_figures(session: Session, study_id: int) -> list[dict[str, Cell]]:
     """computed_figures from the stored results, read one node at a time."""
-    return figures_of_rows(scenario_rows(stored_scenarios(session, study_id, with_rows=False)))
+    return list(stored_figure_entries(session, study_id))
+
+
+def stored_figure_entries(session: Session, study_id: int) -> Iterator[dict[str, Cell]]:
+    """computed_figures' entries one by one, as the stored results are read (node by node),
+    so a streamed download sends them as they come."""
+    return figure_entries(scenario_rows(stored_scenarios(session, study_id, with_rows=False)))
 
 
 def figures_of_rows(rows: Iterable[list[Cell]]) -> list[dict[str, Cell]]:
+    """Scenario rows as the JSON study file carries them (see figure_entries)."""
+    return list(figure_entries(rows))
+
+
+def figure_entries(rows: Iterable[list[Cell]]) -> Iterator[dict[str, Cell]]:
     """Scenario rows as the JSON study file carries them: exact values (the CSV rounds them as
     the screen shows them), keyed by the CSV's headers and the file ref (S1, S2, ... in
     worksheet order)."""
-    headers = [column.header for column in SCENARIO_COLUMNS]
-    return [{"ref": scenario_ref(index), **dict(zip(headers, row, strict=True))}
-            for index, row in enumerate(rows)]
+    keys = ("ref", *(column.header for column in SCENARIO_COLUMNS))
+    return (dict(zip(keys, (scenario_ref(index), *row), strict=True))  # one dict, not two
+            for index, row in enumerate(rows))
 
 
 def scenario_row(item: ExportScenario) -> list[Cell]:

@@ -14,6 +14,7 @@ from collections.abc import Iterator
 from dataclasses import dataclass
 from datetime import UTC, datetime
 from enum import StrEnum
+from itertools import islice
 from pathlib import Path
 from typing import IO, Any
 
@@ -29,7 +30,7 @@ from app.services.exchange.export_source import stored_scenarios
 from app.services.exchange.export_tables import (
     SCENARIO_COLUMNS,
     scenario_rows,
-    stored_computed_figures,
+    stored_figure_entries,
 )
 from app.services.exchange.export_workbook import write_study_workbook
 from app.services.exchange.report_source import (
@@ -97,20 +98,32 @@ CHUNK_BYTES = 1 << 16
 
 
 @dataclass(frozen=True)
+class Pieces:
+    """A file written as it is sent: its pieces, made when read (once)."""
+
+    pieces: Iterator[bytes]
+
+
+@dataclass(frozen=True)
 class ExportFile:
     """A finished export: the name to save it under, its media type and its bytes, held in
-    memory or (a spreadsheet of any size) in a temporary file that `chunks` reads out."""
+    memory, in a temporary file that `chunks` reads out (a spreadsheet of any size), or
+    written piece by piece as it is sent (the JSON study file)."""
 
     filename: str
     media_type: str
-    body: bytes | IO[bytes]
+    body: bytes | IO[bytes] | Pieces
 
     @property
     def content(self) -> bytes:
-        """The whole file as bytes (the command line and tests); a temporary file is read
-        once, closed, and its bytes kept."""
+        """The whole file as bytes (the command line and tests); a temporary file or the
+        pieces are read once (the file closed) and the bytes kept."""
         if isinstance(self.body, bytes):
             return self.body
+        if isinstance(self.body, Pieces):
+            whole = b"".join(self.body.pieces)
+            object.__setattr__(self, "body", whole)  # frozen: the same content, now whole
+            return whole
         with self.body as source:
             source.seek(0)
             whole = source.read()
@@ -121,6 +134,9 @@ class ExportFile:
         """The file in pieces for a streamed download; a temporary file is closed after."""
         if isinstance(self.body, bytes):
             yield self.body
+            return
+        if isinstance(self.body, Pieces):
+            yield from self.body.pieces
             return
         with self.body as source:
             source.seek(0)
@@ -172,6 +188,23 @@ def study_json_bytes(data: dict[str, Any]) -> bytes:
     return orjson.dumps(data, option=orjson.OPT_APPEND_NEWLINE)
 
 
+FIGURES_PER_PIECE = 500
+
+
+def study_json_pieces(session: Session, study_id: int, cautions: str) -> Iterator[bytes]:
+    """The JSON export in pieces, byte for byte `study_json_bytes` of the whole (the study,
+    its cautions, then computed_figures): the study goes out while `computed_figures` is
+    still being read, FIGURES_PER_PIECE scenarios of it at a time from the stored results,
+    so the download starts earlier and the entries are never all held at once."""
+    head = orjson.dumps({**export_study(session, study_id), "cautions": cautions})
+    yield head[:-1] + b',"computed_figures":['  # the object left open for its last key
+    entries, separator = stored_figure_entries(session, study_id), b""
+    while piece := list(islice(entries, FIGURES_PER_PIECE)):
+        yield separator + orjson.dumps(piece)[1:-1]  # the entries without the list's brackets
+        separator = b","
+    yield b"]}\n"
+
+
 REQUEST_REPORT_SCENARIOS = 200
 """The largest study whose full report `/export.pdf` builds in the request: a few seconds
 (DEVELOPERS.md, "PDF report"). A larger one is built in the background from the export page,
@@ -215,11 +248,9 @@ def build_export(
     name = export_filename(get_study(session, study_id), export_format)
     # Each format loads only what it writes: the file needs no computed tree, the CSV no history.
     cautions: str = env.globals["cautions"]  # type: ignore[assignment]
-    if export_format is ExportFormat.JSON:
-        figures = stored_computed_figures(session, study_id)
-        data = {**export_study(session, study_id), "cautions": cautions,
-                "computed_figures": figures}
-        return ExportFile(name, info.media_type, study_json_bytes(data))
+    if export_format is ExportFormat.JSON:  # written while it is sent (the route streams it)
+        return ExportFile(name, info.media_type,
+                          Pieces(study_json_pieces(session, study_id, cautions)))
     now = datetime.now(UTC).replace(microsecond=0)
     if export_format is ExportFormat.PDF:
         return ExportFile(name, info.media_type, report_pdf_bytes(session, study_id, env=env,

@@ -70,6 +70,36 @@ def study_defaults(study: Any) -> dict[StepKind, float]:
     return {kind: float(value) for kind, value in found.items() if value is not None}
 
 
+# session.info key: the inputs the last stored-results refresh of this session read, so the
+# reply to the same edit does not read the study row and its rounds again after the commit.
+_REFRESHED_INPUTS = "error_factor_inputs_of_refresh"
+
+
+def remember_refreshed_inputs(session: Session, study_id: int, step_ids: Iterable[int],
+                              inputs: ErrorFactorInputs) -> None:
+    """Keep what a refresh read for these steps (replacing what an earlier refresh kept)."""
+    kept: dict[int, tuple[frozenset[int], ErrorFactorInputs]] = session.info.setdefault(
+        _REFRESHED_INPUTS, {})
+    kept[study_id] = (frozenset(step_ids), inputs)
+
+
+def forget_refreshed_inputs(session: Session) -> None:
+    """Drop what an earlier refresh kept (a new transaction's refresh starts afresh)."""
+    session.info.pop(_REFRESHED_INPUTS, None)
+
+
+def refreshed_inputs(session: Session, study_id: int,
+                     step_ids: Iterable[int]) -> ErrorFactorInputs | None:
+    """The inputs the refresh just read, taken once, when they cover these steps (else None:
+    a step added since is read afresh)."""
+    remembered: dict[int, tuple[frozenset[int], ErrorFactorInputs]] = session.info.get(
+        _REFRESHED_INPUTS, {})
+    kept = remembered.pop(study_id, None)
+    if kept is None or not kept[0].issuperset(step_ids):
+        return None
+    return kept[1]
+
+
 def load_error_factor_inputs(session: Session, study: Study,
                              step_ids: Sequence[int] | None = None) -> ErrorFactorInputs:
     """The study's defaults and each step's last revealed or agreed round, in two queries

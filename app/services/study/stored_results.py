@@ -34,7 +34,13 @@ from app.db.stale_results import forget, note_stale_results, stale_of
 from app.services.study.bulk_results import PlainRows, StudyInputs, compute_scenarios
 from app.services.study.listing import NodeTotals
 from app.services.study.result_figures import scenario_columns
-from app.services.study.spread import NO_INPUTS, ErrorFactorInputs, load_error_factor_inputs
+from app.services.study.spread import (
+    NO_INPUTS,
+    ErrorFactorInputs,
+    forget_refreshed_inputs,
+    load_error_factor_inputs,
+    remember_refreshed_inputs,
+)
 
 # Any in this module: plain rows from SQLAlchemy carry no column types (the ORM boundary).
 
@@ -72,7 +78,10 @@ def _inputs_of(session: Session, study_id: int, steps: Iterable[Any]) -> ErrorFa
     study = session.get(Study, study_id)
     if study is None:
         return NO_INPUTS
-    return load_error_factor_inputs(session, study, sorted(step.id for step in steps))
+    step_ids = sorted(step.id for step in steps)
+    inputs = load_error_factor_inputs(session, study, step_ids)
+    remember_refreshed_inputs(session, study_id, step_ids, inputs)
+    return inputs
 
 
 def compute_rows(session: Session, scenario_ids: Iterable[int]) -> dict[int, dict[str, Any]]:
@@ -133,6 +142,7 @@ class Moves:
 def refresh_stale_results(session: Session) -> None:
     """Recompute the scenarios this transaction changed and move the counts (before commit)."""
     session.flush()
+    forget_refreshed_inputs(session)
     notes = stale_of(session)
     if not notes:
         return

@@ -19,6 +19,8 @@ from collections.abc import Iterable, Sequence
 from dataclasses import dataclass, fields
 from typing import Any, NamedTuple
 
+import orjson
+
 from app.likelihood.check_base import CheckWarning
 from app.likelihood.types import SilStatus, StepKind
 from app.services.study.results import Assessment, required_rrf_cell
@@ -122,13 +124,23 @@ class TableFigures:
     def read(cls, text: str) -> "TableFigures":
         """The stored form read back (the numbers as they were: JSON floats round-trip)."""
         (description, value, credited, result, lines, withdrawn, labels, spread, factors,
-         warnings) = json.loads(text)
+         warnings) = _stored_lists(text)
         return cls(description, value, credited, TableResult(*result) if result else None,
                    tuple(TableLine(*line) for line in lines),
                    TableWithdrawn(*withdrawn) if withdrawn else None, tuple(labels),
                    TableSpread(*spread) if spread else None,
                    tuple(StepFactor(*factor) for factor in factors),
                    tuple(TableWarning(*warning) for warning in warnings))
+
+
+def _stored_lists(text: str) -> Any:
+    """The stored text parsed: by orjson (a sixth of json.loads' time, the same values: both
+    read each JSON number to the nearest float), else by json.loads, which also reads the
+    NaN and Infinity that json.dumps may have written and integers beyond 64 bits."""
+    try:
+        return orjson.loads(text)
+    except orjson.JSONDecodeError:
+        return json.loads(text)
 
 
 def table_warnings(warnings: Sequence[CheckWarning]) -> tuple[TableWarning, ...]:

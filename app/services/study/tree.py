@@ -36,6 +36,7 @@ from app.services.study.spread import (
     ErrorFactorInputs,
     ScenarioSpread,
     load_error_factor_inputs,
+    refreshed_inputs,
     scenario_spread,
 )
 
@@ -191,7 +192,9 @@ def load_scenario_branch(session: Session, study_id: int, scenario_id: int) -> P
     deviation_place, scenario_place = place_in_node(session, deviation, scenario)
     number = ".".join((node.number or str(node.id), str(deviation_place), str(scenario_place)))
     outcome = compute_outcome(scenario, steps, by_id)
-    inputs = load_error_factor_inputs(session, get_study(session, study_id))
+    inputs = refreshed_inputs(session, study_id, (step.id or 0 for step in steps))
+    if inputs is None:
+        inputs = load_error_factor_inputs(session, get_study(session, study_id))
     branch = ScenarioBranch(scenario, steps, safeguards, outcome,
                             partial(_spread_of, scenario, steps, by_id, inputs, outcome))
     return PlacedScenario(branch, node, number)

@@ -103,10 +103,10 @@ def test_two_screens_revealing_at_once_both_see_the_revealed_round(
                               question="How often does the alarm fail when needed?")
     answers.give_estimate(session=session, study_id=step.study_id, round_id=found.id or 0,
                           answerer=Answerer("A. Lind", None), text="1e-2")
+    study_id, round_id = step.study_id, found.id or 0  # read here: threads use their own sessions
 
     def reveal(own: Session) -> object:
-        shown = rounds.reveal_round(session=own, study_id=step.study_id,
-                                    round_id=found.id or 0)
+        shown = rounds.reveal_round(session=own, study_id=study_id, round_id=round_id)
         assert shown.state == RoundState.REVEALED
         return shown
 
