@@ -151,11 +151,14 @@ def create_study(*, session: Session, form: StudyForm) -> Study:
     session.flush()
     assert study.id is not None
     if source is not None and source.id is not None:
-        for row in fetch_rows_of_study(session, SeverityCategory, source.id):
+        # Positions are renumbered so the copy keeps the source's display order even where
+        # the source has ties (the database may hand out ids in any order within one insert).
+        rows = fetch_rows_of_study(session, SeverityCategory, source.id)
+        for position, row in enumerate(rows):
             session.add(SeverityCategory(
                 study_id=study.id, name=row.name, description=row.description,
                 tolerable_frequency=row.tolerable_frequency, receptor=row.receptor,
-                position=row.position))
+                position=position))
     session.commit()
     session.refresh(study)
     return study

@@ -54,7 +54,8 @@ def test_a_new_study_starts_with_empty_criteria_or_a_copy_of_another_studys(
 
     def names(study_id: int | None) -> list[tuple[str, float]]:
         rows = session.exec(select(SeverityCategory).where(
-            SeverityCategory.study_id == study_id).order_by(SeverityCategory.position)).all()
+            SeverityCategory.study_id == study_id).order_by(
+                SeverityCategory.position, SeverityCategory.id)).all()
         return [(r.name, r.tolerable_frequency) for r in rows]
 
     assert names(by_title["Empty one"]) == []
