@@ -50,6 +50,10 @@ def _write_until(db_engine: Engine, writer: int, stop: threading.Event,
                                    {"w": writer, "n": n, "h": half})
         acknowledged.append((writer, n))  # the commit has returned: the edit is acknowledged
         n += 1
+        # A person pauses between edits. Back-to-back writers with no pause can starve one
+        # another: SQLite's busy handler sleeps and retries with no queue, so one writer can
+        # lose every race until its busy timeout ends, with no backup running at all.
+        time.sleep(0.001)
 
 
 def test_a_backup_taken_while_edits_run_holds_every_edit_acknowledged_before_it(
