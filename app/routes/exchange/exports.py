@@ -12,6 +12,7 @@ from app.routes.deps import SessionDep
 from app.routes.rendering import render, templates
 from app.services.exchange.exports import (
     ExportFormat,
+    Piece,
     ReportTooLargeError,
     build_export,
     check_report_in_request,
@@ -64,7 +65,7 @@ def _download(session: SessionDep, study_id: int, export_format: ExportFormat) -
                              headers={"Content-Disposition": disposition})
 
 
-def _then_release(chunks: Iterator[bytes]) -> Iterator[bytes]:
+def _then_release(chunks: Iterator[Piece]) -> Iterator[Piece]:
     yield from chunks
     release_memory()  # what a file written while sent held
 

@@ -1,9 +1,6 @@
 """Create a study from a validated study file, all in one transaction."""
 
-import gc
 import json
-from collections.abc import Iterator
-from contextlib import contextmanager
 from datetime import UTC, date, datetime
 from functools import cache
 from typing import Any
@@ -35,7 +32,7 @@ from app.db.tracking import SUPPRESS_LOG_KEY
 from app.services.exchange.study_file import StudyFileError, export_study, parse_study_file
 from app.services.exchange.study_file_rounds import import_rounds
 from app.services.exchange.study_schema import StudyFile
-from app.services.study.bulk_results import helper_started
+from app.services.study.bulk_results import helper_started, no_cycle_collection
 from app.services.study.step_fields import receptors_text
 from app.services.study.stored_results import write_study_results
 from app.settings import get_settings
@@ -86,22 +83,8 @@ def import_study_text(session: Session, raw: str | bytes) -> Study:
     # A study large enough to share its computation gets its helper process started now,
     # so the process starts while the file is read and written (at most one scenario per
     # CONTENT_BYTES_PER_SCENARIO of file).
-    with _no_cycle_collection(), helper_started(len(raw) // CONTENT_BYTES_PER_SCENARIO):
+    with no_cycle_collection(), helper_started(len(raw) // CONTENT_BYTES_PER_SCENARIO):
         return import_study_file(session, parse_study_file(raw))
-
-
-@contextmanager
-def _no_cycle_collection() -> Iterator[None]:
-    """The cycle collector paused while a file's millions of rows are built: it kept walking
-    them (about a sixth of a 10,000-scenario import's CPU time) and finds no cycles there;
-    the rows go when the import returns, and the collector resumes as it was."""
-    was_enabled = gc.isenabled()
-    gc.disable()
-    try:
-        yield
-    finally:
-        if was_enabled:
-            gc.enable()
 
 
 def import_study_file(session: Session, data: StudyFile) -> Study:

@@ -11,7 +11,7 @@ from app.db.models import Study
 from app.routes.rendering import CAUTIONS, templates
 from app.services.exchange import exports
 from app.services.exchange.export_tables import computed_figures
-from app.services.exchange.exports import ExportFormat, build_export, study_json_bytes
+from app.services.exchange.exports import ExportFormat, Piece, build_export, study_json_bytes
 from app.services.exchange.study_file import export_study
 from app.services.exchange.study_import import import_study_text
 from app.services.study.tree import load_study_tree
@@ -26,7 +26,7 @@ def _whole_file(session: Session, study_id: int) -> bytes:
                              "computed_figures": figures})
 
 
-def _pieces(session: Session, study_id: int) -> list[bytes]:
+def _pieces(session: Session, study_id: int) -> list[Piece]:
     export = build_export(session=session, study_id=study_id, export_format=ExportFormat.JSON,
                           env=templates.env)
     return list(export.chunks())
