@@ -10,10 +10,11 @@ identical tables (`tests/services/exchange/test_exports_stored_path.py`).
 """
 
 from collections import defaultdict
-from collections.abc import Iterable, Iterator, Mapping
+from collections.abc import Iterator, Mapping
 from dataclasses import dataclass
 from typing import Any
 
+from sqlalchemy import bindparam
 from sqlalchemy import select as select_columns
 from sqlmodel import Session, col
 
@@ -85,16 +86,32 @@ def tree_scenarios(tree: StudyTree) -> Iterator[ExportScenario]:
 
 # Only the columns the tables show (a whole-row read spent a fifth of the CSV's time turning
 # timestamps it never writes into datetimes). Any: ORM attributes as columns.
-_DEVIATION: Any = (Deviation.id, Deviation.guideword, Deviation.parameter)
-_SCENARIO: Any = (Scenario.id, Scenario.deviation_id, Scenario.cause, Scenario.consequence,
-                  Scenario.notes)
 _STEP: Any = (Step.scenario_id, Step.id, Step.kind, Step.description, Step.value,
               Step.value_text, Step.credited, Step.ipl_type, Step.system_tag, Step.sil_claimed,
               Step.response_time_minutes, Step.basis, Step.typical_key)
 _SAFEGUARD: Any = (Safeguard.scenario_id, Safeguard.description, Safeguard.note)
-_STORED: Any = (ScenarioResultRow.scenario_id, ScenarioResultRow.computed,
-                ScenarioResultRow.incomplete, ScenarioResultRow.error,
-                ScenarioResultRow.category_id, ScenarioResultRow.table_figures)
+# A node's deviations, each with its scenarios (none: one row of nulls) and their stored
+# results, in worksheet order: one statement a node, built once. The row is the scenario
+# (id, cause, consequence, notes) and its stored row (computed, ..., table_figures) at once.
+_NODE_SCENARIOS: Any = (
+    select_columns(col(Deviation.id).label("deviation_id"), col(Deviation.guideword),
+                   col(Deviation.parameter), col(Scenario.id).label("id"),
+                   col(Scenario.cause), col(Scenario.consequence), col(Scenario.notes),
+                   col(ScenarioResultRow.scenario_id).label("stored_id"),
+                   col(ScenarioResultRow.computed), col(ScenarioResultRow.incomplete),
+                   col(ScenarioResultRow.error), col(ScenarioResultRow.category_id),
+                   col(ScenarioResultRow.table_figures))
+    .select_from(Deviation)
+    .outerjoin(Scenario, col(Scenario.deviation_id) == col(Deviation.id))
+    .outerjoin(ScenarioResultRow, col(ScenarioResultRow.scenario_id) == col(Scenario.id))
+    .where(col(Deviation.node_id) == bindparam("node_id"))
+    .order_by(col(Deviation.position), col(Deviation.id), col(Scenario.position),
+              col(Scenario.id)))
+
+
+class MissingStoredResultError(LookupError):
+    """A scenario without its stored results where the study is current: a broken invariant
+    (see DEVELOPERS.md, Stored results), said rather than computed around."""
 
 
 def stored_scenarios(session: Session, study_id: int, *, with_rows: bool = True
@@ -114,50 +131,43 @@ def stored_scenarios(session: Session, study_id: int, *, with_rows: bool = True
 
 def _node_scenarios(session: Session, node: Any, categories: Mapping[int, SeverityCategory],
                     with_rows: bool) -> Iterator[ExportScenario]:
-    deviations = fetch_plain_rows(session, select_columns(*_DEVIATION).where(
-        col(Deviation.node_id) == node.id).order_by(col(Deviation.position), col(Deviation.id)))
-    scenarios = _grouped(fetch_plain_rows(session, select_columns(*_SCENARIO).join(
-        Deviation, col(Deviation.id) == col(Scenario.deviation_id)).where(
-        col(Deviation.node_id) == node.id).order_by(col(Scenario.position), col(Scenario.id))),
-        "deviation_id")
-    ids = [s.id for d in deviations for s in scenarios[d.id]]
-    steps, safeguards, stored = _rows_of_scenarios(session, ids, with_rows)
+    rows = fetch_plain_rows(session, _NODE_SCENARIOS, {"node_id": node.id})
+    ids = [row.id for row in rows if row.id is not None]
+    steps, safeguards = _rows_of_scenarios(session, ids, with_rows)
     node_number, node_label = node.number or "(unnumbered)", node_words(node)
-    for d_index, deviation in enumerate(deviations, start=1):
-        deviation_label = deviation_words(deviation)
-        for s_index, scenario in enumerate(scenarios[deviation.id], start=1):
-            row = stored[scenario.id]
-            yield ExportScenario(
-                f"{node_number}.{d_index}.{s_index}", node_label, deviation_label, scenario,
-                steps[scenario.id], safeguards[scenario.id], TableFigures.read(row.table_figures),
-                categories.get(row.category_id) if row.computed else None,
-                "" if row.computed else _no_figures_words(row))
+    d_index, deviation_id, deviation_label, s_index = 0, None, "", 0
+    for row in rows:
+        if row.deviation_id != deviation_id:  # the next deviation (its first row)
+            d_index, deviation_id, s_index = d_index + 1, row.deviation_id, 0
+            deviation_label = deviation_words(row)
+        if row.id is None:  # a deviation without scenarios
+            continue
+        if row.stored_id is None:
+            raise MissingStoredResultError(
+                f"scenario {row.id} has no stored results although its study is current")
+        s_index += 1
+        yield ExportScenario(
+            f"{node_number}.{d_index}.{s_index}", node_label, deviation_label, row,
+            steps[row.id], safeguards[row.id], TableFigures.read(row.table_figures),
+            categories.get(row.category_id) if row.computed else None,
+            "" if row.computed else _no_figures_words(row))
 
 
 def _rows_of_scenarios(session: Session, ids: list[int], with_rows: bool) -> tuple[
-        dict[int, list[Any]], dict[int, list[Any]], dict[int, Any]]:
+        dict[int, list[Any]], dict[int, list[Any]]]:
     steps: dict[int, list[Any]] = defaultdict(list)
     safeguards: dict[int, list[Any]] = defaultdict(list)
-    stored: dict[int, Any] = {}
+    if not with_rows:
+        return steps, safeguards
     reads: list[tuple[Any, Any, dict[int, list[Any]]]] = [
-        (Step, _STEP, steps), (Safeguard, _SAFEGUARD, safeguards)] if with_rows else []
+        (Step, _STEP, steps), (Safeguard, _SAFEGUARD, safeguards)]
     for start in range(0, len(ids), BATCH):
         batch = ids[start:start + BATCH]
         for table, columns, into in reads:
             for row in fetch_plain_rows(session, select_columns(*columns).where(
                     table.scenario_id.in_(batch)).order_by(table.position, table.id)):
                 into[row.scenario_id].append(row)
-        for row in fetch_plain_rows(session, select_columns(*_STORED).where(
-                col(ScenarioResultRow.scenario_id).in_(batch))):
-            stored[row.scenario_id] = row
-    return steps, safeguards, stored
-
-
-def _grouped(rows: Iterable[Any], key: str) -> dict[int, list[Any]]:
-    grouped: dict[int, list[Any]] = defaultdict(list)
-    for row in rows:
-        grouped[getattr(row, key)].append(row)
-    return grouped
+    return steps, safeguards
 
 
 def _no_figures_words(stored: Any) -> str:

@@ -11,10 +11,12 @@ import gzip
 from pathlib import Path
 
 import pytest
-from sqlmodel import Session
+from sqlmodel import Session, select
 
+from app.db.models import ScenarioResultRow
 from app.routes.rendering import templates
 from app.services.exchange import exports
+from app.services.exchange.export_source import MissingStoredResultError, stored_scenarios
 from app.services.exchange.exports import ExportFormat, build_export
 from app.services.exchange.study_import import import_study_text
 
@@ -46,3 +48,17 @@ def test_a_changed_export_fails_the_comparison(session: Session) -> None:
     session.add(study)
     session.commit()
     assert _export(session, study.id or 0) != golden
+
+
+def test_a_scenario_without_its_stored_results_is_an_error_not_a_gap(session: Session) -> None:
+    """The exports read each scenario with its stored row in one outer join: a missing row
+    (a broken invariant: the study is current) stops the export naming the scenario, rather
+    than leaving the scenario out or computing it silently."""
+    study = import_study_text(session, gzip.decompress((GOLDEN / "demo.json.gz").read_bytes()))
+    victim = session.exec(select(ScenarioResultRow).where(
+        ScenarioResultRow.study_id == study.id)).first()
+    assert victim is not None
+    session.delete(victim)
+    session.commit()
+    with pytest.raises(MissingStoredResultError, match=f"scenario {victim.scenario_id} "):
+        list(stored_scenarios(session, study.id or 0))
