@@ -117,8 +117,9 @@ class MissingStoredResultError(LookupError):
 def stored_scenarios(session: Session, study_id: int, *, with_rows: bool = True
                      ) -> Iterator[ExportScenario]:
     """Every scenario of the study from plain rows and its stored results, node by node: at
-    most one node's rows are held at a time (`with_rows` False: no steps nor safeguards, for
-    the CSV, whose scenario table reads them from the stored figures)."""
+    most one node's rows are held at a time (`with_rows` False: no steps nor safeguards, nor
+    the figures' step factors and warnings, for the scenario table alone: the CSV and the
+    JSON file's figures, which read what they show of the steps from the stored figures)."""
     ensure_current(session, study_id)
     categories = {c.id: c for c in fetch_rows_of_study(session, SeverityCategory, study_id)
                   if c.id is not None}
@@ -148,7 +149,8 @@ def _node_scenarios(session: Session, node: Any, categories: Mapping[int, Severi
         s_index += 1
         yield ExportScenario(
             f"{node_number}.{d_index}.{s_index}", node_label, deviation_label, row,
-            steps[row.id], safeguards[row.id], TableFigures.read(row.table_figures),
+            steps[row.id], safeguards[row.id],
+            TableFigures.read(row.table_figures, with_steps=with_rows),
             categories.get(row.category_id) if row.computed else None,
             "" if row.computed else _no_figures_words(row))
 

@@ -121,16 +121,18 @@ class TableFigures:
                           separators=(",", ":"))
 
     @classmethod
-    def read(cls, text: str) -> "TableFigures":
-        """The stored form read back (the numbers as they were: JSON floats round-trip)."""
+    def read(cls, text: str, *, with_steps: bool = True) -> "TableFigures":
+        """The stored form read back (the numbers as they were: JSON floats round-trip).
+        `with_steps` False: the step factors and warnings left empty, for a reader of the
+        scenario table alone (the CSV, the JSON file's figures: most of the records)."""
         (description, value, credited, result, lines, withdrawn, labels, spread, factors,
          warnings) = _stored_lists(text)
         return cls(description, value, credited, TableResult(*result) if result else None,
                    tuple(TableLine(*line) for line in lines),
                    TableWithdrawn(*withdrawn) if withdrawn else None, tuple(labels),
                    TableSpread(*spread) if spread else None,
-                   tuple(StepFactor(*factor) for factor in factors),
-                   tuple(TableWarning(*warning) for warning in warnings))
+                   tuple(StepFactor(*factor) for factor in factors) if with_steps else (),
+                   tuple(TableWarning(*warning) for warning in warnings) if with_steps else ())
 
 
 def _stored_lists(text: str) -> Any:
