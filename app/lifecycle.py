@@ -3,7 +3,8 @@ backups while it runs, a clean stop.
 
 Started by the app's lifespan. Before the first request every template is compiled and the
 objects of the start are set aside from the garbage collector (`warm_up`), so neither costs
-a request. While it serves, the write-ahead log is copied into the database file every
+a request; the collector's full passes wait until no request is in flight
+(`idle_collection`). While it serves, the write-ahead log is copied into the database file every
 second on a thread of its own (`WalCheckpoints`), not inside a request's commit. A stop by
 Ctrl-C or SIGTERM (uvicorn handles both) ends the same way: the write-ahead log is
 checkpointed into the database file and, if anything changed since the last copy, a
@@ -21,6 +22,7 @@ from contextlib import asynccontextmanager, suppress
 from pathlib import Path
 
 from app.db.backups import Fingerprint, checkpoint, fingerprint, sqlite_file, take_backup
+from app.idle_collection import collect_when_idle
 from app.routes.rendering import compile_templates
 from app.settings import get_settings
 
@@ -128,10 +130,14 @@ def warm_up() -> None:
 async def server_lifespan(_app: object) -> AsyncIterator[None]:
     """Warm up; checkpoint and back up an SQLite database while the app serves; stop cleanly."""
     await asyncio.to_thread(warm_up)
+    collecting = asyncio.create_task(collect_when_idle())
     try:
         async with _sqlite_upkeep():
             yield
     finally:
+        collecting.cancel()
+        with suppress(asyncio.CancelledError):
+            await collecting
         gc.unfreeze()  # an app stopped in a longer-lived process (the tests) can be collected
 
 

@@ -11,6 +11,7 @@ from starlette.exceptions import HTTPException as StarletteHTTPException
 import app.routes
 from app.access.setup import install_access
 from app.db.tracking import install_tracking
+from app.idle_collection import ActivityTracker
 from app.lifecycle import server_lifespan
 from app.routes import errors
 from app.routes.deps import check_path_ids
@@ -39,6 +40,8 @@ def create_app(settings: Settings | None = None) -> FastAPI:
     application = FastAPI(title="Tallyroom", docs_url=None, redoc_url=None,
                           lifespan=server_lifespan)
     install_access(application, settings or get_settings())
+    # Outermost: a request counts as in flight from its first byte to its last.
+    application.add_middleware(ActivityTracker)
     # After the access checks: who may ask is settled before the path's ids are read.
     application.router.dependencies.append(Depends(check_path_ids))
     application.mount("/static", StaticFiles(directory=PROJECT_ROOT / "static"), name="static")

@@ -10,7 +10,6 @@ no headline says "meets target" while the scenario's own checks reject a credit.
 
 from collections.abc import Callable, Iterable, Mapping, Sequence
 from dataclasses import dataclass
-from functools import lru_cache
 from typing import Any, Protocol, TypeVar
 
 from app.db.models import Scenario, SeverityCategory, Step
@@ -30,6 +29,7 @@ from app.likelihood.types import (
 )
 from app.likelihood.withdrawn import withdraw_flagged_credits
 from app.services.study.completeness import CompletableScenario, missing_of
+from app.services.study.remembered import remembered
 from app.services.study.step_fields import (
     cause_type_of,
     ipl_type_of,
@@ -283,7 +283,7 @@ def _assessed(steps: tuple[CheckedStep, ...], targets: Targets,
                       warnings, tuple(steps[i].label for i in flagged))
 
 
-@lru_cache(maxsize=65_536)
+@remembered(maxsize=65_536)
 def assess(steps: tuple[CheckedStep, ...], targets: Targets) -> Assessment:
     """The scenario checked, then computed as credited and with flagged credits withdrawn.
 
@@ -300,7 +300,7 @@ def assess_fresh(steps: tuple[CheckedStep, ...], targets: Targets) -> Assessment
     return _assessed(steps, targets, compute_scenario)
 
 
-@lru_cache(maxsize=65_536)
+@remembered(maxsize=65_536)
 def compute_cached(steps: tuple[StepInput, ...], tolerable_frequency: float) -> ScenarioResult:
     """compute_scenario, remembered for identical inputs."""
     return compute_scenario(steps, tolerable_frequency)
@@ -335,7 +335,7 @@ def _assessment_by(
 # Whole-study totals are recomputed after every keystroke. Plain rows read from the database
 # are hashable, so an unchanged scenario costs one lookup here instead of rebuilding its inputs
 # (the rows carry step ids, so two scenarios never share an entry).
-@lru_cache(maxsize=65_536)
+@remembered(maxsize=65_536)
 def _assessment_of_row_tuple(steps: tuple[Any, ...], targets: Targets
                              ) -> tuple[Assessment | None, str]:
     return assessment_of(steps, targets)

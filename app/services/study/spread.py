@@ -8,7 +8,6 @@ the median of a lognormal; the engine is `app/likelihood/uncertainty.py`.
 
 from collections.abc import Iterable, Mapping, Sequence
 from dataclasses import dataclass, field
-from functools import lru_cache
 from typing import Any
 
 from sqlmodel import Session, col, select
@@ -34,6 +33,7 @@ from app.likelihood.uncertainty import (
     judge_action,
     line_distribution,
 )
+from app.services.study.remembered import Remembered
 from app.services.study.results import StoredStep, Targets, steps_for_receptor
 from app.services.study.step_fields import modifier_kind_of, receptor_set
 
@@ -221,7 +221,7 @@ def _fresh_lines(paired: tuple[tuple[StepInput, ErrorFactor], ...],
 # the scenarios whose numbers or error factors changed. A pass that reads every scenario once
 # (remember=False) computes without it, so the server keeps no study-sized cache after it (the
 # exports compute no spread: they read the stored one, see table_figures.py).
-_lines = lru_cache(maxsize=65_536)(_fresh_lines)
+_lines = Remembered(_fresh_lines, 65_536)
 
 
 def scenario_spread(steps: Iterable[StoredStep], targets: Targets,

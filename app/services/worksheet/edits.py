@@ -35,6 +35,7 @@ from app.services.study.conflicts import (
     remember_written,
 )
 from app.services.study.listing import NodeTotals
+from app.services.study.remembered import remembering_per_request
 from app.services.study.stored_results import stored_totals
 from app.services.study.tree import NotFoundError
 from app.services.study.word_scale import basis_with_word, read_step_text
@@ -102,6 +103,7 @@ def field_id(kind_name: str, row_id: int, field: str) -> str:
     return f"{FIELD_PREFIX[kind_name]}-{row_id}-{field}"
 
 
+@remembering_per_request
 def edit_step_value(*, session: Session, study_id: int, step_id: int, text: str,
                     edit: PageEdit | None = None) -> FieldReply | None:
     """Save a step's value if it parses; None when a newer edit of it was already seen."""
@@ -169,6 +171,7 @@ def _parse_typed_value(session: Session, step: Step,
         return err
 
 
+@remembering_per_request
 def edit_field(*, session: Session, study_id: int, kind_name: str, row_id: int,
                changes: Mapping[str, Any], edit: PageEdit | None = None,
                resolution: str = "") -> FieldReply:
@@ -314,6 +317,9 @@ def _reply(session: Session, kind_name: str, row: Any, fid: str, *, said: str = 
         scenario, node = located_scenario(session=session, study_id=study_id,
                                           scenario_id=scenario_id, fallback=fallback)
         node_id = node.id or 0
+        # Worked out now, inside the keystroke's own remembering (remembered.py), not later
+        # while the reply is drawn: the reply shows it, and the process keeps nothing of it.
+        _ = scenario.item.spread
     node_totals, study_totals = stored_totals(session, study_id, node_id)
     return FieldReply(fid, said, error, node_id, scenario, node_totals,
                       study_totals, study_id=study_id,
