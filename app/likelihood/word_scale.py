@@ -92,7 +92,7 @@ def _check_word(word: str, unit: EstimateUnit, seen: set[str]) -> None:
             f"'{word}' is adopted twice (case and spaces ignored).",
             label="Word scale",
         )
-    if re.search(r"\d", said) or _reads_as_number(said, unit):
+    if not may_be_word(said) or _reads_as_number(said, unit):
         raise input_error(
             "word_not_a_number",
             f"'{word}' reads as a number, so it cannot stand for another one.",
@@ -134,6 +134,11 @@ def _from_word(typed: str, found: AdoptedWord, unit: EstimateUnit) -> WordedNumb
     return WordedNumber(ParsedNumber(found.value, typed, plain), found)
 
 
+def may_be_word(text: str) -> bool:
+    """Whether text could be an adopted word: none holds a digit (rule word_not_a_number)."""
+    return re.search(r"\d", text) is None
+
+
 def parse_with_word_scale(
     text: str, unit: EstimateUnit, scale: WordScale | None, label: str = ""
 ) -> WordedNumber:
@@ -150,7 +155,7 @@ def parse_with_word_scale(
     try:
         return WordedNumber(parse_number(text, unit, label), None)
     except LikelihoodInputError as error:
-        if usable is None or error.rule != "not_a_number" or re.search(r"\d", typed):
+        if usable is None or error.rule != "not_a_number" or not may_be_word(typed):
             raise
         raise input_error(
             "unknown_word",

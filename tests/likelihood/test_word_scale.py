@@ -10,6 +10,7 @@ from app.likelihood.word_scale import (
     AdoptedWord,
     WordedNumber,
     adopt_word_scale,
+    may_be_word,
     normalise_word,
     parse_with_word_scale,
     word_basis,
@@ -131,3 +132,12 @@ def test_a_scale_that_breaks_a_rule_is_refused(adopted, rule, message):
 
 def test_the_basis_records_the_word_and_its_number():
     assert word_basis(AdoptedWord("unlikely", 1e-2)) == "team word scale: 'unlikely' = 1.0e-2"
+
+
+@pytest.mark.parametrize(("text", "could_be"), [("unlikely", True), ("very rare", True),
+                                                ("1 in 10", False), ("once in 5 years", False),
+                                                ("1e-3", False), ("", True)])
+def test_text_with_a_digit_can_never_be_an_adopted_word(text: str, could_be: bool) -> None:
+    """The rule that lets a typed number skip reading the team's scale: no adopted word
+    holds a digit (word_not_a_number)."""
+    assert may_be_word(text) is could_be

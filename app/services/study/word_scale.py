@@ -12,6 +12,7 @@ from app.likelihood.word_scale import (
     AdoptedWord,
     WordedNumber,
     WordScale,
+    may_be_word,
     parse_with_word_scale,
     word_basis,
 )
@@ -31,7 +32,10 @@ def study_word_scale(session: Session, study_id: int, unit: EstimateUnit) -> Wor
 def read_step_text(session: Session, step: Step, text: str, label: str) -> WordedNumber:
     """The typed text as the step's value: an adopted word or a number said as people say it."""
     unit = unit_for_kind(step.kind)
-    return parse_with_word_scale(text, unit, study_word_scale(session, step.study_id, unit), label)
+    # Typed text with a digit is never an adopted word (the scale refuses such words), so a
+    # keystroke of a number does not read the scale.
+    scale = study_word_scale(session, step.study_id, unit) if may_be_word(text) else None
+    return parse_with_word_scale(text, unit, scale, label)
 
 
 def basis_with_word(basis: str, worded: WordedNumber) -> str:
