@@ -367,6 +367,12 @@ def run_size(size: int, budget: Budget, work: Path) -> SizeRun:
     if prepared is None:
         return run
     database, study_id = prepared
+    # The disk settles before the server is measured: right after the import (and the
+    # generated file, 310 MB and 58 MB at 50,000) the kernel was still writing them back,
+    # and every edit's commit waited behind that in its fsync (measured at 50,000, 200 edits
+    # just after the import: p50 7.6 ms and p99 10.8 ms, against 5.7 and 7.5 ms after a
+    # sync). A team does not type within seconds of a 300 MB import.
+    os.sync()
     marks = find_landmarks(database, study_id, generate.TYPICAL_NODE_NUMBER,
                            generate.LARGE_NODE_NUMBER)
     server = Server(database, work / f"server-{size}.log")
