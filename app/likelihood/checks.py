@@ -30,7 +30,8 @@ OPERATOR_PFD_FLOOR = 0.1
 OPERATOR_MINUTES_FLOOR = 10.0
 
 BPCS_SOURCE = "IEC 61511-1:2016, clause 9.3"
-INDEPENDENCE_SOURCE = "CCPS, Layer of Protection Analysis (2001), ch. 6 (secondary)"
+# Checked against a secondary account, not the book: its citation carries the verify flag.
+INDEPENDENCE_SOURCE = "CCPS, Layer of Protection Analysis (2001), ch. 6"
 OPERATOR_SOURCE = "CCPS, Layer of Protection Analysis (2001), ch. 6"
 SIL_BAND_SOURCE = "IEC 61511-1:2016, Table 4, low demand"
 

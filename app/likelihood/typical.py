@@ -28,9 +28,9 @@ class TypicalValue:
     form for current pages)."""
 
 
-CCPS_2001_TABLE_5_1 = "CCPS, Layer of Protection Analysis (2001), Table 5.1 (seen in a scan)"
-# Not seen in the source (REFERENCE.md marks it as recalled): rows using it carry the verify flag.
-CCPS_2001_TABLE_5_1_UNVERIFIED = "CCPS, Layer of Protection Analysis (2001), Table 5.1"
+# Document and table only: whether a row was checked against the published text is its
+# verify_against_copy flag (rows REFERENCE.md marks as recalled carry it), never words here.
+CCPS_2001_TABLE_5_1 = "CCPS, Layer of Protection Analysis (2001), Table 5.1"
 CCPS_2001_CH6 = "CCPS, Layer of Protection Analysis (2001), ch. 6"
 IEC_61511_BANDS = (
     "IEC 61511-1:2016, Table 4, low-demand SIL bands; "
@@ -91,7 +91,7 @@ _INITIATING_EVENTS = (
     _row(
         "operator_routine_error",
         "Operator fails a routine procedure (per opportunity: multiply by tasks per year)",
-        _IE, (1e-3, 1e-1, 1e-2), CCPS_2001_TABLE_5_1_UNVERIFIED,
+        _IE, (1e-3, 1e-1, 1e-2), CCPS_2001_TABLE_5_1,
         Citation(sources.CCPS_2001_TABLE_5_1.text, verify_against_copy=True),
     ),
 )

@@ -8,10 +8,10 @@ from app.likelihood.typical import typical_by_key
 
 IE, CM, IPL = StepKind.INITIATING_EVENT, StepKind.CONDITIONAL_MODIFIER, StepKind.IPL
 BPCS_SOURCE = "IEC 61511-1:2016, clause 9.3"  # value secondary; clause from memory
-INDEPENDENCE_SOURCE = "CCPS, Layer of Protection Analysis (2001), ch. 6 (secondary)"
+INDEPENDENCE_SOURCE = "CCPS, Layer of Protection Analysis (2001), ch. 6"  # secondary
 OPERATOR_SOURCE = "CCPS, Layer of Protection Analysis (2001), ch. 6"  # from memory
 SIL_BAND_SOURCE = "IEC 61511-1:2016, Table 4, low demand"  # values secondary; table from memory
-CCPS_TABLE_5_1 = "CCPS, Layer of Protection Analysis (2001), Table 5.1 (seen in a scan)"
+CCPS_TABLE_5_1 = "CCPS, Layer of Protection Analysis (2001), Table 5.1"  # seen in a scan
 IGNITION = "Cox, Lees & Ang, Classification of Hazardous Locations (IChemE, 1990)"  # from memory
 
 CAUSE = CheckedStep(IE, 0.1, "Level loop fails", cause_system_tag="DCS-1")

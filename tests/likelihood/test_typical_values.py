@@ -5,7 +5,7 @@ import pytest
 from app.likelihood.types import IplType, StepKind
 from app.likelihood.typical import TYPICAL_VALUES, typical_by_key, typical_for_kind
 
-TABLE_5_1 = "CCPS, Layer of Protection Analysis (2001), Table 5.1 (seen in a scan)"
+TABLE_5_1 = "CCPS, Layer of Protection Analysis (2001), Table 5.1"  # seen in a scan
 CH_6 = "CCPS, Layer of Protection Analysis (2001), ch. 6"  # from memory; verify flag set
 COX = "Cox, Lees & Ang, Classification of Hazardous Locations (IChemE, 1990)"  # from memory
 
