@@ -303,7 +303,9 @@ def claim_keystroke(session: Session, *, study_id: int, entity: str, row_id: int
 
     One guarded UPDATE sets the sequence only if it is higher and hands back the text this page
     wrote last; the row stays locked (on SQLite the database) until the caller commits, so two
-    workers cannot both accept old and new.
+    workers cannot both accept old and new. When the field has no row yet, another worker may
+    make it between this worker's reads; once a row exists the guarded UPDATE decides, so a
+    second pass always settles it.
     """
     key = _field_key(entity, row_id, name, client)
     for _ in range(2):
@@ -311,8 +313,11 @@ def claim_keystroke(session: Session, *, study_id: int, entity: str, row_id: int
         if raised is not None:
             written: str | None = raised.written
             return True, written
-        if session.execute(_SEQ_OF, key).first() is not None:
-            return False, None
+        seen = session.execute(_SEQ_OF, key).first()
+        if seen is not None:
+            if seen.seq >= seq:
+                return False, None
+            continue  # another worker's older keystroke made the row between the two reads
         try:
             with session.begin_nested():
                 session.execute(insert(FIELD_EDITS).values(

@@ -9,14 +9,15 @@ uses (SQLite by default, PostgreSQL with TALLYROOM_TEST_DATABASE_URL).
 import random
 import threading
 from concurrent.futures import ThreadPoolExecutor
+from typing import Any
 
 import pytest
-from sqlalchemy import Engine
+from sqlalchemy import Engine, insert
 from sqlmodel import Session
 
 from app.db.models import FieldEdit, Step
 from app.db.tracking import AUTHOR_KEY
-from app.services.study.conflicts import PageEdit
+from app.services.study.conflicts import _SEQ_OF, FIELD_EDITS, PageEdit, claim_keystroke
 from app.services.worksheet.edits import edit_step_value
 from tests.factories import make_scenario_tree, make_step
 from tests.helpers import TEST_AUTHOR
@@ -89,3 +90,29 @@ def test_two_pages_keep_their_own_sequences(db_engine: Engine, step: Step) -> No
                                 text="1 in 20", edit=PageEdit(client="other-page", seq=1))
     assert other is not None
     assert _stored_text(db_engine, step) == "1 in 20"
+
+
+def test_a_first_row_inserted_by_an_older_keystroke_between_the_reads_does_not_drop_the_newer(
+    session: Session, step: Step,
+) -> None:
+    """The interleaving the threaded test met on PostgreSQL: keystroke 12 finds no row to raise,
+    then, before it looks again, another worker commits the field's first row with keystroke 3.
+    The row it then sees is older, so 12 must raise it, not give up."""
+    original = session.execute
+    looked = False
+
+    def execute_with_a_rival(statement: Any, *args: Any, **kwargs: Any) -> Any:
+        nonlocal looked
+        if statement is _SEQ_OF and not looked:
+            looked = True
+            original(insert(FIELD_EDITS).values(
+                study_id=step.study_id, entity="step", row_id=step.id, field="value_text",
+                client=PAGE, seq=3))
+        return original(statement, *args, **kwargs)
+
+    session.execute = execute_with_a_rival  # type: ignore[method-assign]
+    accepted, _ = claim_keystroke(session, study_id=step.study_id, entity="step",
+                                  row_id=step.id or 0, name="value_text", client=PAGE, seq=12)
+    assert looked and accepted
+    assert original(_SEQ_OF, {"of_entity": "step", "of_row": step.id, "of_field": "value_text",
+                              "of_client": PAGE}).scalar_one() == 12
