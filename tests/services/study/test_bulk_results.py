@@ -9,8 +9,10 @@ column, the figures JSON text byte for byte) say the bulk path changed no figure
 """
 
 import json
+import sys
 from concurrent.futures import Future
 from concurrent.futures.process import BrokenProcessPool
+from pathlib import Path
 from typing import Any
 
 import pytest
@@ -144,3 +146,52 @@ def test_a_helper_started_before_the_computation_is_the_one_it_uses(
     with bulk_results.helper_started(expected_scenarios=10):  # too few: no process started
         compute_scenarios(study_inputs, ratings, steps, parallel_from=10**9)
     assert len(started) == 1
+
+
+@pytest.mark.usefixtures("two_processes")
+def test_threads_switch_every_millisecond_while_the_helper_is_fed_and_as_before_after(
+    session: Session, monkeypatch: pytest.MonkeyPatch
+) -> None:
+    """The executor's threads that feed the helper wait for this thread's computing; at the
+    interpreter's default 5 ms the helper sat idle half the time."""
+    study = import_study_text(session, json.dumps(build_study(120, seed=13)))
+    study_inputs, ratings, steps = bulk_inputs(session, study.id or 0)
+    before = sys.getswitchinterval()
+    seen: list[float] = []
+    real_shared = bulk_results._shared
+
+    def watched(*args: Any) -> Any:
+        seen.append(sys.getswitchinterval())
+        return real_shared(*args)
+
+    monkeypatch.setattr(bulk_results, "_shared", watched)
+    compute_scenarios(study_inputs, ratings, steps)
+    assert seen == [pytest.approx(bulk_results.SWITCH_INTERVAL)] and before > seen[0]
+    assert sys.getswitchinterval() == before
+
+
+class _TornDown:
+    """Writes its file when the process tears its objects down on the way out."""
+
+    def __init__(self, path: str) -> None:
+        self.path = path
+
+    def __del__(self) -> None:
+        Path(self.path).write_text("torn down")
+
+
+_KEPT: list[_TornDown] = []
+
+
+def keep_until_teardown(path: str) -> int:
+    """Run in the helper: an object that only the process's teardown would delete."""
+    _KEPT.append(_TornDown(path))
+    return len(_KEPT)
+
+
+def test_the_helper_ends_without_tearing_its_interpreter_down(tmp_path: Path) -> None:
+    """The import waited 0.15-0.2 s for the helper's teardown after the last result was in."""
+    mark = tmp_path / "mark"
+    with bulk_results._helper() as helper:
+        assert helper.submit(keep_until_teardown, str(mark)).result() == 1
+    assert not mark.exists()
