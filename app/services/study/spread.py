@@ -10,9 +10,12 @@ from collections.abc import Iterable, Mapping, Sequence
 from dataclasses import dataclass, field
 from typing import Any
 
-from sqlmodel import Session, col, select
+from sqlalchemy import bindparam
+from sqlalchemy import select as select_columns
+from sqlmodel import Session, col
 
 from app.db.models import EstimateRound, RoundEstimate, RoundState, Study
+from app.db.queries import fetch_plain_rows
 from app.likelihood.numbers import format_error_factor, format_number
 from app.likelihood.receptors import ReceptorAssessment, assess_receptors
 from app.likelihood.types import (
@@ -100,33 +103,61 @@ def refreshed_inputs(session: Session, study_id: int,
     return kept[1]
 
 
+_COUNTED_STATES = [RoundState.REVEALED, RoundState.AGREED]
+# Built once (an edit reads its own scenario's rounds on every keystroke; building and
+# looking up a statement cost more than running it).
+_ROUNDS_OF_STUDY = (select_columns(col(EstimateRound.id), col(EstimateRound.step_id),
+                                   col(EstimateRound.number))
+                    .where(col(EstimateRound.study_id) == bindparam("study_id"),
+                           col(EstimateRound.step_id).is_not(None),
+                           col(EstimateRound.state).in_(_COUNTED_STATES)))
+_ROUNDS_OF_STEPS = _ROUNDS_OF_STUDY.where(
+    col(EstimateRound.step_id).in_(bindparam("step_ids", expanding=True)))
+_ESTIMATES_OF_ROUNDS = (select_columns(col(RoundEstimate.round_id), col(RoundEstimate.value))
+                        .where(col(RoundEstimate.round_id).in_(
+                            bindparam("round_ids", expanding=True))))
+_STUDY_DEFAULTS = (select_columns(*(getattr(Study, default_column(kind)) for kind in StepKind))
+                   .where(col(Study.id) == bindparam("study_id")))
+
+
 def load_error_factor_inputs(session: Session, study: Study,
                              step_ids: Sequence[int] | None = None) -> ErrorFactorInputs:
     """The study's defaults and each step's last revealed or agreed round, in two queries
     (only the rounds of `step_ids` when given: an edit reads its own scenario's)."""
-    which = (col(EstimateRound.step_id).in_(list(step_ids)) if step_ids is not None
-             else col(EstimateRound.step_id).is_not(None))
-    rounds = session.exec(
-        select(EstimateRound.id, EstimateRound.step_id, EstimateRound.number)
-        .where(EstimateRound.study_id == study.id, which,
-               col(EstimateRound.state).in_([RoundState.REVEALED, RoundState.AGREED]))
-    ).all()
+    return ErrorFactorInputs(_last_rounds(session, study.id or 0, step_ids),
+                             study_defaults(study))
+
+
+def load_scenario_inputs(session: Session, study_id: int,
+                         step_ids: Sequence[int]) -> ErrorFactorInputs | None:
+    """load_error_factor_inputs for some steps, from the study's id (its row read as plain
+    columns, not loaded as an object); None when there is no such study."""
+    defaults = fetch_plain_rows(session, _STUDY_DEFAULTS, {"study_id": study_id})
+    if not defaults:
+        return None
+    return ErrorFactorInputs(_last_rounds(session, study_id, step_ids),
+                             study_defaults(defaults[0]))
+
+
+def _last_rounds(session: Session, study_id: int,
+                 step_ids: Sequence[int] | None) -> dict[int, LastRound]:
+    """Each step's last revealed or agreed round with its estimates (all steps' when None)."""
+    rounds = (fetch_plain_rows(session, _ROUNDS_OF_STUDY, {"study_id": study_id})
+              if step_ids is None else
+              fetch_plain_rows(session, _ROUNDS_OF_STEPS,
+                               {"study_id": study_id, "step_ids": list(step_ids)}))
     last: dict[int, tuple[int, int]] = {}
-    for round_id, step_id, number in rounds:
-        if step_id is not None and (step_id not in last or number > last[step_id][1]):
-            last[step_id] = (round_id or 0, number)
+    for round_id, step_id, number in map(tuple, rounds):
+        if step_id not in last or number > last[step_id][1]:
+            last[step_id] = (round_id, number)
     wanted = {round_id: step_id for step_id, (round_id, _) in last.items()}
     values: dict[int, list[float]] = {step_id: [] for step_id in last}
     if wanted:
-        for round_id, value in session.exec(
-            select(RoundEstimate.round_id, RoundEstimate.value)
-            .where(col(RoundEstimate.round_id).in_(list(wanted)))
-        ).all():
+        for round_id, value in map(tuple, fetch_plain_rows(
+                session, _ESTIMATES_OF_ROUNDS, {"round_ids": list(wanted)})):
             values[wanted[round_id]].append(float(value))
-    return ErrorFactorInputs(
-        {step_id: LastRound(last[step_id][1], tuple(sorted(found)))
-         for step_id, found in values.items()},
-        study_defaults(study))
+    return {step_id: LastRound(last[step_id][1], tuple(sorted(found)))
+            for step_id, found in values.items()}
 
 
 def step_error_factor(step: StoredStep, inputs: ErrorFactorInputs) -> ErrorFactor:

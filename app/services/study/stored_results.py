@@ -39,6 +39,7 @@ from app.services.study.spread import (
     ErrorFactorInputs,
     forget_refreshed_inputs,
     load_error_factor_inputs,
+    load_scenario_inputs,
     remember_refreshed_inputs,
 )
 
@@ -75,11 +76,10 @@ def _categories(session: Session, study_id: int) -> dict[int, Any]:
 def _inputs_of(session: Session, study_id: int, steps: Iterable[Any]) -> ErrorFactorInputs:
     """What the error factors read besides the steps: the study's defaults and these steps'
     last revealed or agreed rounds (only theirs: an edit reads its own scenario's)."""
-    study = session.get(Study, study_id)
-    if study is None:
-        return NO_INPUTS
     step_ids = sorted(step.id for step in steps)
-    inputs = load_error_factor_inputs(session, study, step_ids)
+    inputs = load_scenario_inputs(session, study_id, step_ids)
+    if inputs is None:
+        return NO_INPUTS
     remember_refreshed_inputs(session, study_id, step_ids, inputs)
     return inputs
 
