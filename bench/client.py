@@ -1,5 +1,6 @@
 """An HTTP client that gets what a browser gets: cookies, the page's CSRF token, htmx headers."""
 
+import html
 import math
 import re
 import time
@@ -74,6 +75,34 @@ class BrowserClient:
         is_text = response.headers.get("content-type", "").startswith(("text/", "application/j"))
         text = body.decode("utf-8", "replace") if is_text else ""
         return Timed(seconds, response.status_code, len(body), text)
+
+
+@dataclass
+class FieldForm:
+    """What the worksheet sends with a value field's keystroke besides the text: its row's
+    version and the field's text as last saved (hidden inputs the page carries and each reply
+    replaces out of band), so an edit takes the guarded path a scribe's browser takes."""
+
+    row_key: str  # "step-12"
+    field: str  # "value_text"
+    version: str = ""
+    original: str = ""
+
+    def read(self, page: str) -> None:
+        """Take the version and the original text from a page or a reply, where it has them."""
+        self.version = _hidden_value(page, f"{self.row_key}-version") or self.version
+        found = _hidden_value(page, f"{self.row_key}-{self.field}-orig")
+        self.original = self.original if found is None else found
+
+    def sent(self) -> dict[str, str]:
+        """The hidden fields as htmx includes them."""
+        return {"version": self.version, f"orig_{self.field}": self.original}
+
+
+def _hidden_value(page: str, element_id: str) -> str | None:
+    tag = re.search(rf'<input\b[^>]*\bid="{re.escape(element_id)}"[^>]*>', page)
+    value = re.search(r'\bvalue="([^"]*)"', tag.group(0)) if tag else None
+    return html.unescape(value.group(1)) if value else None
 
 
 def percentile(values: list[float], share: float) -> float:

@@ -25,7 +25,7 @@ from pathlib import Path
 
 from app.services.exchange.report_jobs import REPORTS_FOLDER_NAME, read_job
 from bench import generate
-from bench.client import BrowserClient, Timed, percentile
+from bench.client import BrowserClient, FieldForm, Timed, percentile
 from bench.server import (
     ROOT,
     TRIVIAL_PATH,
@@ -145,8 +145,14 @@ class SizeRun:
 
     def measure_edits(self, client: BrowserClient, study: str, marks: Landmarks) -> None:
         """Value edits as htmx sends them, each after a trivial request on the same server."""
-        # The scribe's page first, as a scribe opens it before typing.
+        # The scribe's page first and the scenario opened in it, as a scribe opens them before
+        # typing; each keystroke sends the row's version and the field's saved text as the
+        # page does, taken from the opened row and then from each reply (the guarded save a
+        # browser's edit takes).
         client.open_page(f"{study}/nodes/{marks.typical_node}")
+        opened = client.get(f"{study}/scenarios/{marks.edit_scenario}/open", htmx=True)
+        form = FieldForm(f"step-{marks.edit_step}", "value_text")
+        form.read(opened.text)
         path = f"{study}/steps/{marks.edit_step}/value"
         trivial: list[float] = []
         edits: list[Timed] = []
@@ -158,8 +164,10 @@ class SizeRun:
             sent.append(len(sent) + 1)
             number = sent[-1]
             edit = client.post(path, {"value_text": f"1 in {100 + number}",
-                                      "client": "bench-client", "seq": str(number)},
+                                      "client": "bench-client", "seq": str(number),
+                                      **form.sent()},
                                hx=edit_headers(marks))
+            form.read(edit.text)
             edits.append(edit)
             return edit
 
@@ -174,6 +182,8 @@ class SizeRun:
         failed = sum(edit.status != 200 for edit in edits)
         note = (f"n={len(edits)} after {warm_up_edits} warm-up edits"
                 + (f", {failed} answered other than 200" if failed else ""))
+        if not form.version:
+            note += ", the page carried no version (edits not guarded as a browser's are)"
         if stored_value_text(self.database, marks.edit_step) != f"1 in {100 + len(sent)}":
             note += ", the last edit is not in the database"
         seconds = [edit.seconds for edit in edits]

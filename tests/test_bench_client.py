@@ -6,7 +6,7 @@ Checked against a stand-in server (httpx.MockTransport) that records each reques
 import httpx
 import numpy
 
-from bench.client import BrowserClient, percentile
+from bench.client import BrowserClient, FieldForm, percentile
 
 PAGE = ('<html><head><meta name="csrf-token" content="token-42"></head>'
         '<body>invented page</body></html>')
@@ -61,3 +61,17 @@ def test_percentiles_agree_with_numpy_inverted_cdf() -> None:
     for share in (0.5, 0.9, 0.99):
         expected = float(numpy.percentile(samples, share * 100, method="inverted_cdf"))
         assert percentile(samples, share) == expected
+
+
+def test_a_field_form_reads_the_page_then_each_reply_as_htmx_swaps_them_in() -> None:
+    """The page writes id before name, a reply name before id; an unrelated row is ignored."""
+    form = FieldForm("step-12", "value_text")
+    form.read('<input type="hidden" id="step-120-version" name="version" value="9">'
+              '<input type="hidden" id="step-12-version" name="version" value="3">'
+              '<input type="hidden" name="orig_value_text" id="step-12-value_text-orig" '
+              'value="1 in 10 &amp; rising">')
+    assert form.sent() == {"version": "3", "orig_value_text": "1 in 10 & rising"}
+    form.read('<span id="step-12-value_text-said">saved</span>'
+              '<input type="hidden" name="version" id="step-12-version" value="4" '
+              'hx-swap-oob="true">')  # a reply without the original keeps the last one
+    assert form.sent() == {"version": "4", "orig_value_text": "1 in 10 & rising"}
