@@ -10,9 +10,10 @@ log records them like any other edit. The caller commits.
 
 from collections.abc import Mapping
 from enum import StrEnum
+from functools import cache
 from typing import Any, TypeVar
 
-from sqlalchemy import select, update
+from sqlalchemy import bindparam, select, update
 from sqlmodel import Session
 
 from app.db.models import TrackedRow, utc_now
@@ -40,16 +41,23 @@ def save_if_version(
     unknown = set(changes) - set(table.c.keys()) | (set(changes) & PROTECTED_FIELDS)
     if unknown:
         raise ValueError(f"{model.__name__} has no editable field {sorted(unknown)}")
-    claimed = session.execute(
-        update(table)
-        .where(table.c.id == row_id, table.c.version == expected_version)
-        .values(version=table.c.version + 1, updated_at=utc_now())
-    )
+    claimed = session.execute(_claim_version(table), {
+        "row_id": row_id, "expected_version": expected_version, "now": utc_now()})
     if claimed.rowcount != 1:  # type: ignore[attr-defined]
         exists = session.execute(select(table.c.id).where(table.c.id == row_id)).first()
         return SaveOutcome.CHANGED_SINCE if exists else SaveOutcome.DELETED
     _apply_claimed(session, model, row_id, changes)
     return SaveOutcome.SAVED
+
+
+@cache
+def _claim_version(table: Any) -> Any:
+    """The guarded UPDATE of one table, built once (every keystroke of a page runs it)."""
+    return (update(table)
+            .where(table.c.id == bindparam("row_id"),
+                   table.c.version == bindparam("expected_version"))
+            .values(version=table.c.version + 1,
+                    updated_at=bindparam("now", type_=table.c.updated_at.type)))
 
 
 def _apply_claimed(

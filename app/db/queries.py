@@ -1,5 +1,6 @@
 """Query builders (pure: they return statements) and the one-line runners beside them."""
 
+from functools import cache
 from typing import Any, TypeVar
 
 from sqlalchemy import Row as ResultRow
@@ -53,7 +54,19 @@ def plain_rows_of_study(model: type[Any], study_id: int, names: tuple[str, ...] 
 
 def fetch_rows_of_study(session: Session, model: type[Row], study_id: int) -> list[Row]:
     """Run rows_of_study."""
-    return list(session.exec(rows_of_study(model, study_id)).all())
+    table: Any = model  # hashable: the statement is built once per model
+    return list(session.exec(_rows_of_parent(table, "study_id"),
+                             params={"parent_id": study_id}).all())
+
+
+@cache
+def _rows_of_parent(model: Any, parent_field: str) -> SelectOfScalar[Any]:
+    """The rows of `model` under one parent (bound as parent_id), in display order: built once
+    per model (an edit's reply runs several; building and keying a statement cost about as
+    much as running it)."""
+    table: Any = model
+    return _in_display_order(
+        select(model).where(getattr(table, parent_field) == bindparam("parent_id")), model)
 
 
 def rows_of_node(model: type[Row], node_id: int) -> SelectOfScalar[Row]:
@@ -75,8 +88,8 @@ def fetch_rows_of_node(session: Session, model: type[Row], node_id: int) -> list
 def fetch_rows_of_scenario(session: Session, model: type[Row], scenario_id: int) -> list[Row]:
     """A scenario's steps or safeguards, in display order."""
     table: Any = model
-    return list(session.exec(_in_display_order(
-        select(model).where(table.scenario_id == scenario_id), model)).all())
+    return list(session.exec(_rows_of_parent(table, "scenario_id"),
+                             params={"parent_id": scenario_id}).all())
 
 
 def _step_figure_columns() -> list[Any]:
@@ -213,12 +226,16 @@ def recommendations_of_node(node_id: int) -> Any:
 def fetch_recommendations_of_scenario(session: Session, scenario_id: int
                                       ) -> tuple[Recommendation, ...]:
     """The actions linked to one scenario, in the actions' order."""
-    return tuple(session.exec(
-        select(Recommendation)
-        .join(RecommendationScenario,
-              col(Recommendation.id) == col(RecommendationScenario.recommendation_id))
-        .where(RecommendationScenario.scenario_id == scenario_id)
-        .order_by(col(Recommendation.position), col(Recommendation.id))).all())
+    return tuple(session.exec(_RECOMMENDATIONS_OF_SCENARIO,
+                              params={"scenario_id": scenario_id}).all())
+
+
+_RECOMMENDATIONS_OF_SCENARIO = (
+    select(Recommendation)
+    .join(RecommendationScenario,
+          col(Recommendation.id) == col(RecommendationScenario.recommendation_id))
+    .where(RecommendationScenario.scenario_id == bindparam("scenario_id"))
+    .order_by(col(Recommendation.position), col(Recommendation.id)))
 
 
 def _place_among(table: Any, parent: Any, prefix: str) -> Any:

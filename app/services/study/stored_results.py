@@ -203,6 +203,9 @@ def _current_studies(session: Session, study_ids: set[int]) -> set[int]:
         table.results_version == RESULTS_VERSION)).scalars())
 
 
+_UPDATE_STORED = update(_STORED).where(_STORED.scenario_id == bindparam("key"))
+
+
 def _write_rows(session: Session, held_ids: set[int],
                fresh: Mapping[int, Mapping[str, Any]]) -> None:
     """Update the rows held (one executemany), insert the new ones, delete those not computed
@@ -210,8 +213,7 @@ def _write_rows(session: Session, held_ids: set[int],
     table: Any = ScenarioResultRow
     updated = [{"key": sid, **row} for sid, row in fresh.items() if sid in held_ids]
     if updated:
-        session.connection().execute(
-            update(table).where(table.scenario_id == bindparam("key")), updated)
+        session.connection().execute(_UPDATE_STORED, updated)
     added = [row for sid, row in fresh.items() if sid not in held_ids]
     if added:
         session.connection().execute(insert(table), added)
@@ -286,17 +288,21 @@ def _totals(row: Any) -> NodeTotals:
 NO_SCENARIOS = NodeTotals(0, 0, 0)
 
 
+_TOTALS_OF_NODES = select(_TOTALS).where(
+    _TOTALS.study_id == bindparam("study_id"),
+    _TOTALS.node_id.in_(bindparam("node_ids", expanding=True)))
+
+
 def stored_totals(session: Session, study_id: int, node_id: int
                   ) -> tuple[NodeTotals, NodeTotals]:
     """The node's and the study's counts from their stored rows (two rows read)."""
-    table: Any = ResultTotal
-    statement = select(table).where(table.study_id == study_id,
-                                    table.node_id.in_(sorted({node_id, STUDY_ROW})))
-    rows = {row.node_id: row for row in session.connection().execute(statement)}
+    params = {"study_id": study_id, "node_ids": sorted({node_id, STUDY_ROW})}
+    rows = {row.node_id: row for row in session.connection().execute(_TOTALS_OF_NODES, params)}
     study_row = rows.get(STUDY_ROW)
     if study_row is None or study_row.results_version != RESULTS_VERSION:
         rebuild_study_results(session, study_id)
-        rows = {row.node_id: row for row in session.connection().execute(statement)}
+        rows = {row.node_id: row
+                for row in session.connection().execute(_TOTALS_OF_NODES, params)}
     node = _totals(rows[node_id]) if node_id in rows else NO_SCENARIOS
     return node, _totals(rows[STUDY_ROW])
 

@@ -30,6 +30,7 @@ from app.services.study.listing import NodeTotals, totals_of
 from app.services.study.stored_results import ensure_current
 from app.services.study.totals import study_totals
 from app.services.study.tree import load_node_tree, load_study_tree
+from bench.client import FieldForm
 from tests.helpers import HX
 
 LARGE = 40
@@ -310,6 +311,40 @@ def test_a_value_edit_reads_and_computes_the_same_on_1_node_as_on_40_nodes(
                                                     "Deviation": 1})
     # A deeper index costs a seek a few machine steps; reading the study would cost 40 times more.
     assert large.vm_steps <= small.vm_steps * 1.02
+
+
+ORM_LOOKUPS = 2  # session.get of the step, and its re-read under the guard's lock
+
+
+def test_a_keystroke_runs_statements_built_once_except_the_orms_row_lookups(
+    client: TestClient, session: Session, db_engine: Engine
+) -> None:
+    """Building a statement and working out its cache key cost about as much as SQLite
+    running it, so the statements a keystroke runs are built once per process. Only the
+    ORM's own look-ups by primary key are built per call (the ORM's business)."""
+    study = imported_study(session, 1)
+    trip = trip_of_first_node(session, study)
+    url = f"/studies/{study.id}/steps/{trip.id}/value"
+    seen: list[list[int]] = []
+
+    def note(_conn: Any, statement: Any, *_args: Any) -> None:
+        seen[-1].append(id(statement))
+
+    # The page's hidden version and saved text, taken from each reply as htmx swaps them in.
+    form = FieldForm(f"step-{trip.id}", "value_text", str(trip.version), trip.value_text or "")
+    event.listen(db_engine, "before_execute", note)
+    try:
+        for seq, text in enumerate(("1 in 1000", "1 in 500", "1 in 200"), start=1):
+            seen.append([])
+            answer = client.post(url, headers=HX, data={**keystroke(seq, text), **form.sent()})
+            assert answer.status_code == 200
+            form.read(answer.text)
+    finally:
+        event.remove(db_engine, "before_execute", note)
+    second, third = seen[1], seen[2]
+    assert len(second) == len(third)
+    rebuilt = sum(a != b for a, b in zip(second, third, strict=True))
+    assert rebuilt <= ORM_LOOKUPS, rebuilt
 
 
 def test_the_room_poll_reads_one_row_at_any_size(client: TestClient, session: Session,
