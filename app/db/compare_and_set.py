@@ -13,7 +13,9 @@ from enum import StrEnum
 from functools import cache
 from typing import Any, TypeVar
 
-from sqlalchemy import bindparam, select, update
+from sqlalchemy import bindparam, inspect, select, update
+from sqlalchemy.orm.attributes import set_committed_value
+from sqlalchemy.orm.util import identity_key
 from sqlmodel import Session
 
 from app.db.models import TrackedRow, utc_now
@@ -41,13 +43,32 @@ def save_if_version(
     unknown = set(changes) - set(table.c.keys()) | (set(changes) & PROTECTED_FIELDS)
     if unknown:
         raise ValueError(f"{model.__name__} has no editable field {sorted(unknown)}")
+    now = utc_now()
     claimed = session.execute(_claim_version(table), {
-        "row_id": row_id, "expected_version": expected_version, "now": utc_now()})
+        "row_id": row_id, "expected_version": expected_version, "now": now})
     if claimed.rowcount != 1:  # type: ignore[attr-defined]
         exists = session.execute(select(table.c.id).where(table.c.id == row_id)).first()
         return SaveOutcome.CHANGED_SINCE if exists else SaveOutcome.DELETED
-    _apply_claimed(session, model, row_id, changes)
+    _apply_claimed(session, _claimed_row(session, model, row_id, expected_version, now),
+                   changes)
     return SaveOutcome.SAVED
+
+
+def _claimed_row(session: Session, model: type[Row], row_id: int, expected_version: int,
+                 now: Any) -> Row:
+    """The row as the guarded UPDATE left it. When the session already holds it at the version
+    that UPDATE matched, unchanged, it is the row as stored then: only the version and the time
+    the UPDATE set are new, and they are noted as stored (no second read). Otherwise, or if it
+    was loaded before a save that raised the version, it is read again in this transaction."""
+    held: Row | None = session.identity_map.get(identity_key(model, row_id))
+    if (held is not None and held not in session.dirty and held.version == expected_version
+            and not inspect(held).expired_attributes):
+        set_committed_value(held, "version", expected_version + 1)
+        set_committed_value(held, "updated_at", now)
+        return held
+    row = session.get(model, row_id, populate_existing=True)
+    assert row is not None  # the guarded UPDATE has just matched it and holds the lock
+    return row
 
 
 @cache
@@ -60,13 +81,8 @@ def _claim_version(table: Any) -> Any:
                     updated_at=bindparam("now", type_=table.c.updated_at.type)))
 
 
-def _apply_claimed(
-    session: Session, model: type[Row], row_id: int, changes: Mapping[str, Any]
-) -> None:
-    # Re-read inside this transaction: the row as it is now, with the version just raised.
-    row = session.get(model, row_id, populate_existing=True)
-    assert row is not None  # the guarded UPDATE has just matched it and holds the lock
-    key = (model, row_id)
+def _apply_claimed(session: Session, row: TrackedRow, changes: Mapping[str, Any]) -> None:
+    key = (type(row), int(row.id))  # type: ignore[attr-defined]
     claimed: set[tuple[type, int]] = session.info.setdefault(CLAIMED_KEY, set())
     claimed.add(key)
     try:

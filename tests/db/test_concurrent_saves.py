@@ -10,7 +10,7 @@ from concurrent.futures import ThreadPoolExecutor
 from typing import TypeVar
 
 import pytest
-from sqlalchemy import Engine
+from sqlalchemy import Engine, event
 from sqlmodel import Session, select
 
 from app.db.compare_and_set import SaveOutcome, save_if_version
@@ -122,3 +122,52 @@ def test_a_guarded_save_refuses_fields_the_caller_may_not_set(
 ) -> None:
     with pytest.raises(ValueError, match=f"Step has no editable field \\['{field}'\\]"):
         save_if_version(session, Step, step.id or 0, 1, {field: 3})
+
+
+def _step_reads(db_engine: Engine) -> tuple[list[str], Callable[..., None]]:
+    seen: list[str] = []
+
+    def note(_conn: object, _cursor: object, statement: str, *_args: object) -> None:
+        if statement.lstrip().upper().startswith("SELECT") and "FROM step" in statement:
+            seen.append(statement)
+
+    return seen, note
+
+
+def test_a_row_held_at_the_matched_version_is_not_read_again(
+    session: Session, db_engine: Engine, step: Step
+) -> None:
+    session.refresh(step)  # the page's row, loaded in this session at version 1
+    seen, note = _step_reads(db_engine)
+    event.listen(db_engine, "before_cursor_execute", note)
+    try:
+        outcome = save_if_version(session, Step, step.id or 0, 1, {"value": 0.01})
+    finally:
+        event.remove(db_engine, "before_cursor_execute", note)
+    assert outcome is SaveOutcome.SAVED and seen == []
+    assert step.version == 2 and step.updated_at is not None
+    session.commit()
+    stored = _stored(db_engine, step.id or 0)
+    assert (stored.value, stored.version) == (0.01, 2)
+    edits = session.exec(select(ChangeLogEntry).where(ChangeLogEntry.field == "value")).all()
+    assert [(e.old_value, e.new_value) for e in edits] == [("0.1", "0.01")]
+
+
+def test_a_row_held_from_before_another_save_is_read_again_and_keeps_that_save(
+    session: Session, db_engine: Engine, step: Step
+) -> None:
+    """Loaded at version 1; someone saves a description (version 2); this page, which showed
+    version 2, saves the value: the row it saves from is the stored one, not the one held."""
+    session.refresh(step)
+    with Session(db_engine) as other:
+        other.info[AUTHOR_KEY] = "Other Editor"
+        assert save_if_version(other, Step, step.id or 0, 1,
+                               {"description": "Relief valve PSV-101 (invented)"}
+                               ) is SaveOutcome.SAVED
+        other.commit()
+    assert save_if_version(session, Step, step.id or 0, 2, {"value": 0.01}) is SaveOutcome.SAVED
+    assert (step.description, step.version) == ("Relief valve PSV-101 (invented)", 3)
+    session.commit()
+    stored = _stored(db_engine, step.id or 0)
+    assert (stored.description, stored.value, stored.version) == (
+        "Relief valve PSV-101 (invented)", 0.01, 3)
