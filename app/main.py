@@ -6,6 +6,7 @@ import pkgutil
 from fastapi import APIRouter, Depends, FastAPI
 from fastapi.exceptions import RequestValidationError
 from fastapi.staticfiles import StaticFiles
+from sqlalchemy.exc import OperationalError
 from starlette.exceptions import HTTPException as StarletteHTTPException
 
 import app.routes
@@ -52,4 +53,5 @@ def create_app(settings: Settings | None = None) -> FastAPI:
     application.add_exception_handler(DeletedSinceError, errors.deleted_since)
     application.add_exception_handler(StarletteHTTPException, errors.http_error)
     application.add_exception_handler(RequestValidationError, errors.invalid_input)
+    application.add_exception_handler(OperationalError, errors.database_busy)
     return application

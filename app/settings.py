@@ -39,6 +39,9 @@ class Settings(BaseSettings):
     # How often the server copies an SQLite write-ahead log into the database file, off the
     # request path (app/lifecycle.py WalCheckpoints).
     wal_checkpoint_seconds: float = Field(default=1.0, gt=0)
+    # How long a request waits for another write to an SQLite database to finish (one writer
+    # at a time: a large import holds it for seconds) before it is answered "busy" (503).
+    sqlite_busy_seconds: float = Field(default=5.0, gt=0, le=600)
 
     @field_validator("database_url")
     @classmethod

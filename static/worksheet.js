@@ -1,6 +1,7 @@
 // Tallyroom worksheet: what htmx attributes cannot say on their own.
 // - a sequence number per value field, so a reply older than the newest text is never shown
 //   (the server keeps the same order in the database: services/study/conflicts.py);
+// - a value the database was too busy to take (503) is sent again after Retry-After;
 // - "keep mine" / "take theirs" put the chosen value in the field after a conflict;
 // - keyboard: Enter to the next field (after a kind's last row: its add button, which adds
 //   only with its own Enter), Escape to cancel, Alt+arrows to move, Alt+Delete to delete
@@ -94,6 +95,25 @@
     if (answered && Number(answered) < Number(field.dataset.seq || "0")) return;
     if (event.detail.xhr.status === 422) field.setAttribute("aria-invalid", "true");
     else if (event.detail.xhr.status === 200) field.removeAttribute("aria-invalid");
+  });
+
+  // A value the database was too busy to take (503: another large write, such as an import,
+  // held it past the server's wait; nothing was saved): the field's line says so, and the
+  // value is sent again after the answer's Retry-After, while the field is on the page (the
+  // newest text then: typing in between sends its own).
+  document.addEventListener("htmx:responseError", function (event) {
+    const field = event.detail.elt;
+    const xhr = event.detail.xhr;
+    if (xhr.status !== 503 || !field.matches || !field.matches("[data-value-field]")) return;
+    const wait = Number(xhr.getResponseHeader("Retry-After")) || 2;
+    const said = document.getElementById(field.id + "-said");
+    if (said) {
+      said.textContent = window.TallyroomErrors.sentence(xhr) + " Sending it again in " + wait + " s.";
+      said.classList.add("field-error");
+    }
+    setTimeout(function () {
+      if (field.isConnected) field.dispatchEvent(new Event("change", { bubbles: true }));
+    }, wait * 1000);
   });
 
   // "Keep mine" / "Take theirs" after a conflict (409): the field shows the chosen value; the

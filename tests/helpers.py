@@ -4,14 +4,19 @@ Test modules import helpers from here (or fixtures from conftest), never from ea
 """
 
 
+import sqlite3
 import threading
-from collections.abc import Callable
+from collections.abc import Callable, Iterator
+from contextlib import contextmanager
 from html.parser import HTMLParser
 from typing import TypeVar
 
+import pytest
 from sqlalchemy import Engine
 from sqlmodel import Session
 
+import app.db.session as session_module
+from app.db.session import build_db_engine
 from app.db.tracking import AUTHOR_KEY
 
 TEST_AUTHOR = "Test Scribe"
@@ -171,3 +176,28 @@ def run_at_once(db_engine: Engine, move: Callable[[Session, int, int], object],
     for thread in workers:
         thread.join()
     return errors
+
+
+@contextmanager
+def another_writer(db_engine: Engine) -> Iterator[None]:
+    """Another process's long write to an SQLite database (a large import): its write lock
+    held by a plain connection until the block ends."""
+    holder = sqlite3.connect(str(db_engine.url.database), isolation_level=None)
+    holder.execute("BEGIN IMMEDIATE")
+    try:
+        yield
+    finally:
+        holder.execute("ROLLBACK")
+        holder.close()
+
+
+def waiting_less_for_writers(db_engine: Engine, monkeypatch: pytest.MonkeyPatch,
+                             seconds: float) -> Iterator[Engine]:
+    """For a fixture: the app's sessions on an engine that waits `seconds` for another write
+    instead of the settings' 5 (SQLite only: one writer at a time is its rule)."""
+    if db_engine.dialect.name != "sqlite":
+        pytest.skip("one writer at a time is SQLite's rule (PostgreSQL locks rows)")
+    impatient = build_db_engine(str(db_engine.url), busy_seconds=seconds)
+    monkeypatch.setattr(session_module, "get_db_engine", lambda: impatient)
+    yield impatient
+    impatient.dispose()

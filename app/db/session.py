@@ -1,12 +1,13 @@
 """The one place that creates the database engine and configures its connections."""
 
-from collections.abc import AsyncIterator
+from collections.abc import AsyncIterator, Callable
 from functools import lru_cache
 from pathlib import Path
 from typing import Any
 
 from sqlalchemy import Engine, event
 from sqlalchemy.engine import make_url
+from sqlalchemy.exc import OperationalError
 from sqlalchemy.pool import StaticPool
 from sqlmodel import Session, create_engine
 
@@ -22,19 +23,26 @@ from app.settings import get_settings
 WAL_AUTOCHECKPOINT_PAGES = 10_000
 
 
-def _set_sqlite_pragmas(dbapi_connection: Any, _record: Any) -> None:
-    # SQLite leaves foreign keys off by default; cascades and integrity rely on them.
-    # synchronous stays at its default FULL: a commit's log frame is on disk before the reply.
-    cursor = dbapi_connection.cursor()
-    cursor.execute("PRAGMA foreign_keys=ON")
-    cursor.execute("PRAGMA journal_mode=WAL")
-    cursor.execute("PRAGMA busy_timeout=5000")
-    cursor.execute(f"PRAGMA wal_autocheckpoint={WAL_AUTOCHECKPOINT_PAGES}")
-    cursor.close()
+def _sqlite_pragmas(busy_seconds: float) -> Callable[[Any, Any], None]:
+    """What every new SQLite connection is told first."""
+
+    def set_pragmas(dbapi_connection: Any, _record: Any) -> None:
+        # SQLite leaves foreign keys off by default; cascades and integrity rely on them.
+        # synchronous stays at its default FULL: a commit's log frame is on disk before the
+        # reply.
+        cursor = dbapi_connection.cursor()
+        cursor.execute("PRAGMA foreign_keys=ON")
+        cursor.execute("PRAGMA journal_mode=WAL")
+        cursor.execute(f"PRAGMA busy_timeout={round(busy_seconds * 1000)}")
+        cursor.execute(f"PRAGMA wal_autocheckpoint={WAL_AUTOCHECKPOINT_PAGES}")
+        cursor.close()
+
+    return set_pragmas
 
 
-def build_db_engine(url: str) -> Engine:
-    """Create an engine for `url`; dialect-specific settings live only here."""
+def build_db_engine(url: str, busy_seconds: float | None = None) -> Engine:
+    """Create an engine for `url`; dialect-specific settings live only here. `busy_seconds`:
+    how long an SQLite write waits for another's (default: settings)."""
     parsed = make_url(url)
     if parsed.get_backend_name() != "sqlite":
         return create_engine(url, pool_pre_ping=True)
@@ -44,8 +52,19 @@ def build_db_engine(url: str) -> Engine:
     elif parsed.database:
         Path(parsed.database).parent.mkdir(parents=True, exist_ok=True)
     db_engine = create_engine(url, **kwargs)
-    event.listen(db_engine, "connect", _set_sqlite_pragmas)
+    waits = get_settings().sqlite_busy_seconds if busy_seconds is None else busy_seconds
+    event.listen(db_engine, "connect", _sqlite_pragmas(waits))
     return db_engine
+
+
+def is_busy(err: OperationalError) -> bool:
+    """Whether the database refused a statement because another write held it past the wait
+    (SQLite's "database is locked"), not because anything is wrong with the statement."""
+    return str(err.orig).startswith(BUSY_MESSAGES)
+
+
+BUSY_MESSAGES = ("database is locked", "database table is locked")
+"""sqlite3's text for SQLITE_BUSY and SQLITE_LOCKED."""
 
 
 @lru_cache
