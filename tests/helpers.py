@@ -16,6 +16,7 @@ from sqlalchemy import Engine
 from sqlmodel import Session
 
 import app.db.session as session_module
+from app.db.models import Deviation, Scenario
 from app.db.session import build_db_engine
 from app.db.tracking import AUTHOR_KEY
 
@@ -201,3 +202,12 @@ def waiting_less_for_writers(db_engine: Engine, monkeypatch: pytest.MonkeyPatch,
     monkeypatch.setattr(session_module, "get_db_engine", lambda: impatient)
     yield impatient
     impatient.dispose()
+
+
+def worksheet_path(session: Session, scenario_id: int | None) -> str:
+    """The worksheet page of the node holding a scenario."""
+    scenario = session.get(Scenario, scenario_id)
+    assert scenario is not None
+    deviation = session.get(Deviation, scenario.deviation_id)
+    assert deviation is not None
+    return f"/studies/{scenario.study_id}/nodes/{deviation.node_id}"

@@ -13,9 +13,9 @@ from playwright.sync_api import Page, expect
 from sqlalchemy import Engine
 from sqlmodel import Session
 
-from app.db.models import Deviation, Scenario, Step
+from app.db.models import Step
 from tests.factories import make_scenario_tree, make_step
-from tests.helpers import another_writer, waiting_less_for_writers
+from tests.helpers import another_writer, waiting_less_for_writers, worksheet_path
 
 
 @pytest.fixture
@@ -40,11 +40,7 @@ def saved_text(session: Session, step: Step) -> str:
 def test_a_value_typed_while_the_database_is_busy_is_sent_again_and_saved(
     page: Page, live_server: str, session: Session, db_engine: Engine, layer: Step,
 ) -> None:
-    scenario = session.get(Scenario, layer.scenario_id)
-    assert scenario is not None
-    deviation = session.get(Deviation, scenario.deviation_id)
-    assert deviation is not None
-    page.goto(f"{live_server}/studies/{layer.study_id}/nodes/{deviation.node_id}")
+    page.goto(live_server + worksheet_path(session, layer.scenario_id))
     field = page.locator(f"#step-{layer.id}-value_text")
     said = page.locator(f"#step-{layer.id}-value_text-said")
     with another_writer(db_engine):
@@ -63,18 +59,14 @@ def test_a_value_typed_while_the_database_is_busy_is_sent_again_and_saved(
 def test_a_button_pressed_while_the_database_is_busy_says_so_at_the_top_until_one_succeeds(
     page: Page, live_server: str, session: Session, db_engine: Engine, layer: Step,
 ) -> None:
-    scenario = session.get(Scenario, layer.scenario_id)
-    assert scenario is not None
-    deviation = session.get(Deviation, scenario.deviation_id)
-    assert deviation is not None
-    page.goto(f"{live_server}/studies/{layer.study_id}/nodes/{deviation.node_id}")
-    add_ipl = page.locator(f"#scenario-{scenario.id} form[data-add='ipl'] button")
+    page.goto(live_server + worksheet_path(session, layer.scenario_id))
+    add_ipl = page.locator(f"#scenario-{layer.scenario_id} form[data-add='ipl'] button")
     notice = page.locator("#request-notice")
     with another_writer(db_engine):
         add_ipl.click()
         expect(notice).to_contain_text("busy", timeout=5_000)
         expect(notice).to_contain_text("nothing was saved")
         expect(notice).to_have_attribute("role", "alert")
-    page.locator(f"#scenario-{scenario.id} form[data-add='ipl'] button").click()
+    add_ipl.click()
     expect(notice).to_have_count(0)
-    expect(page.locator(f"#scenario-{scenario.id} [data-value-field]")).to_have_count(3)
+    expect(page.locator(f"#scenario-{layer.scenario_id} [data-value-field]")).to_have_count(3)
