@@ -57,14 +57,14 @@ def build_db_engine(url: str, busy_seconds: float | None = None) -> Engine:
     return db_engine
 
 
+BUSY_MESSAGES = ("database is locked", "database table is locked")
+"""sqlite3's text for SQLITE_BUSY and SQLITE_LOCKED."""
+
+
 def is_busy(err: OperationalError) -> bool:
     """Whether the database refused a statement because another write held it past the wait
     (SQLite's "database is locked"), not because anything is wrong with the statement."""
     return str(err.orig).startswith(BUSY_MESSAGES)
-
-
-BUSY_MESSAGES = ("database is locked", "database table is locked")
-"""sqlite3's text for SQLITE_BUSY and SQLITE_LOCKED."""
 
 
 @lru_cache

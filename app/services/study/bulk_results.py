@@ -113,6 +113,7 @@ class _ProcessSetting:
 
     @contextmanager
     def held(self) -> Iterator[None]:
+        """The setting changed for the block (counted: nested and concurrent holders share)."""
         with self.lock:
             if self.holders == 0:
                 self.before = self.read()
