@@ -108,7 +108,9 @@
     const wait = Number(xhr.getResponseHeader("Retry-After")) || 2;
     const said = document.getElementById(field.id + "-said");
     if (said) {
-      said.textContent = window.TallyroomErrors.sentence(xhr) + " Sending it again in " + wait + " s.";
+      // Short, in the narrow value column; the server's whole sentence is the line's title.
+      said.textContent = "Not saved: the database is busy. Sending again in " + wait + " s.";
+      said.title = window.TallyroomErrors.sentence(xhr);
       said.classList.add("field-error");
     }
     setTimeout(function () {

@@ -103,8 +103,9 @@ RETRY_AFTER_SECONDS = 2
 
 def busy_message() -> str:
     """Why a request found the database busy, and that nothing of it was kept."""
+    waited = get_settings().sqlite_busy_seconds
     return (f"The database is busy writing another large change (such as an import) and did "
-            f"not take this one within {get_settings().sqlite_busy_seconds:g} seconds; "
+            f"not take this one within {waited:g} second{'' if waited == 1 else 's'}; "
             f"nothing was saved. Try again in a moment.")
 
 
