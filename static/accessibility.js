@@ -5,7 +5,8 @@
 // 2. The page's one live region (#page-status, role=status, polite). Screen readers hear one
 //    short status, never the text still being typed:
 // - worksheet: once typing pauses (no input for PAUSE_MS and no value on its way), the scenario
-//   the person is in: mitigated frequency, gap and required SIL, or why the value was not read;
+//   the person is in: mitigated frequency, gap and required SIL, why the value was not read,
+//   or that it is not saved yet (a busy database; again once it is saved);
 // - room view: the shown scenario's figures once they have changed and stood still for
 //   PAUSE_MS (the poll replaces the figures, never this region).
 (function () {
@@ -55,6 +56,10 @@
     const heading = scenario.querySelector("h4");  // its first text: "Scenario 1.2.3"
     const name = (heading && heading.firstChild ? heading.firstChild.textContent.trim() : "") ||
       "Scenario";
+    if (field.hasAttribute("data-unsaved")) {
+      return (field.getAttribute("aria-label") || name) + ": " +
+        textOf(document, "#" + CSS.escape(field.id) + "-said");
+    }
     if (field.getAttribute("aria-invalid") === "true") {
       const why = textOf(document, "#" + CSS.escape(field.id) + "-said");
       return (field.getAttribute("aria-label") || name) + ": not read. " + why;
@@ -82,6 +87,12 @@
       say(fieldStatus(lastField));
     }, PAUSE_MS);
   }
+
+  // A value field whose state changed without typing (a busy database's answer, then the
+  // saved value) says so once requests settle, like a pause in typing.
+  window.TallyroomStatus = {
+    changed: function (field) { lastField = field; afterPause(); }
+  };
 
   function onEdit(event) {
     const field = event.target;

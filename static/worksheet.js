@@ -95,6 +95,10 @@
     if (answered && Number(answered) < Number(field.dataset.seq || "0")) return;
     if (event.detail.xhr.status === 422) field.setAttribute("aria-invalid", "true");
     else if (event.detail.xhr.status === 200) field.removeAttribute("aria-invalid");
+    if (event.detail.xhr.status !== 503 && field.hasAttribute("data-unsaved")) {
+      field.removeAttribute("data-unsaved");
+      if (window.TallyroomStatus) window.TallyroomStatus.changed(field);
+    }
   });
 
   // A value the database was too busy to take (503: another large write, such as an import,
@@ -113,6 +117,8 @@
       said.title = window.TallyroomErrors.sentence(xhr);
       said.classList.add("field-error");
     }
+    field.setAttribute("data-unsaved", "");
+    if (window.TallyroomStatus) window.TallyroomStatus.changed(field);
     setTimeout(function () {
       if (field.isConnected) field.dispatchEvent(new Event("change", { bubbles: true }));
     }, wait * 1000);

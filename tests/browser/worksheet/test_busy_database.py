@@ -50,8 +50,12 @@ def test_a_value_typed_while_the_database_is_busy_is_sent_again_and_saved(
         expect(said).to_have_text("Not saved: the database is busy. Sending again in 2 s.",
                                   timeout=5_000)
         expect(said).to_have_attribute("title", re.compile("nothing was saved"))
+        # A screen reader hears it too, once requests settle (the page's one live region).
+        expect(page.locator("#page-status")).to_contain_text(
+            "Not saved: the database is busy.", timeout=5_000)
         assert saved_text(session, layer) == "1 in 10"
     expect(said).to_have_text("1 in 1,000 · 1.0e-3", timeout=10_000)  # sent again, saved
+    expect(page.locator("#page-status")).to_contain_text("mitigated 1.0e-4 /yr", timeout=5_000)
     expect(field).to_have_value("1 in 1000")
     assert saved_text(session, layer) == "1 in 1000"
 
