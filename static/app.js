@@ -46,9 +46,11 @@
     notice.textContent = errorSentence(event.detail.xhr);
   });
 
+  // Gone once a change goes through (a page's background reads say nothing about that).
   document.addEventListener("htmx:afterRequest", function (event) {
     const notice = document.getElementById("request-notice");
-    if (notice && event.detail.successful) notice.remove();
+    const config = event.detail.requestConfig;
+    if (notice && event.detail.successful && config && config.verb !== "get") notice.remove();
   });
 
   document.addEventListener("click", function (event) {
