@@ -61,10 +61,19 @@ BUSY_MESSAGES = ("database is locked", "database table is locked")
 """sqlite3's text for SQLITE_BUSY and SQLITE_LOCKED."""
 
 
-def is_busy(err: OperationalError) -> bool:
+def is_busy(err: BaseException) -> bool:
     """Whether the database refused a statement because another write held it past the wait
     (SQLite's "database is locked"), not because anything is wrong with the statement."""
-    return str(err.orig).startswith(BUSY_MESSAGES)
+    return isinstance(err, OperationalError) and str(err.orig).startswith(BUSY_MESSAGES)
+
+
+def busy_clause(nothing_kept: str = "nothing was saved") -> str:
+    """Why the database did not take a change, and that nothing of it was kept (a clause:
+    the caller capitalises it or puts it after its own words)."""
+    waited = get_settings().sqlite_busy_seconds
+    return (f"the database is busy writing another large change (such as an import) and did "
+            f"not take this one within {waited:g} second{'' if waited == 1 else 's'}; "
+            f"{nothing_kept}. Try again in a moment.")
 
 
 @lru_cache

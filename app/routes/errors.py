@@ -12,14 +12,12 @@ from typing import Any
 from fastapi import Request
 from fastapi.exception_handlers import request_validation_exception_handler
 from fastapi.exceptions import RequestValidationError
-from sqlalchemy.exc import OperationalError
 from starlette.exceptions import HTTPException as StarletteHTTPException
 from starlette.responses import JSONResponse, Response
 
-from app.db.session import is_busy
+from app.db.session import busy_clause, is_busy
 from app.routes.rendering import is_htmx, render
 from app.services.study.conflicts import DeletedSinceError
-from app.settings import get_settings
 
 API_PREFIXES = ("/api/", "/openapi.json")
 # Starlette's own words for its errors, said as the rest of the app says things.
@@ -101,25 +99,18 @@ RETRY_AFTER_SECONDS = 2
 """How soon a request refused as busy may be sent again (the worksheet's values are)."""
 
 
-def busy_message() -> str:
-    """Why a request found the database busy, and that nothing of it was kept."""
-    waited = get_settings().sqlite_busy_seconds
-    return (f"The database is busy writing another large change (such as an import) and did "
-            f"not take this one within {waited:g} second{'' if waited == 1 else 's'}; "
-            f"nothing was saved. Try again in a moment.")
-
-
 def database_busy(request: Request, exc: Exception) -> Response:
     """Another write held an SQLite database past the wait: 503 with Retry-After, never a
     server error (a page, JSON, or for htmx the message block, which the worksheet shows
     beside the field and sends the value again). Any other database error stays an error."""
-    assert isinstance(exc, OperationalError)
     if not is_busy(exc):
         raise exc
     headers = {"Retry-After": str(RETRY_AFTER_SECONDS)}
+    clause = busy_clause()
+    message = clause[:1].upper() + clause[1:]
     if wants_json(request):
-        return JSONResponse({"detail": busy_message()}, status_code=503, headers=headers)
-    response = error_page(request, 503, busy_message(),
+        return JSONResponse({"detail": message}, status_code=503, headers=headers)
+    response = error_page(request, 503, message,
                           block="message" if is_htmx(request) else None)
     response.headers.update(headers)
     return response

@@ -74,7 +74,9 @@ def test_a_browser_gets_a_page_and_an_api_client_json_saying_busy(
                                   headers={"Accept": "application/json"})
     assert page.status_code == json_answer.status_code == 503
     assert "<html" in page.text and "Busy" in page.text and "nothing was saved" in page.text
-    assert "nothing was saved" in json_answer.json()["detail"]
+    assert json_answer.json()["detail"] == (
+        "The database is busy writing another large change (such as an import) and did not "
+        "take this one within 5 seconds; nothing was saved. Try again in a moment.")  # the setting
     assert stored_text(db_engine, step) == "1 in 10"
 
 

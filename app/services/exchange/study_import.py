@@ -27,6 +27,7 @@ from app.db.models import (
     saved_id,
 )
 from app.db.queries import fetch_plain_rows, placed_rows_of_study
+from app.db.session import busy_clause, is_busy
 from app.db.snapshot_store import store_snapshot
 from app.db.tracking import SUPPRESS_LOG_KEY
 from app.services.exchange.study_file import StudyFileError, export_study, parse_study_file
@@ -109,6 +110,8 @@ def import_study_file(session: Session, data: StudyFile) -> Study:
         session.commit()
     except SQLAlchemyError as err:
         session.rollback()
+        if is_busy(err):
+            raise StudyFileError(busy_clause("nothing was imported")) from err
         raise StudyFileError(
             f"the database refused the file, so nothing was imported: {_first_line(err)}"
         ) from err

@@ -3,6 +3,7 @@
 import json
 
 import pytest
+from sqlalchemy import Engine
 from sqlalchemy.exc import IntegrityError
 from sqlmodel import Session
 
@@ -13,6 +14,7 @@ from app.services.exchange.exports import ExportFormat, export_filename, study_j
 from app.services.exchange.study_file import StudyFileError, export_study, parse_study_file
 from app.services.exchange.study_import import import_study_text, import_study_upload
 from app.services.exchange.study_schema import StudyFile, study_json_schema
+from tests.helpers import another_writer, waiting_less_for_writers
 from tests.samples import (
     FORMULA_TEXTS,
     MARKUP,
@@ -173,3 +175,16 @@ def test_the_demo_file_itself_parses(session: Session) -> None:
 ])  # fmt: skip
 def test_download_file_names_are_short_safe_ascii(title: str, name: str) -> None:
     assert export_filename(Study(id=7, title=title), ExportFormat.JSON) == name
+
+
+def test_an_import_while_another_write_holds_the_database_says_busy_and_writes_nothing(
+    session: Session, db_engine: Engine, demo_study: Study, monkeypatch: pytest.MonkeyPatch,
+) -> None:
+    """SQLite takes one writer at a time: an import that waited its turn past the wait says so
+    (busy, try again) rather than "the database refused the file"."""
+    raw = exported(session, demo_study)
+    for impatient in waiting_less_for_writers(db_engine, monkeypatch, 0.2):
+        with Session(impatient) as own, another_writer(db_engine), pytest.raises(
+                StudyFileError, match="the database is busy writing another large change"):
+            import_study_text(own, raw)
+    assert study_count(session) == 1
