@@ -36,15 +36,9 @@ def _in_display_order(statement: Ordered, model: type[Any]) -> Ordered:
     return statement.order_by(table.id)
 
 
-def rows_of_study(model: type[Row], study_id: int) -> SelectOfScalar[Row]:
-    """Every row of `model` in one study, in display order."""
-    table: Any = model
-    return _in_display_order(select(model).where(table.study_id == study_id), model)
-
-
 def plain_rows_of_study(model: type[Any], study_id: int, names: tuple[str, ...] = ()) -> Any:
-    """rows_of_study as plain rows of every column, or of the columns named, in that order
-    (no ORM objects built)."""
+    """Every row of `model` in one study, in display order, as plain rows of every column, or
+    of the columns named, in that order (no ORM objects built)."""
     table: Any = model  # Any: the table model's columns
     columns = ([table.__table__.columns[name] for name in names] if names
                else list(table.__table__.columns))
@@ -53,7 +47,7 @@ def plain_rows_of_study(model: type[Any], study_id: int, names: tuple[str, ...] 
 
 
 def fetch_rows_of_study(session: Session, model: type[Row], study_id: int) -> list[Row]:
-    """Run rows_of_study."""
+    """Every row of `model` in one study, in display order."""
     table: Any = model  # hashable: the statement is built once per model
     return list(session.exec(_rows_of_parent(table, "study_id"),
                              params={"parent_id": study_id}).all())

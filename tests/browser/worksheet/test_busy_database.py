@@ -30,6 +30,13 @@ def layer(session: Session) -> Step:
                      description="High level trip")
 
 
+@pytest.fixture
+def worksheet(page: Page, live_server: str, session: Session, layer: Step) -> Page:
+    """The worksheet of the layer's node, open in the browser."""
+    page.goto(live_server + worksheet_path(session, layer.scenario_id))
+    return page
+
+
 def saved_text(session: Session, step: Step) -> str:
     session.expire_all()
     row = session.get(Step, step.id)
@@ -39,9 +46,9 @@ def saved_text(session: Session, step: Step) -> str:
 
 @pytest.mark.usefixtures("impatient_server")
 def test_a_value_typed_while_the_database_is_busy_is_sent_again_and_saved(
-    page: Page, live_server: str, session: Session, db_engine: Engine, layer: Step,
+    worksheet: Page, session: Session, db_engine: Engine, layer: Step,
 ) -> None:
-    page.goto(live_server + worksheet_path(session, layer.scenario_id))
+    page = worksheet
     field = page.locator(f"#step-{layer.id}-value_text")
     said = page.locator(f"#step-{layer.id}-value_text-said")
     with another_writer(db_engine):
@@ -62,9 +69,9 @@ def test_a_value_typed_while_the_database_is_busy_is_sent_again_and_saved(
 
 @pytest.mark.usefixtures("impatient_server")
 def test_a_button_pressed_while_the_database_is_busy_says_so_at_the_top_until_one_succeeds(
-    page: Page, live_server: str, session: Session, db_engine: Engine, layer: Step,
+    worksheet: Page, db_engine: Engine, layer: Step,
 ) -> None:
-    page.goto(live_server + worksheet_path(session, layer.scenario_id))
+    page = worksheet
     add_ipl = page.locator(f"#scenario-{layer.scenario_id} form[data-add='ipl'] button")
     notice = page.locator("#request-notice")
     with another_writer(db_engine):
